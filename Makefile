@@ -1,0 +1,14 @@
+.PHONY: start test bench
+
+# Set up and start the app on SQLite with the demo data.
+start:
+	scripts/start.sh
+
+# Set up and run every test.
+test:
+	scripts/test.sh
+
+# Print the engine's speed figures.
+bench:
+	scripts/bootstrap.sh test
+	.venv/bin/python benchmarks/engine.py

@@ -1,0 +1,127 @@
+"""How many antennas the category needs against how many the design fits."""
+
+from collections.abc import Iterator
+
+from rules.context import CheckContext
+from rules.findings import Flag
+from rules.registry import rule
+
+TS_36_306 = "3GPP TS 36.306 Table 4.1-1"
+TS_38_300 = "3GPP TS 38.300 §16.13"
+
+
+@rule(
+    id="CNT-001", topic="antenna-count", severities=("blocker", "warning"),
+    title="Fewer receive antennas than the category requires",
+    rationale=(
+        "Cat 1 is specified with two receive antennas (receive diversity) and Cat 4 and up with two for "
+        "two-layer MIMO; a RedCap module declares one or two receive branches. With one antenna a Cat 1 "
+        "device may run only where an operator has approved it, and it still loses the diversity gain; "
+        "Cat 4 and up have no single-antenna exception."
+    ),
+    sources=(TS_36_306, TS_38_300, "3GPP TS 36.101 §7 (receiver requirements with two antenna ports)"),
+)
+def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
+    design = context.design
+    category = design.modem.category
+    required = context.rx_required
+    fitted = context.rx_connected
+    if fitted >= required:
+        return
+    approved = design.modem.operator_single_antenna_approval
+    ports_note = ""
+    if design.modem.rx_ports is not None and len(design.antennas) > fitted:
+        ports_note = f" The module has {design.modem.rx_ports} receive port(s), so only {fitted} antenna(s) connect."
+    evidence = {"required": required, "fitted": fitted, "operator_approval": approved}
+    references = (category.reference,)
+    if category.single_antenna == "operator" and approved and fitted == 1:
+        yield Flag(
+            severity="warning",
+            title=f"{category.label} with one antenna, on an operator's approval",
+            explanation=(
+                f"{category.label} is specified with {required} receive antennas; the design fits {fitted}. "
+                "An operator has approved single-antenna operation, so the device may be accepted on that "
+                "network, but it loses receive diversity (typically several dB at the cell edge) and another "
+                f"operator may refuse it.{ports_note}"
+            ),
+            action=(
+                "Keep the operator's written approval with the design record, and confirm each further "
+                "operator's position before committing; fit the second antenna if any of them require it."
+            ),
+            evidence=evidence,
+            references=references,
+        )
+        return
+    if category.single_antenna == "never":
+        reason = (f"{category.label} uses {category.dl_layers}-layer MIMO on the downlink and has no "
+                  "single-antenna exception.")
+    elif category.single_antenna == "operator":
+        reason = ("No operator approval for single-antenna operation is recorded, and without one "
+                  "carriers reject the device in acceptance testing.")
+    elif category.single_antenna == "module":
+        reason = f"The module declares {required} receive branch(es), and each needs an antenna."
+    else:
+        reason = "Every cellular device needs at least one antenna for transmit and receive."
+    yield Flag(
+        severity="blocker",
+        title=f"{category.label} needs {required} receive antenna(s); {fitted} fitted",
+        explanation=f"{category.label} is specified with {required} receive antenna(s). {reason}{ports_note}",
+        action=(
+            f"Add receive antenna(s) until {required} reach the module's receive ports, or choose a "
+            "single-receive category (Cat 1bis, LTE-M, NB-IoT) if the throughput allows it."
+        ),
+        evidence=evidence,
+        references=references,
+    )
+
+
+@rule(
+    id="CNT-002", topic="antenna-count", severities=("blocker",),
+    title="No main (transmit and receive) antenna",
+    rationale="The module transmits through its main port; a design of only receive antennas cannot attach.",
+    sources=(TS_36_306,),
+)
+def no_main_antenna(context: CheckContext) -> Iterator[Flag]:
+    antennas = context.design.antennas
+    if antennas and not any(antenna.transmits for antenna in antennas):
+        yield Flag(
+            severity="blocker",
+            title="No antenna has the main (transmit and receive) role",
+            explanation=(
+                "Every antenna in the design is receive-only, so nothing is connected to the module's main "
+                "port, which carries the uplink."
+            ),
+            action="Set the role of the antenna on the module's main port to 'main'.",
+            subjects=tuple(antenna.name for antenna in antennas),
+            evidence={"required": 1, "fitted": 0},
+        )
+
+
+@rule(
+    id="CNT-003", topic="antenna-count", severities=("note",),
+    title="Antennas the modem won't use",
+    rationale=(
+        "A single-receive category (NB-IoT, LTE-M, Cat 1bis) uses one antenna; a module uses as many as it "
+        "has receive ports. Extra antennas cost space and money without improving the link."
+    ),
+    sources=(TS_36_306,),
+)
+def unused_antennas(context: CheckContext) -> Iterator[Flag]:
+    antennas = context.design.antennas
+    usable = context.rx_usable
+    if len(antennas) <= usable:
+        return
+    extras = [antenna.name for antenna in antennas if not antenna.transmits][: len(antennas) - usable]
+    category = context.design.modem.category
+    yield Flag(
+        severity="note",
+        title=f"{len(antennas)} antennas fitted; the modem uses {usable}",
+        explanation=(
+            f"{category.label} with this module uses {usable} receive path(s); the design fits "
+            f"{len(antennas)} antennas, so {', '.join(extras) or 'some of them'} will not be connected to a "
+            "receive port."
+        ),
+        action="Remove the extra antenna(s), or record what else they serve (another radio, a future module).",
+        subjects=tuple(extras),
+        evidence={"required": usable, "fitted": len(antennas)},
+    )

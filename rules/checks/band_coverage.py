@@ -1,0 +1,67 @@
+"""Whether each antenna is rated for the frequencies it must serve in each selected band."""
+
+from collections.abc import Iterator
+
+from rules.context import CheckContext, ranges_to_serve, uncovered_ranges
+from rules.findings import Flag
+from rules.registry import rule
+
+
+@rule(
+    id="BND-001", topic="band-coverage", severities=("blocker",),
+    title="A selected band is outside an antenna's rated ranges",
+    rationale=(
+        "A main antenna transmits and receives, so it must cover a band's uplink and downlink; a receive "
+        "antenna must cover the downlink. Outside its rated range an antenna's match and efficiency are "
+        "unspecified and usually poor."
+    ),
+    sources=("3GPP TS 36.101 Table 5.5-1", "3GPP TS 38.101-1 Table 5.2-1"),
+)
+def band_outside_rated_range(context: CheckContext) -> Iterator[Flag]:
+    for antenna in context.design.antennas:
+        if antenna.ranges_mhz is None:
+            continue
+        for band in context.design.modem.bands:
+            missing = uncovered_ranges(ranges_to_serve(antenna, band), antenna.ranges_mhz)
+            if not missing:
+                continue
+            shown = ", ".join(f"{low:g}–{high:g} MHz" for low, high in missing)
+            duty = "uplink and downlink" if antenna.transmits else "downlink"
+            yield Flag(
+                severity="blocker",
+                title=f"{antenna.name} is not rated for all of {band.name}",
+                explanation=(
+                    f"{antenna.name} ({antenna.role}) must serve the {duty} of {band.name}; its rated ranges "
+                    f"leave {shown} uncovered."
+                ),
+                action=(
+                    f"Choose an antenna rated across {band.name}, or drop {band.name} from the modem's bands "
+                    "if the product will not use it."
+                ),
+                subjects=(antenna.name, band.name),
+                evidence={"band": band.name, "missing_mhz": [list(pair) for pair in missing],
+                          "role": antenna.role},
+                references=(band.reference,),
+            )
+
+
+@rule(
+    id="BND-002", topic="band-coverage", severities=("note",),
+    title="Band coverage can't be checked: rated ranges not given",
+    rationale="Without the antenna's rated frequency ranges the engine cannot tell whether it serves the bands.",
+    sources=("common practice",),
+)
+def rated_ranges_unknown(context: CheckContext) -> Iterator[Flag]:
+    for antenna in context.design.antennas:
+        if antenna.ranges_mhz is None:
+            yield Flag(
+                severity="note",
+                title=f"Rated ranges of {antenna.name} not given: band coverage not checked",
+                explanation=(
+                    f"{antenna.name} has no rated frequency ranges, so whether it covers "
+                    f"{', '.join(band.name for band in context.design.modem.bands)} is unknown."
+                ),
+                action="Enter the frequency ranges from the antenna's datasheet.",
+                subjects=(antenna.name,),
+                evidence={"band": None, "missing_mhz": []},
+            )

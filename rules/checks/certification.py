@@ -1,0 +1,66 @@
+"""The steps no checklist replaces. Every design gets these notes."""
+
+from collections.abc import Iterator
+
+from rules.context import CheckContext
+from rules.findings import Flag
+from rules.registry import rule
+
+
+@rule(
+    id="CRT-001", topic="certification", severities=("note",),
+    title="Carrier acceptance still to do",
+    rationale="Each operator runs its own acceptance on a device before it may join its network.",
+    sources=("each operator's device acceptance requirements",),
+)
+def carrier_acceptance(context: CheckContext) -> Iterator[Flag]:
+    bands = ", ".join(band.name for band in context.design.modem.bands)
+    yield Flag(
+        severity="note",
+        title="Carrier acceptance testing is still to do",
+        explanation=(
+            "Every operator whose network the product will use runs its own acceptance, usually including "
+            f"radiated performance (TRP/TIS) on the bands it operates ({bands} here). This checklist does not "
+            "replace it and cannot predict its result."
+        ),
+        action="Ask each target operator for its device acceptance requirements early, and budget the tests.",
+    )
+
+
+@rule(
+    id="CRT-002", topic="certification", severities=("note",),
+    title="Industry certification still to do",
+    rationale="Operators usually require the device's industry certification (conformance testing) first.",
+    sources=("3GPP TS 36.521-1 / TS 38.521-1 (UE conformance)", "the certification scheme of each region"),
+)
+def industry_certification(context: CheckContext) -> Iterator[Flag]:
+    yield Flag(
+        severity="note",
+        title="Industry certification is still to do",
+        explanation=(
+            "The finished device needs industry certification under the scheme its markets and operators "
+            "require, with conformance tests to the 3GPP specifications. A certified module does not certify "
+            "the product: the antenna and enclosure are the product's own."
+        ),
+        action="Book certification with an authorized test lab once the antenna design is frozen.",
+    )
+
+
+@rule(
+    id="CRT-003", topic="certification", severities=("note",),
+    title="Regulatory approval still to do",
+    rationale="Each market's regulator must approve the product (radio, EMC, safety, RF exposure).",
+    sources=("the radio regulation of each market",),
+)
+def regulatory_approval(context: CheckContext) -> Iterator[Flag]:
+    yield Flag(
+        severity="note",
+        title="Regulatory approval in each market is still to do",
+        explanation=(
+            "The product needs regulatory approval in every market it is sold in (radio, EMC, electrical "
+            "safety and RF exposure under local rules). Relying on a module's approval is possible only "
+            "within its conditions, such as the antenna gain limits. Defer to the regulator, the carrier and "
+            "licensed practice."
+        ),
+        action="Confirm the approval route for each market with a qualified regulatory test house.",
+    )

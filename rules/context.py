@@ -1,0 +1,82 @@
+"""What every check sees: the parsed design, its measurements, and the quantities derived from both once."""
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from functools import cached_property
+
+from rules.catalog import Band
+from rules.design import Antenna, Design
+from rules.measurements import LoadedMeasurement
+
+
+def merge_ranges(ranges: Sequence[tuple[float, float]]) -> list[tuple[float, float]]:
+    """Union of closed ranges, as sorted, non-overlapping ranges."""
+    merged: list[tuple[float, float]] = []
+    for low, high in sorted(ranges):
+        if merged and low <= merged[-1][1]:
+            merged[-1] = (merged[-1][0], max(merged[-1][1], high))
+        else:
+            merged.append((low, high))
+    return merged
+
+
+def uncovered_ranges(
+    needed: Sequence[tuple[float, float]], available: Sequence[tuple[float, float]],
+) -> list[tuple[float, float]]:
+    """The parts of `needed` that no range of `available` covers."""
+    missing: list[tuple[float, float]] = []
+    cover = merge_ranges(available)
+    for low, high in merge_ranges(needed):
+        cursor = low
+        for cover_low, cover_high in cover:
+            if cover_high < cursor or cover_low > high:
+                continue
+            if cover_low > cursor:
+                missing.append((cursor, cover_low))
+            cursor = max(cursor, cover_high)
+            if cursor >= high:
+                break
+        if cursor < high:
+            missing.append((cursor, high))
+    return missing
+
+
+def ranges_to_serve(antenna: Antenna, band: Band) -> list[tuple[float, float]]:
+    """What an antenna must work over in a band: a main antenna transmits and receives, a receive
+    antenna only receives (for a TDD band both are the same range)."""
+    return merge_ranges([band.ul_mhz, band.dl_mhz] if antenna.transmits else [band.dl_mhz])
+
+
+@dataclass(frozen=True)
+class CheckContext:
+    design: Design
+    measurements: tuple[LoadedMeasurement, ...] = ()
+
+    @cached_property
+    def lowest_mhz(self) -> float:
+        return self.design.lowest_mhz
+
+    @cached_property
+    def lowest_band(self) -> Band:
+        return min(self.design.modem.bands, key=lambda band: band.lowest_mhz)
+
+    @cached_property
+    def rx_required(self) -> int:
+        """Receive antennas the category needs; for RedCap the module decides (one or two branches)."""
+        category = self.design.modem.category
+        if category.single_antenna == "module":
+            return self.design.modem.rx_ports or 1
+        return category.rx_antennas
+
+    @cached_property
+    def rx_usable(self) -> int:
+        """Receive paths the modem can use: its receive ports, or what the category is specified with."""
+        modem = self.design.modem
+        if modem.rx_ports is not None:
+            return modem.rx_ports
+        return 2 if modem.category.single_antenna == "module" else modem.category.rx_antennas
+
+    @cached_property
+    def rx_connected(self) -> int:
+        """Antennas that actually reach a receive port."""
+        return min(len(self.design.antennas), self.rx_usable)

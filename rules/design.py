@@ -1,0 +1,483 @@
+"""The design document (contract `earshot-design/1`): parse and validate it into typed objects.
+
+One parser serves the command line, the web questionnaire and the import, so a problem reads the same
+everywhere. It never stops at the first problem: it walks the whole document and reports every one
+with its path (`antennas[1].position_mm`) and what was expected there.
+"""
+
+import json
+import math
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+from rules.catalog import Band, Category, bands, categories
+
+FORMAT = "earshot-design/1"
+ROLES = ("main", "receive")
+MOUNTINGS = ("internal", "external")
+MATERIALS = ("plastic", "metal", "mixed")
+ENVIRONMENTS = ("outdoor", "indoor", "deep-indoor", "underground", "vehicle")
+
+
+@dataclass(frozen=True)
+class Problem:
+    path: str
+    message: str
+
+    def __str__(self) -> str:
+        return f"{self.path}: {self.message}" if self.path else self.message
+
+
+class DesignError(ValueError):
+    """The document can't be evaluated; `problems` lists every reason, each with its path."""
+
+    def __init__(self, problems: Sequence[Problem]):
+        self.problems = list(problems)
+        super().__init__("\n".join(str(problem) for problem in self.problems))
+
+
+@dataclass(frozen=True)
+class Antenna:
+    name: str
+    role: str
+    mounting: str = "internal"
+    position_mm: tuple[float, float, float] | None = None
+    polarization: tuple[float, float, float] | None = None
+    ranges_mhz: tuple[tuple[float, float], ...] | None = None
+    peak_gain_dbi: float | None = None
+    efficiency_pct: Mapping[str, float] = field(default_factory=dict)
+    size_mm: tuple[float, float, float] | None = None
+    cable_loss_db: float = 0.0
+
+    @property
+    def transmits(self) -> bool:
+        return self.role == "main"
+
+
+@dataclass(frozen=True)
+class Modem:
+    category: Category
+    bands: tuple[Band, ...]
+    rx_ports: int | None = None
+    gain_limits_dbi: Mapping[str, float] = field(default_factory=dict)
+    operator_single_antenna_approval: bool = False
+
+
+@dataclass(frozen=True)
+class Deployment:
+    environment: str | None = None
+    required_dl_kbps: float | None = None
+    required_ul_kbps: float | None = None
+    body_distance_mm: float | None = None
+
+
+@dataclass(frozen=True)
+class MeasurementRef:
+    file: str
+    ports: tuple[str | None, ...]
+
+
+@dataclass(frozen=True)
+class Design:
+    product_name: str
+    product_revision: str | None
+    modem: Modem
+    enclosure_size_mm: tuple[float, float, float] | None
+    enclosure_material: str
+    ground_plane_mm: tuple[float, float] | None
+    antennas: tuple[Antenna, ...]
+    deployment: Deployment
+    measurements: tuple[MeasurementRef, ...]
+    ignored_paths: tuple[str, ...] = ()  # keys the contract doesn't name; kept in the document, unused here
+
+    def antenna(self, name: str) -> Antenna:
+        return next(antenna for antenna in self.antennas if antenna.name == name)
+
+    @property
+    def lowest_mhz(self) -> float:
+        """The lowest frequency of operation in scope: the lowest band edge, uplink or downlink."""
+        return min(band.lowest_mhz for band in self.modem.bands)
+
+
+def _kind(value: Any) -> str:
+    if value is None:
+        return "null"
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, (int, float)):
+        return "a number"
+    if isinstance(value, str):
+        return "text"
+    if isinstance(value, list):
+        return f"a list of {len(value)}"
+    if isinstance(value, dict):
+        return "an object"
+    return type(value).__name__
+
+
+def _show(value: Any) -> str:
+    text = json.dumps(value) if isinstance(value, (str, int, float, bool, type(None))) else _kind(value)
+    return text if len(text) <= 40 else text[:37] + "..."
+
+
+def _is_number(value: Any) -> bool:
+    return isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
+
+
+class _Reader:
+    """Walks the document, collecting problems instead of raising at the first one."""
+
+    def __init__(self) -> None:
+        self.problems: list[Problem] = []
+        self.ignored: list[str] = []
+
+    def problem(self, path: str, message: str) -> None:
+        self.problems.append(Problem(path, message))
+
+    def object(self, value: Any, path: str, known: Sequence[str]) -> dict[str, Any] | None:
+        if not isinstance(value, dict):
+            self.problem(path, f"expected an object, got {_kind(value)}")
+            return None
+        prefix = f"{path}." if path else ""
+        self.ignored.extend(f"{prefix}{key}" for key in value if key not in known)
+        return value
+
+    def text(self, value: Any, path: str, *, required: bool = False) -> str | None:
+        if value is None:
+            if required:
+                self.problem(path, "required: expected text")
+            return None
+        if isinstance(value, (int, float)) and not isinstance(value, bool):
+            value = str(value)
+        if not isinstance(value, str):
+            self.problem(path, f"expected text, got {_kind(value)}")
+            return None
+        if required and not value.strip():
+            self.problem(path, "required: expected non-empty text")
+            return None
+        return value
+
+    def choice(self, value: Any, path: str, choices: Sequence[str], default: str | None) -> str | None:
+        if value is None:
+            return default
+        if value not in choices:
+            self.problem(path, f"expected one of {', '.join(choices)}; got {_show(value)}")
+            return default
+        return str(value)
+
+    def number(
+        self, value: Any, path: str, *, minimum: float | None = None, maximum: float | None = None,
+        above: float | None = None, unit: str = "",
+    ) -> float | None:
+        if value is None:
+            return None
+        if not _is_number(value):
+            self.problem(path, f"expected a number{f' in {unit}' if unit else ''}, got {_show(value)}")
+            return None
+        number = float(value)
+        if above is not None and number <= above:
+            self.problem(path, f"expected a number above {above:g}{f' {unit}' if unit else ''}, got {number:g}")
+            return None
+        if (minimum is not None and number < minimum) or (maximum is not None and number > maximum):
+            low = "" if minimum is None else f"at least {minimum:g}"
+            high = "" if maximum is None else f"at most {maximum:g}"
+            bounds = " and ".join(part for part in (low, high) if part)
+            self.problem(path, f"expected a number {bounds}{f' {unit}' if unit else ''}, got {number:g}")
+            return None
+        return number
+
+    def integer(self, value: Any, path: str, *, minimum: int, maximum: int) -> int | None:
+        if value is None:
+            return None
+        if not _is_number(value) or float(value) != int(value) or not minimum <= value <= maximum:
+            self.problem(path, f"expected a whole number from {minimum} to {maximum}, got {_show(value)}")
+            return None
+        return int(value)
+
+    def boolean(self, value: Any, path: str, default: bool) -> bool:
+        if value is None:
+            return default
+        if not isinstance(value, bool):
+            self.problem(path, f"expected true or false, got {_show(value)}")
+            return default
+        return value
+
+    def vector(
+        self, value: Any, path: str, length: int, *, positive: bool = False, unit: str = "mm",
+    ) -> tuple[float, ...] | None:
+        if value is None:
+            return None
+        if not isinstance(value, list):
+            self.problem(path, f"expected {length} numbers, got {_kind(value)}")
+            return None
+        if len(value) != length:
+            self.problem(path, f"expected {length} numbers, got {len(value)}")
+            return None
+        bad = [index for index, item in enumerate(value) if not _is_number(item) or (positive and item <= 0)]
+        if bad:
+            what = "positive numbers" if positive else "numbers"
+            self.problem(path, f"expected {length} {what} in {unit}; item {bad[0]} is {_show(value[bad[0]])}")
+            return None
+        return tuple(float(item) for item in value)
+
+    def band(self, value: Any, path: str) -> Band | None:
+        band = find_band(value)
+        if band is None:
+            self.problem(path, f"unknown band {_show(value)}; accepted: {', '.join(bands())}")
+        return band
+
+    def band_map(
+        self, value: Any, path: str, read: Callable[[Any, str], float | None],
+    ) -> dict[str, float]:
+        if value is None:
+            return {}
+        if not isinstance(value, dict):
+            self.problem(path, f"expected an object of band to number, got {_kind(value)}")
+            return {}
+        result = {}
+        for key, item in value.items():
+            band = self.band(key, f"{path}.{key}")
+            number = read(item, f"{path}.{key}")
+            if band is not None and number is not None:
+                result[band.name] = number
+        return result
+
+
+def find_band(value: Any) -> Band | None:
+    """Looks a band up by its name; `b12` and `N71` are read as `B12` and `n71`."""
+    if not isinstance(value, str) or len(value) < 2:
+        return None
+    prefix = value[0].upper() if value[0] in "bB" else value[0].lower()
+    return bands().get(prefix + value[1:].strip())
+
+
+def parse_design(document: Any) -> Design:
+    """Validates a decoded design document; raises DesignError listing every problem."""
+    reader = _Reader()
+    root = reader.object(document, "", ("format", "product", "modem", "enclosure", "ground_plane_mm",
+                                         "antennas", "deployment", "measurements"))
+    if root is None:
+        raise DesignError(reader.problems)
+
+    if root.get("format") != FORMAT:
+        reader.problem("format", f"expected {_show(FORMAT)}, got {_show(root.get('format'))}")
+
+    product = reader.object(root.get("product"), "product", ("name", "revision")) or {}
+    product_name = reader.text(product.get("name"), "product.name", required=True)
+    product_revision = reader.text(product.get("revision"), "product.revision")
+
+    modem = _parse_modem(reader, root.get("modem"))
+    antennas = _parse_antennas(reader, root.get("antennas"))
+
+    enclosure_size = None
+    enclosure_material: str | None = "plastic"
+    if root.get("enclosure") is not None:
+        enclosure = reader.object(root["enclosure"], "enclosure", ("size_mm", "material")) or {}
+        enclosure_size = reader.vector(enclosure.get("size_mm"), "enclosure.size_mm", 3, positive=True)
+        enclosure_material = reader.choice(enclosure.get("material"), "enclosure.material", MATERIALS, "plastic")
+    ground_plane = reader.vector(root.get("ground_plane_mm"), "ground_plane_mm", 2, positive=True)
+
+    deployment = Deployment()
+    if root.get("deployment") is not None:
+        raw = reader.object(root["deployment"], "deployment", ("environment", "required_dl_kbps",
+                                                               "required_ul_kbps", "body_distance_mm")) or {}
+        deployment = Deployment(
+            environment=reader.choice(raw.get("environment"), "deployment.environment", ENVIRONMENTS, None),
+            required_dl_kbps=reader.number(raw.get("required_dl_kbps"), "deployment.required_dl_kbps",
+                                           minimum=0, unit="kbps"),
+            required_ul_kbps=reader.number(raw.get("required_ul_kbps"), "deployment.required_ul_kbps",
+                                           minimum=0, unit="kbps"),
+            body_distance_mm=reader.number(raw.get("body_distance_mm"), "deployment.body_distance_mm",
+                                           minimum=0, unit="mm"),
+        )
+
+    names = {antenna.name for antenna in antennas or ()}
+    measurements = _parse_measurements(reader, root.get("measurements"), names)
+
+    if reader.problems or modem is None or antennas is None or product_name is None:
+        raise DesignError(reader.problems)
+    return Design(
+        product_name=product_name,
+        product_revision=product_revision,
+        modem=modem,
+        enclosure_size_mm=enclosure_size,  # type: ignore[arg-type]
+        enclosure_material=enclosure_material or "plastic",
+        ground_plane_mm=ground_plane,  # type: ignore[arg-type]
+        antennas=tuple(antennas),
+        deployment=deployment,
+        measurements=measurements,
+        ignored_paths=tuple(reader.ignored),
+    )
+
+
+def _parse_modem(reader: _Reader, value: Any) -> Modem | None:
+    if value is None:
+        reader.problem("modem", "required: expected an object with category and bands")
+        return None
+    raw = reader.object(value, "modem", ("category", "bands", "rx_ports", "gain_limits_dbi",
+                                         "operator_single_antenna_approval"))
+    if raw is None:
+        return None
+    category_id = raw.get("category")
+    category = categories().get(category_id) if isinstance(category_id, str) else None
+    if category is None:
+        got = "nothing" if raw.get("category") is None else _show(raw.get("category"))
+        reader.problem("modem.category", f"unknown category {got}; accepted: {', '.join(categories())}")
+
+    selected: list[Band] = []
+    raw_bands = raw.get("bands")
+    if not isinstance(raw_bands, list) or not raw_bands:
+        what = "nothing" if raw_bands is None else _kind(raw_bands)
+        reader.problem("modem.bands", f"expected a list of at least one band (B<n> or n<n>), got {what}")
+    else:
+        for index, item in enumerate(raw_bands):
+            path = f"modem.bands[{index}]"
+            band = reader.band(item, path)
+            if band is None:
+                continue
+            if band in selected:
+                reader.problem(path, f"band {band.name} is listed twice")
+            elif category is not None and band.technology != category.technology:
+                style = "n<number>" if category.technology == "NR" else "B<number>"
+                reader.problem(path, f"{band.name} is an {band.technology} band; category {category.id} "
+                                     f"uses {category.technology} bands ({style})")
+            else:
+                selected.append(band)
+
+    rx_ports = reader.integer(raw.get("rx_ports"), "modem.rx_ports", minimum=1, maximum=8)
+    gain_limits = reader.band_map(
+        raw.get("gain_limits_dbi"), "modem.gain_limits_dbi",
+        lambda item, path: reader.number(item, path, minimum=-30, maximum=30, unit="dBi"),
+    )
+    approval = reader.boolean(raw.get("operator_single_antenna_approval"),
+                              "modem.operator_single_antenna_approval", False)
+    if category is None or not selected:
+        return None
+    return Modem(category, tuple(selected), rx_ports, gain_limits, approval)
+
+
+def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:
+    if not isinstance(value, list):
+        what = "nothing" if value is None else _kind(value)
+        reader.problem("antennas", f"expected a list of antennas (it may be empty), got {what}")
+        return None
+    antennas: list[Antenna] = []
+    seen: dict[str, int] = {}
+    complete = True
+    for index, item in enumerate(value):
+        path = f"antennas[{index}]"
+        raw = reader.object(item, path, ("name", "role", "mounting", "position_mm", "polarization", "ranges_mhz",
+                                         "peak_gain_dbi", "efficiency_pct", "size_mm", "cable_loss_db"))
+        if raw is None:
+            complete = False
+            continue
+        before = len(reader.problems)
+        name = reader.text(raw.get("name"), f"{path}.name", required=True)
+        if name is not None and name in seen:
+            reader.problem(f"{path}.name", f"expected a unique name; {name!r} is also antennas[{seen[name]}]")
+        elif name is not None:
+            seen[name] = index
+        if raw.get("role") is None:
+            reader.problem(f"{path}.role", f"required: expected one of {', '.join(ROLES)}")
+            role = None
+        else:
+            role = reader.choice(raw.get("role"), f"{path}.role", ROLES, None)
+        mounting = reader.choice(raw.get("mounting"), f"{path}.mounting", MOUNTINGS, "internal")
+        position = reader.vector(raw.get("position_mm"), f"{path}.position_mm", 3)
+        polarization = reader.vector(raw.get("polarization"), f"{path}.polarization", 3, unit="any unit")
+        if polarization is not None and not any(polarization):
+            reader.problem(f"{path}.polarization", "expected a direction; [0, 0, 0] has none")
+        ranges = _parse_ranges(reader, raw.get("ranges_mhz"), f"{path}.ranges_mhz")
+        gain = reader.number(raw.get("peak_gain_dbi"), f"{path}.peak_gain_dbi", minimum=-30, maximum=30,
+                             unit="dBi")
+        efficiency = reader.band_map(
+            raw.get("efficiency_pct"), f"{path}.efficiency_pct",
+            lambda item, item_path: reader.number(item, item_path, minimum=0, maximum=100, unit="%"),
+        )
+        size = reader.vector(raw.get("size_mm"), f"{path}.size_mm", 3, positive=True)
+        cable_loss = reader.number(raw.get("cable_loss_db"), f"{path}.cable_loss_db", minimum=0, maximum=40,
+                                   unit="dB")
+        if len(reader.problems) > before or name is None or role is None:
+            complete = False
+            continue
+        antennas.append(Antenna(
+            name=name, role=role, mounting=mounting or "internal",
+            position_mm=position, polarization=polarization,  # type: ignore[arg-type]
+            ranges_mhz=ranges, peak_gain_dbi=gain, efficiency_pct=efficiency,
+            size_mm=size, cable_loss_db=cable_loss or 0.0,  # type: ignore[arg-type]
+        ))
+    return antennas if complete else None
+
+
+def _parse_ranges(reader: _Reader, value: Any, path: str) -> tuple[tuple[float, float], ...] | None:
+    if value is None:
+        return None
+    if not isinstance(value, list) or not value:
+        reader.problem(path, f"expected a list of [low, high] ranges in MHz, got {_kind(value)}")
+        return None
+    ranges = []
+    for index, item in enumerate(value):
+        item_path = f"{path}[{index}]"
+        pair = reader.vector(item, item_path, 2, positive=True, unit="MHz")
+        if pair is None:
+            continue
+        if pair[0] >= pair[1]:
+            reader.problem(item_path, f"expected [low, high] with low below high, got [{pair[0]:g}, {pair[1]:g}]")
+            continue
+        ranges.append((pair[0], pair[1]))
+    return tuple(ranges)
+
+
+def _parse_measurements(reader: _Reader, value: Any, antenna_names: set[str]) -> tuple[MeasurementRef, ...]:
+    if value is None:
+        return ()
+    if not isinstance(value, list):
+        reader.problem("measurements", f"expected a list of measurement files, got {_kind(value)}")
+        return ()
+    result = []
+    for index, item in enumerate(value):
+        path = f"measurements[{index}]"
+        raw = reader.object(item, path, ("file", "ports"))
+        if raw is None:
+            continue
+        file_name = reader.text(raw.get("file"), f"{path}.file", required=True)
+        ports = raw.get("ports")
+        if not isinstance(ports, list) or not ports:
+            reader.problem(f"{path}.ports", f"expected a list naming the antenna on each port (null for a "
+                                            f"port not connected to one), got {_kind(ports)}")
+            continue
+        mapped: list[str | None] = []
+        for port_index, name in enumerate(ports):
+            port_path = f"{path}.ports[{port_index}]"
+            if name is None:
+                mapped.append(None)
+            elif not isinstance(name, str) or name not in antenna_names:
+                accepted = ", ".join(sorted(antenna_names)) or "no antennas are defined"
+                reader.problem(port_path, f"expected an antenna name ({accepted}) or null, got {_show(name)}")
+            elif name in mapped:
+                reader.problem(port_path, f"antenna {name} is already on port {mapped.index(name) + 1}")
+            else:
+                mapped.append(name)
+        if file_name is not None and len(mapped) == len(ports):
+            result.append(MeasurementRef(file_name, tuple(mapped)))
+    return tuple(result)
+
+
+def _reject_constant(name: str) -> None:
+    raise ValueError(f"{name} is not a number JSON allows")
+
+
+def decode_design_text(text: str | bytes, *, source: str = "design") -> Any:
+    """Decodes JSON text, turning decoder errors into a DesignError that names line and column."""
+    try:
+        return json.loads(text, parse_constant=_reject_constant)
+    except json.JSONDecodeError as error:
+        raise DesignError([Problem("", f"{source}: not valid JSON: {error.msg} at line {error.lineno} "
+                                       f"column {error.colno}")]) from error
+    except (ValueError, UnicodeDecodeError, RecursionError) as error:
+        raise DesignError([Problem("", f"{source}: not valid JSON: {error}")]) from error
+
+
+def parse_design_text(text: str | bytes, *, source: str = "design") -> Design:
+    return parse_design(decode_design_text(text, source=source))

@@ -1,0 +1,99 @@
+"""evaluate(): a parsed design (and its measurements) in, a checklist out (contract `earshot-checklist/1`)."""
+
+from collections import Counter
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any
+
+from rules import physics
+from rules.catalog import Band
+from rules.context import CheckContext
+from rules.design import Design
+from rules.findings import SEVERITIES, Finding
+from rules.measurements import LoadedMeasurement
+from rules.registry import RULESET_VERSION, registered_rules
+
+CHECKLIST_FORMAT = "earshot-checklist/1"
+
+
+@dataclass(frozen=True)
+class BandRow:
+    """One selected band with the lengths that matter at its lowest edge."""
+
+    band: Band
+
+    @property
+    def lowest_mhz(self) -> float:
+        return self.band.lowest_mhz
+
+    @property
+    def wavelength_mm(self) -> float:
+        return physics.wavelength_mm(self.lowest_mhz)
+
+    @property
+    def quarter_wave_mm(self) -> float:
+        return physics.quarter_wave_mm(self.lowest_mhz)
+
+    @property
+    def near_field_mm(self) -> float:
+        return physics.near_field_radius_mm(self.lowest_mhz)
+
+    def as_dict(self) -> dict[str, Any]:
+        return {
+            "band": self.band.name,
+            "technology": self.band.technology,
+            "ul_mhz": list(self.band.ul_mhz),
+            "dl_mhz": list(self.band.dl_mhz),
+            "duplex": self.band.duplex,
+            "lowest_mhz": self.lowest_mhz,
+            "wavelength_mm": round(self.wavelength_mm, 1),
+            "quarter_wave_mm": round(self.quarter_wave_mm, 1),
+            "near_field_mm": round(self.near_field_mm, 1),
+        }
+
+
+@dataclass(frozen=True)
+class Evaluation:
+    design: Design
+    bands: tuple[BandRow, ...]
+    findings: tuple[Finding, ...]
+    ruleset: str = RULESET_VERSION
+
+    @property
+    def summary(self) -> dict[str, int]:
+        counts = Counter(finding.severity for finding in self.findings)
+        return {severity: counts.get(severity, 0) for severity in SEVERITIES}
+
+    @property
+    def has_blocker(self) -> bool:
+        return any(finding.severity == "blocker" for finding in self.findings)
+
+    @property
+    def judged_at_mhz(self) -> float:
+        return self.design.lowest_mhz
+
+    def as_dict(self) -> dict[str, Any]:
+        return {
+            "format": CHECKLIST_FORMAT,
+            "ruleset": self.ruleset,
+            "design": {
+                "product": self.design.product_name,
+                "revision": self.design.product_revision,
+                "category": self.design.modem.category.id,
+            },
+            "judged_at_mhz": self.judged_at_mhz,
+            "bands": [row.as_dict() for row in self.bands],
+            "summary": self.summary,
+            "findings": [finding.as_dict() for finding in self.findings],
+        }
+
+
+def evaluate(design: Design, measurements: Sequence[LoadedMeasurement] = ()) -> Evaluation:
+    context = CheckContext(design, tuple(measurements))
+    findings = [finding for rule in registered_rules() for finding in rule.run(context)]
+    findings.sort(key=Finding.sort_key)
+    return Evaluation(
+        design=design,
+        bands=tuple(BandRow(band) for band in design.modem.bands),
+        findings=tuple(findings),
+    )

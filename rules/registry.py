@@ -1,0 +1,112 @@
+"""The rule registry: every check is a small function registered with its id, topic and sources.
+
+Modelled on Django's system checks: a check takes the evaluation context and yields Flags; the
+registry turns each into a Finding carrying the rule's stable id and topic, and refuses a flag whose
+severity the rule did not declare or whose evidence lacks a key the contract promises for its topic.
+Ids are never reused: a retired rule stays in RETIRED with the reason.
+"""
+
+import inspect
+import re
+from collections.abc import Callable, Iterable, Iterator
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+from rules.findings import EVIDENCE_KEYS, SEVERITIES, TOPICS, Finding, Flag, round_evidence
+
+if TYPE_CHECKING:
+    from rules.context import CheckContext
+
+RULESET_VERSION = "1.0.0"
+RULE_ID_PATTERN = re.compile(r"^[A-Z]{3}-\d{3}$")
+
+CheckFunction = Callable[["CheckContext"], Iterable[Flag]]
+
+
+class RuleDefinitionError(TypeError):
+    """A rule registered wrongly: a programming error, caught when the module is imported."""
+
+
+class RuleOutputError(RuntimeError):
+    """A rule yielded something its declaration does not allow."""
+
+
+@dataclass(frozen=True)
+class Rule:
+    id: str
+    topic: str
+    severities: tuple[str, ...]
+    title: str
+    rationale: str
+    sources: tuple[str, ...]
+    check: CheckFunction
+
+    def run(self, context: "CheckContext") -> Iterator[Finding]:
+        for flag in self.check(context):
+            if not isinstance(flag, Flag):
+                raise RuleOutputError(f"{self.id} yielded {flag!r}, expected a Flag")
+            if flag.severity not in self.severities:
+                raise RuleOutputError(f"{self.id} yielded a {flag.severity}; it declares {self.severities}")
+            missing = [key for key in EVIDENCE_KEYS.get(self.topic, ()) if key not in flag.evidence]
+            if missing:
+                raise RuleOutputError(f"{self.id} evidence lacks {missing}")
+            yield Finding(
+                id=self.id,
+                topic=self.topic,
+                severity=flag.severity,
+                title=flag.title,
+                explanation=flag.explanation,
+                action=flag.action,
+                subjects=tuple(flag.subjects),
+                evidence={key: round_evidence(key, value) for key, value in flag.evidence.items()},
+                references=tuple(flag.references) or self.sources,
+            )
+
+
+@dataclass(frozen=True)
+class RetiredRule:
+    id: str
+    topic: str
+    retired_in: str
+    reason: str
+
+
+_RULES: dict[str, Rule] = {}
+
+# Ids that once meant something and must never be given to a new rule.
+RETIRED: tuple[RetiredRule, ...] = ()
+
+
+def rule(
+    *, id: str, topic: str, severities: Iterable[str], title: str, rationale: str, sources: Iterable[str],
+) -> Callable[[CheckFunction], CheckFunction]:
+    """Registers a check function under a stable id. The function takes one argument, `context`."""
+    severities = tuple(severities)
+    sources = tuple(sources)
+
+    def register(function: CheckFunction) -> CheckFunction:
+        where = f"{function.__module__}.{function.__name__}"
+        if not RULE_ID_PATTERN.match(id):
+            raise RuleDefinitionError(f"{where}: rule id {id!r} should look like ABC-123")
+        if id in _RULES or any(retired.id == id for retired in RETIRED):
+            raise RuleDefinitionError(f"{where}: rule id {id} is already taken")
+        if topic not in TOPICS:
+            raise RuleDefinitionError(f"{where}: topic {topic!r} is not one of {TOPICS}")
+        if not severities or any(severity not in SEVERITIES for severity in severities):
+            raise RuleDefinitionError(f"{where}: severities {severities} should come from {SEVERITIES}")
+        if not sources:
+            raise RuleDefinitionError(f"{where}: a rule names its sources ('common practice' counts)")
+        parameters = list(inspect.signature(function).parameters.values())
+        if [parameter.name for parameter in parameters] != ["context"]:
+            raise RuleDefinitionError(f"{where}: a check takes exactly one parameter, 'context'")
+        _RULES[id] = Rule(id, topic, severities, title, rationale, sources, function)
+        return function
+
+    return register
+
+
+def registered_rules() -> tuple[Rule, ...]:
+    """Every active rule, in checklist order (topic, then id)."""
+    import rules.checks  # noqa: F401  (importing the package registers its checks)
+
+    return tuple(sorted(_RULES.values(), key=lambda item: (TOPICS.index(item.topic), item.id)))

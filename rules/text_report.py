@@ -1,0 +1,80 @@
+"""The checklist as an engineer reads it in a terminal: a band table, then findings by severity."""
+
+import textwrap
+from collections.abc import Sequence
+from typing import Any
+
+from rules.evaluate import Evaluation
+from rules.findings import SEVERITIES, Finding
+
+WIDTH = 100
+HEADINGS = {"blocker": "BLOCKERS", "warning": "WARNINGS", "note": "NOTES"}
+
+
+def table(headers: Sequence[str], rows: Sequence[Sequence[str]], right: Sequence[bool]) -> list[str]:
+    """Aligned columns: numbers to the right, text to the left."""
+    widths = [max(len(headers[index]), *(len(row[index]) for row in rows)) for index in range(len(headers))]
+
+    def line(cells: Sequence[str]) -> str:
+        return "  ".join(cell.rjust(width) if align_right else cell.ljust(width)
+                         for cell, width, align_right in zip(cells, widths, right, strict=True)).rstrip()
+
+    return [line(headers), line(["-" * width for width in widths]), *(line(row) for row in rows)]
+
+
+def _range(pair: Sequence[float]) -> str:
+    return f"{pair[0]:g}–{pair[1]:g}"
+
+
+def _evidence_value(value: Any) -> str:
+    if isinstance(value, list):
+        return "[" + ", ".join(_evidence_value(item) for item in value) + "]"
+    if isinstance(value, float):
+        return f"{value:g}"
+    return str(value)
+
+
+def _finding_lines(finding: Finding) -> list[str]:
+    subjects = f" ({', '.join(finding.subjects)})" if finding.subjects else ""
+    lines = [f"  {finding.id}  {finding.topic}{subjects}", f"    {finding.title}"]
+    indent = " " * 6
+    lines += textwrap.wrap(finding.explanation, WIDTH, initial_indent=indent, subsequent_indent=indent)
+    lines += textwrap.wrap("Action: " + finding.action, WIDTH, initial_indent=indent, subsequent_indent=indent)
+    shown = [f"{key} {_evidence_value(value)}" for key, value in finding.evidence.items() if value is not None]
+    if shown:
+        lines += textwrap.wrap("Evidence: " + "; ".join(shown), WIDTH, initial_indent=indent,
+                               subsequent_indent=indent + "  ")
+    lines += textwrap.wrap("Sources: " + "; ".join(finding.references), WIDTH, initial_indent=indent,
+                           subsequent_indent=indent + "  ")
+    return lines
+
+
+def render_text(evaluation: Evaluation, *, ignored_paths: Sequence[str] = ()) -> str:
+    design = evaluation.design
+    revision = f" rev {design.product_revision}" if design.product_revision else ""
+    summary = evaluation.summary
+    lines = [
+        f"{design.product_name}{revision} — {design.modem.category.label} ({design.modem.category.id})",
+        f"Rule set {evaluation.ruleset}; spacing and ground judged at {evaluation.judged_at_mhz:g} MHz, "
+        "the lowest band edge in scope.",
+        "",
+    ]
+    rows = [[row.band.name, row.band.duplex, _range(row.band.ul_mhz), _range(row.band.dl_mhz),
+             f"{row.lowest_mhz:g}", f"{row.wavelength_mm:.1f}", f"{row.quarter_wave_mm:.1f}",
+             f"{row.near_field_mm:.1f}"] for row in evaluation.bands]
+    lines += table(["band", "duplex", "UL MHz", "DL MHz", "lowest MHz", "lambda mm", "lambda/4 mm", "lambda/2pi mm"],
+                   rows, [False, False, True, True, True, True, True, True])
+    lines += ["", "  ".join(f"{summary[severity]} {severity}{'s' if summary[severity] != 1 else ''}"
+                           for severity in SEVERITIES)]
+    for severity in SEVERITIES:
+        group = [finding for finding in evaluation.findings if finding.severity == severity]
+        if not group:
+            continue
+        lines += ["", f"{HEADINGS[severity]} ({len(group)})"]
+        for finding in group:
+            lines += _finding_lines(finding)
+    if ignored_paths:
+        lines += ["", "Ignored (not part of earshot-design/1): " + ", ".join(ignored_paths)]
+    lines += ["", "This checklist does not replace carrier acceptance, industry certification or regulatory "
+                  "approval."]
+    return "\n".join(lines) + "\n"

@@ -1,0 +1,190 @@
+"""The design parser: the contract's fields (design-file.md), every problem at once, each with its path."""
+
+import json
+import math
+from pathlib import Path
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from rules.design import DesignError, parse_design, parse_design_text
+from tests.rules.design_builders import antenna, design
+
+EXAMPLES = sorted((Path(__file__).parents[2] / "rules" / "examples").glob("*.json"))
+
+
+def problems(document) -> list[str]:
+    with pytest.raises(DesignError) as caught:
+        parse_design(document)
+    return [str(problem) for problem in caught.value.problems]
+
+
+@pytest.mark.parametrize("path", EXAMPLES, ids=lambda path: path.name)
+def test_it_parses_every_shipped_example(path):
+    parsed = parse_design_text(path.read_text(), source=path.name)
+    assert parsed.product_name
+    assert parsed.modem.bands
+
+
+def test_it_reads_every_field_the_contract_names():
+    document = design(
+        "cat-1", bands=["B12", "b13"],
+        modem={"rx_ports": 2, "gain_limits_dbi": {"B12": 4.5}, "operator_single_antenna_approval": True},
+        enclosure={"size_mm": [140, 90, 35], "material": "mixed"},
+        ground_plane_mm=[120, 70],
+        antennas=[antenna("ANT1", "main", (15, 10, 20), (1, 0, 0), mounting="external",
+                          efficiency_pct={"B12": 38}, size_mm=[40, 8, 3], cable_loss_db=0.7),
+                  antenna("ANT2", "receive", (100, 10, 20), (0, 1, 0))],
+        deployment={"environment": "deep-indoor", "required_dl_kbps": 200, "required_ul_kbps": 50,
+                    "body_distance_mm": 300},
+        measurements=[{"file": "x.s2p", "ports": ["ANT1", "ANT2"]}],
+    )
+    parsed = parse_design(document)
+    assert parsed.product_revision == "1"
+    assert parsed.modem.category.id == "cat-1"
+    assert [band.name for band in parsed.modem.bands] == ["B12", "B13"]
+    assert parsed.modem.rx_ports == 2 and parsed.modem.gain_limits_dbi == {"B12": 4.5}
+    assert parsed.modem.operator_single_antenna_approval is True
+    assert parsed.enclosure_size_mm == (140, 90, 35) and parsed.enclosure_material == "mixed"
+    assert parsed.ground_plane_mm == (120, 70)
+    first = parsed.antennas[0]
+    assert (first.mounting, first.position_mm, first.polarization) == ("external", (15, 10, 20), (1, 0, 0))
+    assert first.efficiency_pct == {"B12": 38} and first.size_mm == (40, 8, 3) and first.cable_loss_db == 0.7
+    assert parsed.deployment.environment == "deep-indoor"
+    assert parsed.deployment.required_dl_kbps == 200 and parsed.deployment.body_distance_mm == 300
+    assert parsed.measurements[0].ports == ("ANT1", "ANT2")
+    assert parsed.lowest_mhz == 699  # B12 UL 699-716 (TS 36.101 Table 5.5-1)
+
+
+def test_it_applies_the_contracts_defaults():
+    document = design(antennas=[{"name": "A", "role": "main"}])
+    del document["enclosure"]
+    parsed = parse_design(document)
+    assert parsed.enclosure_material == "plastic"
+    assert parsed.modem.operator_single_antenna_approval is False
+    assert parsed.antennas[0].mounting == "internal" and parsed.antennas[0].cable_loss_db == 0.0
+
+
+def test_it_reports_every_problem_at_once_with_its_path():
+    document = design("cat-1", bands=["B3", "B77"], antennas=[antenna("A", position=(20, 20))])
+    document["antennas"][0]["position_mm"] = [20, 20]
+    document["deployment"]["environment"] = "space"
+    found = problems(document)
+    assert "antennas[0].position_mm: expected 3 numbers, got 2" in found
+    assert any(p.startswith("modem.bands[1]: unknown band \"B77\"; accepted: B1, B2") for p in found)
+    assert any(p.startswith("deployment.environment: expected one of outdoor, indoor") for p in found)
+    assert len(found) == 3
+
+
+def test_it_names_the_accepted_categories_for_an_unknown_one():
+    [found] = problems(design("cat-17"))
+    assert found.startswith('modem.category: unknown category "cat-17"; accepted: cat-nb1, cat-nb2, cat-m1')
+    assert "nr-redcap" in found
+
+
+@pytest.mark.parametrize(("mutate", "expected"), [
+    (lambda d: d.update(format="earshot-design/2"), 'format: expected "earshot-design/1", got "earshot-design/2"'),
+    (lambda d: d["product"].pop("name"), "product.name: required: expected text"),
+    (lambda d: d["modem"].update(bands=[]), "modem.bands: expected a list of at least one band"),
+    (lambda d: d["modem"].update(bands=["B3", "B3"]), "modem.bands[1]: band B3 is listed twice"),
+    (lambda d: d["modem"].update(bands=["n78"]), "modem.bands[0]: n78 is an NR band; category cat-m1 uses LTE"),
+    (lambda d: d["modem"].update(rx_ports=0), "modem.rx_ports: expected a whole number from 1 to 8, got 0"),
+    (lambda d: d["modem"].update(gain_limits_dbi={"B99": 2}), 'modem.gain_limits_dbi.B99: unknown band "B99"'),
+    (lambda d: d["modem"].update(operator_single_antenna_approval="yes"),
+     'modem.operator_single_antenna_approval: expected true or false, got "yes"'),
+    (lambda d: d["enclosure"].update(material="wood"), "enclosure.material: expected one of plastic, metal, mixed"),
+    (lambda d: d["enclosure"].update(size_mm=[10, -2, 3]), "enclosure.size_mm: expected 3 positive numbers in mm"),
+    (lambda d: d.update(ground_plane_mm=[100]), "ground_plane_mm: expected 2 numbers, got 1"),
+    (lambda d: d.update(antennas=None), "antennas: expected a list of antennas (it may be empty), got nothing"),
+    (lambda d: d["antennas"].append(antenna("A")), "antennas[1].name: expected a unique name; 'A' is also antennas[0]"),
+    (lambda d: d["antennas"][0].update(role="tx"), 'antennas[0].role: expected one of main, receive; got "tx"'),
+    (lambda d: d["antennas"][0].pop("role"), "antennas[0].role: required: expected one of main, receive"),
+    (lambda d: d["antennas"][0].update(mounting="glued"), "antennas[0].mounting: expected one of internal, external"),
+    (lambda d: d["antennas"][0].update(polarization=[0, 0, 0]), "antennas[0].polarization: expected a direction"),
+    (lambda d: d["antennas"][0].update(ranges_mhz=[[960, 700]]),
+     "antennas[0].ranges_mhz[0]: expected [low, high] with low below high, got [960, 700]"),
+    (lambda d: d["antennas"][0].update(peak_gain_dbi="3 dBi"),
+     'antennas[0].peak_gain_dbi: expected a number in dBi, got "3 dBi"'),
+    (lambda d: d["antennas"][0].update(efficiency_pct={"B3": 140}),
+     "antennas[0].efficiency_pct.B3: expected a number at least 0 and at most 100 %, got 140"),
+    (lambda d: d["antennas"][0].update(cable_loss_db=-1), "antennas[0].cable_loss_db: expected a number at least 0"),
+    (lambda d: d["antennas"][0].update(size_mm=[1, 2, True]), "antennas[0].size_mm: expected 3 positive numbers"),
+    (lambda d: d["deployment"].update(required_dl_kbps=-5), "deployment.required_dl_kbps: expected a number at least 0"),
+    (lambda d: d["deployment"].update(body_distance_mm=None) or d["deployment"].update(body_distance_mm="far"),
+     'deployment.body_distance_mm: expected a number in mm, got "far"'),
+    (lambda d: d.update(measurements=[{"file": "m.s2p", "ports": ["A", "Z"]}]),
+     'measurements[0].ports[1]: expected an antenna name (A) or null, got "Z"'),
+    (lambda d: d.update(measurements=[{"ports": ["A"]}]), "measurements[0].file: required: expected text"),
+])
+def test_it_explains_each_bad_field(mutate, expected):
+    document = design()
+    mutate(document)
+    found = problems(document)
+    assert any(problem.startswith(expected) for problem in found), found
+
+
+def test_it_rejects_a_document_that_is_not_an_object():
+    assert problems([1, 2]) == ["expected an object, got a list of 2"]
+
+
+def test_it_rejects_nan_and_names_line_and_column_of_broken_json():
+    with pytest.raises(DesignError, match="not a number JSON allows"):
+        parse_design_text('{"format": NaN}')
+    with pytest.raises(DesignError, match=r"design.json: not valid JSON: .* line 2 column"):
+        parse_design_text('{"format":\n ,}', source="design.json")
+
+
+def test_it_keeps_unknown_keys_out_of_the_way_and_lists_them():
+    document = design()
+    document["notes"] = "free text"
+    document["antennas"][0]["colour"] = "black"
+    assert parse_design(document).ignored_paths == ("notes", "antennas[0].colour")
+
+
+JSON_VALUES = st.recursive(
+    st.none() | st.booleans() | st.integers(-10**6, 10**6) | st.floats(allow_nan=False, allow_infinity=False)
+    | st.text(max_size=8),
+    lambda children: st.lists(children, max_size=4) | st.dictionaries(st.text(max_size=6), children, max_size=4),
+    max_leaves=20,
+)
+CONTRACT_KEYS = ["format", "product", "modem", "enclosure", "ground_plane_mm", "antennas", "deployment",
+                 "measurements", "category", "bands", "name", "role", "position_mm", "polarization", "ranges_mhz",
+                 "rx_ports", "material", "size_mm", "environment", "ports", "file"]
+
+
+def assert_parses_or_explains(document) -> None:
+    try:
+        parse_design(document)
+    except DesignError as error:
+        assert error.problems, "a DesignError carries at least one problem"
+        for problem in error.problems:
+            assert problem.message
+            # Only the document itself has the empty path: when it is not an object at all.
+            assert problem.path or not isinstance(document, dict), problem
+
+
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(JSON_VALUES)
+def test_any_json_value_either_parses_or_is_rejected_with_path_named_problems(document):
+    assert_parses_or_explains(document)
+
+
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.lists(st.tuples(st.sampled_from(CONTRACT_KEYS), JSON_VALUES), max_size=5), st.randoms())
+def test_any_mutation_of_a_valid_design_either_parses_or_names_the_field(mutations, random):
+    document = design("cat-1", antennas=[antenna("A"), antenna("B", "receive", (150, 20, 10))])
+    targets = [document, document["modem"], document["deployment"], document["antennas"][0]]
+    for key, value in mutations:
+        random.choice(targets)[key] = value
+    try:
+        parse_design(json.loads(json.dumps(document)))
+    except DesignError as error:
+        assert all(problem.path for problem in error.problems), error.problems
+
+
+def test_positions_may_be_negative_but_must_be_finite():
+    document = design(antennas=[antenna("A", position=(-5, 0, 2))])
+    assert parse_design(document).antennas[0].position_mm == (-5, 0, 2)
+    document["antennas"][0]["position_mm"] = [math.inf, 0, 0]
+    assert problems(document) == ["antennas[0].position_mm: expected 3 numbers in mm; item 0 is Infinity"]

@@ -1,0 +1,326 @@
+"""One test per row of the severity policy (design.md), each named for the situation it covers.
+
+Band edges: 3GPP TS 36.101 Table 5.5-1 (B3 UL 1710-1785 / DL 1805-1880, B8 UL 880-915 / DL 925-960,
+B20 UL 832-862 / DL 791-821, B12 UL 699-716, B71 DL 617-652). Lengths from c = 299 792 458 m/s.
+At 791 MHz (lowest edge of B3+B8+B20): lambda = 379.0 mm, lambda/4 = 94.7 mm, lambda/2pi = 60.3 mm.
+"""
+
+import math
+
+import numpy as np
+import pytest
+
+from rules.measurements import LoadedMeasurement
+from rules.touchstone import parse_touchstone
+from tests.rules.design_builders import antenna, design, findings_of, run, severities_of
+
+C_M_PER_S = 299_792_458.0  # SI definition
+QUARTER_WAVE_791_MM = C_M_PER_S / 791e6 / 4 * 1000  # 94.7 mm
+NEAR_FIELD_791_MM = C_M_PER_S / 791e6 / (2 * math.pi) * 1000  # 60.3 mm (Wheeler 1959)
+
+
+def pair(distance_mm: float, second_polarization=(1, 0, 0), category: str = "cat-1") -> dict:
+    return design(category, antennas=[
+        antenna("A", "main", (20, 20, 10), (1, 0, 0)),
+        antenna("B", "receive", (20 + distance_mm, 20, 10), second_polarization),
+    ])
+
+
+# -- antenna count ---------------------------------------------------------------------------------------
+
+def test_it_blocks_cat1_with_one_antenna_and_no_operator_approval():
+    evaluation = run(design("cat-1"))
+    [finding] = findings_of(evaluation, "antenna-count")
+    assert finding.severity == "blocker"
+    assert finding.evidence["required"] == 2 and finding.evidence["fitted"] == 1
+
+
+@pytest.mark.parametrize("category", ["cat-4", "cat-6"])
+def test_it_blocks_cat4_and_up_with_one_antenna_even_with_operator_approval(category):
+    evaluation = run(design(category, modem={"operator_single_antenna_approval": True}))
+    assert severities_of(evaluation, "antenna-count") == ["blocker"]
+
+
+def test_it_warns_on_cat1_with_one_antenna_and_recorded_operator_approval():
+    evaluation = run(design("cat-1", modem={"operator_single_antenna_approval": True}))
+    [finding] = findings_of(evaluation, "antenna-count")
+    assert finding.severity == "warning"
+    assert (finding.evidence["required"], finding.evidence["fitted"]) == (2, 1)
+
+
+@pytest.mark.parametrize("category", ["cat-nb1", "cat-nb2", "cat-m1", "cat-m2", "cat-1bis"])
+def test_it_accepts_one_antenna_for_single_receive_categories(category):
+    # TS 36.306: NB1/NB2, M1/M2 and Cat 1bis are specified with one receive antenna.
+    assert severities_of(run(design(category)), "antenna-count") == []
+
+
+def test_it_blocks_redcap_module_with_two_branches_and_one_antenna():
+    # TS 38.300 §16.13: a RedCap UE has one or two receive branches; the module says which.
+    evaluation = run(design("nr-redcap", bands=["n3", "n8", "n20"], modem={"rx_ports": 2}))
+    assert severities_of(evaluation, "antenna-count") == ["blocker"]
+
+
+def test_it_notes_extra_antennas_a_single_receive_category_wont_use():
+    evaluation = run(design("cat-m1", antennas=[antenna("A"), antenna("B", "receive", (200, 20, 10))]))
+    [finding] = findings_of(evaluation, "antenna-count")
+    assert finding.severity == "note"
+    assert finding.subjects == ("B",)
+    assert (finding.evidence["required"], finding.evidence["fitted"]) == (1, 2)
+
+
+def test_it_blocks_a_design_without_any_antenna():
+    evaluation = run(design("cat-m1", antennas=[]))
+    assert severities_of(evaluation, "antenna-count") == ["blocker"]
+    assert evaluation.has_blocker
+
+
+# -- band coverage ---------------------------------------------------------------------------------------
+
+def test_it_blocks_a_main_antenna_that_misses_a_bands_uplink():
+    # B20 uplink 832-862 MHz (TS 36.101); the antenna stops at 850.
+    evaluation = run(design("cat-m1", antennas=[antenna("A", ranges_mhz=[[700, 850], [1700, 1900]])]))
+    [finding] = [f for f in findings_of(evaluation, "band-coverage") if f.evidence["band"] == "B20"]
+    assert finding.severity == "blocker"
+    assert finding.evidence["missing_mhz"] == [[850.0, 862.0]]
+
+
+def test_it_blocks_a_receive_antenna_that_misses_a_bands_downlink_but_not_its_uplink():
+    # B8 DL 925-960 (TS 36.101). The receive antenna covers B8 UL only up to 930: the uplink gap is not its duty.
+    receive = antenna("B", "receive", (200, 20, 10), (0, 1, 0), ranges_mhz=[[780, 930], [1700, 1900]])
+    evaluation = run(design("cat-1", antennas=[antenna("A"), receive]))
+    [finding] = findings_of(evaluation, "band-coverage")
+    assert finding.severity == "blocker" and finding.subjects == ("B", "B8")
+    assert finding.evidence["missing_mhz"] == [[930.0, 960.0]]
+
+
+def test_it_notes_that_coverage_is_unknown_without_rated_ranges():
+    evaluation = run(design("cat-m1", antennas=[antenna("A", ranges_mhz=None)]))
+    assert severities_of(evaluation, "band-coverage") == ["note"]
+
+
+# -- separation ------------------------------------------------------------------------------------------
+
+def test_it_blocks_copolarized_pair_inside_near_field():
+    [finding] = findings_of(run(pair(55)), "separation")
+    assert finding.severity == "blocker"
+    assert finding.evidence["frequency_mhz"] == 791
+    assert finding.evidence["distance_mm"] == 55.0
+    assert finding.evidence["quarter_wave_mm"] == pytest.approx(QUARTER_WAVE_791_MM, abs=0.05)
+    assert finding.evidence["near_field_mm"] == pytest.approx(NEAR_FIELD_791_MM, abs=0.05)
+    assert finding.evidence["polarization_angle_deg"] == 0.0
+
+
+def test_it_warns_on_crosspolarized_pair_inside_near_field():
+    assert severities_of(run(pair(55, (0, 1, 0))), "separation") == ["warning"]
+
+
+def test_it_warns_on_copolarized_pair_between_near_field_and_quarter_wave():
+    assert severities_of(run(pair(80)), "separation") == ["warning"]
+
+
+def test_it_notes_crosspolarized_pair_between_near_field_and_quarter_wave():
+    [finding] = findings_of(run(pair(80, (0, 0, 1))), "separation")
+    assert finding.severity == "note"
+    assert finding.evidence["polarization_angle_deg"] == 90.0
+
+
+def test_it_treats_antiparallel_axes_as_copolarized():
+    assert severities_of(run(pair(55, (-1, 0, 0))), "separation") == ["blocker"]
+
+
+def test_it_counts_44_degrees_as_copolarized_and_45_as_crossed():
+    tilt_44 = (math.cos(math.radians(44)), math.sin(math.radians(44)), 0)
+    tilt_45 = (1, 1, 0)
+    assert severities_of(run(pair(55, tilt_44)), "separation") == ["blocker"]
+    assert severities_of(run(pair(55, tilt_45)), "separation") == ["warning"]
+
+
+def test_it_accepts_a_pair_a_quarter_wave_apart():
+    assert severities_of(run(pair(QUARTER_WAVE_791_MM + 0.5)), "separation") == []
+
+
+def test_it_judges_spacing_at_the_lowest_edge_uplink_or_downlink():
+    # B71 DL 617-652 MHz lies below its UL 663-698 (TS 36.101): judged at 617 MHz.
+    evaluation = run(design("cat-1", bands=["B71", "B2"], antennas=[
+        antenna("A", "main", (0, 0, 0)), antenna("B", "receive", (110, 0, 0))]))
+    [finding] = findings_of(evaluation, "separation")
+    assert finding.evidence["frequency_mhz"] == 617
+    assert finding.evidence["quarter_wave_mm"] == pytest.approx(C_M_PER_S / 617e6 / 4 * 1000, abs=0.05)
+    assert finding.severity == "warning"
+
+
+# -- ground plane, enclosure, device size ---------------------------------------------------------------
+
+def test_it_warns_on_ground_plane_shorter_than_a_quarter_wave():
+    # 791 MHz: lambda/4 94.7 mm, lambda/8 47.4 mm
+    [finding] = findings_of(run(design(ground_plane_mm=[80, 40])), "ground-plane")
+    assert finding.severity == "warning"
+    assert finding.evidence["length_mm"] == 80.0
+    assert finding.evidence["quarter_wave_mm"] == pytest.approx(QUARTER_WAVE_791_MM, abs=0.05)
+
+
+def test_it_blocks_ground_plane_shorter_than_an_eighth_wave():
+    assert severities_of(run(design(ground_plane_mm=[45, 30])), "ground-plane") == ["blocker"]
+
+
+def test_it_accepts_ground_plane_of_a_quarter_wave():
+    assert severities_of(run(design(ground_plane_mm=[95, 30])), "ground-plane") == []
+
+
+def test_it_blocks_internal_antenna_in_metal_enclosure():
+    assert severities_of(run(design(enclosure={"material": "metal"})), "enclosure") == ["blocker"]
+
+
+def test_it_warns_on_internal_antenna_in_mixed_enclosure():
+    assert severities_of(run(design(enclosure={"material": "mixed"})), "enclosure") == ["warning"]
+
+
+def test_it_accepts_external_antenna_on_metal_enclosure():
+    evaluation = run(design(enclosure={"material": "metal"}, antennas=[antenna("A", mounting="external")]))
+    assert severities_of(evaluation, "enclosure") == []
+
+
+def test_it_warns_when_the_device_is_electrically_too_small_for_the_low_bands():
+    # 40 x 30 mm board at 699 MHz: a = 25 mm, ka = 0.366, McLean Q = 23.1; at VSWR 3 that allows
+    # FBW = 2 / (23.1 * sqrt 3) = 5.0 %, while B12 + B20 + B8 span 699-960 MHz (31.5 %).
+    evaluation = run(design("cat-m1", bands=["B12", "B20", "B8"], ground_plane_mm=[40, 30]))
+    [finding] = findings_of(evaluation, "device-size")
+    assert finding.severity == "warning"
+    assert finding.evidence["ka"] == pytest.approx(2 * math.pi * 25 / (C_M_PER_S / 699e6 * 1000), abs=1e-3)
+
+
+# -- gain limits, throughput ---------------------------------------------------------------------------
+
+def test_it_blocks_antenna_gain_minus_cable_loss_above_the_approval_limit():
+    document = design("cat-m1", modem={"gain_limits_dbi": {"B8": 2.0}},
+                      antennas=[antenna("A", peak_gain_dbi=3.0, cable_loss_db=0.5)])
+    [finding] = findings_of(run(document), "gain-limit")
+    assert finding.severity == "blocker"
+    assert (finding.evidence["band"], finding.evidence["gain_dbi"], finding.evidence["limit_dbi"]) == ("B8", 2.5, 2.0)
+
+
+def test_it_accepts_gain_brought_under_the_limit_by_cable_loss():
+    document = design("cat-m1", modem={"gain_limits_dbi": {"B8": 2.0}},
+                      antennas=[antenna("A", mounting="external", peak_gain_dbi=3.0, cable_loss_db=1.0)])
+    assert severities_of(run(document), "gain-limit") == []
+
+
+def test_it_blocks_downlink_need_above_the_categorys_peak():
+    # TS 36.306 Table 4.1A-1: Cat M1 carries at most 1 000 bits per 1 ms TTI on the downlink.
+    [finding] = findings_of(run(design("cat-m1", deployment={"required_dl_kbps": 1500})), "throughput")
+    assert finding.severity == "blocker"
+    assert finding.evidence == {"direction": "dl", "required_kbps": 1500.0, "peak_kbps": 1000.0}
+
+
+def test_it_blocks_uplink_need_above_the_categorys_peak():
+    # TS 36.306 Table 4.1-1: Cat 1 uplink 5 160 bits per TTI.
+    document = design("cat-1", modem={"operator_single_antenna_approval": True},
+                      deployment={"required_ul_kbps": 6000})
+    [finding] = findings_of(run(document), "throughput")
+    assert finding.evidence["direction"] == "ul" and finding.evidence["peak_kbps"] == 5160.0
+
+
+# -- measurements ---------------------------------------------------------------------------------------
+
+def measured(rows: dict[str, tuple[float, float]], step_mhz: int = 5) -> tuple[dict, tuple[LoadedMeasurement, ...]]:
+    """A two-port measurement with S11 = S22 = a and S21 = S12 = b (real) per frequency block."""
+    lines = ["# MHz S RI R 50"]
+    for frequency in range(700, 2201, step_mhz):
+        a, b = rows["low"] if frequency < 1000 else rows["high"]
+        lines.append(f"{frequency} {a} 0 {b} 0 {b} 0 {a} 0")
+    network = parse_touchstone("\n".join(lines) + "\n", source="pair.s2p")
+    document = design("cat-1", antennas=[antenna("A", "main", (0, 0, 0)), antenna("B", "receive", (120, 0, 0), (0, 1, 0))],
+                      measurements=[{"file": "pair.s2p", "ports": ["A", "B"]}])
+    return document, (LoadedMeasurement("pair.s2p", network, ("A", "B")),)
+
+
+def test_it_warns_on_return_loss_below_6_db():
+    # |S11| = 0.6: RL = -20 log10 0.6 = 4.44 dB, VSWR = 1.6 / 0.4 = 4.0
+    document, measurements = measured({"low": (0.6, 0.05), "high": (0.1, 0.05)})
+    findings = [f for f in findings_of(run(document, measurements), "matching") if f.severity != "note"]
+    assert {f.severity for f in findings} == {"warning"}
+    assert {f.evidence["band"] for f in findings} == {"B8", "B20"}
+    assert findings[0].evidence["return_loss_db"] == pytest.approx(-20 * math.log10(0.6), abs=0.01)
+    assert findings[0].evidence["vswr"] == pytest.approx(4.0, abs=0.01)
+
+
+def test_it_blocks_return_loss_below_3_5_db():
+    document, measurements = measured({"low": (0.1, 0.05), "high": (0.75, 0.05)})  # 2.50 dB in B3
+    findings = [f for f in findings_of(run(document, measurements), "matching") if f.severity != "note"]
+    assert {(f.severity, f.evidence["band"]) for f in findings} == {("blocker", "B3")}
+
+
+def test_it_warns_on_isolation_below_10_db_and_blocks_below_6_db():
+    # |S21| = 0.4: 7.96 dB; |S21| = 0.55: 5.19 dB
+    document, measurements = measured({"low": (0.1, 0.4), "high": (0.1, 0.55)})
+    findings = findings_of(run(document, measurements), "isolation")
+    assert {(f.severity, f.evidence["band"]) for f in findings} == {("warning", "B8"), ("warning", "B20"),
+                                                                     ("blocker", "B3")}
+    b8 = next(f for f in findings if f.evidence["band"] == "B8")
+    assert b8.evidence["isolation_db"] == pytest.approx(-20 * math.log10(0.4), abs=0.01)
+    assert b8.evidence["ports"] == [1, 2]
+
+
+def test_it_warns_on_ecc_above_0_5_and_blocks_above_0_7():
+    # Blanch et al. 2003, S11 = S22 = a, S21 = S12 = b: ECC = 4a^2 b^2 / (1 - a^2 - b^2)^2
+    def ecc(a, b):
+        return 4 * a**2 * b**2 / (1 - a**2 - b**2) ** 2
+    low, high = (0.46, 0.46), (0.5, 0.5)  # ECC 0.538 and 1.0
+    assert 0.5 < ecc(*low) <= 0.7 < ecc(*high)
+    document, measurements = measured({"low": low, "high": high})
+    findings = findings_of(run(document, measurements), "correlation")
+    assert {(f.severity, f.evidence["band"]) for f in findings} == {("warning", "B8"), ("warning", "B20"),
+                                                                     ("blocker", "B3")}
+    b8 = next(f for f in findings if f.evidence["band"] == "B8")
+    assert b8.evidence["ecc"] == pytest.approx(ecc(*low), abs=1e-3)
+    assert "lossless" in b8.explanation
+
+
+def test_it_says_when_a_measurement_does_not_cover_a_band():
+    document, measurements = measured({"low": (0.1, 0.05), "high": (0.1, 0.05)})
+    document["modem"]["bands"] = ["B3", "B7"]  # B7 UL 2500-2570 / DL 2620-2690: beyond the 2200 MHz sweep
+    notes = [f for f in findings_of(run(document, measurements), "matching") if f.severity == "note"]
+    assert {f.evidence["band"] for f in notes} == {"B7"}
+    assert notes[0].evidence["missing_mhz"] == [[2500.0, 2570.0], [2620.0, 2690.0]]
+
+
+def test_it_warns_on_entered_efficiency_below_25_percent():
+    evaluation = run(design("cat-m1", antennas=[antenna("A", efficiency_pct={"B20": 22, "B8": 30})]))
+    [finding] = findings_of(evaluation, "efficiency")
+    assert finding.severity == "warning" and finding.evidence == {"band": "B20", "efficiency_pct": 22.0,
+                                                                  "basis": "entered"}
+
+
+def test_it_warns_when_the_measured_efficiency_bound_is_below_25_percent():
+    # |S11|^2 + |S21|^2 = 0.8^2 + 0.45^2 = 0.8425: at most 15.75 % can be radiated
+    document, measurements = measured({"low": (0.8, 0.45), "high": (0.1, 0.05)})
+    findings = findings_of(run(document, measurements), "efficiency")
+    assert {f.evidence["band"] for f in findings} == {"B8", "B20"}
+    assert findings[0].evidence["efficiency_pct"] == pytest.approx(15.75, abs=0.06)  # shown to 0.1 %
+
+
+# -- people and paperwork ------------------------------------------------------------------------------
+
+def test_it_notes_rf_exposure_when_people_are_closer_than_200_mm():
+    # common practice: exposure evaluation usually needed within 20 cm
+    findings = findings_of(run(design(deployment={"body_distance_mm": 150})), "rf-exposure")
+    assert [f.severity for f in findings] == ["note"]
+    assert "regulator" in findings[0].explanation
+
+
+def test_it_says_nothing_of_rf_exposure_at_200_mm_or_more():
+    assert findings_of(run(design(deployment={"body_distance_mm": 200})), "rf-exposure") == []
+
+
+def test_it_always_names_carrier_certification_and_regulatory_steps():
+    evaluation = run(design())
+    notes = findings_of(evaluation, "certification")
+    assert {f.severity for f in notes} == {"note"}
+    text = " ".join(f.title + " " + f.explanation for f in notes).lower()
+    assert "carrier acceptance" in text and "certification" in text and "regulat" in text
+
+
+def test_a_clean_design_raises_only_notes():
+    evaluation = run(design("cat-m1", antennas=[antenna("A", efficiency_pct={"B3": 50, "B8": 40, "B20": 35})]))
+    assert evaluation.summary["blocker"] == 0 and evaluation.summary["warning"] == 0
+    assert np.all([f.severity == "note" for f in evaluation.findings])

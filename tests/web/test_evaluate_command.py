@@ -1,0 +1,106 @@
+"""`manage.py evaluate` and `manage.py rules` as another tool or a CI job would run them (design-file.md)."""
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from tests.rules.design_builders import antenna, design
+
+ROOT = Path(__file__).parents[2]
+
+
+def evaluate(tmp_path: Path, document, *args: str, files: dict[str, str] | None = None):
+    for name, text in (files or {}).items():
+        (tmp_path / name).write_text(text)
+    path = tmp_path / "design.json"
+    path.write_text(document if isinstance(document, str) else json.dumps(document))
+    return subprocess.run([sys.executable, "manage.py", "evaluate", str(path), *args],
+                          cwd=ROOT, capture_output=True, text=True, timeout=120)
+
+
+def test_it_exits_0_and_prints_one_json_object_for_a_design_without_blockers(tmp_path):
+    result = evaluate(tmp_path, design(), "--format", "json")
+    assert result.returncode == 0, result.stderr
+    output = json.loads(result.stdout)
+    assert output["format"] == "earshot-checklist/1"
+    assert output["design"] == {"product": "Test widget", "revision": "1", "category": "cat-m1"}
+    assert set(output["summary"]) == {"blocker", "warning", "note"}
+    assert output["summary"]["note"] == len(output["findings"])
+    b20 = next(row for row in output["bands"] if row["band"] == "B20")
+    # TS 36.101 Table 5.5-1: B20 UL 832-862, DL 791-821. c = 299 792 458 m/s: lambda at 791 MHz = 379.004 mm,
+    # lambda/4 = 94.751 mm, lambda/2pi = 60.320 mm (Wheeler 1959), shown to 0.1 mm.
+    assert b20 == {"band": "B20", "technology": "LTE", "ul_mhz": [832.0, 862.0], "dl_mhz": [791.0, 821.0],
+                   "duplex": "FDD", "lowest_mhz": 791.0, "wavelength_mm": 379.0, "quarter_wave_mm": 94.8,
+                   "near_field_mm": 60.3}
+
+
+def test_it_exits_1_when_a_blocker_is_raised(tmp_path):
+    result = evaluate(tmp_path, design("cat-4"), "--format", "json")
+    assert result.returncode == 1
+    assert json.loads(result.stdout)["summary"]["blocker"] >= 1
+
+
+def test_it_exits_2_with_every_problem_on_stderr(tmp_path):
+    document = design("cat-1", bands=["B3", "B77"], antennas=[antenna("A", position=(1, 2, 3))])
+    document["antennas"][0]["position_mm"] = [1, 2]
+    result = evaluate(tmp_path, document, "--format", "json")
+    assert result.returncode == 2
+    assert result.stdout == ""
+    assert "antennas[0].position_mm: expected 3 numbers, got 2" in result.stderr
+    assert "modem.bands[1]: unknown band \"B77\"" in result.stderr
+    assert "Traceback" not in result.stderr
+
+
+@pytest.mark.parametrize("text", ["", "{", "[]", '{"format": NaN}', "\x00\xff"])
+def test_it_exits_2_without_a_traceback_on_text_that_is_not_a_design(tmp_path, text):
+    result = evaluate(tmp_path, text)
+    assert result.returncode == 2
+    assert "Traceback" not in result.stderr and result.stderr.strip()
+
+
+def test_it_exits_2_naming_a_missing_design_file(tmp_path):
+    result = subprocess.run([sys.executable, "manage.py", "evaluate", str(tmp_path / "nope.json")],
+                            cwd=ROOT, capture_output=True, text=True, timeout=120)
+    assert result.returncode == 2 and "nope.json" in result.stderr
+
+
+def test_it_exits_2_naming_the_measurement_and_its_bad_line(tmp_path):
+    document = design(measurements=[{"file": "m.s1p", "ports": ["A"]}])
+    result = evaluate(tmp_path, document, files={"m.s1p": "# MHz S RI R 50\n700 0.1 0\n800 0.1\n"})
+    assert result.returncode == 2
+    assert "measurements[0].file: m.s1p:3:" in result.stderr
+
+
+def test_it_exits_2_when_a_measurement_file_is_missing_or_has_other_ports(tmp_path):
+    missing = evaluate(tmp_path, design(measurements=[{"file": "gone.s2p", "ports": ["A", None]}]))
+    assert missing.returncode == 2 and "measurements[0].file: cannot read gone.s2p" in missing.stderr
+    wrong = evaluate(tmp_path, design(measurements=[{"file": "one.s1p", "ports": ["A", None]}]),
+                     files={"one.s1p": "# MHz S RI R 50\n700 0.1 0\n"})
+    assert wrong.returncode == 2 and "measurements[0].ports: one.s1p has 1 port(s)" in wrong.stderr
+
+
+def test_it_prints_an_aligned_text_checklist_grouped_by_severity(tmp_path):
+    result = evaluate(tmp_path, design("cat-1", antennas=[antenna("A"), antenna("B", "receive", (75, 20, 10))]))
+    assert result.returncode == 1
+    lines = result.stdout.splitlines()
+    header = next(line for line in lines if line.startswith("band"))
+    assert "lambda/4 mm" in header
+    assert lines.index(next(line for line in lines if line.startswith("BLOCKERS"))) < \
+        lines.index(next(line for line in lines if line.startswith("NOTES")))
+    rows = [line for line in lines if line.startswith(("B3 ", "B8 ", "B20 "))]
+    assert len(rows) == 3 and len({len(row) for row in rows}) == 1  # right-aligned numbers end together
+
+
+def test_rules_lists_every_rule_with_rationale_and_sources():
+    result = subprocess.run([sys.executable, "manage.py", "rules", "--format", "json"], cwd=ROOT,
+                            capture_output=True, text=True, timeout=120)
+    listing = json.loads(result.stdout)
+    ids = [rule["id"] for rule in listing["rules"]]
+    assert "SEP-001" in ids and "CNT-001" in ids and "ECC-001" in ids
+    assert all(rule["rationale"] and rule["sources"] and rule["severities"] for rule in listing["rules"])
+    text = subprocess.run([sys.executable, "manage.py", "rules"], cwd=ROOT, capture_output=True, text=True,
+                          timeout=120).stdout
+    assert "SEP-001" in text and "sources:" in text
