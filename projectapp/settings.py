@@ -23,6 +23,7 @@ INSTALLED_APPS = [
     "django.contrib.messages",
     "django.contrib.staticfiles",
     "django_htmx",
+    "projectapp.teams",
     "projectapp.designs",
 ]
 
@@ -62,6 +63,7 @@ DATABASES = {
         "NAME": VAR_DIR / "earshot.sqlite3",
     }
 }
+VAR_DIR.mkdir(parents=True, exist_ok=True)  # the default SQLite file and uploaded files live here
 
 AUTH_PASSWORD_VALIDATORS = [
     {"NAME": "django.contrib.auth.password_validation.UserAttributeSimilarityValidator"},

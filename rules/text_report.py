@@ -2,12 +2,14 @@
 
 import textwrap
 from collections.abc import Sequence
+from functools import partial
 from typing import Any
 
 from rules.evaluate import Evaluation
 from rules.findings import SEVERITIES, Finding
 
 WIDTH = 100
+wrap = partial(textwrap.wrap, break_on_hyphens=False, break_long_words=False)
 HEADINGS = {"blocker": "BLOCKERS", "warning": "WARNINGS", "note": "NOTES"}
 
 
@@ -38,13 +40,13 @@ def _finding_lines(finding: Finding) -> list[str]:
     subjects = f" ({', '.join(finding.subjects)})" if finding.subjects else ""
     lines = [f"  {finding.id}  {finding.topic}{subjects}", f"    {finding.title}"]
     indent = " " * 6
-    lines += textwrap.wrap(finding.explanation, WIDTH, initial_indent=indent, subsequent_indent=indent)
-    lines += textwrap.wrap("Action: " + finding.action, WIDTH, initial_indent=indent, subsequent_indent=indent)
+    lines += wrap(finding.explanation, WIDTH, initial_indent=indent, subsequent_indent=indent)
+    lines += wrap("Action: " + finding.action, WIDTH, initial_indent=indent, subsequent_indent=indent)
     shown = [f"{key} {_evidence_value(value)}" for key, value in finding.evidence.items() if value is not None]
     if shown:
-        lines += textwrap.wrap("Evidence: " + "; ".join(shown), WIDTH, initial_indent=indent,
+        lines += wrap("Evidence: " + "; ".join(shown), WIDTH, initial_indent=indent,
                                subsequent_indent=indent + "  ")
-    lines += textwrap.wrap("Sources: " + "; ".join(finding.references), WIDTH, initial_indent=indent,
+    lines += wrap("Sources: " + "; ".join(finding.references), WIDTH, initial_indent=indent,
                            subsequent_indent=indent + "  ")
     return lines
 

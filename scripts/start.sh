@@ -5,7 +5,7 @@ cd "$(dirname "$0")/.."
 scripts/bootstrap.sh runtime
 mkdir -p var
 .venv/bin/python manage.py migrate --no-input
+.venv/bin/python manage.py seed_demo
 echo
-echo "Example checklist (rules/examples/orchard-probe.json):"
-.venv/bin/python manage.py evaluate rules/examples/orchard-probe.json || true
+echo "Open http://${EARSHOT_ADDRESS:-127.0.0.1:8000}/ and log in with one of the accounts above."
 exec .venv/bin/python manage.py runserver "${EARSHOT_ADDRESS:-127.0.0.1:8000}"

@@ -31,7 +31,7 @@ def _port_label(port_index: int) -> int:
         "Return loss below 6 dB (VSWR above 3:1) reflects more than a quarter of the power; below 3.5 dB "
         "it is nearly half. The worst point over the frequencies the antenna must serve is what counts."
     ),
-    sources=("common practice (VSWR 3:1 for embedded antennas)", "Touchstone File Format Specification v2.0"),
+    sources=("common practice (VSWR 3:1 for embedded antennas)", "VSWR = (1 + |S_ii|) / (1 - |S_ii|)"),
 )
 def poor_match(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:

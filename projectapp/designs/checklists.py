@@ -1,0 +1,61 @@
+"""The checklist of a revision: computed live for a draft, read from the frozen snapshot otherwise.
+
+Both come out in the contract's shape (earshot-checklist/1 as a dict), so templates, exports and the
+PDF read one structure whichever state the revision is in.
+"""
+
+from dataclasses import dataclass, field
+from typing import Any
+
+from projectapp.designs.models import Revision
+from rules.design import Design, DesignError, Problem, parse_design
+from rules.evaluate import evaluate
+from rules.measurements import attach_measurements
+
+
+@dataclass
+class ChecklistState:
+    revision: Revision
+    design: Design | None = None
+    checklist: dict[str, Any] | None = None
+    problems: list[Problem] = field(default_factory=list)
+
+    @property
+    def findings(self) -> list[dict[str, Any]]:
+        return self.checklist["findings"] if self.checklist else []
+
+    @property
+    def summary(self) -> dict[str, int]:
+        return self.checklist["summary"] if self.checklist else {}
+
+    @property
+    def problems_by_path(self) -> dict[str, list[str]]:
+        grouped: dict[str, list[str]] = {}
+        for problem in self.problems:
+            grouped.setdefault(problem.path, []).append(problem.message)
+        return grouped
+
+
+def measurement_reader(revision: Revision):
+    files = {measurement.name: measurement for measurement in revision.measurement_files.all()}
+
+    def read_text(name: str) -> str:
+        if name not in files:
+            raise FileNotFoundError(2, "no file of that name is uploaded to this revision")
+        return files[name].read_text()
+
+    return read_text
+
+
+def checklist_for(revision: Revision) -> ChecklistState:
+    state = ChecklistState(revision)
+    try:
+        state.design = parse_design(revision.document)
+        if revision.is_draft:
+            measurements = attach_measurements(state.design, measurement_reader(revision))
+            state.checklist = evaluate(state.design, measurements).as_dict()
+    except DesignError as error:
+        state.problems = error.problems
+    if not revision.is_draft:
+        state.checklist = revision.evaluation
+    return state

@@ -1,0 +1,40 @@
+from django import forms
+
+from projectapp.designs.models import Product
+from projectapp.teams.models import Team
+
+MAX_DESIGN_FILE_BYTES = 1_000_000
+
+
+class ProductForm(forms.Form):
+    team = forms.ModelChoiceField(queryset=Team.objects.none(), help_text="The team that owns the product.")
+    name = forms.CharField(max_length=120, help_text="The product's name as the team uses it.")
+    description = forms.CharField(max_length=300, required=False,
+                                  help_text="One line: what the product does and where it goes.")
+
+    def __init__(self, *args, teams, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.fields["team"].queryset = teams
+        if teams.count() == 1:
+            self.fields["team"].initial = teams.first()
+
+    def clean(self):
+        cleaned = super().clean()
+        team, name = cleaned.get("team"), cleaned.get("name")
+        if team and name and Product.objects.filter(team=team, name=name).exists():
+            self.add_error("name", f"{team} already has a product named {name!r}.")
+        return cleaned
+
+
+class ImportForm(forms.Form):
+    design_file = forms.FileField(
+        label="Design file",
+        help_text=f"An earshot-design/1 JSON file, at most {MAX_DESIGN_FILE_BYTES // 1000} kB.",
+    )
+
+    def clean_design_file(self):
+        upload = self.cleaned_data["design_file"]
+        if upload.size > MAX_DESIGN_FILE_BYTES:
+            raise forms.ValidationError(
+                f"design_file: expected at most {MAX_DESIGN_FILE_BYTES // 1000} kB, got {upload.size // 1000} kB.")
+        return upload

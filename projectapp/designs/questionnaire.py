@@ -1,0 +1,443 @@
+"""The design questionnaire: sections of questions, each bound to a path in the design document.
+
+Inputs are named by their document path (`modem.category`, `antennas[0].position_mm[2]`), so reading a
+form back is one generic step and the parser's problems (which carry the same paths) land beside the
+right field. What a person typed is stored as typed when it can't be read as the expected kind: the
+parser then explains it, and nothing is silently dropped.
+"""
+
+import copy
+import re
+import tomllib
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from functools import cache
+from pathlib import Path
+from typing import Any
+
+from django.http import QueryDict
+
+from rules.catalog import bands, categories
+from rules.design import ENVIRONMENTS, MATERIALS, MOUNTINGS, ROLES, Problem, find_band
+
+
+@dataclass(frozen=True)
+class Question:
+    key: str  # path relative to the section's root (an antenna row for antenna questions)
+    label: str
+    kind: str  # text, choice, bool, number, integer, vector, ranges, bands, band_numbers
+    help: str
+    unit: str = ""
+    choices: tuple[tuple[str, str], ...] = ()
+    parts: tuple[str, ...] = ()  # labels of a vector's numbers
+    blank_label: str = ""  # a choice question's "not given" option, if it may be left out
+
+
+@dataclass(frozen=True)
+class Section:
+    slug: str
+    title: str
+    intro: str
+    questions: tuple[Question, ...]
+    roots: tuple[str, ...]  # top-level paths this section owns
+
+
+CATEGORY_CHOICES = tuple((category.id, f"{category.label}") for category in categories().values())
+
+PRODUCT = Section(
+    "product", "Product and modem",
+    "What the product is and which cellular module it carries. The module's datasheet and its "
+    "regulatory approval documents have most of these answers.",
+    (
+        Question("product.name", "Product name", "text", "The name the team uses for this product."),
+        Question("product.revision", "Hardware revision", "text",
+                 "The board or prototype revision this design describes (for example 'B' or 'EVT2')."),
+        Question("modem.category", "UE category", "choice",
+                 "The module's LTE or NR category, on the first page of its datasheet (for example 'Cat M1' or "
+                 "'Cat 1bis'). It decides how many receive antennas the product needs.",
+                 choices=CATEGORY_CHOICES),
+        Question("modem.bands", "Bands", "bands",
+                 "The bands the product must work on: the intersection of what the module supports (datasheet, "
+                 "'supported bands') and what the target operators use. Start from a region preset and trim."),
+        Question("modem.rx_ports", "Receive antenna ports on the module", "integer",
+                 "How many antenna connectors or pads the module has for receiving, main included (datasheet, "
+                 "pin description: look for 'ANT_MAIN', 'ANT_DIV' or 'ANT_RX'). Leave empty if unsure."),
+        Question("modem.operator_single_antenna_approval", "An operator approved one antenna", "bool",
+                 "Tick only if an operator has approved in writing running this category with a single "
+                 "antenna (relevant to Cat 1). Keep the approval with the design record."),
+        Question("modem.gain_limits_dbi", "Maximum antenna gain allowed by the module's approval", "band_numbers",
+                 "The module's regulatory approval (grant or declaration) lists the highest antenna gain per band "
+                 "it was approved with. Copy them here; leave a band empty if no limit is given.", unit="dBi"),
+    ),
+    ("product", "modem"),
+)
+
+ENCLOSURE = Section(
+    "enclosure", "Enclosure and ground plane",
+    "The box around the electronics and the ground of the main board. The mechanical drawing has "
+    "these numbers; use the same corner as origin for the antenna positions.",
+    (
+        Question("enclosure.size_mm", "Enclosure outer size", "vector",
+                 "Length, width and height of the enclosure from the mechanical drawing.", unit="mm",
+                 parts=("length", "width", "height")),
+        Question("enclosure.material", "Enclosure material", "choice",
+                 "What the enclosure is made of around the antennas. 'Mixed' means metal parts (a frame, a "
+                 "plate, a coated surface) in an otherwise plastic box.",
+                 choices=tuple((material, material) for material in MATERIALS)),
+        Question("ground_plane_mm", "Main board ground plane", "vector",
+                 "Length and width of the main board's copper ground (usually the board outline). Embedded "
+                 "antennas use it as their counterpoise, so its length matters at low frequencies.", unit="mm",
+                 parts=("length", "width")),
+    ),
+    ("enclosure", "ground_plane_mm"),
+)
+
+ANTENNA_QUESTIONS = (
+    Question("name", "Name", "text", "A short label, unique in the design (as on the schematic: ANT1, DIV)."),
+    Question("role", "Role", "choice",
+             "'main' transmits and receives (the module's main port); 'receive' is an extra receive path "
+             "for diversity or MIMO.", choices=tuple((role, role) for role in ROLES)),
+    Question("mounting", "Mounting", "choice",
+             "'internal' sits inside the enclosure (chip, flex, PCB trace); 'external' is outside on a "
+             "connector or cable.", choices=tuple((mounting, mounting) for mounting in MOUNTINGS)),
+    Question("position_mm", "Feed point position", "vector",
+             "Where the antenna's feed point is, measured from the enclosure's corner on the mechanical "
+             "drawing.", unit="mm", parts=("x", "y", "z")),
+    Question("polarization", "Polarization axis", "vector",
+             "Which way the antenna's main electric field points, as a direction: 1, 0, 0 is along the "
+             "length, 0, 1, 0 along the width, 0, 0, 1 upwards. The antenna datasheet's radiation-pattern "
+             "page or its maker can tell.", parts=("x", "y", "z")),
+    Question("ranges_mhz", "Rated frequency ranges", "ranges",
+             "The ranges on the antenna datasheet, in MHz, separated by commas: '698-960, 1710-2690'.",
+             unit="MHz"),
+    Question("peak_gain_dbi", "Peak gain", "number",
+             "The highest peak gain on the antenna datasheet over the bands used.", unit="dBi"),
+    Question("efficiency_pct", "Total efficiency per band", "band_numbers",
+             "Total efficiency from the antenna datasheet or a chamber measurement in this product, per band.",
+             unit="%"),
+    Question("size_mm", "Element size", "vector", "The antenna element's bounding box from its datasheet.",
+             unit="mm", parts=("length", "width", "height")),
+    Question("cable_loss_db", "Cable loss", "number",
+             "Loss of the cable or feed line between module and antenna (external antennas), from the cable's "
+             "datasheet: loss per metre times length.", unit="dB"),
+)
+
+ANTENNAS = Section(
+    "antennas", "Antennas",
+    "Every cellular antenna the product carries. Add a row per antenna; positions and polarization let "
+    "the checklist judge spacing.",
+    ANTENNA_QUESTIONS,
+    ("antennas",),
+)
+
+DEPLOYMENT = Section(
+    "deployment", "Deployment",
+    "Where and how the product is used.",
+    (
+        Question("deployment.environment", "Environment", "choice",
+                 "Where the product usually sits: outdoors, inside a building, deep inside (basements, "
+                 "cabinets), underground (meter pits, manholes), or in a vehicle.",
+                 choices=tuple((environment, environment) for environment in ENVIRONMENTS),
+                 blank_label="not given"),
+        Question("deployment.required_dl_kbps", "Sustained downlink need", "number",
+                 "The data rate the product must receive, sustained (firmware updates, commands).", unit="kbps"),
+        Question("deployment.required_ul_kbps", "Sustained uplink need", "number",
+                 "The data rate the product must send, sustained (reports, images).", unit="kbps"),
+        Question("deployment.body_distance_mm", "Closest distance to people", "number",
+                 "How close a person's body comes to the product in normal use (worn: 0; wall-mounted out of "
+                 "reach: the distance to where people stand).", unit="mm"),
+    ),
+    ("deployment",),
+)
+
+SECTIONS: tuple[Section, ...] = (PRODUCT, ENCLOSURE, ANTENNAS, DEPLOYMENT)
+SECTIONS_BY_SLUG: Mapping[str, Section] = {section.slug: section for section in SECTIONS}
+
+
+@dataclass(frozen=True)
+class BandPreset:
+    slug: str
+    label: str
+    bands: tuple[str, ...]
+
+
+@cache
+def band_presets() -> tuple[BandPreset, ...]:
+    with (Path(__file__).parent / "band_presets.toml").open("rb") as handle:
+        tables = tomllib.load(handle)
+    presets = []
+    for slug, table in tables.items():
+        unknown = [name for name in table["bands"] if name not in bands()]
+        if unknown:
+            raise ValueError(f"band_presets.toml [{slug}]: unknown bands {unknown}")
+        presets.append(BandPreset(slug, table["label"], tuple(table["bands"])))
+    return tuple(presets)
+
+
+# -- reading typed values back --------------------------------------------------------------------------
+
+_RANGE_PATTERN = re.compile(r"^\s*(-?[\d.]+)\s*(?:-|–|—|to)\s*(-?[\d.]+)\s*$")
+
+
+def read_number(raw: str) -> Any:
+    """A typed number as a JSON number; anything else is kept as typed, for the parser to explain."""
+    text = raw.strip()
+    if text == "":
+        return None
+    try:
+        number = float(text)
+    except ValueError:
+        return text
+    if number != number or number in (float("inf"), float("-inf")):
+        return text
+    return int(number) if number.is_integer() and "." not in text and "e" not in text.lower() else number
+
+
+def read_ranges(raw: str) -> Any:
+    text = raw.strip()
+    if not text:
+        return None
+    ranges = []
+    for part in re.split(r"[,;]", text):
+        if not part.strip():
+            continue
+        match = _RANGE_PATTERN.match(part)
+        if not match:
+            return text
+        ranges.append([read_number(match.group(1)), read_number(match.group(2))])
+    return ranges
+
+
+def show_ranges(value: Any) -> str:
+    if isinstance(value, list):
+        parts = []
+        for item in value:
+            if isinstance(item, list) and len(item) == 2:
+                parts.append(f"{item[0]}-{item[1]}")
+            else:
+                return str(value)
+        return ", ".join(parts)
+    return "" if value is None else str(value)
+
+
+def show_number(value: Any) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return str(value).lower()
+    return str(value)
+
+
+def get_path(document: Any, path: str) -> Any:
+    """document['antennas'][0]['name'] for 'antennas[0].name'; None where the path leads nowhere."""
+    node = document
+    for token in re.findall(r"[^.\[\]]+|\[\d+\]", path):
+        if token.startswith("["):
+            index = int(token[1:-1])
+            node = node[index] if isinstance(node, list) and index < len(node) else None
+        else:
+            node = node.get(token) if isinstance(node, dict) else None
+        if node is None:
+            return None
+    return node
+
+
+def _set(target: dict[str, Any], dotted: str, value: Any) -> None:
+    """Sets target['a']['b'] for 'a.b', creating objects on the way; None removes the key."""
+    keys = dotted.split(".")
+    node = target
+    for key in keys[:-1]:
+        if not isinstance(node.get(key), dict):
+            node[key] = {}
+        node = node[key]
+    if value is None:
+        node.pop(keys[-1], None)
+    else:
+        node[keys[-1]] = value
+
+
+def _read_question(question: Question, data: QueryDict, prefix: str, document_value: Any) -> Any:
+    name = prefix + question.key
+    if question.kind == "text":
+        text = data.get(name, "").strip()
+        return text or None
+    if question.kind == "choice":
+        choice = data.get(name, "")
+        return choice or None
+    if question.kind == "bool":
+        return data.get(name) in ("on", "true", "1")
+    if question.kind in ("number", "integer"):
+        return read_number(data.get(name, ""))
+    if question.kind == "ranges":
+        return read_ranges(data.get(name, ""))
+    if question.kind == "vector":
+        values = [read_number(data.get(f"{name}[{index}]", "")) for index in range(len(question.parts))]
+        return None if all(value is None for value in values) else values
+    if question.kind == "bands":
+        return [find_band(name_).name if find_band(name_) else name_ for name_ in data.getlist(name)]
+    if question.kind == "band_numbers":
+        result = {}
+        for key in data:
+            if key.startswith(name + "."):
+                value = read_number(data.get(key, ""))
+                if value is not None:
+                    result[key[len(name) + 1:]] = value
+        return result or None
+    raise ValueError(f"unknown question kind {question.kind}")
+
+
+def apply_section(document: Mapping[str, Any], section: Section, data: QueryDict) -> dict[str, Any]:
+    """A copy of `document` with the section's answers from the posted form in place of the old ones.
+
+    Keys the questionnaire doesn't ask about (other sections, fields other tools added) are kept.
+    """
+    updated = copy.deepcopy(dict(document))
+    if section is ANTENNAS:
+        updated["antennas"] = _read_antennas(updated.get("antennas"), data)
+        return updated
+    for question in section.questions:
+        _set(updated, question.key, _read_question(question, data, "", get_path(document, question.key)))
+    for root in section.roots:
+        if isinstance(updated.get(root), dict) and not updated[root] and root not in ("product", "modem"):
+            del updated[root]
+    return updated
+
+
+def _read_antennas(existing: Any, data: QueryDict) -> list[dict[str, Any]]:
+    rows = sorted({int(match.group(1)) for key in data
+                   if (match := re.match(r"^antennas\[(\d+)\]\.", key))})
+    old = existing if isinstance(existing, list) else []
+    antennas = []
+    for row in rows:
+        prefix = f"antennas[{row}]."
+        antenna = copy.deepcopy(old[row]) if row < len(old) and isinstance(old[row], dict) else {}
+        for question in ANTENNA_QUESTIONS:
+            value = _read_question(question, data, prefix, antenna.get(question.key))
+            if value is None or (question.key == "cable_loss_db" and value == 0 and "cable_loss_db" not in antenna):
+                antenna.pop(question.key, None)
+            else:
+                antenna[question.key] = value
+        antennas.append(antenna)
+    return antennas
+
+
+def unique_antenna_name(antennas: list[Any], stem: str) -> str:
+    taken = {antenna.get("name") for antenna in antennas if isinstance(antenna, dict)}
+    number = 1
+    while f"{stem}{number}" in taken:
+        number += 1
+    return f"{stem}{number}"
+
+
+def antennas_action(document: Mapping[str, Any], action: str, index: int | None) -> dict[str, Any]:
+    """Add, remove or duplicate an antenna row."""
+    updated = copy.deepcopy(dict(document))
+    antennas = updated.get("antennas")
+    if not isinstance(antennas, list):
+        antennas = []
+    if action == "add":
+        role = "main" if not any(isinstance(a, dict) and a.get("role") == "main" for a in antennas) else "receive"
+        antennas.append({"name": unique_antenna_name(antennas, "ANT"), "role": role, "mounting": "internal"})
+    elif action == "remove" and index is not None and 0 <= index < len(antennas):
+        antennas.pop(index)
+    elif action == "duplicate" and index is not None and 0 <= index < len(antennas):
+        twin = copy.deepcopy(antennas[index]) if isinstance(antennas[index], dict) else {}
+        twin["name"] = unique_antenna_name(antennas, str(twin.get("name") or "ANT") + "-copy")
+        antennas.insert(index + 1, twin)
+    updated["antennas"] = antennas
+    return updated
+
+
+def set_bands(document: Mapping[str, Any], band_names: tuple[str, ...]) -> dict[str, Any]:
+    updated = copy.deepcopy(dict(document))
+    modem = updated.setdefault("modem", {}) if isinstance(updated.get("modem"), dict) else {}
+    modem["bands"] = list(band_names)
+    updated["modem"] = modem
+    return updated
+
+
+# -- presenting a section ---------------------------------------------------------------------------------
+
+@dataclass
+class Field:
+    """One question as the template shows it: its input name(s), current value(s) and problems."""
+
+    question: Question
+    name: str
+    value: Any
+    errors: list[str] = field(default_factory=list)
+    parts: list[tuple[str, str, str]] = field(default_factory=list)  # (label, input name, shown value)
+    options: list[tuple[str, str, bool]] = field(default_factory=list)  # (value, label, selected)
+
+    @property
+    def input_id(self) -> str:
+        return "q-" + re.sub(r"[^A-Za-z0-9]+", "-", self.name).strip("-")
+
+
+def _errors_for(path: str, problems: list[Problem]) -> list[str]:
+    return [problem.message for problem in problems
+            if problem.path == path or problem.path.startswith((path + "[", path + "."))]
+
+
+def _field(question: Question, name: str, value: Any, problems: list[Problem], selected_bands: list[str],
+           technology: str | None) -> Field:
+    item = Field(question, name, value, _errors_for(name, problems))
+    if question.kind == "vector":
+        values = value if isinstance(value, list) else []
+        item.parts = [(label, f"{name}[{index}]", show_number(values[index]) if index < len(values) else "")
+                      for index, label in enumerate(question.parts)]
+        if value is not None and not isinstance(value, list):
+            item.errors.append(f"stored value {value!r} is not a list")
+    elif question.kind == "choice":
+        current = "" if value is None else str(value)
+        options = [(choice, label, choice == current) for choice, label in question.choices]
+        if current and current not in dict(question.choices):
+            options.insert(0, (current, f"{current} (not accepted)", True))
+        if question.blank_label or not current:
+            options.insert(0, ("", question.blank_label or "choose…", current == ""))
+        item.options = options
+    elif question.kind == "bands":
+        chosen = [str(band) for band in value] if isinstance(value, list) else []
+        for band in bands().values():
+            if technology is None or band.technology == technology or band.name in chosen:
+                label = f"{band.name} ({band.duplex} {band.lowest_mhz:g}–{band.highest_mhz:g} MHz)"
+                item.options.append((band.name, label, band.name in chosen))
+        known = {option[0] for option in item.options}
+        item.options += [(name_, f"{name_} (unknown)", True) for name_ in chosen if name_ not in known]
+    elif question.kind == "band_numbers":
+        values = value if isinstance(value, dict) else {}
+        shown = list(dict.fromkeys([*selected_bands, *values]))
+        item.parts = [(band, f"{name}.{band}", show_number(values.get(band))) for band in shown]
+    elif question.kind == "ranges":
+        item.value = show_ranges(value)
+    elif question.kind in ("number", "integer"):
+        item.value = show_number(value)
+    elif question.kind == "text":
+        item.value = "" if value is None else str(value)
+    return item
+
+
+def section_fields(section: Section, document: Mapping[str, Any], problems: list[Problem]) -> Any:
+    """The section's fields; for the antenna section, one list of fields per antenna row."""
+    selected = [str(name) for name in get_path(document, "modem.bands") or [] if isinstance(name, str)]
+    category = categories().get(str(get_path(document, "modem.category")))
+    technology = category.technology if category else None
+    if section is ANTENNAS:
+        antennas = document.get("antennas")
+        rows = []
+        for index, antenna in enumerate(antennas if isinstance(antennas, list) else []):
+            source = antenna if isinstance(antenna, dict) else {}
+            rows.append([_field(question, f"antennas[{index}].{question.key}", source.get(question.key), problems,
+                                selected, technology) for question in ANTENNA_QUESTIONS])
+        return rows
+    return [_field(question, question.key, get_path(document, question.key), problems, selected, technology)
+            for question in section.questions]
+
+
+def section_problems(section: Section, problems: list[Problem], shown: list[Field]) -> list[str]:
+    """Problems of this section that no field shows (for example 'antennas: expected a list')."""
+    names = [item.name for item in shown]
+    return [str(problem) for problem in problems
+            if problem.path.split(".")[0].split("[")[0] in section.roots
+            and not any(problem.path == name or problem.path.startswith((name + "[", name + "."))
+                        for name in names)]

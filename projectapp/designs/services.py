@@ -1,0 +1,132 @@
+"""Every write to products and revisions goes through these functions (keyword-only, `<entity>_<action>`)."""
+
+import json
+from typing import Any
+
+from django.core.files.base import ContentFile
+from django.db import transaction
+from django.utils import timezone
+
+from projectapp.designs.checklists import measurement_reader
+from projectapp.designs.models import MeasurementFile, Product, Revision
+from projectapp.teams.access import require_role
+from projectapp.teams.models import Role, Team
+from rules.design import FORMAT, DesignError, Problem, decode_design_text, parse_design
+from rules.evaluate import evaluate
+from rules.measurements import attach_measurements
+from rules.registry import RULESET_VERSION
+from rules.touchstone import parse_touchstone
+
+
+def blank_document(*, product_name: str) -> dict[str, Any]:
+    return {
+        "format": FORMAT,
+        "product": {"name": product_name, "revision": "1"},
+        "modem": {"category": "cat-m1", "bands": []},
+        "antennas": [],
+    }
+
+
+@transaction.atomic
+def product_create(*, team: Team, name: str, description: str = "", user) -> Product:
+    require_role(user, team, Role.AUTHOR)
+    product = Product.objects.create(team=team, name=name, description=description, created_by=user)
+    Revision.objects.create(product=product, number=1, document=blank_document(product_name=name), created_by=user)
+    return product
+
+
+def _copy_measurements(*, source: Revision, target: Revision, user) -> None:
+    for measurement in source.measurement_files.all():
+        with measurement.file.open("rb") as handle:
+            content = handle.read()
+        copy = MeasurementFile(revision=target, name=measurement.name, size_bytes=len(content),
+                               sha256=MeasurementFile.digest(content), uploaded_by=measurement.uploaded_by or user)
+        copy.file.save(measurement.name, ContentFile(content), save=False)
+        copy.save()
+
+
+@transaction.atomic
+def draft_get_or_start(*, product: Product, user) -> Revision:
+    """The product's draft; if there is none, a new one copied from the latest revision."""
+    require_role(user, product.team, Role.AUTHOR)
+    product = Product.objects.select_for_update().get(pk=product.pk)
+    draft = product.draft
+    if draft is not None:
+        return draft
+    latest = product.latest
+    number = latest.number + 1 if latest else 1
+    document = json.loads(json.dumps(latest.document)) if latest else blank_document(product_name=product.name)
+    draft = Revision.objects.create(product=product, number=number, document=document, based_on=latest,
+                                    created_by=user)
+    if latest is not None:
+        _copy_measurements(source=latest, target=draft, user=user)
+    return draft
+
+
+def draft_save_document(*, revision: Revision, document: dict[str, Any], user) -> Revision:
+    """Stores what the questionnaire holds, valid or not: nothing typed is dropped."""
+    require_role(user, revision.product.team, Role.AUTHOR)
+    revision.document = document
+    revision.save(update_fields=["document", "updated_at"])
+    return revision
+
+
+@transaction.atomic
+def revision_submit(*, revision: Revision, user) -> Revision:
+    """Freezes a draft: the document, its checklist and the rule-set version, stored whole.
+
+    Raises DesignError (nothing changes) when the design can't be evaluated yet.
+    """
+    require_role(user, revision.product.team, Role.AUTHOR)
+    revision = Revision.objects.select_for_update().get(pk=revision.pk)
+    if not revision.is_draft:
+        raise DesignError([Problem("", f"revision {revision.number} was already submitted")])
+    design = parse_design(revision.document)
+    measurements = attach_measurements(design, measurement_reader(revision))
+    revision.evaluation = evaluate(design, measurements).as_dict()
+    revision.ruleset = RULESET_VERSION
+    revision.status = Revision.Status.SUBMITTED
+    revision.submitted_by = user
+    revision.submitted_at = timezone.now()
+    revision.save()
+    return revision
+
+
+@transaction.atomic
+def design_import(*, product: Product, text: str | bytes, source: str, user) -> Revision:
+    """Puts an imported design file into the product's draft (starting one if needed).
+
+    The file must be a valid design whose measurements name files the draft already has; otherwise
+    DesignError lists every problem and nothing is stored.
+    """
+    document = decode_design_text(text, source=source)
+    design = parse_design(document)
+    draft = draft_get_or_start(product=product, user=user)
+    attach_measurements(design, measurement_reader(draft))
+    return draft_save_document(revision=draft, document=document, user=user)
+
+
+def document_export_text(*, revision: Revision) -> str:
+    """The revision's design file. Import of this text stores the same document, so export again is identical."""
+    return json.dumps(revision.document, indent=2, ensure_ascii=False) + "\n"
+
+
+MAX_MEASUREMENT_BYTES = 20_000_000
+
+
+def measurement_add(*, revision: Revision, name: str, content: bytes, user) -> MeasurementFile:
+    """Keeps a Touchstone file with a draft. The file must parse; nothing is stored otherwise.
+
+    Raises TouchstoneError (naming the file and line) or ValueError for a file that can't be kept.
+    """
+    require_role(user, revision.product.team, Role.AUTHOR)
+    if len(content) > MAX_MEASUREMENT_BYTES:
+        raise ValueError(f"{name}: expected at most {MAX_MEASUREMENT_BYTES // 1_000_000} MB, "
+                         f"got {len(content) / 1_000_000:.1f} MB")
+    parse_touchstone(content.decode("utf-8", errors="replace"), source=name)
+    with transaction.atomic():
+        measurement = MeasurementFile(revision=revision, name=name, size_bytes=len(content),
+                                      sha256=MeasurementFile.digest(content), uploaded_by=user)
+        measurement.file.save(name, ContentFile(content), save=False)
+        measurement.save()
+    return measurement

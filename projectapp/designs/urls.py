@@ -1,0 +1,20 @@
+from django.urls import path
+
+from projectapp.designs import views
+
+urlpatterns = [
+    path("", views.product_list, name="product_list"),
+    path("products/new/", views.product_create, name="product_create"),
+    path("products/<int:product_id>/", views.product_detail, name="product_detail"),
+    path("products/<int:product_id>/draft/", views.draft_edit, name="draft_edit"),
+    path("products/<int:product_id>/draft/start/", views.draft_start, name="draft_start"),
+    path("products/<int:product_id>/draft/submit/", views.draft_submit, name="draft_submit"),
+    path("products/<int:product_id>/draft/<slug:section>/", views.draft_section_save, name="draft_section_save"),
+    path("products/<int:product_id>/import/", views.design_import, name="design_import"),
+    path("products/<int:product_id>/revisions/<int:number>/", views.revision_detail, name="revision_detail"),
+    path("products/<int:product_id>/revisions/<int:number>/design.json", views.revision_export,
+         name="revision_export"),
+    path("products/<int:product_id>/revisions/<int:number>/placement.svg", views.revision_placement_svg,
+         name="revision_placement_svg"),
+    path("rules/", views.rule_list, name="rule_list"),
+]

@@ -1,0 +1,222 @@
+"""Views of products, the design questionnaire, revisions and the rule list.
+
+Each view declares its methods and login requirement, fetches objects through designs.access (404 for
+other teams), checks the role for writes (403), calls a service or the engine, and renders. A view that
+htmx may call answers with the fragment it swaps; the same URL serves the full page without JavaScript.
+"""
+
+from django.contrib import messages
+from django.contrib.auth.decorators import login_required
+from django.http import HttpResponse
+from django.shortcuts import redirect, render
+from django.urls import reverse
+from django.views.decorators.http import require_GET, require_http_methods, require_POST
+
+from projectapp.designs import questionnaire, services
+from projectapp.designs.access import get_product_for_user, get_revision_for_user, products_for
+from projectapp.designs.checklists import ChecklistState, checklist_for
+from projectapp.designs.forms import ImportForm, ProductForm
+from projectapp.designs.models import Revision
+from projectapp.figures.placement import pair_severities_from_findings, placement_svg
+from projectapp.teams.access import has_role, teams_where
+from projectapp.teams.models import Role
+from rules.design import DesignError
+from rules.registry import RETIRED, RULESET_VERSION, registered_rules
+
+
+@login_required
+@require_GET
+def product_list(request):
+    products = products_for(request.user).prefetch_related("revisions")
+    rows = []
+    for product in products:
+        latest = product.latest
+        state = checklist_for(latest) if latest else None
+        rows.append({"product": product, "latest": latest, "state": state})
+    can_create = teams_where(request.user, Role.AUTHOR).exists()
+    return render(request, "designs/product_list.html", {"rows": rows, "can_create": can_create})
+
+
+@login_required
+@require_http_methods(["GET", "POST"])
+def product_create(request):
+    teams = teams_where(request.user, Role.AUTHOR)
+    if not teams.exists():
+        return render(request, "designs/no_role.html", {"role": "author"}, status=403)
+    form = ProductForm(request.POST or None, teams=teams)
+    if request.method == "POST" and form.is_valid():
+        product = services.product_create(team=form.cleaned_data["team"], name=form.cleaned_data["name"],
+                                          description=form.cleaned_data["description"], user=request.user)
+        messages.success(request, f"{product.name} created with an empty draft. Fill in the questionnaire.")
+        return redirect("draft_edit", product.pk)
+    return render(request, "designs/product_form.html", {"form": form})
+
+
+@login_required
+@require_GET
+def product_detail(request, product_id: int):
+    product = get_product_for_user(request.user, product_id)
+    revisions = list(product.revisions.select_related("created_by", "submitted_by"))
+    return render(request, "designs/product_detail.html", {
+        "product": product,
+        "revisions": revisions,
+        "is_author": has_role(request.user, product.team, Role.AUTHOR),
+        "roles": product.team.roles_of(request.user),
+    })
+
+
+def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> dict:
+    svg = None
+    if state.design is not None and state.checklist is not None:
+        svg = placement_svg(state.design, pair_severities=pair_severities_from_findings(state.findings),
+                            frequency_mhz=state.design.lowest_mhz, id_prefix=id_prefix)
+    return {"state": state, "placement_svg": svg}
+
+
+def _draft_context(request, revision: Revision, state: ChecklistState) -> dict:
+    document = revision.document
+    sections = []
+    for section in questionnaire.SECTIONS:
+        fields = questionnaire.section_fields(section, document, state.problems)
+        flat = [item for row in fields for item in row] if section is questionnaire.ANTENNAS else fields
+        sections.append({"section": section, "fields": fields,
+                         "loose_problems": questionnaire.section_problems(section, state.problems, flat)})
+    return {"product": revision.product, "revision": revision, "sections": sections,
+            "presets": questionnaire.band_presets(), **_panel_context(state)}
+
+
+@login_required
+@require_http_methods(["GET"])
+def draft_edit(request, product_id: int):
+    product = get_product_for_user(request.user, product_id)
+    draft = product.draft
+    if draft is None:
+        return render(request, "designs/draft_none.html", {
+            "product": product, "latest": product.latest,
+            "is_author": has_role(request.user, product.team, Role.AUTHOR)})
+    is_author = has_role(request.user, product.team, Role.AUTHOR)
+    if not is_author:
+        return redirect("revision_detail", product.pk, draft.number)
+    state = checklist_for(draft)
+    return render(request, "designs/draft_edit.html", _draft_context(request, draft, state))
+
+
+@login_required
+@require_POST
+def draft_start(request, product_id: int):
+    product = get_product_for_user(request.user, product_id)
+    draft = services.draft_get_or_start(product=product, user=request.user)
+    messages.success(request, f"Revision {draft.number} is a new draft"
+                     + (f", copied from revision {draft.based_on.number}." if draft.based_on else "."))
+    return redirect("draft_edit", product.pk)
+
+
+@login_required
+@require_POST
+def draft_section_save(request, product_id: int, section: str):
+    product = get_product_for_user(request.user, product_id)
+    current = questionnaire.SECTIONS_BY_SLUG.get(section)
+    draft = product.draft
+    if current is None or draft is None:
+        return render(request, "designs/gone.html", {"product": product}, status=404)
+    document = questionnaire.apply_section(draft.document, current, request.POST)
+    preset = request.POST.get("preset")
+    action = request.POST.get("action", "")
+    if preset:
+        chosen = next((item for item in questionnaire.band_presets() if item.slug == preset), None)
+        if chosen is not None:
+            document = questionnaire.set_bands(document, chosen.bands)
+    if action.startswith(("add", "remove:", "duplicate:")):
+        verb, _, index = action.partition(":")
+        document = questionnaire.antennas_action(document, verb, int(index) if index.isdigit() else None)
+    draft = services.draft_save_document(revision=draft, document=document, user=request.user)
+    state = checklist_for(draft)
+    if request.htmx:
+        context = _draft_context(request, draft, state)
+        context["current"] = next(item for item in context["sections"] if item["section"] is current)
+        return render(request, "designs/draft_section_saved.html", context)
+    messages.success(request, f"{current.title} saved.")
+    return redirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
+
+
+@login_required
+@require_POST
+def draft_submit(request, product_id: int):
+    product = get_product_for_user(request.user, product_id)
+    draft = product.draft
+    if draft is None:
+        messages.error(request, "There is no draft to submit.")
+        return redirect(product)
+    try:
+        revision = services.revision_submit(revision=draft, user=request.user)
+    except DesignError as error:
+        messages.error(request, f"Revision {draft.number} can't be submitted yet: fix the "
+                                f"{len(error.problems)} problem(s) listed beside the questions.")
+        return redirect("draft_edit", product.pk)
+    messages.success(request, f"Revision {revision.number} submitted for review and frozen.")
+    return redirect(revision)
+
+
+@login_required
+@require_GET
+def revision_detail(request, product_id: int, number: int):
+    revision = get_revision_for_user(request.user, product_id, number)
+    state = checklist_for(revision)
+    return render(request, "designs/revision_detail.html", {
+        "product": revision.product, "revision": revision,
+        "is_author": has_role(request.user, revision.product.team, Role.AUTHOR),
+        "design_text": services.document_export_text(revision=revision),
+        **_panel_context(state),
+    })
+
+
+@login_required
+@require_GET
+def revision_export(request, product_id: int, number: int):
+    revision = get_revision_for_user(request.user, product_id, number)
+    response = HttpResponse(services.document_export_text(revision=revision),
+                            content_type="application/json; charset=utf-8")
+    slug = "".join(ch if ch.isalnum() else "-" for ch in revision.product.name.lower()).strip("-")
+    response["Content-Disposition"] = f'attachment; filename="{slug}-rev{revision.number}.json"'
+    return response
+
+
+@login_required
+@require_GET
+def revision_placement_svg(request, product_id: int, number: int):
+    revision = get_revision_for_user(request.user, product_id, number)
+    state = checklist_for(revision)
+    svg = _panel_context(state)["placement_svg"]
+    if svg is None:
+        return HttpResponse("The design can't be drawn until it is valid.", status=404, content_type="text/plain")
+    return HttpResponse(svg, content_type="image/svg+xml")
+
+
+@login_required
+@require_http_methods(["GET", "POST"])
+def design_import(request, product_id: int):
+    product = get_product_for_user(request.user, product_id)
+    if not has_role(request.user, product.team, Role.AUTHOR):
+        return render(request, "designs/no_role.html", {"role": "author", "product": product}, status=403)
+    form = ImportForm(request.POST or None, request.FILES or None)
+    problems = []
+    if request.method == "POST" and form.is_valid():
+        upload = form.cleaned_data["design_file"]
+        try:
+            draft = services.design_import(product=product, text=upload.read(), source=upload.name,
+                                           user=request.user)
+        except DesignError as error:
+            problems = [str(problem) for problem in error.problems]
+        else:
+            messages.success(request, f"{upload.name} imported into draft revision {draft.number}.")
+            return redirect("draft_edit", product.pk)
+    return render(request, "designs/import.html", {"product": product, "form": form, "problems": problems,
+                                                   "draft": product.draft},
+                  status=400 if problems else 200)
+
+
+@login_required
+@require_GET
+def rule_list(request):
+    return render(request, "designs/rule_list.html", {
+        "rules": registered_rules(), "retired": RETIRED, "ruleset": RULESET_VERSION})

@@ -1,0 +1,950 @@
+"""The placement drawing: where the antennas sit in the enclosure, which way they are polarized, how far
+the reactive near field and a quarter wave reach around each one at the lowest frequency, and every pair
+of antennas coloured by the worst spacing finding about it.
+
+One reportlab `Drawing` serves both outputs: `placement_svg` turns it into an accessible inline <svg> for
+the page, and the PDF record places the same drawing as a flowable, so the two never disagree. Lengths
+come from `rules.physics`; this module only scales millimetres to points.
+
+Coordinates: the design's enclosure frame in mm. The top view looks down the z axis (x right, y up);
+the side view, shown only when the antennas sit at different heights, looks along y (x right, z up).
+Both views share one scale, `PlacementDrawing.scale_pt_per_mm`, and the same x positions.
+"""
+
+import math
+import re
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from dataclasses import dataclass, replace
+from itertools import combinations
+from typing import Any
+
+from reportlab.graphics import renderSVG
+from reportlab.graphics.shapes import Circle, Drawing, Group, Line, Polygon, Rect, String
+from reportlab.lib import colors
+from reportlab.lib.attrmap import AttrMap, AttrMapValue
+from reportlab.lib.utils import simpleSplit
+from reportlab.lib.validators import isAnything
+from reportlab.pdfbase.pdfmetrics import stringWidth
+
+from rules import physics
+from rules.design import Antenna, Design
+from rules.findings import SEVERITIES, Finding
+
+INK = colors.HexColor("#1f2a33")
+MUTED = colors.HexColor("#5b6b78")
+GRID = colors.HexColor("#c9d3da")
+BOARD = colors.HexColor("#e6efe9")
+BOARD_EDGE = colors.HexColor("#6c8f78")
+ENCLOSURE = INK
+SEVERITY_COLOURS: Mapping[str, colors.Color] = {
+    "blocker": colors.HexColor("#b3261e"),
+    "warning": colors.HexColor("#b26a00"),
+    "note": colors.HexColor("#3d5a80"),
+}
+NO_FINDING_COLOUR = colors.HexColor("#2e7d4f")
+WHITE = colors.white
+PLATE = colors.Color(1, 1, 1, alpha=0.86)  # behind labels, so they stay legible over lines and circles
+NEAR_FIELD_TINT = colors.Color(MUTED.red, MUTED.green, MUTED.blue, alpha=0.07)
+
+FONT = "Helvetica"
+FONT_BOLD = "Helvetica-Bold"
+FONT_ITALIC = "Helvetica-Oblique"
+
+NEAR_FIELD_DASH = [4.5, 2.5]
+QUARTER_WAVE_DASH = [1.2, 2.2]
+ENCLOSURE_DASH = [7, 3]
+
+MIN_WIDTH_PT = 240.0
+MARGIN_PT = 14.0
+Y_TICK_GUTTER_PT = 28.0  # room for the y (and z) tick labels left of the panels
+PANEL_PAD_PT = 14.0  # between the fitted extent and the panel edge, for labels near the border
+SIDE_PAD_PT = 18.0
+HEADER_PT = 42.0
+TICK_ROW_PT = 12.0
+SCALE_ROW_PT = 26.0
+SIDE_HEADING_PT = 18.0
+GAP_PT = 10.0
+MIN_GRID_SPACING_PT = 48.0
+MIN_VIEWS_HEIGHT_PT = 60.0  # the views never shrink below this to meet max_height_pt
+MIN_Z_TICK_SPACING_PT = 16.0
+MARKER_HALF_PT = 4.2
+ARROW_HALF_PT = 17.0
+OUT_OF_PLANE_RING_PT = 8.0
+# An axis less than this fraction in the view plane (tilted more than ~70 degrees out of it) is drawn as
+# pointing out of the page rather than as a stub arrow.
+IN_PLANE_MIN_FRACTION = 0.34
+LEGEND_COLUMN_MIN_PT = 190.0
+LEGEND_ROW_PT = 12.5
+LEGEND_DETAIL_PT = 9.0
+LEGEND_HEADING_PT = 15.0
+NOTE_LINE_PT = 11.0
+MAX_NAME_CHARS = 24
+DRAWABLE_MM = 1e9  # a thousand kilometres: beyond any enclosure, within float precision of a millimetre
+
+Box = tuple[float, float, float, float]  # x0, y0, x1, y1
+
+
+@dataclass(frozen=True)
+class PairLine:
+    first: str
+    second: str
+    distance_mm: float  # feed to feed, in three dimensions (the drawing shows its projection)
+    severity: str | None  # worst separation finding about the pair; None when there is none
+
+
+@dataclass(frozen=True)
+class PlacementLayout:
+    """What a placement drawing shows and where it put things, for the page, the PDF and tests."""
+
+    scale_pt_per_mm: float
+    scale_bar_mm: float
+    frequency_mhz: float
+    near_field_radius_mm: float
+    quarter_wave_mm: float
+    top_view_origin_pt: tuple[float, float]  # drawing point of x = 0, y = 0 mm (may lie outside the panel)
+    side_view_origin_pt: tuple[float, float] | None  # drawing point of x = 0, z = 0 mm; None without one
+    enclosure_given: bool
+    placed: tuple[str, ...]
+    unplaced: tuple[str, ...]
+    pairs: tuple[PairLine, ...]
+    title: str
+    description: str
+
+    @property
+    def has_side_view(self) -> bool:
+        return self.side_view_origin_pt is not None
+
+    def top_view_pt(self, x_mm: float, y_mm: float) -> tuple[float, float]:
+        x0, y0 = self.top_view_origin_pt
+        return (x0 + x_mm * self.scale_pt_per_mm, y0 + y_mm * self.scale_pt_per_mm)
+
+    def side_view_pt(self, x_mm: float, z_mm: float) -> tuple[float, float]:
+        if self.side_view_origin_pt is None:
+            raise ValueError("this drawing has no side view")
+        x0, z0 = self.side_view_origin_pt
+        return (x0 + x_mm * self.scale_pt_per_mm, z0 + z_mm * self.scale_pt_per_mm)
+
+
+class PlacementDrawing(Drawing):
+    """A reportlab Drawing (so also a platypus Flowable) that carries its `layout`."""
+
+    _attrMap = AttrMap(BASE=Drawing, layout=AttrMapValue(isAnything, desc="the PlacementLayout drawn"))
+
+    @property
+    def scale_pt_per_mm(self) -> float:
+        return self.layout.scale_pt_per_mm
+
+
+# -- findings -> pair colours ---------------------------------------------------------------------------
+
+
+def pair_severities_from_findings(findings: Iterable[Finding | Mapping[str, Any]]) -> dict[frozenset[str], str]:
+    """The worst severity per antenna pair among separation findings about two antennas (SEP-001).
+
+    Accepts `rules.findings.Finding` objects or their `as_dict()` form, so stored checklists work too.
+    """
+    worst: dict[frozenset[str], str] = {}
+    for finding in findings:
+        if isinstance(finding, Finding):
+            topic, severity, subjects = finding.topic, finding.severity, finding.subjects
+        else:
+            topic, severity, subjects = finding.get("topic"), finding.get("severity"), finding.get("subjects")
+        if topic != "separation" or severity not in SEVERITIES or not isinstance(subjects, (list, tuple)):
+            continue
+        pair = frozenset(subject for subject in subjects if isinstance(subject, str))
+        if len(subjects) != 2 or len(pair) != 2:
+            continue
+        current = worst.get(pair)
+        if current is None or SEVERITIES.index(severity) < SEVERITIES.index(current):
+            worst[pair] = severity
+    return worst
+
+
+# -- small helpers ----------------------------------------------------------------------------------------
+
+
+def _mm_text(value_mm: float) -> str:
+    rounded = round(value_mm, 1)
+    return f"{rounded + 0.0:g}"  # + 0.0 turns -0.0 into 0.0
+
+
+def _short(name: str) -> str:
+    return name if len(name) <= MAX_NAME_CHARS else name[: MAX_NAME_CHARS - 1] + "…"
+
+
+def _fit_text(text: str, font: str, size: float, width_pt: float) -> str:
+    if stringWidth(text, font, size) <= width_pt:
+        return text
+    while text and stringWidth(text + "…", font, size) > width_pt:
+        text = text[:-1]
+    return text + "…"
+
+
+def _nice_values(around: float) -> list[float]:
+    exponent = math.floor(math.log10(around))
+    return [mantissa * 10.0**power for power in (exponent - 1, exponent, exponent + 1)
+            for mantissa in (1, 2, 5)]
+
+
+def _nice_at_least(value: float) -> float:
+    """The smallest of 1, 2, 5 x 10^k that is at least `value`."""
+    return min(nice for nice in _nice_values(value) + [10.0 ** (math.floor(math.log10(value)) + 2)]
+               if nice >= value * (1 - 1e-9))
+
+
+def _nice_nearest(value: float) -> float:
+    """The 1, 2, 5 x 10^k closest to `value` on a log scale."""
+    return min(_nice_values(value), key=lambda nice: abs(math.log(nice / value)))
+
+
+def _baseline(y: float) -> float:
+    # The SVG renderer writes a text's flip transform with a whole number (2y), so keep y on half points.
+    return round(y * 2) / 2
+
+
+def _overlap(a: Box, b: Box) -> float:
+    width = min(a[2], b[2]) - max(a[0], b[0])
+    height = min(a[3], b[3]) - max(a[1], b[1])
+    return width * height if width > 0 and height > 0 else 0.0
+
+
+def _union(boxes: Sequence[Box]) -> Box:
+    return (min(box[0] for box in boxes), min(box[1] for box in boxes),
+            max(box[2] for box in boxes), max(box[3] for box in boxes))
+
+
+def _axis_text(polarization: tuple[float, float, float] | None) -> str:
+    if polarization is None:
+        return "polarization not given"
+    norm = math.hypot(*polarization)
+    for axis, component in zip("xyz", polarization, strict=True):
+        if abs(abs(component) / norm - 1.0) < 1e-9:
+            return f"polarized along {axis}"
+    return "polarized along (" + ", ".join(f"{value:g}" for value in polarization) + ")"
+
+
+class _Placer:
+    """Greedy label placement: each label takes the first candidate spot that covers nothing drawn or
+    labelled so far, or else the spot that covers least (weighted by what it would hide)."""
+
+    def __init__(self, bounds: Box):
+        self.bounds = bounds
+        self.taken: list[tuple[Box, float]] = []
+
+    def block(self, box: Box, weight: float) -> None:
+        self.taken.append((box, weight))
+
+    def block_segment(self, start: tuple[float, float], end: tuple[float, float], half_pt: float,
+                      weight: float) -> None:
+        steps = max(1, math.ceil(math.dist(start, end) / (1.5 * half_pt)))
+        for step in range(steps + 1):
+            x = start[0] + (end[0] - start[0]) * step / steps
+            y = start[1] + (end[1] - start[1]) * step / steps
+            self.block((x - half_pt, y - half_pt, x + half_pt, y + half_pt), weight)
+
+    def place(self, width: float, height: float, anchors: Sequence[tuple[float, float]]) -> Box:
+        best: tuple[float, Box] | None = None
+        for order, (x, y) in enumerate(anchors):
+            box = (x, y, x + width, y + height)
+            outside = width * height - _overlap(box, self.bounds)
+            cost = sum(_overlap(box, taken) * weight for taken, weight in self.taken) + 40.0 * outside
+            if cost == 0.0:
+                best = (cost, box)
+                break
+            cost += 0.05 * order
+            if best is None or cost < best[0]:
+                best = (cost, box)
+        assert best is not None
+        self.block(best[1], 25.0)
+        return best[1]
+
+
+def _around(x: float, y: float, gap: float, width: float, height: float) -> list[tuple[float, float]]:
+    """Candidate lower-left corners for a label of the given size beside a point, nearest first."""
+    anchors = []
+    for ring in range(4):
+        d = gap + ring * 10.0
+        e = d * 0.75
+        anchors += [
+            (x + d, y - height / 2), (x - width / 2, y + d), (x - width / 2, y - d - height),
+            (x - d - width, y - height / 2), (x + e, y + e), (x + e, y - e - height),
+            (x - e - width, y + e), (x - e - width, y - e - height),
+        ]
+    return anchors
+
+
+@dataclass(frozen=True)
+class _Label:
+    text: str
+    font: str
+    size: float
+    colour: colors.Color
+    border: colors.Color | None = None
+
+    @property
+    def width(self) -> float:
+        return stringWidth(self.text, self.font, self.size) + 5.0
+
+    @property
+    def height(self) -> float:
+        return self.size + 3.5
+
+    def draw(self, group: Group, box: Box) -> None:
+        group.add(Rect(box[0], box[1], box[2] - box[0], box[3] - box[1], rx=2, ry=2, fillColor=PLATE,
+                       strokeColor=self.border, strokeWidth=0.6 if self.border else 0))
+        group.add(String(box[0] + 2.5, _baseline(box[1] + 1.75 + 0.2 * self.size), self.text,
+                         fontName=self.font, fontSize=self.size, fillColor=self.colour))
+
+
+# -- glyphs (shared by the views and the legend) ------------------------------------------------------------
+
+
+def _marker(group: Group, x: float, y: float, role: str, mounting: str) -> Box:
+    """Square for the main antenna, diamond for a receive one; hollow when mounted outside."""
+    external = mounting == "external"
+    fill = WHITE if external else INK
+    stroke = INK if external else WHITE
+    width = 1.3 if external else 0.8
+    half = MARKER_HALF_PT
+    if role == "main":
+        group.add(Rect(x - half, y - half, 2 * half, 2 * half, fillColor=fill, strokeColor=stroke,
+                       strokeWidth=width))
+    else:
+        half *= 1.35
+        group.add(Polygon([x, y + half, x + half, y, x, y - half, x - half, y], fillColor=fill,
+                          strokeColor=stroke, strokeWidth=width))
+    return (x - half, y - half, x + half, y + half)
+
+
+def _arrow(group: Group, x: float, y: float, dx: float, dy: float, half_pt: float,
+           colour: colors.Color = INK) -> tuple[tuple[float, float], tuple[float, float]]:
+    """A double-ended arrow through (x, y) along the unit direction (dx, dy): an axis has no sign."""
+    start = (x - dx * half_pt, y - dy * half_pt)
+    end = (x + dx * half_pt, y + dy * half_pt)
+    head_pt, wing_pt = 5.5, 2.6
+    group.add(Line(start[0] + dx * head_pt * 0.6, start[1] + dy * head_pt * 0.6,
+                   end[0] - dx * head_pt * 0.6, end[1] - dy * head_pt * 0.6, strokeColor=colour,
+                   strokeWidth=1.3))
+    for tip, sign in ((end, 1.0), (start, -1.0)):
+        base_x, base_y = tip[0] - sign * dx * head_pt, tip[1] - sign * dy * head_pt
+        group.add(Polygon([tip[0], tip[1], base_x - dy * wing_pt, base_y + dx * wing_pt,
+                           base_x + dy * wing_pt, base_y - dx * wing_pt],
+                          fillColor=colour, strokeColor=None))
+    return start, end
+
+
+def _out_of_page(group: Group, x: float, y: float, dot: bool = False) -> Box:
+    """The circled dot of an axis perpendicular to the view; around a marker the marker is the dot."""
+    group.add(Circle(x, y, OUT_OF_PLANE_RING_PT, fillColor=None, strokeColor=INK, strokeWidth=1.1))
+    if dot:
+        group.add(Circle(x, y, 1.6, fillColor=INK, strokeColor=None))
+    ring = OUT_OF_PLANE_RING_PT + 1
+    return (x - ring, y - ring, x + ring, y + ring)
+
+
+def _antenna_glyph(group: Group, placer: _Placer, antenna: Antenna, x: float, y: float,
+                   axes: tuple[int, int]) -> None:
+    """Polarization (projected onto the view's two axes) and the marker, blocked for label placement."""
+    if antenna.polarization is not None:
+        norm = math.hypot(*antenna.polarization)
+        across = antenna.polarization[axes[0]] / norm
+        up = antenna.polarization[axes[1]] / norm
+        in_plane = math.hypot(across, up)
+        if in_plane < IN_PLANE_MIN_FRACTION:
+            placer.block(_out_of_page(group, x, y), 6.0)
+        else:
+            # Foreshortened: an axis tilted out of the view plane draws shorter.
+            start, end = _arrow(group, x, y, across / in_plane, up / in_plane, ARROW_HALF_PT * in_plane)
+            placer.block_segment(start, end, 3.0, 6.0)
+    placer.block(_marker(group, x, y, antenna.role, antenna.mounting), 30.0)
+
+
+# -- the layout -------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class _View:
+    """A panel: millimetres of the view's two axes mapped to drawing points."""
+
+    left_pt: float
+    bottom_pt: float
+    width_pt: float
+    height_pt: float
+    across_min_mm: float  # mm value at the panel's left edge
+    up_min_mm: float  # mm value at the panel's bottom edge
+    scale: float
+
+    def pt(self, across_mm: float, up_mm: float) -> tuple[float, float]:
+        return (self.left_pt + (across_mm - self.across_min_mm) * self.scale,
+                self.bottom_pt + (up_mm - self.up_min_mm) * self.scale)
+
+    @property
+    def box(self) -> Box:
+        return (self.left_pt, self.bottom_pt, self.left_pt + self.width_pt, self.bottom_pt + self.height_pt)
+
+    @property
+    def across_max_mm(self) -> float:
+        return self.across_min_mm + self.width_pt / self.scale
+
+    @property
+    def up_max_mm(self) -> float:
+        return self.up_min_mm + self.height_pt / self.scale
+
+
+def _drawable(design: Design) -> Design:
+    """The design with every coordinate and size kept within DRAWABLE_MM, so that absurd but valid
+    numbers (1e300 mm) still give finite spans and scales; distances are computed from the original."""
+
+    def clamp(values: tuple[float, ...] | None) -> Any:
+        return None if values is None else tuple(max(-DRAWABLE_MM, min(DRAWABLE_MM, value)) for value in values)
+
+    return replace(
+        design,
+        enclosure_size_mm=clamp(design.enclosure_size_mm),
+        ground_plane_mm=clamp(design.ground_plane_mm),
+        antennas=tuple(replace(antenna, position_mm=clamp(antenna.position_mm)) for antenna in design.antennas),
+    )
+
+
+def _enclosure_box(design: Design, placed: Sequence[Antenna]) -> Box | None:
+    """The enclosure's footprint; without a size, a box fitted around the antennas and ground plane."""
+    if design.enclosure_size_mm is not None:
+        return (0.0, 0.0, design.enclosure_size_mm[0], design.enclosure_size_mm[1])
+    boxes = [(antenna.position_mm[0], antenna.position_mm[1]) * 2 for antenna in placed]  # type: ignore[index]
+    if design.ground_plane_mm is not None:
+        boxes.append((0.0, 0.0, design.ground_plane_mm[0], design.ground_plane_mm[1]))
+    if not boxes:
+        return None
+    x0, y0, x1, y1 = _union(boxes)
+    margin_mm = max(10.0, 0.1 * max(x1 - x0, y1 - y0))
+    return (x0 - margin_mm, y0 - margin_mm, x1 + margin_mm, y1 + margin_mm)
+
+
+def _top_extent(design: Design, placed: Sequence[Antenna], enclosure: Box | None, zone_mm: float) -> Box:
+    boxes: list[Box] = [enclosure] if enclosure is not None else []
+    if design.ground_plane_mm is not None:
+        boxes.append((0.0, 0.0, design.ground_plane_mm[0], design.ground_plane_mm[1]))
+    for antenna in placed:
+        x, y = antenna.position_mm[0], antenna.position_mm[1]  # type: ignore[index]
+        boxes.append((x - zone_mm, y - zone_mm, x + zone_mm, y + zone_mm))
+    return _union(boxes) if boxes else (0.0, 0.0, 100.0, 60.0)
+
+
+def _side_extent(design: Design, placed: Sequence[Antenna]) -> tuple[float, float]:
+    heights = [antenna.position_mm[2] for antenna in placed]  # type: ignore[index]
+    if design.enclosure_size_mm is not None:
+        heights += [0.0, design.enclosure_size_mm[2]]
+    return min(heights), max(heights)
+
+
+def _pairs(placed: Sequence[Antenna], pair_severities: Mapping[frozenset[str], str]) -> list[PairLine]:
+    pairs = []
+    for first, second in combinations(placed, 2):
+        severity = pair_severities.get(frozenset((first.name, second.name)))
+        if severity is not None and severity not in SEVERITY_COLOURS:
+            raise ValueError(f"unknown severity {severity!r} for {first.name} and {second.name}; "
+                             f"expected one of {', '.join(SEVERITIES)}")
+        distance_mm = physics.distance_mm(first.position_mm, second.position_mm)  # type: ignore[arg-type]
+        pairs.append(PairLine(first.name, second.name, distance_mm, severity))
+    return pairs
+
+
+def _ticks(low_mm: float, high_mm: float, step_mm: float) -> range:
+    """Indices of the multiples of the step between low and high; none where float precision has run
+    out (coordinates so large that the step no longer changes them)."""
+    low, high = low_mm / step_mm, high_mm / step_mm
+    if not (math.isfinite(low) and math.isfinite(high)) or high - low > 400 or abs(low) > 1e12:
+        return range(0)
+    return range(math.ceil(low), math.floor(high) + 1)
+
+
+def _span(low: float, high: float) -> float:
+    # Millimetre coordinates may be huge; keep a span positive when their difference rounds to nothing.
+    return max(high - low, 1e-9 * max(1.0, abs(low), abs(high)))
+
+
+def _grid(group: Group, view: _View, step_mm: float, up_step_mm: float, across_name: str, up_name: str) -> None:
+    """Panel frame, light grid lines on multiples of the steps, heavier lines on the frame's axes, and
+    tick labels in mm along the bottom and left edges."""
+    group.add(Rect(*view.box[:2], view.width_pt, view.height_pt, fillColor=WHITE, strokeColor=GRID,
+                   strokeWidth=0.8))
+    x0, y0, x1, y1 = view.box
+    for index in _ticks(view.across_min_mm, view.across_max_mm, step_mm):
+        value_mm = index * step_mm
+        x, _ = view.pt(value_mm, 0)
+        group.add(Line(x, y0, x, y1, strokeColor=GRID, strokeWidth=0.9 if index == 0 else 0.4))
+        group.add(String(x, y0 - 9, _mm_text(value_mm), fontName=FONT, fontSize=7, fillColor=MUTED,
+                         textAnchor="middle"))
+    for index in _ticks(view.up_min_mm, view.up_max_mm, up_step_mm):
+        value_mm = index * up_step_mm
+        _, y = view.pt(0, value_mm)
+        group.add(Line(x0, y, x1, y, strokeColor=GRID, strokeWidth=0.9 if index == 0 else 0.4))
+        group.add(String(x0 - 3, _baseline(y - 2.5), _mm_text(value_mm), fontName=FONT, fontSize=7,
+                         fillColor=MUTED, textAnchor="end"))
+    group.add(String(x1, _baseline(y1 + 3), f"axes in mm: {across_name} →, {up_name} ↑", fontName=FONT, fontSize=7,
+                     fillColor=MUTED, textAnchor="end"))
+
+
+def _rect_pt(view: _View, box_mm: Box) -> tuple[float, float, float, float]:
+    x0, y0 = view.pt(box_mm[0], box_mm[1])
+    x1, y1 = view.pt(box_mm[2], box_mm[3])
+    return x0, y0, x1 - x0, y1 - y0
+
+
+def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: Sequence[Antenna],
+              pairs: Sequence[PairLine], enclosure: Box | None, near_field_mm: float, quarter_wave_mm: float,
+              step_mm: float) -> None:
+    _grid(group, view, step_mm, step_mm, "x", "y")
+    placer = _Placer(view.box)
+    deferred: list[tuple[_Label, list[tuple[float, float]]]] = []
+
+    if design.ground_plane_mm is not None:
+        x, y, width, height = _rect_pt(view, (0.0, 0.0, *design.ground_plane_mm))
+        group.add(Rect(x, y, width, height, fillColor=BOARD, strokeColor=BOARD_EDGE, strokeWidth=1.0))
+        label = _Label(f"ground plane {_mm_text(design.ground_plane_mm[0])} × "
+                       f"{_mm_text(design.ground_plane_mm[1])} mm", FONT, 7.5, MUTED)
+        deferred.append((label, [(x + 3, y + 3), (x + 3, y + height - label.height - 3),
+                                 (x + width - label.width - 3, y + 3), (x, y - label.height - 2),
+                                 (x + width - label.width, y + height + 2)]))
+        placer.block_segment((x, y), (x + width, y), 1.5, 0.2)
+        placer.block_segment((x, y + height), (x + width, y + height), 1.5, 0.2)
+
+    if enclosure is not None:
+        x, y, width, height = _rect_pt(view, enclosure)
+        group.add(Rect(x, y, width, height, fillColor=None, strokeColor=ENCLOSURE, strokeWidth=1.3,
+                       strokeDashArray=ENCLOSURE_DASH))
+        if design.enclosure_size_mm is not None:
+            length_mm, width_mm, height_mm = design.enclosure_size_mm
+            text = (f"enclosure {_mm_text(length_mm)} × {_mm_text(width_mm)} × {_mm_text(height_mm)} mm, "
+                    f"{design.enclosure_material}")
+        else:
+            text = "enclosure size not given"
+        label = _Label(text, FONT, 7.5, INK)
+        deferred.append((label, [(x, y + height + 2), (x + width - label.width, y + height + 2),
+                                 (x + 3, y + height - label.height - 3), (x, y - label.height - 2),
+                                 (x + width - label.width, y - label.height - 2)]))
+        for start, end in (((x, y), (x + width, y)), ((x, y + height), (x + width, y + height))):
+            placer.block_segment(start, end, 1.5, 0.3)
+
+    points = {antenna.name: view.pt(antenna.position_mm[0], antenna.position_mm[1])  # type: ignore[index]
+              for antenna in placed}
+    for antenna in placed:
+        x, y = points[antenna.name]
+        group.add(Circle(x, y, quarter_wave_mm * view.scale, fillColor=None, strokeColor=MUTED,
+                         strokeWidth=0.9, strokeDashArray=QUARTER_WAVE_DASH))
+        group.add(Circle(x, y, near_field_mm * view.scale, fillColor=NEAR_FIELD_TINT, strokeColor=MUTED,
+                         strokeWidth=0.9, strokeDashArray=NEAR_FIELD_DASH))
+
+    for pair in pairs:
+        colour = SEVERITY_COLOURS[pair.severity] if pair.severity else NO_FINDING_COLOUR
+        start, end = points[pair.first], points[pair.second]
+        if start != end:
+            group.add(Line(*start, *end, strokeColor=colour, strokeWidth=1.8))
+            placer.block_segment(start, end, 1.5, 1.0)
+
+    for antenna in placed:
+        _antenna_glyph(group, placer, antenna, *points[antenna.name], axes=(0, 1))
+
+    for antenna in placed:
+        label = _Label(_short(antenna.name), FONT_BOLD, 8.5, INK)
+        x, y = points[antenna.name]
+        label.draw(labels, placer.place(label.width, label.height, _around(x, y, 7.0, label.width,
+                                                                               label.height)))
+    for pair in pairs:
+        colour = SEVERITY_COLOURS[pair.severity] if pair.severity else NO_FINDING_COLOUR
+        label = _Label(f"{_mm_text(pair.distance_mm)} mm", FONT_BOLD, 7.5, colour, border=colour)
+        (x1, y1), (x2, y2) = points[pair.first], points[pair.second]
+        middle_x, middle_y = (x1 + x2) / 2, (y1 + y2) / 2
+        length = math.hypot(x2 - x1, y2 - y1)
+        normal = ((y1 - y2) / length, (x2 - x1) / length) if length else (0.0, 1.0)
+        anchors = [(middle_x - label.width / 2, middle_y - label.height / 2)]
+        for along in (0.0, 0.2, -0.2):
+            for side in (1.0, -1.0):
+                centre_x = middle_x + along * (x2 - x1) + side * normal[0] * (label.height + 2)
+                centre_y = middle_y + along * (y2 - y1) + side * normal[1] * (label.height + 2)
+                anchors.append((centre_x - label.width / 2, centre_y - label.height / 2))
+        anchors += _around(middle_x, middle_y, 8.0, label.width, label.height)
+        label.draw(labels, placer.place(label.width, label.height, anchors))
+    for label, anchors in deferred:
+        label.draw(labels, placer.place(label.width, label.height, anchors))
+
+    if not placed:
+        message = "No antennas in this design" if not design.antennas else "No antenna has a position yet"
+        x0, y0, x1, y1 = view.box
+        labels.add(String((x0 + x1) / 2, _baseline((y0 + y1) / 2), message, fontName=FONT_ITALIC,
+                          fontSize=10, fillColor=MUTED, textAnchor="middle"))
+
+
+def _side_view(group: Group, view: _View, design: Design, placed: Sequence[Antenna], step_mm: float) -> None:
+    # Heights span little, so the z ticks may be closer than the x ticks.
+    _grid(group, view, step_mm, min(step_mm, _nice_at_least(MIN_Z_TICK_SPACING_PT / view.scale)), "x", "z")
+    placer = _Placer(view.box)
+    labels = Group()
+    enclosure_label: tuple[_Label, list[tuple[float, float]]] | None = None
+    if design.enclosure_size_mm is not None:
+        length_mm, _, height_mm = design.enclosure_size_mm
+        x, y, width, height = _rect_pt(view, (0.0, 0.0, length_mm, height_mm))
+        group.add(Rect(x, y, width, height, fillColor=None, strokeColor=ENCLOSURE, strokeWidth=1.3,
+                       strokeDashArray=ENCLOSURE_DASH))
+        label = _Label(f"enclosure height {_mm_text(height_mm)} mm", FONT, 7.5, INK)
+        enclosure_label = (label, [(x, y + height + 2), (x + width - label.width, y + height + 2),
+                                   (x + 3, y + height - label.height - 3), (x, y - label.height - 2)])
+    points = {antenna.name: view.pt(antenna.position_mm[0], antenna.position_mm[2])  # type: ignore[index]
+              for antenna in placed}
+    for antenna in placed:
+        _antenna_glyph(group, placer, antenna, *points[antenna.name], axes=(0, 2))
+    for antenna in placed:
+        label = _Label(_short(antenna.name), FONT_BOLD, 8.5, INK)
+        x, y = points[antenna.name]
+        label.draw(labels, placer.place(label.width, label.height, _around(x, y, 7.0, label.width,
+                                                                               label.height)))
+    if enclosure_label is not None:
+        label, anchors = enclosure_label
+        label.draw(labels, placer.place(label.width, label.height, anchors))
+    group.add(labels)
+
+
+# -- legend -------------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class _Entry:
+    swatch: Callable[[Group, float, float], object]
+    text: str
+    detail: str | None = None
+
+
+def _legend_groups(frequency_mhz: float, near_field_mm: float,
+                   quarter_wave_mm: float) -> list[tuple[str, list[_Entry]]]:
+    def zone(dash: list[float], tint: colors.Color | None) -> Callable[[Group, float, float], object]:
+        return lambda group, x, y: group.add(Circle(x, y, 6.5, fillColor=tint, strokeColor=MUTED,
+                                                    strokeWidth=0.9, strokeDashArray=dash))
+
+    def pair_line(colour: colors.Color) -> Callable[[Group, float, float], object]:
+        return lambda group, x, y: group.add(Line(x - 11, y, x + 11, y, strokeColor=colour, strokeWidth=1.8))
+
+    frequency = f"{frequency_mhz:g} MHz"
+    return [
+        ("Antennas", [
+            _Entry(lambda group, x, y: _marker(group, x, y, "main", "internal"), "main antenna, at its feed"),
+            _Entry(lambda group, x, y: _marker(group, x, y, "receive", "internal"), "receive antenna"),
+            _Entry(lambda group, x, y: _marker(group, x, y, "main", "external"), "hollow: external antenna"),
+            _Entry(lambda group, x, y: _arrow(group, x, y, 1.0, 0.0, 11.0), "polarization axis",
+                   "projected; shorter when tilted out of view"),
+            _Entry(lambda group, x, y: _out_of_page(group, x, y, dot=True), "axis out of the page"),
+        ]),
+        (f"Around each antenna at {frequency}", [
+            _Entry(zone(NEAR_FIELD_DASH, NEAR_FIELD_TINT), f"λ/2π = {near_field_mm:.1f} mm at {frequency}",
+                   "reactive near field"),
+            _Entry(zone(QUARTER_WAVE_DASH, None), f"λ/4 = {quarter_wave_mm:.1f} mm at {frequency}",
+                   "quarter wave, the usual minimum spacing"),
+            _Entry(lambda group, x, y: group.add(Rect(x - 11, y - 5, 22, 10, fillColor=None, strokeColor=ENCLOSURE,
+                                                      strokeWidth=1.3, strokeDashArray=ENCLOSURE_DASH)),
+                   "enclosure outline"),
+            _Entry(lambda group, x, y: group.add(Rect(x - 11, y - 5, 22, 10, fillColor=BOARD,
+                                                      strokeColor=BOARD_EDGE, strokeWidth=1.0)),
+                   "ground plane"),
+        ]),
+        ("Antenna pairs, feed to feed", [
+            *(_Entry(pair_line(SEVERITY_COLOURS[severity]), severity) for severity in SEVERITIES),
+            _Entry(pair_line(NO_FINDING_COLOUR), "no finding", "label: 3-D distance in mm"),
+        ]),
+    ]
+
+
+def _entry_height(entry: _Entry) -> float:
+    return LEGEND_ROW_PT + (LEGEND_DETAIL_PT if entry.detail else 0.0) + 2.0
+
+
+def _legend_columns(width_pt: float, groups: list[tuple[str, list[_Entry]]]) -> list[list[tuple[str, list[_Entry]]]]:
+    count = max(1, min(len(groups), int((width_pt - 2 * MARGIN_PT) // LEGEND_COLUMN_MIN_PT)))
+    columns: list[list[tuple[str, list[_Entry]]]] = [[] for _ in range(count)]
+    heights = [0.0] * count
+    for heading, entries in groups:
+        index = heights.index(min(heights))
+        columns[index].append((heading, entries))
+        heights[index] += LEGEND_HEADING_PT + sum(_entry_height(entry) for entry in entries) + 6
+    return columns
+
+
+def _legend_height(columns: list[list[tuple[str, list[_Entry]]]]) -> float:
+    return max(sum(LEGEND_HEADING_PT + sum(_entry_height(entry) for entry in entries) + 6
+                   for _, entries in column) for column in columns)
+
+
+def _draw_legend(group: Group, columns: list[list[tuple[str, list[_Entry]]]], left: float, top: float,
+                 width_pt: float) -> None:
+    column_width = (width_pt - 2 * MARGIN_PT) / len(columns)
+    for index, column in enumerate(columns):
+        x = left + index * column_width
+        y = top
+        for heading, entries in column:
+            group.add(String(x, _baseline(y - 9), _fit_text(heading, FONT_BOLD, 8, column_width - 6),
+                             fontName=FONT_BOLD, fontSize=8, fillColor=INK))
+            y -= LEGEND_HEADING_PT
+            for entry in entries:
+                centre_y = y - LEGEND_ROW_PT / 2
+                entry.swatch(group, x + 12, centre_y)
+                group.add(String(x + 30, _baseline(centre_y - 2.8),
+                                 _fit_text(entry.text, FONT, 8, column_width - 36),
+                                 fontName=FONT, fontSize=8, fillColor=INK))
+                if entry.detail:
+                    group.add(String(x + 30, _baseline(centre_y - 2.8 - LEGEND_DETAIL_PT),
+                                     _fit_text(entry.detail, FONT, 7, column_width - 36),
+                                     fontName=FONT, fontSize=7, fillColor=MUTED))
+                y -= _entry_height(entry)
+            y -= 6
+
+
+def _scale_bar(group: Group, left: float, top: float, scale: float, width_pt: float, max_pt: float) -> float:
+    """A bar of a round length near a quarter of the drawing's width, in two halves."""
+    length_mm = _nice_nearest(0.25 * width_pt / scale)
+    while length_mm * scale > max_pt:
+        length_mm = _nice_nearest(length_mm * 0.45)
+    half_pt = length_mm * scale / 2
+    y = top - 8
+    group.add(Rect(left, y, half_pt, 4, fillColor=INK, strokeColor=INK, strokeWidth=0.6))
+    group.add(Rect(left + half_pt, y, half_pt, 4, fillColor=WHITE, strokeColor=INK, strokeWidth=0.6))
+    for offset_pt, text in ((0.0, "0"), (half_pt, _mm_text(length_mm / 2)),
+                            (2 * half_pt, f"{_mm_text(length_mm)} mm")):
+        group.add(String(left + offset_pt, _baseline(y - 9), text, fontName=FONT, fontSize=7.5, fillColor=INK,
+                         textAnchor="middle" if offset_pt < 2 * half_pt else "start"))
+    return length_mm
+
+
+# -- the drawing ---------------------------------------------------------------------------------------------
+
+
+def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[PairLine], frequency_mhz: float,
+                 near_field_mm: float, quarter_wave_mm: float, side_view: bool) -> str:
+    product = design.product_name + (f", revision {design.product_revision}" if design.product_revision else "")
+    sentences = [f"Top view of the antenna placement of {product}: positions in mm in the enclosure frame, "
+                 f"x to the right and y up."]
+    if design.enclosure_size_mm is not None:
+        sentences.append("The enclosure is " + " × ".join(_mm_text(v) for v in design.enclosure_size_mm)
+                         + " mm.")
+    else:
+        sentences.append("The enclosure size is not given.")
+    if design.ground_plane_mm is not None:
+        sentences.append("The ground plane is " + " × ".join(_mm_text(v) for v in design.ground_plane_mm)
+                         + " mm from the origin.")
+    if not design.antennas:
+        sentences.append("The design has no antennas.")
+    else:
+        described = []
+        for antenna in design.antennas:
+            what = f"{antenna.name} ({antenna.role}, {antenna.mounting})"
+            if antenna.position_mm is None:
+                described.append(f"{what} is not placed")
+            else:
+                x, y, z = (_mm_text(v) for v in antenna.position_mm)
+                described.append(f"{what} at x {x}, y {y}, z {z} mm, {_axis_text(antenna.polarization)}")
+        sentences.append("Antennas: " + "; ".join(described) + ".")
+    if pairs:
+        sentences.append("Pairs: " + "; ".join(
+            f"{pair.first} to {pair.second} {_mm_text(pair.distance_mm)} mm apart, "
+            f"{pair.severity or 'no finding'}" for pair in pairs) + ".")
+    if placed:
+        sentences.append(f"Circles around each antenna show the reactive near field, λ/2π = "
+                         f"{near_field_mm:.1f} mm, and a quarter wave, λ/4 = {quarter_wave_mm:.1f} mm, at "
+                         f"{frequency_mhz:g} MHz.")
+    if side_view:
+        sentences.append("A side view below shows the antenna heights, x to the right and z up.")
+    return " ".join(sentences)
+
+
+def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str], str], frequency_mhz: float,
+                      width_pt: float = 640, max_height_pt: float | None = None) -> PlacementDrawing:
+    """The placement drawing of a design, `width_pt` wide, judged at `frequency_mhz` (the lowest
+    frequency in scope). `pair_severities` maps a pair of antenna names to its worst separation finding
+    (see `pair_severities_from_findings`); a pair without an entry is drawn as having none.
+    `max_height_pt` (say, a PDF frame's height) shrinks the scale until the drawing fits, as far as
+    the fixed rows (title, legend) allow.
+
+    The result's `layout` (and `scale_pt_per_mm`) tell where things were drawn."""
+    if not (math.isfinite(frequency_mhz) and frequency_mhz > 0):
+        raise ValueError(f"frequency_mhz must be a positive number, got {frequency_mhz!r}")
+    if not (math.isfinite(width_pt) and width_pt >= MIN_WIDTH_PT):
+        raise ValueError(f"width_pt must be at least {MIN_WIDTH_PT:g}, got {width_pt!r}")
+    if max_height_pt is not None and not (math.isfinite(max_height_pt) and max_height_pt > 0):
+        raise ValueError(f"max_height_pt must be a positive number, got {max_height_pt!r}")
+    width_pt = float(width_pt)
+    near_field_mm = physics.near_field_radius_mm(frequency_mhz)
+    quarter_wave_mm = physics.quarter_wave_mm(frequency_mhz)
+    pairs = _pairs([antenna for antenna in design.antennas if antenna.position_mm is not None], pair_severities)
+    drawn = _drawable(design)
+    placed = [antenna for antenna in drawn.antennas if antenna.position_mm is not None]
+    unplaced = [antenna.name for antenna in drawn.antennas if antenna.position_mm is None]
+    enclosure = _enclosure_box(drawn, placed)
+    ex0, ey0, ex1, ey1 = _top_extent(drawn, placed, enclosure, max(near_field_mm, quarter_wave_mm))
+    heights = {antenna.position_mm[2] for antenna in placed}  # type: ignore[index]
+    side = _side_extent(drawn, placed) if len(heights) > 1 else None
+
+    legend = _legend_columns(width_pt, _legend_groups(frequency_mhz, near_field_mm, quarter_wave_mm))
+    note_lines = simpleSplit(f"not placed: {', '.join(unplaced)} (no feed position given)", FONT_ITALIC, 8,
+                             width_pt - 2 * MARGIN_PT) if unplaced else []
+    # The height is these fixed rows plus the views' spans in mm times the scale.
+    fixed_height_pt = (
+        MARGIN_PT + HEADER_PT + 12 + 2 * PANEL_PAD_PT + TICK_ROW_PT + SCALE_ROW_PT
+        + (SIDE_HEADING_PT + 12 + 2 * SIDE_PAD_PT + TICK_ROW_PT if side is not None else 0.0)
+        + GAP_PT + _legend_height(legend) + len(note_lines) * NOTE_LINE_PT + MARGIN_PT
+    )
+    spans_mm = _span(ey0, ey1) + (_span(*side) if side is not None else 0.0)
+
+    # One scale for both views: the top view fills the width unless that makes it (or the side view)
+    # far taller than wide, or the whole drawing taller than the caller's limit.
+    room_pt = width_pt - 2 * MARGIN_PT - Y_TICK_GUTTER_PT - 2 * PANEL_PAD_PT
+    limits = [room_pt / _span(ex0, ex1), 1.1 * width_pt / _span(ey0, ey1)]
+    if side is not None:
+        limits.append(0.6 * width_pt / _span(*side))
+    if max_height_pt is not None:
+        # The height is rounded up to a whole point (the SVG renderer needs one): leave a point for that.
+        limits.append(max(math.floor(max_height_pt) - 1 - fixed_height_pt, MIN_VIEWS_HEIGHT_PT) / spans_mm)
+    scale = min(limits)
+    panel_width_pt = _span(ex0, ex1) * scale + 2 * PANEL_PAD_PT
+    panel_left_pt = MARGIN_PT + Y_TICK_GUTTER_PT + (room_pt + 2 * PANEL_PAD_PT - panel_width_pt) / 2
+    top_height_pt = _span(ey0, ey1) * scale + 2 * PANEL_PAD_PT
+    side_height_pt = _span(*side) * scale + 2 * SIDE_PAD_PT if side is not None else 0.0
+    step_mm = _nice_at_least(MIN_GRID_SPACING_PT / scale)
+    height_pt = math.ceil(fixed_height_pt + spans_mm * scale)
+
+    title = f"Placement — top view, judged at {frequency_mhz:g} MHz"
+    drawing = PlacementDrawing(width_pt, height_pt)
+    group = Group()
+    top = height_pt - MARGIN_PT
+    group.add(String(MARGIN_PT, _baseline(top - 13), _fit_text(title, FONT_BOLD, 13, width_pt - 2 * MARGIN_PT),
+                     fontName=FONT_BOLD, fontSize=13, fillColor=INK))
+    product = design.product_name + (f", revision {design.product_revision}" if design.product_revision else "")
+    subtitle = f"{product} · positions in mm in the enclosure frame · pair lines coloured by spacing finding"
+    group.add(String(MARGIN_PT, _baseline(top - 29), _fit_text(subtitle, FONT, 8.5, width_pt - 2 * MARGIN_PT),
+                     fontName=FONT, fontSize=8.5, fillColor=MUTED))
+    top -= HEADER_PT + 12
+
+    top_view = _View(panel_left_pt, top - top_height_pt, panel_width_pt, top_height_pt,
+                     ex0 - PANEL_PAD_PT / scale, ey0 - PANEL_PAD_PT / scale, scale)
+    labels = Group()
+    _top_view(group, labels, top_view, drawn, placed, pairs, enclosure, near_field_mm, quarter_wave_mm,
+              step_mm)
+    group.add(labels)
+    top -= top_height_pt + TICK_ROW_PT
+    scale_bar_mm = _scale_bar(group, panel_left_pt, top, scale, width_pt, panel_width_pt)
+    top -= SCALE_ROW_PT
+
+    side_view = None
+    if side is not None:
+        group.add(String(MARGIN_PT, _baseline(top - 11), "Side view — x right, z up, same scale",
+                         fontName=FONT_BOLD, fontSize=9.5, fillColor=INK))
+        top -= SIDE_HEADING_PT + 12
+        side_view = _View(panel_left_pt, top - side_height_pt, panel_width_pt, side_height_pt,
+                          top_view.across_min_mm, side[0] - SIDE_PAD_PT / scale, scale)
+        _side_view(group, side_view, drawn, placed, step_mm)
+        top -= side_height_pt + TICK_ROW_PT
+
+    top -= GAP_PT
+    _draw_legend(group, legend, MARGIN_PT, top, width_pt)
+    top -= _legend_height(legend)
+    for line in note_lines:
+        group.add(String(MARGIN_PT, _baseline(top - 9), line, fontName=FONT_ITALIC, fontSize=8, fillColor=INK))
+        top -= NOTE_LINE_PT
+    drawing.add(group)
+
+    drawing.layout = PlacementLayout(
+        scale_pt_per_mm=scale,
+        scale_bar_mm=scale_bar_mm,
+        frequency_mhz=frequency_mhz,
+        near_field_radius_mm=near_field_mm,
+        quarter_wave_mm=quarter_wave_mm,
+        top_view_origin_pt=top_view.pt(0.0, 0.0),
+        side_view_origin_pt=side_view.pt(0.0, 0.0) if side_view is not None else None,
+        enclosure_given=design.enclosure_size_mm is not None,
+        placed=tuple(antenna.name for antenna in placed),
+        unplaced=tuple(unplaced),
+        pairs=tuple(pairs),
+        title=f"Antenna placement of {design.product_name}",
+        description=_description(design, placed, pairs, frequency_mhz, near_field_mm, quarter_wave_mm,
+                                 side is not None),
+    )
+    return drawing
+
+
+# -- SVG for the page ---------------------------------------------------------------------------------------
+
+_SVG_FAMILY = "Helvetica, Arial, sans-serif"
+_SVG_FONTS = {
+    FONT: {"family": _SVG_FAMILY},
+    FONT_BOLD: {"family": _SVG_FAMILY, "weight": "bold"},
+    FONT_ITALIC: {"family": _SVG_FAMILY, "style": "italic"},
+}
+
+
+class _ExactColourSVGCanvas(renderSVG.SVGCanvas):
+    """The stock canvas writes each colour channel as a whole percent (#b3261e becomes rgb(70%,14%,11%)),
+    so the page would drift from the palette and from the PDF; this one writes #rrggbb."""
+
+    @staticmethod
+    def _hex(colour: colors.Color) -> str:
+        return "#" + "".join(f"{round(channel * 255):02x}" for channel in (colour.red, colour.green, colour.blue))
+
+    def setStrokeColor(self, color: colors.Color | None) -> None:
+        super().setStrokeColor(color)
+        if color is not None:
+            self.style["stroke"] = self._hex(color)
+
+    def setFillColor(self, color: colors.Color | None) -> None:
+        super().setFillColor(color)
+        if color is not None:
+            self.style["fill"] = self._hex(color)
+
+
+def _clean_prefix(id_prefix: str) -> str:
+    prefix = re.sub(r"[^A-Za-z0-9_-]+", "-", id_prefix).strip("-")
+    return prefix if prefix[:1].isalpha() else f"p-{prefix}".rstrip("-")
+
+
+def placement_svg(design: Design, *, pair_severities: Mapping[frozenset[str], str], frequency_mhz: float,
+                  width_pt: float = 640, id_prefix: str = "placement") -> str:
+    """The placement drawing as a standalone <svg> element to inline in HTML.
+
+    It has role="img" and is labelled by its <title> and <desc> (a sentence listing the antennas, their
+    positions, pair distances and findings, and the circle radii). Every id starts with `id_prefix`, so
+    two drawings can share a page; it scales to its container, at most its natural width.
+    """
+    drawing = placement_drawing(design, pair_severities=pair_severities, frequency_mhz=frequency_mhz,
+                                width_pt=width_pt)
+    layout: PlacementLayout = drawing.layout
+    canvas = _ExactColourSVGCanvas((drawing.width, drawing.height),
+                                   fontHacks={font: dict(attrs) for font, attrs in _SVG_FONTS.items()})
+    renderSVG.draw(drawing, canvas, 0, 0, showBoundary=False)
+    prefix = _clean_prefix(id_prefix)
+    svg = canvas.svg
+
+    elements = [svg, *svg.getElementsByTagName("*")]
+    renamed = {}
+    for element in elements:
+        if element.hasAttribute("id"):
+            renamed[element.getAttribute("id")] = f"{prefix}-{element.getAttribute('id')}"
+            element.setAttribute("id", renamed[element.getAttribute("id")])
+    for element in elements:
+        for attribute in ("style", "clip-path", "mask", "fill", "href", "xlink:href"):
+            if element.hasAttribute(attribute):
+                value = element.getAttribute(attribute)
+                for old, new in renamed.items():
+                    value = value.replace(f"url(#{old})", f"url(#{new})")
+                    if value == f"#{old}":
+                        value = f"#{new}"
+                element.setAttribute(attribute, value)
+
+    for tag, text in (("title", layout.title), ("desc", layout.description)):
+        node = svg.getElementsByTagName(tag)[0]
+        node.setAttribute("id", f"{prefix}-{tag}")
+        for child in list(node.childNodes):
+            node.removeChild(child)
+        node.appendChild(canvas.doc.createTextNode(text))
+
+    svg.removeAttribute("height")
+    svg.setAttribute("width", "100%")
+    svg.setAttribute("viewBox", f"0 0 {drawing.width:g} {drawing.height:g}")
+    svg.setAttribute("style", f"max-width: {drawing.width:g}px; height: auto;")
+    svg.setAttribute("role", "img")
+    svg.setAttribute("aria-labelledby", f"{prefix}-title {prefix}-desc")
+    return svg.toxml()

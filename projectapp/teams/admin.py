@@ -1,0 +1,24 @@
+from django.contrib import admin
+
+from projectapp.teams.models import Membership, Team
+
+
+class MembershipInline(admin.TabularInline):
+    model = Membership
+    extra = 1
+    autocomplete_fields = ["user"]
+
+
+@admin.register(Team)
+class TeamAdmin(admin.ModelAdmin):
+    list_display = ["name", "created_at"]
+    search_fields = ["name"]
+    inlines = [MembershipInline]
+
+
+@admin.register(Membership)
+class MembershipAdmin(admin.ModelAdmin):
+    list_display = ["user", "team", "role"]
+    list_filter = ["team", "role"]
+    search_fields = ["user__username", "team__name"]
+    autocomplete_fields = ["user", "team"]
