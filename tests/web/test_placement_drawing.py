@@ -1,0 +1,326 @@
+"""The placement drawing (projectapp/figures/placement.py): what the SVG and the PDF show, checked against
+rules.physics and the rules' own findings rather than against pictures."""
+
+import dataclasses
+import math
+import re
+import xml.etree.ElementTree as ET
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+from reportlab.graphics import renderPDF
+from reportlab.lib.pagesizes import A4
+from reportlab.platypus import SimpleDocTemplate
+
+from projectapp.figures import placement
+from projectapp.figures.placement import pair_severities_from_findings, placement_drawing, placement_svg
+from rules import physics
+from rules.design import parse_design
+from rules.evaluate import evaluate
+from tests.rules.design_builders import antenna, design
+
+SVG = "{http://www.w3.org/2000/svg}"
+# TS 36.101 Table 5.5-1: B20 DL starts at 791 MHz, the lowest edge of B3/B8/B20.
+# c = 299 792 458 m/s: lambda = 379.004 mm; lambda/2pi = 60.320 mm (Wheeler 1959); lambda/4 = 94.751 mm.
+LOWEST_MHZ = 791.0
+NEAR_FIELD_MM = 60.320
+QUARTER_WAVE_MM = 94.751
+BLOCKER, WARNING, NOTE, NO_FINDING = "#b3261e", "#b26a00", "#3d5a80", "#2e7d4f"  # the app's palette
+
+
+def unplaced(name: str, role: str = "receive") -> dict:
+    document = antenna(name, role)
+    del document["position_mm"]
+    return document
+
+
+def contract_pair(second_position=(75, 20, 10), second_polarization=(1, 0, 0), **extra) -> dict:
+    """The contract's Cat 1 pair on B3/B8/B20: MAIN at [20, 20, 10] and DIV beside it, both along x."""
+    return design("cat-1", antennas=[antenna("MAIN", position=(20, 20, 10)),
+                                     antenna("DIV", "receive", position=second_position,
+                                             polarization=second_polarization)], **extra)
+
+
+def render(document: dict, width_pt: float = 640, id_prefix: str = "placement"):
+    """Parses and evaluates the document, colours pairs by its findings; returns (svg root, text, layout)."""
+    parsed = parse_design(document)
+    severities = pair_severities_from_findings(evaluate(parsed).findings)
+    options = {"pair_severities": severities, "frequency_mhz": parsed.lowest_mhz, "width_pt": width_pt}
+    layout = placement_drawing(parsed, **options).layout
+    text = placement_svg(parsed, **options, id_prefix=id_prefix)
+    return ET.fromstring(text), text, layout
+
+
+def style(element: ET.Element) -> dict[str, str]:
+    return {key.strip(): value.strip() for key, _, value in
+            (item.partition(":") for item in element.get("style", "").split(";") if ":" in item)}
+
+
+def texts(root: ET.Element) -> list[str]:
+    return [element.text or "" for element in root.iter(f"{SVG}text")]
+
+
+def lines_between(root: ET.Element, start: tuple[float, float], end: tuple[float, float]) -> list[ET.Element]:
+    """SVG paths drawn as a straight line from start to end (either way round), in drawing points."""
+    found = []
+    for path in root.iter(f"{SVG}path"):
+        numbers = [float(value) for value in re.findall(r"-?\d+(?:\.\d+)?(?:e-?\d+)?", path.get("d", ""))]
+        if len(numbers) != 4:
+            continue
+        points = [(numbers[0], numbers[1]), (numbers[2], numbers[3])]
+        if {tuple(round(v, 1) for v in p) for p in points} == {tuple(round(v, 1) for v in p) for p in (start, end)}:
+            found.append(path)
+    return found
+
+
+def circles(root: ET.Element) -> list[tuple[float, float, float, dict[str, str]]]:
+    return [(float(c.get("cx")), float(c.get("cy")), float(c.get("r")), style(c)) for c in root.iter(f"{SVG}circle")]
+
+
+def test_the_svg_is_an_inline_image_labelled_by_its_title_and_description():
+    root, text, layout = render(contract_pair(), id_prefix="contract")
+    assert text.startswith("<svg") and "<?xml" not in text and "DOCTYPE" not in text
+    assert root.tag == f"{SVG}svg"
+    assert root.get("role") == "img"
+    assert root.get("aria-labelledby") == "contract-title contract-desc"
+    title = root.find(f"{SVG}title")
+    desc = root.find(f"{SVG}desc")
+    assert title.get("id") == "contract-title" and title.text == "Antenna placement of Test widget"
+    assert desc.get("id") == "contract-desc"
+    assert "MAIN (main, internal) at x 20, y 20, z 10 mm, polarized along x" in desc.text
+    assert "DIV (receive, internal) at x 75, y 20, z 10 mm" in desc.text
+    assert "MAIN to DIV 55 mm apart, blocker" in desc.text
+    assert "λ/2π = 60.3 mm" in desc.text and "λ/4 = 94.8 mm" in desc.text and "791 MHz" in desc.text
+    # Scales with its container: no fixed height, the natural width only as a maximum.
+    assert root.get("height") is None and root.get("width") == "100%"
+    width, height = (float(value) for value in root.get("viewBox").split()[2:])
+    assert width == 640 and height == math.ceil(height) > 300
+    assert "max-width: 640px" in root.get("style")
+
+
+def test_it_draws_the_near_field_and_quarter_wave_circles_at_the_layout_scale():
+    root, _, layout = render(contract_pair())
+    assert layout.near_field_radius_mm == pytest.approx(NEAR_FIELD_MM, abs=1e-3)
+    assert layout.quarter_wave_mm == pytest.approx(QUARTER_WAVE_MM, abs=1e-3)
+    scale = layout.scale_pt_per_mm
+    centres = {layout.top_view_pt(20, 20), layout.top_view_pt(75, 20)}
+    near = [c for c in circles(root) if c[2] == pytest.approx(physics.near_field_radius_mm(LOWEST_MHZ) * scale)]
+    quarter = [c for c in circles(root) if c[2] == pytest.approx(physics.quarter_wave_mm(LOWEST_MHZ) * scale)]
+    assert len(near) == len(quarter) == 2
+    for found in (near, quarter):
+        assert sorted((round(x, 3), round(y, 3)) for x, y, _, _ in found) == sorted(
+            (round(x, 3), round(y, 3)) for x, y in centres)
+    # Told apart by their dash patterns: dashed near field, dotted quarter wave.
+    assert near[0][3]["stroke-dasharray"] != quarter[0][3]["stroke-dasharray"]
+    assert "λ/2π = 60.3 mm at 791 MHz" in texts(root)
+    assert "λ/4 = 94.8 mm at 791 MHz" in texts(root)
+
+
+def test_a_copolarized_pair_55_mm_apart_at_791_mhz_is_joined_in_the_blocker_colour():
+    # 55 mm < lambda/2pi = 60.3 mm, both along x: blocker by the severity policy (design.md).
+    root, _, layout = render(contract_pair())
+    assert [(pair.first, pair.second, pair.severity) for pair in layout.pairs] == [("MAIN", "DIV", "blocker")]
+    assert layout.pairs[0].distance_mm == pytest.approx(55.0)
+    [line] = lines_between(root, layout.top_view_pt(20, 20), layout.top_view_pt(75, 20))
+    assert style(line)["stroke"] == BLOCKER
+    assert "55 mm" in texts(root)
+
+
+def test_a_crosspolarized_pair_75_mm_apart_is_joined_in_the_note_colour():
+    # 60.3 mm < 75 mm < lambda/4 = 94.8 mm with x against y (90 degrees): note by the severity policy.
+    root, _, layout = render(contract_pair(second_position=(95, 20, 10), second_polarization=(0, 1, 0)))
+    [line] = lines_between(root, layout.top_view_pt(20, 20), layout.top_view_pt(95, 20))
+    assert style(line)["stroke"] == NOTE
+    assert "75 mm" in texts(root)
+
+
+def test_a_pair_without_a_finding_is_joined_in_the_ok_colour():
+    # 110 mm is beyond lambda/4 = 94.8 mm: SEP-001 says nothing about the pair.
+    root, _, layout = render(contract_pair(second_position=(130, 20, 10)))
+    assert layout.pairs[0].severity is None
+    [line] = lines_between(root, layout.top_view_pt(20, 20), layout.top_view_pt(130, 20))
+    assert style(line)["stroke"] == NO_FINDING
+    assert {"blocker", "warning", "note", "no finding"} <= set(texts(root))
+
+
+def test_pair_severities_keep_the_worst_separation_finding_per_pair_from_findings_or_their_dicts():
+    parsed = parse_design(design("cat-1", antennas=[
+        antenna("MAIN", position=(20, 20, 10)),
+        antenna("DIV", "receive", position=(75, 20, 10)),  # 55 mm, co-polarized: blocker
+        antenna("AUX", "receive", position=(20, 100, 10), polarization=(0, 1, 0)),  # 80 mm from MAIN, cross: note
+        unplaced("SPARE"),  # SEP-002 names it alone: no pair
+    ]))
+    findings = evaluate(parsed).findings
+    expected = {frozenset({"MAIN", "DIV"}): "blocker", frozenset({"MAIN", "AUX"}): "note"}
+    assert {f.id for f in findings if f.topic == "separation"} == {"SEP-001", "SEP-002"}
+    assert pair_severities_from_findings(findings) == expected
+    assert pair_severities_from_findings([finding.as_dict() for finding in findings]) == expected
+    blocker = next(f for f in findings if f.subjects == ("MAIN", "DIV"))
+    milder = dataclasses.replace(blocker, severity="warning", subjects=("DIV", "MAIN"))
+    assert pair_severities_from_findings([milder, blocker])[frozenset({"MAIN", "DIV"})] == "blocker"
+    assert pair_severities_from_findings([milder]) == {frozenset({"MAIN", "DIV"}): "warning"}
+
+
+def test_the_side_view_appears_only_when_the_antennas_sit_at_different_heights():
+    flat_root, _, flat = render(contract_pair())
+    assert not flat.has_side_view
+    assert not any(text.startswith("Side view") for text in texts(flat_root))
+
+    root, _, layout = render(contract_pair(second_position=(75, 20, 25)))
+    assert layout.has_side_view
+    assert any(text.startswith("Side view") for text in texts(root))
+    assert "enclosure height 30 mm" in texts(root)
+    # The side view keeps the top view's scale and x positions.
+    assert layout.side_view_pt(20, 10)[0] == pytest.approx(layout.top_view_pt(20, 20)[0])
+    assert layout.side_view_pt(75, 25)[1] - layout.side_view_pt(75, 10)[1] == pytest.approx(
+        15 * layout.scale_pt_per_mm)
+    assert float(root.get("viewBox").split()[3]) > float(flat_root.get("viewBox").split()[3])
+
+
+def test_a_design_without_antennas_renders_an_empty_layout():
+    root, _, layout = render(design(antennas=[]))
+    assert layout.placed == () and layout.pairs == ()
+    assert "No antennas in this design" in texts(root)
+    assert "ground plane 130 × 80 mm" in texts(root)
+    assert "The design has no antennas." in root.find(f"{SVG}desc").text
+
+
+def test_antennas_without_positions_are_listed_as_not_placed():
+    root, _, layout = render(design("cat-1", antennas=[antenna("MAIN", position=(20, 20, 10)), unplaced("ANT3")]))
+    assert layout.placed == ("MAIN",) and layout.unplaced == ("ANT3",)
+    assert any(text.startswith("not placed: ANT3") for text in texts(root))
+    assert "ANT3 (receive, internal) is not placed" in root.find(f"{SVG}desc").text
+
+    root, _, layout = render(design("cat-1", antennas=[unplaced("A", "main"), unplaced("B")], enclosure=None))
+    assert "No antenna has a position yet" in texts(root)
+    assert any(text.startswith("not placed: A, B") for text in texts(root))
+
+
+def test_without_an_enclosure_size_a_box_is_fitted_and_labelled():
+    root, _, layout = render(contract_pair(enclosure=None))
+    assert not layout.enclosure_given
+    assert "enclosure size not given" in texts(root)
+    assert "The enclosure size is not given." in root.find(f"{SVG}desc").text
+
+
+def test_polarization_out_of_the_view_is_a_ring_around_the_marker_and_in_the_view_an_arrow():
+    root, _, layout = render(contract_pair(second_position=(130, 20, 10), second_polarization=(0, 0, 1)))
+    rings = [(x, y) for x, y, r, _ in circles(root) if r == placement.OUT_OF_PLANE_RING_PT]
+    div = layout.top_view_pt(130, 20)
+    main = layout.top_view_pt(20, 20)
+    assert any(math.dist(ring, div) < 0.01 for ring in rings)
+    assert not any(math.dist(ring, main) < 0.01 for ring in rings)
+    # MAIN lies along x: a double-ended arrow, its two heads at the same height either side of the feed.
+    heads = [polygon for polygon in root.iter(f"{SVG}polygon") if len(polygon.get("points").split(",")) == 3]
+    tips = [tuple(float(v) for v in polygon.get("points").split(",")[0].split()) for polygon in heads]
+    assert any(math.dist(tip, (main[0] + placement.ARROW_HALF_PT, main[1])) < 0.01 for tip in tips)
+    assert any(math.dist(tip, (main[0] - placement.ARROW_HALF_PT, main[1])) < 0.01 for tip in tips)
+
+
+def test_the_scale_bar_is_a_round_length_near_a_quarter_of_the_width():
+    root, _, layout = render(contract_pair())
+    bar_mm = layout.scale_bar_mm
+    mantissa = bar_mm / 10 ** math.floor(math.log10(bar_mm))
+    assert round(mantissa, 6) in (1, 2, 5)
+    assert 0.25 * 640 / 1.6 <= bar_mm * layout.scale_pt_per_mm <= 0.25 * 640 * 1.6
+    assert f"{bar_mm:g} mm" in texts(root)
+    assert "Placement — top view, judged at 791 MHz" in texts(root)
+
+
+def test_ids_carry_the_prefix_so_two_drawings_can_share_a_page():
+    first, _, _ = render(contract_pair(), id_prefix="rev 1")
+    second, _, _ = render(contract_pair(second_position=(75, 20, 25)), id_prefix="rev-2")
+    ids = []
+    for root, prefix in ((first, "rev-1-"), (second, "rev-2-")):
+        own = [element.get("id") for element in root.iter() if element.get("id")]
+        assert own and all(value.startswith(prefix) for value in own)
+        references = re.findall(r"url\(#([^)]+)\)", ET.tostring(root, encoding="unicode"))
+        assert references and set(references) <= set(own)
+        ids += own
+    assert len(ids) == len(set(ids))
+
+
+@pytest.mark.parametrize("document", [
+    contract_pair(),
+    contract_pair(second_position=(-40, -70, 3), enclosure=None),  # negative coordinates
+    contract_pair(enclosure={"size_mm": [4000, 2500, 900]}, ground_plane_mm=[3000, 2000]),  # huge
+    contract_pair(enclosure={"size_mm": [6, 4, 2]}, ground_plane_mm=[5, 3]),  # small
+    design("cat-1", antennas=[antenna(name, position=(-5, 7, 1)) for name in ("A", "B", "C")]),  # one spot
+    design(antennas=[antenna("ONLY", position=(60, 40, 12), polarization=(1, 1, 1))]),  # one antenna
+], ids=["contract", "negative", "huge", "small", "same-spot", "one"])
+def test_everything_fits_inside_the_drawing(document):
+    root, _, layout = render(document, width_pt=480)
+    width, height = (float(value) for value in root.get("viewBox").split()[2:])
+    assert width == 480
+    for x, y, r, _ in circles(root):
+        assert -0.01 <= x - r and x + r <= width + 0.01
+        assert -0.01 <= y - r and y + r <= height + 0.01
+    for name in layout.placed:
+        assert name in texts(root)
+
+
+def test_it_renders_into_a_pdf_and_fits_a_page_frame(tmp_path):
+    parsed = parse_design(contract_pair(second_position=(75, 20, 25)))
+    severities = pair_severities_from_findings(evaluate(parsed).findings)
+    drawing = placement_drawing(parsed, pair_severities=severities, frequency_mhz=parsed.lowest_mhz)
+    path = tmp_path / "placement.pdf"
+    renderPDF.drawToFile(drawing, str(path))
+    assert path.read_bytes().startswith(b"%PDF")
+
+    document = SimpleDocTemplate(str(tmp_path / "record.pdf"), pagesize=A4)
+    framed = placement_drawing(parsed, pair_severities=severities, frequency_mhz=parsed.lowest_mhz,
+                               width_pt=document.width, max_height_pt=document.height - 12)
+    assert framed.height <= document.height - 12 and framed.scale_pt_per_mm < drawing.scale_pt_per_mm
+    document.build([framed])
+    assert (tmp_path / "record.pdf").read_bytes().startswith(b"%PDF")
+
+
+def test_it_refuses_an_unknown_severity_or_a_frequency_that_is_not_positive():
+    parsed = parse_design(contract_pair())
+    with pytest.raises(ValueError, match="unknown severity 'fatal'"):
+        placement_drawing(parsed, pair_severities={frozenset({"MAIN", "DIV"}): "fatal"}, frequency_mhz=791)
+    with pytest.raises(ValueError, match="frequency_mhz"):
+        placement_drawing(parsed, pair_severities={}, frequency_mhz=0)
+
+
+coordinate = st.floats(min_value=-1e7, max_value=1e7, allow_nan=False, allow_infinity=False)
+size = st.floats(min_value=1e-3, max_value=1e7, allow_nan=False, allow_infinity=False)
+axis = st.lists(st.integers(-3, 3), min_size=3, max_size=3).filter(any)
+
+
+@st.composite
+def designs(draw) -> dict:
+    antennas = []
+    for index in range(draw(st.integers(0, 5))):
+        document = antenna(f"ANT{index}", draw(st.sampled_from(["main", "receive"])),
+                           mounting=draw(st.sampled_from(["internal", "external"])))
+        position = draw(st.none() | st.tuples(coordinate, coordinate, coordinate))
+        if position is None:
+            del document["position_mm"]
+        else:
+            document["position_mm"] = list(position)
+        polarization = draw(st.none() | axis)
+        if polarization is None:
+            del document["polarization"]
+        else:
+            document["polarization"] = polarization
+        antennas.append(document)
+    enclosure = draw(st.none() | st.tuples(size, size, size))
+    ground = draw(st.none() | st.tuples(size, size))
+    return design("cat-1", bands=draw(st.sampled_from([["B20"], ["B3"], ["B1", "B7"]])), antennas=antennas,
+                  enclosure=None if enclosure is None else {"size_mm": list(enclosure)},
+                  ground_plane_mm=None if ground is None else list(ground))
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(designs())
+def test_any_valid_design_renders_a_parseable_svg_with_every_antenna_named(document):
+    root, _, layout = render(document)
+    names = [item["name"] for item in document["antennas"]]
+    assert set(layout.placed) | set(layout.unplaced) == set(names)
+    description = root.find(f"{SVG}desc").text
+    assert all(name in description for name in names)
+    width, height = (float(value) for value in root.get("viewBox").split()[2:])
+    assert all(math.isfinite(value) for x, y, r, _ in circles(root) for value in (x, y, r))
+    assert all(0 <= x <= width and 0 <= y <= height for x, y, _, _ in circles(root))
