@@ -25,6 +25,7 @@ INSTALLED_APPS = [
     "django_htmx",
     "projectapp.teams",
     "projectapp.designs",
+    "projectapp.reviews",
 ]
 
 MIDDLEWARE = [

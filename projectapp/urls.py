@@ -9,4 +9,5 @@ urlpatterns = [
     path("accounts/password/done/", auth_views.PasswordChangeDoneView.as_view(), name="password_change_done"),
     path("admin/", admin.site.urls),
     path("", include("projectapp.designs.urls")),
+    path("", include("projectapp.reviews.urls")),
 ]

@@ -2,7 +2,14 @@
 
 import os
 
+import pytest
 from hypothesis import settings
 
 settings.register_profile("earshot", database=None, print_blob=True)
 settings.load_profile(os.environ.get("HYPOTHESIS_PROFILE", "earshot"))
+
+
+@pytest.fixture(autouse=True)
+def fast_password_hashing(settings):
+    """Real hashing is deliberately slow; tests log people in hundreds of times."""
+    settings.PASSWORD_HASHERS = ["django.contrib.auth.hashers.MD5PasswordHasher"]

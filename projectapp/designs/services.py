@@ -9,6 +9,7 @@ from django.utils import timezone
 
 from projectapp.designs.checklists import measurement_reader
 from projectapp.designs.models import MeasurementFile, Product, Revision
+from projectapp.reviews.services import review_items_create
 from projectapp.teams.access import require_role
 from projectapp.teams.models import Role, Team
 from rules.design import FORMAT, DesignError, Problem, decode_design_text, parse_design
@@ -89,6 +90,7 @@ def revision_submit(*, revision: Revision, user) -> Revision:
     revision.submitted_by = user
     revision.submitted_at = timezone.now()
     revision.save()
+    review_items_create(revision=revision, user=user)
     return revision
 
 

@@ -70,3 +70,8 @@ def submitted_product(team, author):
                            source="orchard-probe.json", user=author)
     services.revision_submit(revision=product.draft, user=author)
     return product
+
+
+@pytest.fixture
+def approver(team):
+    return make_user("approver", team, Role.APPROVER)

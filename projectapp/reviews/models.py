@@ -1,0 +1,125 @@
+"""Review of a submitted revision: one item per finding, its disposition, comments, and the audit trail.
+
+An item carries its finding as submitted (the frozen checklist entry) and what the team decided about
+it. Items are matched across revisions by rule id and subjects, so a decision carries forward to the
+next revision until someone confirms it. The audit trail is append-only: the model refuses changes.
+"""
+
+from django.conf import settings
+from django.db import models
+from django.urls import reverse
+
+from projectapp.designs.models import Product, Revision
+
+
+class Disposition(models.TextChoices):
+    OPEN = "open", "Open"
+    CHANGE = "change", "Will change the design"
+    WAIVED = "waived", "Accepted risk (waiver)"
+    NOT_APPLICABLE = "not-applicable", "Not applicable"
+    DISCUSSION = "discussion", "Needs discussion"
+
+
+# Dispositions that settle an item (a warning or note needs one of these before sign-off).
+SETTLED = (Disposition.CHANGE, Disposition.WAIVED, Disposition.NOT_APPLICABLE)
+NEEDS_JUSTIFICATION = (Disposition.WAIVED, Disposition.NOT_APPLICABLE)
+
+
+class ReviewItem(models.Model):
+    class Kind(models.TextChoices):
+        RAISED = "raised", "Raised by this revision"
+        RESOLVED = "resolved", "Resolved by this revision"
+
+    revision = models.ForeignKey(Revision, on_delete=models.PROTECT, related_name="review_items")
+    kind = models.CharField(max_length=10, choices=Kind.choices, default=Kind.RAISED)
+    rule_id = models.CharField(max_length=16)
+    subjects_key = models.CharField(max_length=300)  # subjects joined with "|": the item's identity with rule_id
+    topic = models.CharField(max_length=24)
+    severity = models.CharField(max_length=10)
+    title = models.CharField(max_length=300)
+    finding = models.JSONField()  # the checklist entry as submitted (earshot-checklist/1 finding)
+    disposition = models.CharField(max_length=16, choices=Disposition.choices, default=Disposition.OPEN)
+    justification = models.TextField(blank=True)
+    decided_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
+                                   related_name="+")
+    decided_at = models.DateTimeField(null=True, blank=True)
+    assignee = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
+                                 related_name="review_items")
+    carried_from = models.ForeignKey(Revision, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
+    carried_confirmed = models.BooleanField(default=False)
+    version = models.PositiveIntegerField(default=1)  # optimistic locking: a save names the version it read
+    updated_at = models.DateTimeField(auto_now=True)
+
+    class Meta:
+        ordering = ["revision", "kind", "id"]
+        constraints = [
+            models.UniqueConstraint(fields=["revision", "kind", "rule_id", "subjects_key"], name="one_item_per_finding"),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.rule_id} {self.subjects_key or '—'} (revision {self.revision.number})"
+
+    def get_absolute_url(self) -> str:
+        return reverse("review_item", args=[self.pk])
+
+    @property
+    def subjects(self) -> list[str]:
+        return list(self.finding.get("subjects", []))
+
+    @property
+    def is_carried_unconfirmed(self) -> bool:
+        return self.carried_from_id is not None and not self.carried_confirmed
+
+    @property
+    def is_settled(self) -> bool:
+        return self.disposition in SETTLED and not self.is_carried_unconfirmed
+
+
+class Comment(models.Model):
+    item = models.ForeignKey(ReviewItem, on_delete=models.PROTECT, related_name="comments")
+    author = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
+    text = models.TextField()
+    created_at = models.DateTimeField(auto_now_add=True)
+
+    class Meta:
+        ordering = ["created_at", "id"]
+
+    def __str__(self) -> str:
+        return f"comment by {self.author} on {self.item}"
+
+
+class AppendOnlyError(RuntimeError):
+    """The audit trail can't be edited or deleted."""
+
+
+class AuditEvent(models.Model):
+    class Action(models.TextChoices):
+        SUBMITTED = "submitted", "Submitted a revision"
+        DISPOSITION = "disposition", "Recorded a disposition"
+        WAIVER = "waiver", "Granted a waiver"
+        CONFIRMED = "confirmed", "Confirmed a carried disposition"
+        COMMENT = "comment", "Commented"
+        ASSIGNED = "assigned", "Assigned"
+
+    product = models.ForeignKey(Product, on_delete=models.PROTECT, related_name="audit_events")
+    revision = models.ForeignKey(Revision, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
+    item = models.ForeignKey(ReviewItem, on_delete=models.PROTECT, null=True, blank=True, related_name="audit_events")
+    actor = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
+    action = models.CharField(max_length=16, choices=Action.choices)
+    summary = models.CharField(max_length=300)
+    changes = models.JSONField(default=dict)  # {"field": [before, after], ...}
+    created_at = models.DateTimeField(auto_now_add=True)
+
+    class Meta:
+        ordering = ["-created_at", "-id"]
+
+    def __str__(self) -> str:
+        return f"{self.created_at:%Y-%m-%d %H:%M} {self.actor}: {self.summary}"
+
+    def save(self, *args, **kwargs):
+        if self.pk is not None:
+            raise AppendOnlyError("audit events are never changed")
+        super().save(*args, **kwargs)
+
+    def delete(self, *args, **kwargs):
+        raise AppendOnlyError("audit events are never deleted")

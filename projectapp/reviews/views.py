@@ -1,0 +1,247 @@
+"""Review views: the dashboard and queues, a revision's items, one item, the audit trail, comparison.
+
+Item forms post to small endpoints; htmx swaps the item's card in place, and without JavaScript the
+endpoint redirects back to the page the form was on.
+"""
+
+from django.contrib import messages
+from django.contrib.auth.decorators import login_required
+from django.db.models import Count, Q
+from django.shortcuts import get_object_or_404, redirect, render
+from django.utils.http import url_has_allowed_host_and_scheme
+from django.views.decorators.http import require_GET, require_POST
+
+from projectapp.designs.access import get_product_for_user, get_revision_for_user, products_for
+from projectapp.reviews import services
+from projectapp.reviews.comparison import compare_revisions
+from projectapp.reviews.forms import AssignForm, CommentForm, ConfirmForm, DecisionForm
+from projectapp.reviews.models import AuditEvent, Disposition, ReviewItem
+from projectapp.teams.access import teams_of
+from rules.findings import SEVERITIES, TOPICS
+
+OPEN_FILTER = (Q(disposition__in=[Disposition.OPEN, Disposition.DISCUSSION])
+               | Q(carried_from__isnull=False, carried_confirmed=False))
+
+
+def items_for(user):
+    return (ReviewItem.objects.filter(revision__product__team__in=teams_of(user))
+            .select_related("revision__product__team", "assignee", "decided_by", "carried_from"))
+
+
+def get_item_for_user(user, item_id: int) -> ReviewItem:
+    return get_object_or_404(items_for(user), pk=item_id)
+
+
+def current_review_revisions(user):
+    """Each product's latest submitted revision: the one under review."""
+    latest = []
+    for product in products_for(user):
+        revision = product.latest_submitted
+        if revision is not None:
+            latest.append(revision.pk)
+    return latest
+
+
+@login_required
+@require_GET
+def dashboard(request):
+    base = items_for(request.user).filter(revision__in=current_review_revisions(request.user),
+                                          kind=ReviewItem.Kind.RAISED)
+    filters = {key: request.GET.get(key, "") for key in ("product", "severity", "topic", "assignee", "state")}
+    if not filters["state"]:
+        filters["state"] = "open"
+    items = base
+    if filters["state"] == "open":
+        items = items.filter(OPEN_FILTER)
+    if filters["product"].isdigit():
+        items = items.filter(revision__product_id=int(filters["product"]))
+    if filters["severity"] in SEVERITIES:
+        items = items.filter(severity=filters["severity"])
+    if filters["topic"] in TOPICS:
+        items = items.filter(topic=filters["topic"])
+    if filters["assignee"] == "me":
+        items = items.filter(assignee=request.user)
+    elif filters["assignee"] == "nobody":
+        items = items.filter(assignee__isnull=True)
+    elif filters["assignee"].isdigit():
+        items = items.filter(assignee_id=int(filters["assignee"]))
+    severity_rank = {severity: index for index, severity in enumerate(SEVERITIES)}
+    ordered = sorted(items, key=lambda item: (severity_rank.get(item.severity, 9), item.revision.product.name,
+                                              TOPICS.index(item.topic) if item.topic in TOPICS else 99, item.pk))
+    open_items = base.filter(OPEN_FILTER)
+    context = {
+        "items": ordered,
+        "filters": filters,
+        "my_open": open_items.filter(assignee=request.user).count(),
+        "by_product": open_items.values("revision__product_id", "revision__product__name")
+        .annotate(n=Count("id")).order_by("revision__product__name"),
+        "by_severity": open_items.values("severity").annotate(n=Count("id")).order_by("severity"),
+        "by_topic": open_items.values("topic").annotate(n=Count("id")).order_by("topic"),
+        "by_assignee": open_items.values("assignee__username", "assignee_id").annotate(n=Count("id"))
+        .order_by("assignee__username"),
+        "products": products_for(request.user),
+        "severities": SEVERITIES,
+        "topics": TOPICS,
+    }
+    template = "reviews/_dashboard_items.html" if request.htmx else "reviews/dashboard.html"
+    return render(request, template, context)
+
+
+def _card_context(request, item: ReviewItem, **extra) -> dict:
+    people = services.assignable_people(item.revision)
+    return {
+        "item": item,
+        "can_review": services.can_review(request.user, item),
+        "decision_form": extra.pop("decision_form", None) or DecisionForm(initial={
+            "disposition": item.disposition, "justification": item.justification, "version": item.version}),
+        "assign_form": extra.pop("assign_form", None) or AssignForm(
+            people=people, initial={"assignee": item.assignee_id, "version": item.version}),
+        "next": request.POST.get("next") or request.get_full_path(),
+        **extra,
+    }
+
+
+@login_required
+@require_GET
+def revision_review(request, product_id: int, number: int):
+    revision = get_revision_for_user(request.user, product_id, number)
+    items = list(items_for(request.user).filter(revision=revision))
+    severity_rank = {severity: index for index, severity in enumerate(SEVERITIES)}
+    items.sort(key=lambda item: (item.kind, severity_rank.get(item.severity, 9),
+                                 TOPICS.index(item.topic) if item.topic in TOPICS else 99, item.pk))
+    raised = [_card_context(request, item) for item in items if item.kind == ReviewItem.Kind.RAISED]
+    resolved = [item for item in items if item.kind == ReviewItem.Kind.RESOLVED]
+    settled = sum(1 for card in raised if card["item"].is_settled)
+    return render(request, "reviews/revision_review.html", {
+        "product": revision.product, "revision": revision, "cards": raised, "resolved": resolved,
+        "settled": settled, "previous": services._previous_submitted(revision)})
+
+
+@login_required
+@require_GET
+def item_detail(request, item_id: int):
+    item = get_item_for_user(request.user, item_id)
+    return render(request, "reviews/item_detail.html", {
+        **_card_context(request, item),
+        "comments": item.comments.select_related("author"),
+        "comment_form": CommentForm(),
+        "events": item.audit_events.select_related("actor"),
+        "product": item.revision.product,
+        "revision": item.revision,
+    })
+
+
+def _answer(request, item: ReviewItem, *, status: int = 200, **extra):
+    """The item's card for htmx; a redirect back to the form's page otherwise."""
+    if request.htmx:
+        return render(request, "reviews/_item_card.html", _card_context(request, item, **extra), status=status)
+    message = extra.get("conflict_message") or extra.get("error")
+    if message:
+        messages.error(request, message)
+    target = request.POST.get("next", "")
+    if not url_has_allowed_host_and_scheme(target, allowed_hosts={request.get_host()}):
+        target = item.get_absolute_url()
+    return redirect(target)
+
+
+def _conflict_message(current: ReviewItem) -> str:
+    who = current.decided_by.get_full_name() or current.decided_by.username if current.decided_by else "someone"
+    return (f"{who} changed this item while you were editing: it is now '{current.get_disposition_display()}'"
+            + (f" ({current.justification})" if current.justification else "")
+            + (f", assigned to {current.assignee.username}" if current.assignee else "")
+            + ". Your entry is kept in the form; save again to replace theirs.")
+
+
+@login_required
+@require_POST
+def item_decide(request, item_id: int):
+    item = get_item_for_user(request.user, item_id)
+    form = DecisionForm(request.POST)
+    if not form.is_valid():
+        return _answer(request, item, status=400, decision_form=form, error="Choose a disposition.")
+    try:
+        item = services.review_item_decide(item=item, user=request.user, disposition=form.cleaned_data["disposition"],
+                                           justification=form.cleaned_data["justification"],
+                                           expected_version=form.cleaned_data["version"])
+    except services.ReviewConflict as conflict:
+        kept = DecisionForm(initial={**form.cleaned_data, "version": conflict.current.version})
+        return _answer(request, conflict.current, status=409, decision_form=kept,
+                       conflict_message=_conflict_message(conflict.current))
+    except services.ReviewInputError as error:
+        form.add_error(error.field if error.field in form.fields else None, str(error))
+        return _answer(request, item, status=400, decision_form=form, error=str(error))
+    return _answer(request, item, saved=True)
+
+
+@login_required
+@require_POST
+def item_assign(request, item_id: int):
+    item = get_item_for_user(request.user, item_id)
+    form = AssignForm(request.POST, people=services.assignable_people(item.revision))
+    if not form.is_valid():
+        return _answer(request, item, status=400, assign_form=form, error="assignee: expected a reviewer or approver")
+    try:
+        item = services.review_item_assign(item=item, user=request.user, assignee=form.cleaned_data["assignee"],
+                                           expected_version=form.cleaned_data["version"])
+    except services.ReviewConflict as conflict:
+        return _answer(request, conflict.current, status=409, conflict_message=_conflict_message(conflict.current))
+    return _answer(request, item, saved=True)
+
+
+@login_required
+@require_POST
+def item_confirm(request, item_id: int):
+    item = get_item_for_user(request.user, item_id)
+    form = ConfirmForm(request.POST)
+    if not form.is_valid():
+        return _answer(request, item, status=400, error="version: expected the item version you confirmed")
+    try:
+        item = services.review_item_confirm(item=item, user=request.user,
+                                            expected_version=form.cleaned_data["version"])
+    except services.ReviewConflict as conflict:
+        return _answer(request, conflict.current, status=409, conflict_message=_conflict_message(conflict.current))
+    return _answer(request, item, saved=True)
+
+
+@login_required
+@require_POST
+def item_comment(request, item_id: int):
+    item = get_item_for_user(request.user, item_id)
+    form = CommentForm(request.POST)
+    if form.is_valid():
+        try:
+            services.review_item_comment(item=item, user=request.user, text=form.cleaned_data["text"])
+        except services.ReviewInputError as error:
+            messages.error(request, str(error))
+    else:
+        messages.error(request, "text: expected a comment of at most 4000 characters")
+    return redirect(item)
+
+
+@login_required
+@require_GET
+def product_audit(request, product_id: int):
+    product = get_product_for_user(request.user, product_id)
+    events = AuditEvent.objects.filter(product=product).select_related("actor", "revision", "item")
+    return render(request, "reviews/product_audit.html", {"product": product, "events": events})
+
+
+@login_required
+@require_GET
+def revision_compare(request, product_id: int):
+    product = get_product_for_user(request.user, product_id)
+    revisions = list(product.revisions.order_by("number"))
+    numbers = [revision.number for revision in revisions]
+
+    def pick(name: str, default: int | None) -> int | None:
+        raw = request.GET.get(name, "")
+        return int(raw) if raw.isdigit() and int(raw) in numbers else default
+
+    newer = pick("to", numbers[-1] if numbers else None)
+    older = pick("from", numbers[-2] if len(numbers) > 1 else newer)
+    comparison = None
+    if older is not None and newer is not None:
+        by_number = {revision.number: revision for revision in revisions}
+        comparison = compare_revisions(by_number[older], by_number[newer])
+    return render(request, "reviews/compare.html", {"product": product, "numbers": numbers, "older": older,
+                                                    "newer": newer, "comparison": comparison})
