@@ -26,6 +26,7 @@ INSTALLED_APPS = [
     "projectapp.teams",
     "projectapp.designs",
     "projectapp.reviews",
+    "projectapp.signoff",
 ]
 
 MIDDLEWARE = [

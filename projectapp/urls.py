@@ -10,4 +10,5 @@ urlpatterns = [
     path("admin/", admin.site.urls),
     path("", include("projectapp.designs.urls")),
     path("", include("projectapp.reviews.urls")),
+    path("", include("projectapp.signoff.urls")),
 ]

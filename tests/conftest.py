@@ -13,3 +13,9 @@ settings.load_profile(os.environ.get("HYPOTHESIS_PROFILE", "earshot"))
 def fast_password_hashing(settings):
     """Real hashing is deliberately slow; tests log people in hundreds of times."""
     settings.PASSWORD_HASHERS = ["django.contrib.auth.hashers.MD5PasswordHasher"]
+
+
+@pytest.fixture(autouse=True)
+def media_in_tmp(settings, tmp_path):
+    """Uploaded and archived files go to a fresh folder per test, never into the work tree."""
+    settings.MEDIA_ROOT = tmp_path / "media"

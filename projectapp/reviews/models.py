@@ -25,6 +25,25 @@ SETTLED = (Disposition.CHANGE, Disposition.WAIVED, Disposition.NOT_APPLICABLE)
 NEEDS_JUSTIFICATION = (Disposition.WAIVED, Disposition.NOT_APPLICABLE)
 
 
+class SignedRevisionError(RuntimeError):
+    """A review item (or comment) of a revision that is being or has been signed can't change."""
+
+
+def is_signing_started(revision_id: int) -> bool:
+    from projectapp.signoff.models import Signature
+
+    return Signature.objects.filter(revision_id=revision_id).exists()
+
+
+class ReviewItemQuerySet(models.QuerySet):
+    def update(self, **kwargs):
+        from projectapp.signoff.models import Signature
+
+        if Signature.objects.filter(revision__in=self.values("revision")).exists():
+            raise SignedRevisionError("review items of a signed revision are frozen")
+        return super().update(**kwargs)
+
+
 class ReviewItem(models.Model):
     class Kind(models.TextChoices):
         RAISED = "raised", "Raised by this revision"
@@ -50,6 +69,8 @@ class ReviewItem(models.Model):
     version = models.PositiveIntegerField(default=1)  # optimistic locking: a save names the version it read
     updated_at = models.DateTimeField(auto_now=True)
 
+    objects = ReviewItemQuerySet.as_manager()
+
     class Meta:
         ordering = ["revision", "kind", "id"]
         constraints = [
@@ -58,6 +79,11 @@ class ReviewItem(models.Model):
 
     def __str__(self) -> str:
         return f"{self.rule_id} {self.subjects_key or '—'} (revision {self.revision.number})"
+
+    def save(self, *args, **kwargs):
+        if self.revision_id and is_signing_started(self.revision_id):
+            raise SignedRevisionError("review items of a signed revision are frozen")
+        super().save(*args, **kwargs)
 
     def get_absolute_url(self) -> str:
         return reverse("review_item", args=[self.pk])
@@ -87,6 +113,11 @@ class Comment(models.Model):
     def __str__(self) -> str:
         return f"comment by {self.author} on {self.item}"
 
+    def save(self, *args, **kwargs):
+        if is_signing_started(self.item.revision_id):
+            raise SignedRevisionError("the discussion of a signed revision is closed")
+        super().save(*args, **kwargs)
+
 
 class AppendOnlyError(RuntimeError):
     """The audit trail can't be edited or deleted."""
@@ -95,6 +126,8 @@ class AppendOnlyError(RuntimeError):
 class AuditEvent(models.Model):
     class Action(models.TextChoices):
         SUBMITTED = "submitted", "Submitted a revision"
+        SIGNED = "signed", "Signed"
+        ARCHIVED = "archived", "Archived the signed record"
         DISPOSITION = "disposition", "Recorded a disposition"
         WAIVER = "waiver", "Granted a waiver"
         CONFIRMED = "confirmed", "Confirmed a carried disposition"

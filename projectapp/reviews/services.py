@@ -13,7 +13,14 @@ from django.db.models import F
 from django.utils import timezone
 
 from projectapp.designs.models import Revision
-from projectapp.reviews.models import NEEDS_JUSTIFICATION, AuditEvent, Comment, Disposition, ReviewItem
+from projectapp.reviews.models import (
+    NEEDS_JUSTIFICATION,
+    AuditEvent,
+    Comment,
+    Disposition,
+    ReviewItem,
+    is_signing_started,
+)
 from projectapp.teams.access import has_role
 from projectapp.teams.models import Membership, Role
 
@@ -47,6 +54,8 @@ def _require_reviewer(user, item: ReviewItem) -> None:
         raise PermissionDenied("A draft is not under review.")
     if item.kind != ReviewItem.Kind.RAISED:
         raise PermissionDenied("A resolved item needs no decision.")
+    if is_signing_started(item.revision_id):
+        raise PermissionDenied("Signing has started: the review of this revision is frozen.")
 
 
 def _audit(*, item: ReviewItem | None, revision: Revision, user, action: str, summary: str,
@@ -183,6 +192,8 @@ def review_item_comment(*, item: ReviewItem, user, text: str) -> Comment:
     team = item.revision.product.team
     if not Membership.objects.filter(team=team, user=user).exists():
         raise PermissionDenied("Only team members comment.")
+    if is_signing_started(item.revision_id):
+        raise PermissionDenied("Signing has started: the discussion of this revision is closed.")
     text = text.strip()
     if not text:
         raise ReviewInputError("text", "text: expected a comment, got nothing")

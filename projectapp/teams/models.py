@@ -14,15 +14,32 @@ class Role(models.TextChoices):
     APPROVER = "approver", "Approver"
 
 
+def default_signoff_roles() -> list[str]:
+    return [Role.AUTHOR.value, Role.REVIEWER.value, Role.APPROVER.value]
+
+
 class Team(models.Model):
     name = models.CharField(max_length=120, unique=True)
     created_at = models.DateTimeField(auto_now_add=True)
+    # Who must sign a revision before its record is archived, and whether one person may sign for two roles.
+    signoff_roles = models.JSONField(default=default_signoff_roles,
+                                     help_text="Roles that must each sign, from: author, reviewer, approver.")
+    allow_dual_signing = models.BooleanField(default=False,
+                                             help_text="Let one person sign for two required roles.")
 
     class Meta:
         ordering = ["name"]
 
     def __str__(self) -> str:
         return self.name
+
+    def clean(self):
+        from django.core.exceptions import ValidationError
+
+        if not isinstance(self.signoff_roles, list) or not self.signoff_roles \
+                or any(role not in Role.values for role in self.signoff_roles) \
+                or len(set(self.signoff_roles)) != len(self.signoff_roles):
+            raise ValidationError({"signoff_roles": f"expected a list of distinct roles from {Role.values}"})
 
     def roles_of(self, user) -> set[str]:
         return set(self.memberships.filter(user=user).values_list("role", flat=True))

@@ -1,0 +1,7 @@
+from django.apps import AppConfig
+
+
+class SignoffConfig(AppConfig):
+    name = "projectapp.signoff"
+    label = "signoff"
+    verbose_name = "Sign-off and archive"

@@ -1,0 +1,24 @@
+from django import forms
+
+MAX_VERIFY_BYTES = 30_000_000
+
+
+class SignForm(forms.Form):
+    role = forms.ChoiceField(choices=())
+    password = forms.CharField(widget=forms.PasswordInput(attrs={"autocomplete": "current-password"}),
+                               help_text="Re-enter your password to sign.")
+
+    def __init__(self, *args, roles, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.fields["role"].choices = [(role, role) for role in roles]
+
+
+class VerifyForm(forms.Form):
+    pdf = forms.FileField(label="PDF to check", help_text=f"At most {MAX_VERIFY_BYTES // 1_000_000} MB.")
+
+    def clean_pdf(self):
+        upload = self.cleaned_data["pdf"]
+        if upload.size > MAX_VERIFY_BYTES:
+            raise forms.ValidationError(f"pdf: expected at most {MAX_VERIFY_BYTES // 1_000_000} MB, "
+                                        f"got {upload.size / 1_000_000:.1f} MB")
+        return upload

@@ -1,0 +1,309 @@
+"""The signed PDF record of a design revision, built with reportlab.
+
+Cover, design summary, band table, placement drawing (vector), the checklist with every disposition,
+the findings in detail, measurement charts when the revision has measurements, the signatures, and a
+cautions page. Every page carries "page X of Y" and a footer with product, revision and fingerprint;
+tables that split across pages repeat their header.
+"""
+
+import io
+from collections.abc import Sequence
+from typing import Any
+
+from reportlab.lib import colors
+from reportlab.lib.enums import TA_LEFT
+from reportlab.lib.pagesizes import A4
+from reportlab.lib.styles import ParagraphStyle, getSampleStyleSheet
+from reportlab.lib.units import mm
+from reportlab.pdfgen import canvas as pdf_canvas
+from reportlab.platypus import (
+    CondPageBreak,
+    KeepTogether,
+    PageBreak,
+    Paragraph,
+    SimpleDocTemplate,
+    Spacer,
+    Table,
+    TableStyle,
+)
+from reportlab.platypus.flowables import Flowable
+
+from projectapp.designs.checklists import measurement_reader
+from projectapp.designs.models import Revision
+from projectapp.figures.placement import pair_severities_from_findings, placement_drawing
+from projectapp.reviews.models import ReviewItem
+from rules.design import parse_design
+
+INK = colors.HexColor("#1f2a33")
+MUTED = colors.HexColor("#5b6b78")
+LINE = colors.HexColor("#c9d3da")
+HEAD = colors.HexColor("#eef2f4")
+SEVERITY_COLOURS = {"blocker": colors.HexColor("#b3261e"), "warning": colors.HexColor("#b26a00"),
+                    "note": colors.HexColor("#3d5a80")}
+PAGE_WIDTH, PAGE_HEIGHT = A4
+MARGIN = 18 * mm
+FRAME_WIDTH = PAGE_WIDTH - 2 * MARGIN
+
+_styles = getSampleStyleSheet()
+BODY = ParagraphStyle("body", parent=_styles["BodyText"], fontName="Helvetica", fontSize=9, leading=12,
+                      textColor=INK, alignment=TA_LEFT)
+SMALL = ParagraphStyle("small", parent=BODY, fontSize=7.5, leading=9.5, textColor=INK)
+MUTED_SMALL = ParagraphStyle("muted", parent=SMALL, textColor=MUTED)
+H1 = ParagraphStyle("h1", parent=BODY, fontName="Helvetica-Bold", fontSize=20, leading=25, spaceAfter=6)
+H2 = ParagraphStyle("h2", parent=BODY, fontName="Helvetica-Bold", fontSize=13, leading=17, spaceBefore=10,
+                    spaceAfter=5)
+H3 = ParagraphStyle("h3", parent=BODY, fontName="Helvetica-Bold", fontSize=10, leading=13, spaceBefore=6,
+                    spaceAfter=2)
+CELL = ParagraphStyle("cell", parent=SMALL)
+CELL_BOLD = ParagraphStyle("cellbold", parent=SMALL, fontName="Helvetica-Bold")
+
+
+def esc(value: Any) -> str:
+    text = "" if value is None else str(value)
+    return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+
+
+def p(text: Any, style: ParagraphStyle = CELL) -> Paragraph:
+    return Paragraph(esc(text), style)
+
+
+def grid_table(rows: Sequence[Sequence[Any]], widths: Sequence[float], *, header: bool = True) -> Table:
+    """A table whose header row repeats on every page it spans."""
+    table = Table([[cell if isinstance(cell, Flowable) else p(cell) for cell in row] for row in rows],
+                  colWidths=widths, repeatRows=1 if header else 0, hAlign="LEFT")
+    style = [("GRID", (0, 0), (-1, -1), 0.4, LINE), ("VALIGN", (0, 0), (-1, -1), "TOP"),
+             ("LEFTPADDING", (0, 0), (-1, -1), 3), ("RIGHTPADDING", (0, 0), (-1, -1), 3),
+             ("TOPPADDING", (0, 0), (-1, -1), 2), ("BOTTOMPADDING", (0, 0), (-1, -1), 2)]
+    if header:
+        style.append(("BACKGROUND", (0, 0), (-1, 0), HEAD))
+    table.setStyle(TableStyle(style))
+    return table
+
+
+def numbered_canvas(footer_text: str):
+    """A canvas class that knows the page count when each page is finished: "page X of Y"."""
+
+    class NumberedCanvas(pdf_canvas.Canvas):
+        def __init__(self, *args, **kwargs):
+            super().__init__(*args, **kwargs)
+            self._saved_pages: list[dict] = []
+
+        def showPage(self):  # noqa: N802 (reportlab's name)
+            self._saved_pages.append(dict(self.__dict__))
+            self._startPage()
+
+        def save(self):
+            total = len(self._saved_pages)
+            for state in self._saved_pages:
+                self.__dict__.update(state)
+                self._footer(total)
+                super().showPage()
+            super().save()
+
+        def _footer(self, total: int) -> None:
+            self.saveState()
+            self.setStrokeColor(LINE)
+            self.line(MARGIN, 13 * mm, PAGE_WIDTH - MARGIN, 13 * mm)
+            self.setFont("Helvetica", 7)
+            self.setFillColor(MUTED)
+            self.drawString(MARGIN, 9 * mm, footer_text)
+            self.drawRightString(PAGE_WIDTH - MARGIN, 9 * mm, f"page {self._pageNumber} of {total}")
+            self.restoreState()
+
+    return NumberedCanvas
+
+
+def _design_summary(design) -> list[Flowable]:
+    modem = design.modem
+    facts = [
+        ["Category", f"{modem.category.label} ({modem.category.id})"],
+        ["Bands", ", ".join(band.name for band in modem.bands)],
+        ["Receive ports on the module", modem.rx_ports if modem.rx_ports is not None else "not given"],
+        ["Operator single-antenna approval", "recorded" if modem.operator_single_antenna_approval else "none"],
+        ["Approved gain limits", ", ".join(f"{band} {limit:g} dBi" for band, limit in modem.gain_limits_dbi.items())
+         or "not given"],
+        ["Enclosure", (" × ".join(f"{v:g}" for v in design.enclosure_size_mm) + " mm, " if design.enclosure_size_mm
+                       else "size not given, ") + design.enclosure_material],
+        ["Ground plane", " × ".join(f"{v:g}" for v in design.ground_plane_mm) + " mm" if design.ground_plane_mm
+         else "not given"],
+        ["Deployment", ", ".join(filter(None, [
+            design.deployment.environment or "environment not given",
+            f"DL {design.deployment.required_dl_kbps:g} kbps" if design.deployment.required_dl_kbps is not None else "",
+            f"UL {design.deployment.required_ul_kbps:g} kbps" if design.deployment.required_ul_kbps is not None else "",
+            f"people at {design.deployment.body_distance_mm:g} mm" if design.deployment.body_distance_mm is not None
+            else ""]))],
+    ]
+    rows = [["Name", "Role", "Mounting", "Feed x, y, z (mm)", "Axis", "Rated (MHz)", "Gain (dBi)", "Cable (dB)"]]
+    for antenna in design.antennas:
+        rows.append([
+            antenna.name, antenna.role, antenna.mounting,
+            ", ".join(f"{v:g}" for v in antenna.position_mm) if antenna.position_mm else "—",
+            ", ".join(f"{v:g}" for v in antenna.polarization) if antenna.polarization else "—",
+            ", ".join(f"{lo:g}–{hi:g}" for lo, hi in antenna.ranges_mhz) if antenna.ranges_mhz else "—",
+            f"{antenna.peak_gain_dbi:g}" if antenna.peak_gain_dbi is not None else "—",
+            f"{antenna.cable_loss_db:g}",
+        ])
+    width = FRAME_WIDTH
+    return [
+        p("Design summary", H2),
+        grid_table(facts, [55 * mm, width - 55 * mm], header=False),
+        Spacer(1, 4 * mm),
+        p("Antennas", H3),
+        grid_table(rows, [18 * mm, 16 * mm, 17 * mm, 28 * mm, 18 * mm, width - 135 * mm, 18 * mm, 20 * mm]),
+    ]
+
+
+def _band_table(checklist: dict[str, Any]) -> list[Flowable]:
+    rows = [["Band", "Duplex", "UL (MHz)", "DL (MHz)", "Lowest (MHz)", "λ (mm)", "λ/4 (mm)", "λ/2π (mm)"]]
+    for row in checklist["bands"]:
+        rows.append([row["band"], row["duplex"], f"{row['ul_mhz'][0]:g}–{row['ul_mhz'][1]:g}",
+                     f"{row['dl_mhz'][0]:g}–{row['dl_mhz'][1]:g}", f"{row['lowest_mhz']:g}",
+                     f"{row['wavelength_mm']:.1f}", f"{row['quarter_wave_mm']:.1f}", f"{row['near_field_mm']:.1f}"])
+    return [
+        p("Bands and wavelengths", H2),
+        p(f"Lengths at each band's lowest edge (c = 299 792 458 m/s). Spacing and ground plane are judged at "
+          f"{checklist.get('judged_at_mhz', 0):g} MHz, the lowest edge in scope.", MUTED_SMALL),
+        Spacer(1, 2 * mm),
+        grid_table(rows, [16 * mm, 16 * mm, 28 * mm, 28 * mm, 24 * mm, 20 * mm, 20 * mm, FRAME_WIDTH - 152 * mm]),
+    ]
+
+
+def _checklist(items: list[ReviewItem]) -> list[Flowable]:
+    rows = [["Severity", "Rule", "Finding", "Disposition", "Justification", "Decided by"]]
+    for item in items:
+        severity = Paragraph(f'<font color="{SEVERITY_COLOURS[item.severity].hexval().replace("0x", "#")}">'
+                             f"<b>{esc(item.severity.upper())}</b></font>", CELL)
+        decided = ""
+        if item.decided_by:
+            decided = f"{item.decided_by.get_full_name() or item.decided_by.username}, " \
+                      f"{item.decided_at:%Y-%m-%d %H:%M} UTC" if item.decided_at else item.decided_by.username
+        if item.carried_from:
+            decided += f" (carried from revision {item.carried_from.number}, confirmed)"
+        rows.append([severity, f"{item.rule_id}\n{', '.join(item.subjects)}", item.title,
+                     item.get_disposition_display(), item.justification or "—", decided or "—"])
+    return [p("Checklist and dispositions", H2),
+            grid_table(rows, [16 * mm, 22 * mm, 46 * mm, 22 * mm, FRAME_WIDTH - 136 * mm, 30 * mm])]
+
+
+def _finding_details(items: list[ReviewItem]) -> list[Flowable]:
+    flowables: list[Flowable] = [p("Findings in detail", H2)]
+    for item in items:
+        finding = item.finding
+        evidence = ", ".join(f"{key} {value}" for key, value in finding.get("evidence", {}).items()
+                             if value is not None)
+        block = [
+            Paragraph(f"<b>{esc(finding['id'])}</b> · {esc(finding['severity'])} · {esc(finding['topic'])}"
+                      f"{' · ' + esc(', '.join(finding.get('subjects', []))) if finding.get('subjects') else ''}"
+                      f" — {esc(finding['title'])}", BODY),
+            p(finding["explanation"], SMALL),
+            Paragraph(f"<b>Action:</b> {esc(finding['action'])}", SMALL),
+        ]
+        if evidence:
+            block.append(Paragraph(f"<b>Evidence:</b> {esc(evidence)}", SMALL))
+        block.append(Paragraph(f"<b>Sources:</b> {esc('; '.join(finding.get('references', [])))}", MUTED_SMALL))
+        block.append(Spacer(1, 2.5 * mm))
+        flowables.append(KeepTogether(block))
+    return flowables
+
+
+def _measurement_charts(revision: Revision, design) -> list[Flowable]:
+    if not design.measurements:
+        return []
+    try:
+        from projectapp.figures.charts import correlation_chart, isolation_chart, return_loss_chart
+    except ImportError:  # charts arrive with the measurements issue; the record still lists the files
+        return [p("Measurements", H2), p(", ".join(m.file for m in design.measurements), SMALL)]
+    from rules.measurements import attach_measurements
+
+    flowables: list[Flowable] = [PageBreak(), p("Measurements", H2)]
+    for measurement in attach_measurements(design, measurement_reader(revision)):
+        flowables.append(p(f"{measurement.file}: ports " + ", ".join(
+            f"{index + 1} = {name or 'not connected'}" for index, name in enumerate(measurement.ports)), SMALL))
+        for build in (return_loss_chart, isolation_chart, correlation_chart):
+            drawing = build(measurement, design, width_pt=FRAME_WIDTH, height_pt=200)
+            if drawing is not None:
+                flowables += [CondPageBreak(215), drawing, Spacer(1, 3 * mm)]
+    return flowables
+
+
+CAUTIONS = [
+    "This record documents an engineering review of an antenna design against a rule set. It does not replace "
+    "carrier acceptance testing: every operator whose network the product uses runs its own acceptance, usually "
+    "including radiated performance (TRP/TIS).",
+    "It does not replace industry certification of the finished device, nor regulatory approval in each market "
+    "where the product is sold.",
+    "RF exposure must be evaluated under the local rules of each market, by a qualified test house, whatever "
+    "this record says about distances to people.",
+    "Where a module's approval is relied on, its conditions (such as maximum antenna gain per band) apply; any "
+    "change outside them needs a new or extended approval.",
+    "Defer to the carrier, the regulator and licensed practice. Measurements and computed values in this record "
+    "are engineering estimates with stated assumptions (for example, envelope correlation from S-parameters "
+    "assumes lossless antennas).",
+]
+
+
+def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
+    design = parse_design(revision.document)
+    checklist = revision.evaluation
+    items = list(revision.review_items.filter(kind=ReviewItem.Kind.RAISED)
+                 .select_related("decided_by", "carried_from").order_by("id"))
+    rank = {"blocker": 0, "warning": 1, "note": 2}
+    items.sort(key=lambda item: (rank.get(item.severity, 9), item.topic, item.rule_id, item.subjects_key))
+    signatures = list(revision.signatures.select_related("signer").order_by("id"))
+    product = revision.product
+    grouped = " ".join(fingerprint[index:index + 4] for index in range(0, 32, 4))
+    footer = f"{product.name} · revision {revision.number} · fingerprint {grouped}"
+
+    story: list[Flowable] = [
+        Spacer(1, 25 * mm),
+        p("Antenna design record", H1),
+        p(f"{product.name} — revision {revision.number}", H2),
+        Spacer(1, 6 * mm),
+        grid_table([
+            ["Product", product.name], ["Team", product.team.name],
+            ["Design revision", f"{revision.number} (hardware revision {design.product_revision or 'not given'})"],
+            ["UE category", f"{design.modem.category.label} ({design.modem.category.id})"],
+            ["Status", "signed and archived; current when signed"],
+            ["Rule set", revision.ruleset],
+            ["Submitted", f"{revision.submitted_at:%Y-%m-%d %H:%M} UTC"],
+            ["Signed", f"{signatures[-1].signed_at:%Y-%m-%d %H:%M} UTC" if signatures else "—"],
+            ["Checklist", f"{checklist['summary']['blocker']} blockers, {checklist['summary']['warning']} warnings, "
+                          f"{checklist['summary']['note']} notes"],
+            ["Fingerprint (SHA-256 of the record content)", fingerprint],
+        ], [60 * mm, FRAME_WIDTH - 60 * mm], header=False),
+        Spacer(1, 8 * mm),
+        p("The archive keeps the SHA-256 of this PDF file: anyone on the team can check a copy against it.",
+          MUTED_SMALL),
+        p("This record does not replace carrier acceptance, industry certification or regulatory approval; see the "
+          "cautions on the last page.", MUTED_SMALL),
+        PageBreak(),
+        *_design_summary(design),
+        Spacer(1, 4 * mm),
+        *_band_table(checklist),
+        PageBreak(),
+        p("Placement", H2),
+        placement_drawing(design, pair_severities=pair_severities_from_findings(checklist["findings"]),
+                          frequency_mhz=design.lowest_mhz, width_pt=FRAME_WIDTH, max_height_pt=PAGE_HEIGHT - 80 * mm),
+        PageBreak(),
+        *_checklist(items),
+        Spacer(1, 4 * mm),
+        *_finding_details(items),
+        *_measurement_charts(revision, design),
+        CondPageBreak(60 * mm),
+        p("Signatures", H2),
+        grid_table([["Role", "Name", "Meaning", "Signed (UTC)"]]
+                   + [[s.get_role_display(), s.signer_name, s.meaning, f"{s.signed_at:%Y-%m-%d %H:%M:%S}"]
+                      for s in signatures],
+                   [40 * mm, 35 * mm, FRAME_WIDTH - 115 * mm, 40 * mm]),
+        p("Each signer re-entered their password to sign.", MUTED_SMALL),
+        PageBreak(),
+        p("Cautions", H2),
+        *[p(text, BODY) for text in CAUTIONS],
+    ]
+    buffer = io.BytesIO()
+    document = SimpleDocTemplate(buffer, pagesize=A4, leftMargin=MARGIN, rightMargin=MARGIN, topMargin=MARGIN,
+                                 bottomMargin=20 * mm, title=f"{product.name} revision {revision.number} record",
+                                 author=product.team.name, subject="Antenna design record", creator="Earshot",
+                                 invariant=1)
+    document.build(story, canvasmaker=numbered_canvas(footer))
+    return buffer.getvalue()

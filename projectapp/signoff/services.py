@@ -1,0 +1,142 @@
+"""Signing a revision and archiving its record.
+
+A revision can be signed when every blocker it raises is waived by an approver and every warning has a
+disposition. Each role the team requires signs once, after re-entering their password. The last
+signature builds the PDF, stores it through Django's storage with its SHA-256, and marks the product's
+previous record superseded (by adding a Supersession row; the old record itself never changes).
+"""
+
+import hashlib
+import json
+from dataclasses import dataclass, field
+
+from django.contrib.auth import authenticate
+from django.core.exceptions import PermissionDenied
+from django.core.files.base import ContentFile
+from django.db import transaction
+
+from projectapp.designs.models import Revision
+from projectapp.reviews.models import AuditEvent, Disposition, ReviewItem
+from projectapp.signoff.models import MEANINGS, Signature, SignedRecord, Supersession
+from projectapp.teams.access import has_role
+from projectapp.teams.models import Role
+
+
+class SigningError(ValueError):
+    """A signature that can't be recorded; the message says why, naming the field when there is one."""
+
+
+@dataclass
+class Readiness:
+    revision: Revision
+    obstacles: list[str] = field(default_factory=list)
+    required_roles: list[str] = field(default_factory=list)
+    signed_roles: list[str] = field(default_factory=list)
+
+    @property
+    def ready(self) -> bool:
+        return not self.obstacles
+
+    @property
+    def missing_roles(self) -> list[str]:
+        return [role for role in self.required_roles if role not in self.signed_roles]
+
+
+def readiness(revision: Revision) -> Readiness:
+    """What still stands in the way of signing, item by item."""
+    state = Readiness(revision, required_roles=list(revision.product.team.signoff_roles))
+    state.signed_roles = list(revision.signatures.values_list("role", flat=True))
+    if revision.is_draft:
+        state.obstacles.append(f"Revision {revision.number} is a draft: submit it for review first.")
+        return state
+    items = revision.review_items.filter(kind=ReviewItem.Kind.RAISED).order_by("id")
+    for item in items:
+        label = f"{item.rule_id} {item.title}"
+        if item.is_carried_unconfirmed and item.severity in ("blocker", "warning"):
+            state.obstacles.append(f"{label}: the decision carried from revision {item.carried_from.number} "
+                                   "is not confirmed yet.")
+        elif item.severity == "blocker" and item.disposition != Disposition.WAIVED:
+            state.obstacles.append(f"{label}: a blocker must be waived by an approver "
+                                   f"(now: {item.get_disposition_display().lower()}).")
+        elif item.severity == "warning" and item.disposition not in (Disposition.CHANGE, Disposition.WAIVED,
+                                                                     Disposition.NOT_APPLICABLE):
+            state.obstacles.append(f"{label}: a warning needs a disposition "
+                                   f"(now: {item.get_disposition_display().lower()}).")
+    return state
+
+
+def record_fingerprint(revision: Revision) -> str:
+    """SHA-256 over what the record attests: the design, its checklist, the decisions and the signatures."""
+    content = {
+        "product": revision.product.name,
+        "revision": revision.number,
+        "document": revision.document,
+        "evaluation": revision.evaluation,
+        "decisions": [
+            [item.rule_id, item.subjects_key, item.kind, item.severity, item.disposition, item.justification,
+             item.decided_by.username if item.decided_by else None]
+            for item in revision.review_items.order_by("id").select_related("decided_by")
+        ],
+        "signatures": [[s.role, s.signer.username, s.signer_name, s.signed_at.isoformat()]
+                       for s in revision.signatures.order_by("id").select_related("signer")],
+    }
+    canonical = json.dumps(content, sort_keys=True, separators=(",", ":"), ensure_ascii=False)
+    return hashlib.sha256(canonical.encode("utf-8")).hexdigest()
+
+
+@transaction.atomic
+def revision_sign(*, revision: Revision, user, role: str, password: str) -> Signature:
+    revision = Revision.objects.select_for_update().select_related("product__team").get(pk=revision.pk)
+    team = revision.product.team
+    if hasattr(revision, "signed_record"):
+        raise SigningError("This revision is already signed and archived.")
+    if role not in team.signoff_roles:
+        raise SigningError(f"role: {team.name} does not require a {role} signature")
+    if not has_role(user, team, role):
+        raise PermissionDenied(f"Signing as {role} needs the {role} role in {team.name}.")
+    if authenticate(username=user.get_username(), password=password) is None:
+        raise SigningError("password: that is not your password")
+    state = readiness(revision)
+    if not state.ready:
+        raise SigningError(f"Revision {revision.number} can't be signed yet: {len(state.obstacles)} item(s) stand "
+                           "in the way.")
+    if role in state.signed_roles:
+        raise SigningError(f"role: the {role} signature is already recorded")
+    if not team.allow_dual_signing and revision.signatures.filter(signer=user).exists():
+        raise SigningError(f"{team.name} requires a different person for each role; you have signed already.")
+    signature = Signature.objects.create(
+        revision=revision, role=role, signer=user, signer_name=user.get_full_name() or user.get_username(),
+        meaning=MEANINGS[Role(role)])
+    AuditEvent.objects.create(product=revision.product, revision=revision, actor=user,
+                              action=AuditEvent.Action.SIGNED,
+                              summary=f"Signed revision {revision.number} as {role} ({signature.meaning.split(':')[0]})",
+                              changes={"signature": [None, role]})
+    if not [r for r in team.signoff_roles if r not in (*state.signed_roles, role)]:
+        record_archive(revision=revision, user=user)
+    return signature
+
+
+def record_archive(*, revision: Revision, user) -> SignedRecord:
+    """Builds the PDF, stores it with its SHA-256, and supersedes the product's previous current record."""
+    from projectapp.signoff.pdf import build_record_pdf
+
+    fingerprint = record_fingerprint(revision)
+    pdf_bytes = build_record_pdf(revision, fingerprint=fingerprint)
+    sha256 = hashlib.sha256(pdf_bytes).hexdigest()
+    record = SignedRecord(revision=revision, sha256=sha256, size_bytes=len(pdf_bytes), fingerprint=fingerprint)
+    slug = "".join(ch if ch.isalnum() else "-" for ch in revision.product.name.lower()).strip("-")
+    record.pdf.save(f"{slug}-rev{revision.number}-{sha256[:12]}.pdf", ContentFile(pdf_bytes), save=False)
+    record.save()
+    earlier = (SignedRecord.objects.filter(revision__product=revision.product, revision__number__lt=revision.number)
+               .exclude(pk=record.pk).exclude(supersession__isnull=False))
+    for older in earlier:
+        Supersession.objects.create(older=older, newer=record)
+    AuditEvent.objects.create(product=revision.product, revision=revision, actor=user,
+                              action=AuditEvent.Action.ARCHIVED,
+                              summary=f"Archived the signed record of revision {revision.number} "
+                                      f"(SHA-256 {sha256[:16]}…)", changes={"sha256": [None, sha256]})
+    return record
+
+
+def find_record_by_content(content: bytes, *, records) -> SignedRecord | None:
+    return records.filter(sha256=hashlib.sha256(content).hexdigest()).first()

@@ -1,0 +1,12 @@
+from django.urls import path
+
+from projectapp.signoff import views
+
+urlpatterns = [
+    path("products/<int:product_id>/revisions/<int:number>/signoff/", views.signoff_page, name="signoff_page"),
+    path("products/<int:product_id>/revisions/<int:number>/signoff/sign/", views.signoff_sign, name="signoff_sign"),
+    path("archive/", views.archive_list, name="archive_list"),
+    path("archive/verify/", views.verify, name="archive_verify"),
+    path("archive/<int:record_id>/", views.record_detail, name="record_detail"),
+    path("archive/<int:record_id>/download/", views.record_download, name="record_download"),
+]
