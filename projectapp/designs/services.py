@@ -3,6 +3,7 @@
 import json
 from typing import Any
 
+from django.core.exceptions import PermissionDenied
 from django.core.files.base import ContentFile
 from django.db import transaction
 from django.utils import timezone
@@ -10,7 +11,7 @@ from django.utils import timezone
 from projectapp.designs.checklists import measurement_reader
 from projectapp.designs.models import MeasurementFile, Product, Revision
 from projectapp.reviews.services import review_items_create
-from projectapp.teams.access import require_role
+from projectapp.teams.access import has_role, require_role
 from projectapp.teams.models import Role, Team
 from rules.design import FORMAT, DesignError, Problem, decode_design_text, parse_design
 from rules.evaluate import evaluate
@@ -114,21 +115,78 @@ def document_export_text(*, revision: Revision) -> str:
 
 
 MAX_MEASUREMENT_BYTES = 20_000_000
+MEASUREMENT_SUFFIXES = (".s1p", ".s2p", ".s3p", ".s4p", ".s5p", ".s6p", ".s7p", ".s8p", ".ts")
+
+
+def require_measurement_role(user, revision: Revision) -> None:
+    """Authors and reviewers (the engineers who measure) may keep measurements with a draft."""
+    team = revision.product.team
+    if not (has_role(user, team, Role.AUTHOR) or has_role(user, team, Role.REVIEWER)):
+        raise PermissionDenied("Adding measurements needs the author or reviewer role.")
+    if not revision.is_draft:
+        raise PermissionDenied("Measurements are added to a draft revision.")
+
+
+def _safe_file_name(name: str) -> str:
+    base = name.replace("\\", "/").rsplit("/", 1)[-1].strip()
+    return "".join(ch if ch.isalnum() or ch in "._-, " else "-" for ch in base)[:120]
 
 
 def measurement_add(*, revision: Revision, name: str, content: bytes, user) -> MeasurementFile:
-    """Keeps a Touchstone file with a draft. The file must parse; nothing is stored otherwise.
+    """Keeps a Touchstone file with a draft and maps its ports to the design's antennas in order.
 
-    Raises TouchstoneError (naming the file and line) or ValueError for a file that can't be kept.
+    The file must parse; nothing is stored otherwise. Raises TouchstoneError (naming the file and line)
+    or ValueError (naming what was expected) for a file that can't be kept.
     """
-    require_role(user, revision.product.team, Role.AUTHOR)
+    require_measurement_role(user, revision)
+    name = _safe_file_name(name)
+    if not name.lower().endswith(MEASUREMENT_SUFFIXES):
+        raise ValueError(f"{name or 'file'}: expected a Touchstone file named .s1p to .s8p or .ts")
     if len(content) > MAX_MEASUREMENT_BYTES:
         raise ValueError(f"{name}: expected at most {MAX_MEASUREMENT_BYTES // 1_000_000} MB, "
                          f"got {len(content) / 1_000_000:.1f} MB")
-    parse_touchstone(content.decode("utf-8", errors="replace"), source=name)
+    if revision.measurement_files.filter(name=name).exists():
+        raise ValueError(f"{name}: a file of that name is already kept with this draft; remove it first")
+    network = parse_touchstone(content.decode("utf-8", errors="replace"), source=name)
+    document = json.loads(json.dumps(revision.document))
+    antennas = [a.get("name") for a in document.get("antennas", []) if isinstance(a, dict) and a.get("name")]
+    ports = [antennas[index] if index < len(antennas) else None for index in range(network.port_count)]
+    measurements = document.get("measurements") if isinstance(document.get("measurements"), list) else []
+    document["measurements"] = [*measurements, {"file": name, "ports": ports}]
     with transaction.atomic():
         measurement = MeasurementFile(revision=revision, name=name, size_bytes=len(content),
                                       sha256=MeasurementFile.digest(content), uploaded_by=user)
         measurement.file.save(name, ContentFile(content), save=False)
         measurement.save()
+        revision.document = document
+        revision.save(update_fields=["document", "updated_at"])
     return measurement
+
+
+def measurement_map_ports(*, revision: Revision, name: str, ports: list[str | None], user) -> Revision:
+    """Sets which antenna each port of a kept file measured (None: not connected to an antenna)."""
+    require_measurement_role(user, revision)
+    document = json.loads(json.dumps(revision.document))
+    for entry in document.get("measurements", []):
+        if isinstance(entry, dict) and entry.get("file") == name:
+            entry["ports"] = ports
+    revision.document = document
+    revision.save(update_fields=["document", "updated_at"])
+    return revision
+
+
+@transaction.atomic
+def measurement_remove(*, revision: Revision, name: str, user) -> None:
+    require_measurement_role(user, revision)
+    document = json.loads(json.dumps(revision.document))
+    if isinstance(document.get("measurements"), list):
+        document["measurements"] = [entry for entry in document["measurements"]
+                                    if not (isinstance(entry, dict) and entry.get("file") == name)]
+        if not document["measurements"]:
+            del document["measurements"]
+    revision.document = document
+    revision.save(update_fields=["document", "updated_at"])
+    for measurement in revision.measurement_files.filter(name=name):
+        stored = measurement.file.name
+        measurement.delete()
+        transaction.on_commit(lambda stored=stored, storage=measurement.file.storage: storage.delete(stored))

@@ -22,6 +22,7 @@ from projectapp.teams.access import has_role, teams_where
 from projectapp.teams.models import Role
 from rules.design import DesignError
 from rules.registry import RETIRED, RULESET_VERSION, registered_rules
+from rules.touchstone import TouchstoneError
 
 
 @login_required
@@ -82,7 +83,21 @@ def _draft_context(request, revision: Revision, state: ChecklistState) -> dict:
         sections.append({"section": section, "fields": fields,
                          "loose_problems": questionnaire.section_problems(section, state.problems, flat)})
     return {"product": revision.product, "revision": revision, "sections": sections,
-            "presets": questionnaire.band_presets(), **_panel_context(state)}
+            "presets": questionnaire.band_presets(), "measurements": _measurement_rows(revision),
+            "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, **_panel_context(state)}
+
+
+def _measurement_rows(revision: Revision) -> list[dict]:
+    """Each kept file with its port map from the document, and the antenna names to choose from."""
+    document = revision.document if isinstance(revision.document, dict) else {}
+    entries = {entry.get("file"): entry for entry in document.get("measurements", []) if isinstance(entry, dict)}
+    names = [a.get("name") for a in document.get("antennas", []) if isinstance(a, dict) and a.get("name")]
+    rows = []
+    for measurement in revision.measurement_files.all():
+        ports = entries.get(measurement.name, {}).get("ports") or []
+        rows.append({"file": measurement, "listed": measurement.name in entries,
+                     "ports": list(enumerate(ports)), "antennas": names})
+    return rows
 
 
 @login_required
@@ -220,3 +235,54 @@ def design_import(request, product_id: int):
 def rule_list(request):
     return render(request, "designs/rule_list.html", {
         "rules": registered_rules(), "retired": RETIRED, "ruleset": RULESET_VERSION})
+
+
+@login_required
+@require_POST
+def measurement_upload(request, product_id: int):
+    product = get_product_for_user(request.user, product_id)
+    draft = product.draft
+    upload = request.FILES.get("touchstone")
+    if draft is None or upload is None:
+        messages.error(request, "touchstone: expected a Touchstone file (.s1p to .s8p) to upload to the draft")
+        return redirect(reverse("draft_edit", args=[product.pk]) + "#section-measurements")
+    if upload.size > services.MAX_MEASUREMENT_BYTES:
+        messages.error(request, f"{upload.name}: expected at most {services.MAX_MEASUREMENT_BYTES // 1_000_000} MB, "
+                                f"got {upload.size / 1_000_000:.1f} MB; nothing was stored")
+        return redirect(reverse("draft_edit", args=[product.pk]) + "#section-measurements")
+    try:
+        measurement = services.measurement_add(revision=draft, name=upload.name, content=upload.read(),
+                                               user=request.user)
+    except (TouchstoneError, ValueError) as error:
+        messages.error(request, f"{error} — nothing was stored.")
+    else:
+        messages.success(request, f"{measurement.name} kept with draft {draft.number}; check its port map.")
+    return redirect(reverse("draft_edit", args=[product.pk]) + "#section-measurements")
+
+
+@login_required
+@require_POST
+def measurement_ports(request, product_id: int):
+    product = get_product_for_user(request.user, product_id)
+    draft = product.draft
+    name = request.POST.get("file", "")
+    if draft is None or not draft.measurement_files.filter(name=name).exists():
+        messages.error(request, f"file: no measurement named {name!r} is kept with the draft")
+        return redirect(reverse("draft_edit", args=[product.pk]) + "#section-measurements")
+    count = int(request.POST.get("port_count", "0") or 0)
+    ports = [request.POST.get(f"port-{index}") or None for index in range(min(count, 64))]
+    services.measurement_map_ports(revision=draft, name=name, ports=ports, user=request.user)
+    messages.success(request, f"Port map of {name} saved.")
+    return redirect(reverse("draft_edit", args=[product.pk]) + "#section-measurements")
+
+
+@login_required
+@require_POST
+def measurement_remove(request, product_id: int):
+    product = get_product_for_user(request.user, product_id)
+    draft = product.draft
+    name = request.POST.get("file", "")
+    if draft is not None:
+        services.measurement_remove(revision=draft, name=name, user=request.user)
+        messages.success(request, f"{name} removed from draft {draft.number}.")
+    return redirect(reverse("draft_edit", args=[product.pk]) + "#section-measurements")
