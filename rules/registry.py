@@ -17,7 +17,7 @@ from rules.findings import EVIDENCE_KEYS, SEVERITIES, TOPICS, Finding, Flag, rou
 if TYPE_CHECKING:
     from rules.context import CheckContext
 
-RULESET_VERSION = "1.0.0"
+RULESET_VERSION = "1.1.0"  # 1.1.0: COV-001 (coverage cost of a missing second receive antenna)
 RULE_ID_PATTERN = re.compile(r"^[A-Z]{3}-\d{3}$")
 
 CheckFunction = Callable[["CheckContext"], Iterable[Flag]]

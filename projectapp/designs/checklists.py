@@ -10,7 +10,7 @@ from typing import Any
 from projectapp.designs.models import Revision
 from rules.design import Design, DesignError, Problem, parse_design
 from rules.evaluate import evaluate
-from rules.measurements import attach_measurements
+from rules.measurements import LoadedMeasurement, attach_measurements
 
 
 @dataclass
@@ -19,6 +19,7 @@ class ChecklistState:
     design: Design | None = None
     checklist: dict[str, Any] | None = None
     problems: list[Problem] = field(default_factory=list)
+    measurements: tuple[LoadedMeasurement, ...] = ()
 
     @property
     def findings(self) -> list[dict[str, Any]]:
@@ -51,9 +52,9 @@ def checklist_for(revision: Revision) -> ChecklistState:
     state = ChecklistState(revision)
     try:
         state.design = parse_design(revision.document)
+        state.measurements = attach_measurements(state.design, measurement_reader(revision))
         if revision.is_draft:
-            measurements = attach_measurements(state.design, measurement_reader(revision))
-            state.checklist = evaluate(state.design, measurements).as_dict()
+            state.checklist = evaluate(state.design, state.measurements).as_dict()
     except DesignError as error:
         state.problems = error.problems
     if not revision.is_draft:

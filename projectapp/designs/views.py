@@ -17,6 +17,7 @@ from projectapp.designs.access import get_product_for_user, get_revision_for_use
 from projectapp.designs.checklists import ChecklistState, checklist_for
 from projectapp.designs.forms import ImportForm, ProductForm
 from projectapp.designs.models import Revision
+from projectapp.figures.charts import chart_svg, correlation_chart, isolation_chart, return_loss_chart
 from projectapp.figures.placement import pair_severities_from_findings, placement_svg
 from projectapp.teams.access import has_role, teams_where
 from projectapp.teams.models import Role
@@ -68,10 +69,15 @@ def product_detail(request, product_id: int):
 
 def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> dict:
     svg = None
+    charts = []
     if state.design is not None and state.checklist is not None:
         svg = placement_svg(state.design, pair_severities=pair_severities_from_findings(state.findings),
                             frequency_mhz=state.design.lowest_mhz, id_prefix=id_prefix)
-    return {"state": state, "placement_svg": svg}
+        for file_index, measurement in enumerate(state.measurements):
+            for chart_index, build in enumerate((return_loss_chart, isolation_chart, correlation_chart)):
+                charts.append(chart_svg(build(measurement, state.design, width_pt=560, height_pt=240),
+                                        id_prefix=f"chart-{file_index}-{chart_index}"))
+    return {"state": state, "placement_svg": svg, "chart_svgs": charts}
 
 
 def _draft_context(request, revision: Revision, state: ChecklistState) -> dict:

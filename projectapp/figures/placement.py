@@ -912,6 +912,13 @@ def placement_svg(design: Design, *, pair_severities: Mapping[frozenset[str], st
     drawing = placement_drawing(design, pair_severities=pair_severities, frequency_mhz=frequency_mhz,
                                 width_pt=width_pt)
     layout: PlacementLayout = drawing.layout
+    return accessible_svg(drawing, title=layout.title, description=layout.description, id_prefix=id_prefix)
+
+
+def accessible_svg(drawing: Drawing, *, title: str, description: str, id_prefix: str) -> str:
+    """Any drawing as a standalone <svg> element to inline in HTML: role="img", labelled by its <title>
+    and <desc>, every id prefixed with `id_prefix` (cleaned to a valid id start), palette colours written
+    exactly, and a width that follows its container up to the drawing's natural width."""
     canvas = _ExactColourSVGCanvas((drawing.width, drawing.height),
                                    fontHacks={font: dict(attrs) for font, attrs in _SVG_FONTS.items()})
     renderSVG.draw(drawing, canvas, 0, 0, showBoundary=False)
@@ -934,7 +941,7 @@ def placement_svg(design: Design, *, pair_severities: Mapping[frozenset[str], st
                         value = f"#{new}"
                 element.setAttribute(attribute, value)
 
-    for tag, text in (("title", layout.title), ("desc", layout.description)):
+    for tag, text in (("title", title), ("desc", description)):
         node = svg.getElementsByTagName(tag)[0]
         node.setAttribute("id", f"{prefix}-{tag}")
         for child in list(node.childNodes):

@@ -7,6 +7,7 @@ from django.urls import reverse
 
 from projectapp.designs import services
 from projectapp.designs.models import FrozenRevisionError, Product, Revision
+from rules.registry import RULESET_VERSION
 from tests.web.conftest import EXAMPLES
 
 HTMX = {"HTTP_HX_REQUEST": "true"}
@@ -173,7 +174,7 @@ def test_submitting_freezes_the_document_and_its_checklist(client, product, auth
     response = client_for(client, author).post(reverse("draft_submit", args=[product.pk]))
     revision = Revision.objects.get(product=product, number=1)
     assert response["Location"] == revision.get_absolute_url()
-    assert revision.status == "submitted" and revision.ruleset == "1.0.0"
+    assert revision.status == "submitted" and revision.ruleset == RULESET_VERSION
     assert revision.evaluation["format"] == "earshot-checklist/1"
     assert any(f["id"] == "SEP-001" for f in revision.evaluation["findings"])
     revision.document = {}
