@@ -8,6 +8,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from projectapp.designs.models import Revision
+from rules.coverage import analyse_coverage
 from rules.design import Design, DesignError, Problem, parse_design
 from rules.evaluate import evaluate
 from rules.measurements import LoadedMeasurement, attach_measurements
@@ -60,3 +61,10 @@ def checklist_for(revision: Revision) -> ChecklistState:
     if not revision.is_draft:
         state.checklist = revision.evaluation
     return state
+
+
+def coverage_rows(state: ChecklistState) -> list[dict[str, Any]]:
+    """The downlink budget per band with one and two receive antennas (rules.coverage), as dicts."""
+    if state.design is None:
+        return []
+    return [analysis.as_dict() for analysis in analyse_coverage(state.design, state.measurements)]

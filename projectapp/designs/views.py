@@ -14,13 +14,20 @@ from django.views.decorators.http import require_GET, require_http_methods, requ
 
 from projectapp.designs import questionnaire, services
 from projectapp.designs.access import get_product_for_user, get_revision_for_user, products_for
-from projectapp.designs.checklists import ChecklistState, checklist_for
+from projectapp.designs.checklists import ChecklistState, checklist_for, coverage_rows
 from projectapp.designs.forms import ImportForm, ProductForm
 from projectapp.designs.models import Revision
-from projectapp.figures.charts import chart_svg, correlation_chart, isolation_chart, return_loss_chart
+from projectapp.figures.charts import (
+    chart_svg,
+    correlation_chart,
+    coverage_chart,
+    isolation_chart,
+    return_loss_chart,
+)
 from projectapp.figures.placement import pair_severities_from_findings, placement_svg
 from projectapp.teams.access import has_role, teams_where
 from projectapp.teams.models import Role
+from rules.coverage import TABLE_COLUMNS
 from rules.design import DesignError
 from rules.registry import RETIRED, RULESET_VERSION, registered_rules
 from rules.touchstone import TouchstoneError
@@ -68,16 +75,21 @@ def product_detail(request, product_id: int):
 
 
 def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> dict:
-    svg = None
-    charts = []
+    svg = coverage_svg = None
+    charts: list[str] = []
+    coverage: list[dict] = []
     if state.design is not None and state.checklist is not None:
         svg = placement_svg(state.design, pair_severities=pair_severities_from_findings(state.findings),
                             frequency_mhz=state.design.lowest_mhz, id_prefix=id_prefix)
+        coverage = coverage_rows(state)
+        if coverage:
+            coverage_svg = chart_svg(coverage_chart(coverage, width_pt=560, height_pt=240), id_prefix="coverage")
         for file_index, measurement in enumerate(state.measurements):
             for chart_index, build in enumerate((return_loss_chart, isolation_chart, correlation_chart)):
                 charts.append(chart_svg(build(measurement, state.design, width_pt=560, height_pt=240),
                                         id_prefix=f"chart-{file_index}-{chart_index}"))
-    return {"state": state, "placement_svg": svg, "chart_svgs": charts}
+    return {"state": state, "placement_svg": svg, "chart_svgs": charts, "coverage": coverage,
+            "coverage_svg": coverage_svg, "coverage_columns": TABLE_COLUMNS}
 
 
 def _draft_context(request, revision: Revision, state: ChecklistState) -> dict:

@@ -226,6 +226,28 @@ def _measurement_charts(revision: Revision, design) -> list[Flowable]:
     return flowables
 
 
+def _coverage(revision: Revision, design) -> list[Flowable]:
+    from projectapp.figures.charts import coverage_chart
+    from rules.coverage import TABLE_COLUMNS, analyse_coverage
+    from rules.measurements import attach_measurements
+
+    rows = [analysis.as_dict() for analysis in analyse_coverage(
+        design, attach_measurements(design, measurement_reader(revision)))]
+    if not rows:
+        return []
+    table = [[f"{label} ({unit})" if unit else label for _, label, unit in TABLE_COLUMNS]]
+    table += [["—" if row.get(key) is None else row.get(key) for key, _, _ in TABLE_COLUMNS] for row in rows]
+    widths = [FRAME_WIDTH / len(TABLE_COLUMNS)] * len(TABLE_COLUMNS)
+    notes = [f"{row['band']}: {row['model_label']}; target {row['mcl_db']} dB ({row['mcl_source']}); entry loss "
+             f"{row['entry_loss_db']} dB ({row['entry_loss_source']}); ECC {row['ecc']} ({row['ecc_source']})."
+             for row in rows]
+    return [PageBreak(), p("Coverage with one and two receive antennas", H2),
+            p("Downlink budget at each band's lowest downlink frequency; estimates with the stated assumptions.",
+              MUTED_SMALL),
+            coverage_chart(rows, width_pt=FRAME_WIDTH, height_pt=200), Spacer(1, 3 * mm),
+            grid_table(table, widths), Spacer(1, 2 * mm), *[p(note, MUTED_SMALL) for note in notes]]
+
+
 CAUTIONS = [
     "This record documents an engineering review of an antenna design against a rule set. It does not replace "
     "carrier acceptance testing: every operator whose network the product uses runs its own acceptance, usually "
@@ -289,6 +311,7 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
         Spacer(1, 4 * mm),
         *_finding_details(items),
         *_measurement_charts(revision, design),
+        *_coverage(revision, design),
         CondPageBreak(60 * mm),
         p("Signatures", H2),
         grid_table([["Role", "Name", "Meaning", "Signed (UTC)"]]

@@ -59,3 +59,8 @@ def evidence_rows(evidence: dict[str, Any]) -> list[tuple[str, str, str]]:
         label = LABELS.get(key, stem.replace("_", " "))
         rows.append((label, _show(value), unit))
     return rows
+
+
+@register.filter
+def get_item(mapping: dict[str, Any], key: str) -> Any:
+    return mapping.get(key)
