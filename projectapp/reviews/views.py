@@ -6,6 +6,7 @@ endpoint redirects back to the page the form was on.
 
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
+from django.core.exceptions import PermissionDenied
 from django.db.models import Count, Q
 from django.shortcuts import get_object_or_404, redirect, render
 from django.utils.http import url_has_allowed_host_and_scheme
@@ -135,6 +136,8 @@ def _answer(request, item: ReviewItem, *, status: int = 200, **extra):
     """The item's card for htmx; a redirect back to the form's page otherwise."""
     if request.htmx:
         return render(request, "reviews/_item_card.html", _card_context(request, item, **extra), status=status)
+    if status == 403:
+        raise PermissionDenied(extra.get("error"))
     message = extra.get("conflict_message") or extra.get("error")
     if message:
         messages.error(request, message)
@@ -170,6 +173,8 @@ def item_decide(request, item_id: int):
     except services.ReviewInputError as error:
         form.add_error(error.field if error.field in form.fields else None, str(error))
         return _answer(request, item, status=400, decision_form=form, error=str(error))
+    except PermissionDenied as error:
+        return _answer(request, item, status=403, decision_form=form, error=str(error) or "Not allowed.")
     return _answer(request, item, saved=True)
 
 
@@ -185,6 +190,8 @@ def item_assign(request, item_id: int):
                                            expected_version=form.cleaned_data["version"])
     except services.ReviewConflict as conflict:
         return _answer(request, conflict.current, status=409, conflict_message=_conflict_message(conflict.current))
+    except PermissionDenied as error:
+        return _answer(request, item, status=403, error=str(error) or "Not allowed.")
     return _answer(request, item, saved=True)
 
 
@@ -200,6 +207,8 @@ def item_confirm(request, item_id: int):
                                             expected_version=form.cleaned_data["version"])
     except services.ReviewConflict as conflict:
         return _answer(request, conflict.current, status=409, conflict_message=_conflict_message(conflict.current))
+    except PermissionDenied as error:
+        return _answer(request, item, status=403, error=str(error) or "Not allowed.")
     return _answer(request, item, saved=True)
 
 
