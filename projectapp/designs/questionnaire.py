@@ -31,6 +31,7 @@ class Question:
     choices: tuple[tuple[str, str], ...] = ()
     parts: tuple[str, ...] = ()  # labels of a vector's numbers
     blank_label: str = ""  # a choice question's "not given" option, if it may be left out
+    default: str = ""  # what the parser assumes when the answer is left out (design-file.md defaults)
 
 
 @dataclass(frozen=True)
@@ -83,7 +84,7 @@ ENCLOSURE = Section(
         Question("enclosure.material", "Enclosure material", "choice",
                  "What the enclosure is made of around the antennas. 'Mixed' means metal parts (a frame, a "
                  "plate, a coated surface) in an otherwise plastic box.",
-                 choices=tuple((material, material) for material in MATERIALS)),
+                 choices=tuple((material, material) for material in MATERIALS), default="plastic"),
         Question("ground_plane_mm", "Main board ground plane", "vector",
                  "Length and width of the main board's copper ground (usually the board outline). Embedded "
                  "antennas use it as their counterpoise, so its length matters at low frequencies.", unit="mm",
@@ -99,7 +100,8 @@ ANTENNA_QUESTIONS = (
              "for diversity or MIMO.", choices=tuple((role, role) for role in ROLES)),
     Question("mounting", "Mounting", "choice",
              "'internal' sits inside the enclosure (chip, flex, PCB trace); 'external' is outside on a "
-             "connector or cable.", choices=tuple((mounting, mounting) for mounting in MOUNTINGS)),
+             "connector or cable.", choices=tuple((mounting, mounting) for mounting in MOUNTINGS),
+             default="internal"),
     Question("position_mm", "Feed point position", "vector",
              "Where the antenna's feed point is, measured from the enclosure's corner on the mechanical "
              "drawing.", unit="mm", parts=("x", "y", "z")),
@@ -389,7 +391,7 @@ def _field(question: Question, name: str, value: Any, problems: list[Problem], s
         if value is not None and not isinstance(value, list):
             item.errors.append(f"stored value {value!r} is not a list")
     elif question.kind == "choice":
-        current = "" if value is None else str(value)
+        current = question.default if value is None else str(value)
         options = [(choice, label, choice == current) for choice, label in question.choices]
         if current and current not in dict(question.choices):
             options.insert(0, (current, f"{current} (not accepted)", True))

@@ -40,7 +40,7 @@ def receive_antennas_too_close(context: CheckContext) -> Iterator[Flag]:
         cross = angle_deg >= CROSS_POLARIZED_DEG
         if distance_mm < near_field_mm:
             severity = "warning" if cross else "blocker"
-            zone = f"inside the reactive near field ({near_field_mm:.1f} mm = lambda/2pi)"
+            zone = f"inside the reactive near field ({near_field_mm:.1f} mm = λ/2π)"
         elif distance_mm < quarter_wave_mm:
             severity = "note" if cross else "warning"
             zone = f"outside the near field but closer than a quarter wave ({quarter_wave_mm:.1f} mm)"

@@ -11,7 +11,8 @@ register = template.Library()
 # Units by key suffix, matching the contract's naming (frequencies in MHz, lengths in mm, ...).
 UNITS = (("_mhz", "MHz"), ("_mm", "mm"), ("_dbi", "dBi"), ("_db", "dB"), ("_deg", "°"), ("_kbps", "kbps"),
          ("_pct", "%"))
-LABELS = {"ecc": "envelope correlation (ECC)", "vswr": "VSWR", "ka": "ka (electrical size)", "q": "Q limit (McLean)"}
+LABELS = {"ecc": "envelope correlation (ECC)", "vswr": "VSWR", "ka": "ka (electrical size)", "q": "Q limit (McLean)",
+          "distance_wavelengths": "distance in wavelengths (λ)"}
 
 
 @register.filter
@@ -64,3 +65,11 @@ def evidence_rows(evidence: dict[str, Any]) -> list[tuple[str, str, str]]:
 @register.filter
 def get_item(mapping: dict[str, Any], key: str) -> Any:
     return mapping.get(key)
+
+
+@register.filter
+def num(value: Any) -> str:
+    """A number as typed: 120 rather than 120.0; other values unchanged."""
+    if isinstance(value, float):
+        return f"{value:g}"
+    return "" if value is None else str(value)
