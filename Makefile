@@ -12,3 +12,4 @@ test:
 bench:
 	scripts/bootstrap.sh test
 	.venv/bin/python benchmarks/engine.py
+	.venv/bin/python benchmarks/pdf_record.py

@@ -18,6 +18,7 @@ from dataclasses import dataclass, replace
 from itertools import combinations
 from typing import Any
 
+import numpy as np
 from reportlab.graphics import renderSVG
 from reportlab.graphics.shapes import Circle, Drawing, Group, Line, Polygon, Rect, String
 from reportlab.lib import colors
@@ -202,12 +203,6 @@ def _baseline(y: float) -> float:
     return round(y * 2) / 2
 
 
-def _overlap(a: Box, b: Box) -> float:
-    width = min(a[2], b[2]) - max(a[0], b[0])
-    height = min(a[3], b[3]) - max(a[1], b[1])
-    return width * height if width > 0 and height > 0 else 0.0
-
-
 def _union(boxes: Sequence[Box]) -> Box:
     return (min(box[0] for box in boxes), min(box[1] for box in boxes),
             max(box[2] for box in boxes), max(box[3] for box in boxes))
@@ -243,20 +238,29 @@ class _Placer:
             self.block((x - half_pt, y - half_pt, x + half_pt, y + half_pt), weight)
 
     def place(self, width: float, height: float, anchors: Sequence[tuple[float, float]]) -> Box:
-        best: tuple[float, Box] | None = None
-        for order, (x, y) in enumerate(anchors):
-            box = (x, y, x + width, y + height)
-            outside = width * height - _overlap(box, self.bounds)
-            cost = sum(_overlap(box, taken) * weight for taken, weight in self.taken) + 40.0 * outside
-            if cost == 0.0:
-                best = (cost, box)
-                break
-            cost += 0.05 * order
-            if best is None or cost < best[0]:
-                best = (cost, box)
-        assert best is not None
-        self.block(best[1], 25.0)
-        return best[1]
+        # Every candidate is scored against every box taken so far at once (numpy): a drawing with many
+        # antennas has thousands of taken boxes and dozens of candidates per label.
+        corners = np.asarray(anchors, dtype=float).reshape(-1, 2)
+        x0, y0 = corners[:, 0], corners[:, 1]
+        x1, y1 = x0 + width, y0 + height
+        bounds = self.bounds
+        inside_w = np.minimum(x1, bounds[2]) - np.maximum(x0, bounds[0])
+        inside_h = np.minimum(y1, bounds[3]) - np.maximum(y0, bounds[1])
+        inside = np.where((inside_w > 0) & (inside_h > 0), inside_w * inside_h, 0.0)
+        costs = 40.0 * (width * height - inside)
+        if self.taken:
+            boxes = np.array([box for box, _ in self.taken], dtype=float)
+            weights = np.array([weight for _, weight in self.taken], dtype=float)
+            over_w = np.minimum(x1[:, None], boxes[None, :, 2]) - np.maximum(x0[:, None], boxes[None, :, 0])
+            over_h = np.minimum(y1[:, None], boxes[None, :, 3]) - np.maximum(y0[:, None], boxes[None, :, 1])
+            covered = np.where((over_w > 0) & (over_h > 0), over_w * over_h, 0.0)
+            costs = costs + covered @ weights
+        free = np.flatnonzero(costs == 0.0)
+        # The first spot that covers nothing wins; otherwise the cheapest, nearer spots breaking ties.
+        choice = int(free[0]) if free.size else int(np.argmin(costs + 0.05 * np.arange(len(costs))))
+        box = (float(x0[choice]), float(y0[choice]), float(x1[choice]), float(y1[choice]))
+        self.block(box, 25.0)
+        return box
 
 
 def _around(x: float, y: float, gap: float, width: float, height: float) -> list[tuple[float, float]]:
