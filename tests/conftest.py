@@ -19,3 +19,13 @@ def fast_password_hashing(settings):
 def media_in_tmp(settings, tmp_path):
     """Uploaded and archived files go to a fresh folder per test, never into the work tree."""
     settings.MEDIA_ROOT = tmp_path / "media"
+
+
+@pytest.fixture(autouse=True)
+def empty_cache():
+    """Each test starts with an empty cache (figures of frozen revisions are cached by id)."""
+    from django.core.cache import cache
+
+    cache.clear()
+    yield
+    cache.clear()

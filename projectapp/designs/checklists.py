@@ -53,8 +53,8 @@ def checklist_for(revision: Revision) -> ChecklistState:
     state = ChecklistState(revision)
     try:
         state.design = parse_design(revision.document)
-        state.measurements = attach_measurements(state.design, measurement_reader(revision))
-        if revision.is_draft:
+        if revision.is_draft:  # a frozen revision's checklist is stored; its files are read only when drawn
+            state.measurements = attach_measurements(state.design, measurement_reader(revision))
             state.checklist = evaluate(state.design, state.measurements).as_dict()
     except DesignError as error:
         state.problems = error.problems
@@ -67,4 +67,14 @@ def coverage_rows(state: ChecklistState) -> list[dict[str, Any]]:
     """The downlink budget per band with one and two receive antennas (rules.coverage), as dicts."""
     if state.design is None:
         return []
-    return [analysis.as_dict() for analysis in analyse_coverage(state.design, state.measurements)]
+    return [analysis.as_dict() for analysis in analyse_coverage(state.design, load_measurements(state))]
+
+
+def load_measurements(state: ChecklistState) -> tuple[LoadedMeasurement, ...]:
+    """The revision's measurements, read now if checklist_for() left them unread (frozen revisions)."""
+    if state.design is not None and state.design.measurements and not state.measurements:
+        try:
+            state.measurements = attach_measurements(state.design, measurement_reader(state.revision))
+        except DesignError as error:
+            state.problems = error.problems
+    return state.measurements

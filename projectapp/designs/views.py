@@ -7,6 +7,7 @@ htmx may call answers with the fragment it swaps; the same URL serves the full p
 
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
+from django.core.cache import cache
 from django.http import HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
@@ -14,7 +15,7 @@ from django.views.decorators.http import require_GET, require_http_methods, requ
 
 from projectapp.designs import questionnaire, services
 from projectapp.designs.access import get_product_for_user, get_revision_for_user, products_for
-from projectapp.designs.checklists import ChecklistState, checklist_for, coverage_rows
+from projectapp.designs.checklists import ChecklistState, checklist_for, coverage_rows, load_measurements
 from projectapp.designs.forms import ImportForm, ProductForm
 from projectapp.designs.models import Revision
 from projectapp.figures.charts import (
@@ -74,22 +75,40 @@ def product_detail(request, product_id: int):
     })
 
 
-def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> dict:
+FIGURES_VERSION = 1  # bump when a figure's drawing changes, so cached figures of frozen revisions are redrawn
+
+
+def _figures(state: ChecklistState, id_prefix: str) -> dict:
     svg = coverage_svg = None
     charts: list[str] = []
     coverage: list[dict] = []
     if state.design is not None and state.checklist is not None:
         svg = placement_svg(state.design, pair_severities=pair_severities_from_findings(state.findings),
                             frequency_mhz=state.design.lowest_mhz, id_prefix=id_prefix)
+        measurements = load_measurements(state)
         coverage = coverage_rows(state)
         if coverage:
             coverage_svg = chart_svg(coverage_chart(coverage, width_pt=560, height_pt=240), id_prefix="coverage")
-        for file_index, measurement in enumerate(state.measurements):
+        for file_index, measurement in enumerate(measurements):
             for chart_index, build in enumerate((return_loss_chart, isolation_chart, correlation_chart)):
                 charts.append(chart_svg(build(measurement, state.design, width_pt=560, height_pt=240),
                                         id_prefix=f"chart-{file_index}-{chart_index}"))
-    return {"state": state, "placement_svg": svg, "chart_svgs": charts, "coverage": coverage,
-            "coverage_svg": coverage_svg, "coverage_columns": TABLE_COLUMNS}
+    return {"placement_svg": svg, "chart_svgs": charts, "coverage": coverage, "coverage_svg": coverage_svg}
+
+
+def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> dict:
+    """The panel's figures. A frozen revision never changes, so its figures are drawn once and cached."""
+    if state.revision.is_draft:
+        figures = _figures(state, id_prefix)
+    else:
+        # The submission time makes the key unique even if a database is reset and ids are reused.
+        stamp = state.revision.submitted_at.timestamp() if state.revision.submitted_at else 0
+        key = f"earshot:figures:{FIGURES_VERSION}:{state.revision.pk}:{stamp}:{id_prefix}"
+        figures = cache.get(key)
+        if figures is None:
+            figures = _figures(state, id_prefix)
+            cache.set(key, figures, timeout=None)
+    return {"state": state, "coverage_columns": TABLE_COLUMNS, **figures}
 
 
 def _draft_context(request, revision: Revision, state: ChecklistState) -> dict:
