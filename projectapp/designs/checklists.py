@@ -7,11 +7,14 @@ PDF read one structure whichever state the revision is in.
 from dataclasses import dataclass, field
 from typing import Any
 
+from django.core.cache import cache
+
 from projectapp.designs.models import Revision
 from rules.coverage import analyse_coverage
 from rules.design import Design, DesignError, Problem, parse_design
 from rules.evaluate import evaluate
 from rules.measurements import LoadedMeasurement, attach_measurements
+from rules.registry import RULESET_VERSION
 
 
 @dataclass
@@ -49,13 +52,23 @@ def measurement_reader(revision: Revision):
     return read_text
 
 
+def draft_cache_key(revision: Revision, what: str) -> str:
+    """A draft changes only by saving it (every save moves updated_at), so its checklist and figures are
+    cached per saved state and rule set."""
+    return f"earshot:{what}:{RULESET_VERSION}:{revision.pk}:{revision.updated_at.timestamp()}"
+
+
 def checklist_for(revision: Revision) -> ChecklistState:
     state = ChecklistState(revision)
     try:
         state.design = parse_design(revision.document)
         if revision.is_draft:  # a frozen revision's checklist is stored; its files are read only when drawn
-            state.measurements = attach_measurements(state.design, measurement_reader(revision))
-            state.checklist = evaluate(state.design, state.measurements).as_dict()
+            key = draft_cache_key(revision, "checklist")
+            state.checklist = cache.get(key)
+            if state.checklist is None:
+                state.measurements = attach_measurements(state.design, measurement_reader(revision))
+                state.checklist = evaluate(state.design, state.measurements).as_dict()
+                cache.set(key, state.checklist, timeout=24 * 3600)
     except DesignError as error:
         state.problems = error.problems
     if not revision.is_draft:

@@ -15,7 +15,13 @@ from django.views.decorators.http import require_GET, require_http_methods, requ
 
 from projectapp.designs import questionnaire, services
 from projectapp.designs.access import get_product_for_user, get_revision_for_user, products_for
-from projectapp.designs.checklists import ChecklistState, checklist_for, coverage_rows, load_measurements
+from projectapp.designs.checklists import (
+    ChecklistState,
+    checklist_for,
+    coverage_rows,
+    draft_cache_key,
+    load_measurements,
+)
 from projectapp.designs.forms import ImportForm, ProductForm
 from projectapp.designs.models import Revision
 from projectapp.figures.charts import (
@@ -97,17 +103,17 @@ def _figures(state: ChecklistState, id_prefix: str) -> dict:
 
 
 def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> dict:
-    """The panel's figures. A frozen revision never changes, so its figures are drawn once and cached."""
+    """The panel's figures, drawn once per frozen revision and once per saved state of a draft."""
     if state.revision.is_draft:
-        figures = _figures(state, id_prefix)
+        key = f"{draft_cache_key(state.revision, 'figures')}:{FIGURES_VERSION}:{id_prefix}"
     else:
         # The submission time makes the key unique even if a database is reset and ids are reused.
         stamp = state.revision.submitted_at.timestamp() if state.revision.submitted_at else 0
         key = f"earshot:figures:{FIGURES_VERSION}:{state.revision.pk}:{stamp}:{id_prefix}"
-        figures = cache.get(key)
-        if figures is None:
-            figures = _figures(state, id_prefix)
-            cache.set(key, figures, timeout=None)
+    figures = cache.get(key)
+    if figures is None:
+        figures = _figures(state, id_prefix)
+        cache.set(key, figures, timeout=None if not state.revision.is_draft else 24 * 3600)
     return {"state": state, "coverage_columns": TABLE_COLUMNS, **figures}
 
 

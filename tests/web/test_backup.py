@@ -68,6 +68,18 @@ def signed_archive(password):
                      digest(content) == record.sha256, found is not None and found.pk == record.pk])
     return rows
 
+def archive_verification():
+    """The whole archive exported as a zip and verified against this database (verify_archive)."""
+    import tempfile
+    from pathlib import Path
+
+    from projectapp.signoff.archive_files import export_archive, verify_archive
+    with tempfile.TemporaryDirectory() as folder:
+        zip_path = Path(folder) / "archive.zip"
+        exported = export_archive(zip_path)
+        check = verify_archive(zip_path)
+    return [exported, check.checked, check.problems]
+
 mode, password = sys.argv[1], sys.argv[2]
 if mode == "build":
     call_command("migrate", "--no-input", verbosity=0)
@@ -97,6 +109,7 @@ print(json.dumps({
     "people": sorted([u.username, u.check_password(password)] for u in User.objects.all()),
     "files": files,
     "signed_archive": signed_archive(password),
+    "archive_verification": archive_verification(),
 }, sort_keys=True))
 '''
 
@@ -158,6 +171,8 @@ def test_backup_then_restore_into_a_fresh_database_brings_everything_back(tmp_pa
     assert len(before["files"]) >= 2, "a measurement file and a signed PDF"
     if before["signed_archive"] is not None:
         assert before["signed_archive"] and all(row[4] and row[5] for row in before["signed_archive"])
+    exported, checked, problems = before["archive_verification"]
+    assert exported >= 1 and checked == exported and problems == [], "the archive verifies before the backup"
 
     backup = tmp_path / "backup"
     made = run(["scripts/backup.sh", str(backup)], source)
