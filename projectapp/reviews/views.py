@@ -147,6 +147,17 @@ def _answer(request, item: ReviewItem, *, status: int = 200, **extra):
     return redirect(target)
 
 
+def _apply(request, item: ReviewItem, write):
+    """Runs a versioned write and answers with the card: saved, a conflict (409) or not allowed (403)."""
+    try:
+        item = write()
+    except services.ReviewConflict as conflict:
+        return _answer(request, conflict.current, status=409, conflict_message=_conflict_message(conflict.current))
+    except PermissionDenied as error:
+        return _answer(request, item, status=403, error=str(error) or "Not allowed.")
+    return _answer(request, item, saved=True)
+
+
 def _conflict_message(current: ReviewItem) -> str:
     who = current.decided_by.get_full_name() or current.decided_by.username if current.decided_by else "someone"
     return (f"{who} changed this item while you were editing: it is now '{current.get_disposition_display()}'"
@@ -185,14 +196,9 @@ def item_assign(request, item_id: int):
     form = AssignForm(request.POST, people=services.assignable_people(item.revision))
     if not form.is_valid():
         return _answer(request, item, status=400, assign_form=form, error="assignee: expected a reviewer or approver")
-    try:
-        item = services.review_item_assign(item=item, user=request.user, assignee=form.cleaned_data["assignee"],
-                                           expected_version=form.cleaned_data["version"])
-    except services.ReviewConflict as conflict:
-        return _answer(request, conflict.current, status=409, conflict_message=_conflict_message(conflict.current))
-    except PermissionDenied as error:
-        return _answer(request, item, status=403, error=str(error) or "Not allowed.")
-    return _answer(request, item, saved=True)
+    return _apply(request, item, lambda: services.review_item_assign(
+        item=item, user=request.user, assignee=form.cleaned_data["assignee"],
+        expected_version=form.cleaned_data["version"]))
 
 
 @login_required
@@ -202,14 +208,8 @@ def item_confirm(request, item_id: int):
     form = ConfirmForm(request.POST)
     if not form.is_valid():
         return _answer(request, item, status=400, error="version: expected the item version you confirmed")
-    try:
-        item = services.review_item_confirm(item=item, user=request.user,
-                                            expected_version=form.cleaned_data["version"])
-    except services.ReviewConflict as conflict:
-        return _answer(request, conflict.current, status=409, conflict_message=_conflict_message(conflict.current))
-    except PermissionDenied as error:
-        return _answer(request, item, status=403, error=str(error) or "Not allowed.")
-    return _answer(request, item, saved=True)
+    return _apply(request, item, lambda: services.review_item_confirm(
+        item=item, user=request.user, expected_version=form.cleaned_data["version"]))
 
 
 @login_required
