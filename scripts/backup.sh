@@ -22,10 +22,8 @@ python="${EARSHOT_PYTHON_BIN:-.venv/bin/python}"
 [ -x "$python" ] || python=$(command -v python3)
 export DJANGO_SETTINGS_MODULE="${DJANGO_SETTINGS_MODULE:-projectapp.settings}"
 exec "$python" - "$1" <<'PYTHON'
-import hashlib
 import json
 import os
-import shutil
 import sqlite3
 import subprocess
 import sys
@@ -38,6 +36,7 @@ sys.path.insert(0, os.getcwd())
 import django  # noqa: E402
 
 django.setup()
+from projectapp import backups  # noqa: E402
 from django.apps import apps  # noqa: E402
 from django.conf import settings  # noqa: E402
 from django.db import connection  # noqa: E402
@@ -51,35 +50,11 @@ def fail(message: str) -> None:
     sys.exit(1)
 
 
-def sha256(path: Path) -> str:
-    digest = hashlib.sha256()
-    with path.open("rb") as handle:
-        for block in iter(lambda: handle.read(1 << 20), b""):
-            digest.update(block)
-    return digest.hexdigest()
-
-
 def pg_tool(name: str) -> str:
-    for folder in (os.environ.get("EARSHOT_PG_BIN", ""), "/usr/lib/postgresql/15/bin"):
-        if folder and os.access(os.path.join(folder, name), os.X_OK):
-            return os.path.join(folder, name)
-    found = shutil.which(name)
+    found = backups.pg_tool(name)
     if not found:
         fail(f"{name} not found: install the PostgreSQL client (Debian: apt-get install postgresql-client-15)")
     return found
-
-
-def pg_env(db: dict) -> dict:
-    env = dict(os.environ)
-    for key, name in (("HOST", "PGHOST"), ("PORT", "PGPORT"), ("USER", "PGUSER"), ("PASSWORD", "PGPASSWORD"),
-                      ("NAME", "PGDATABASE")):
-        if db.get(key):
-            env[name] = str(db[key])
-    for key, name in (("sslmode", "PGSSLMODE"), ("sslrootcert", "PGSSLROOTCERT"), ("sslcert", "PGSSLCERT"),
-                      ("sslkey", "PGSSLKEY")):
-        if db.get("OPTIONS", {}).get(key):
-            env[name] = str(db["OPTIONS"][key])
-    return env
 
 
 if out.exists() and any(out.iterdir()):
@@ -101,7 +76,8 @@ if engine == "sqlite3":
     files["database.sqlite3"] = ""
 elif engine == "postgresql":
     done = subprocess.run([pg_tool("pg_dump"), "--format=custom", "--no-owner", "--no-privileges",
-                           "--file", str(out / "database.pgdump")], env=pg_env(db), capture_output=True, text=True)
+                           "--file", str(out / "database.pgdump")],
+                          env=backups.pg_env(db), capture_output=True, text=True)
     if done.returncode:
         fail(f"pg_dump failed: {done.stderr.strip()}")
     files["database.pgdump"] = ""
@@ -133,7 +109,7 @@ for label in ("designs.Product", "designs.Revision", "designs.MeasurementFile", 
     except LookupError:
         pass
 for name in files:
-    files[name] = sha256(out / name)
+    files[name] = backups.sha256_of(out / name)
 manifest = {
     "format": "earshot-backup/1",
     "created_at": datetime.now(UTC).isoformat(timespec="seconds"),

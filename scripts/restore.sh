@@ -24,7 +24,6 @@ python="${EARSHOT_PYTHON_BIN:-.venv/bin/python}"
 [ -x "$python" ] || python=$(command -v python3)
 export DJANGO_SETTINGS_MODULE="${DJANGO_SETTINGS_MODULE:-projectapp.settings}"
 exec "$python" - "$1" "$replace" <<'PYTHON'
-import hashlib
 import json
 import os
 import shutil
@@ -39,6 +38,7 @@ sys.path.insert(0, os.getcwd())
 import django  # noqa: E402
 
 django.setup()
+from projectapp import backups  # noqa: E402
 from django.apps import apps  # noqa: E402
 from django.conf import settings  # noqa: E402
 from django.core.management import call_command  # noqa: E402
@@ -53,35 +53,11 @@ def fail(message: str) -> None:
     sys.exit(1)
 
 
-def sha256(path: Path) -> str:
-    digest = hashlib.sha256()
-    with path.open("rb") as handle:
-        for block in iter(lambda: handle.read(1 << 20), b""):
-            digest.update(block)
-    return digest.hexdigest()
-
-
 def pg_tool(name: str) -> str:
-    for folder in (os.environ.get("EARSHOT_PG_BIN", ""), "/usr/lib/postgresql/15/bin"):
-        if folder and os.access(os.path.join(folder, name), os.X_OK):
-            return os.path.join(folder, name)
-    found = shutil.which(name)
+    found = backups.pg_tool(name)
     if not found:
         fail(f"{name} not found: install the PostgreSQL client (Debian: apt-get install postgresql-client-15)")
     return found
-
-
-def pg_env(db: dict) -> dict:
-    env = dict(os.environ)
-    for key, name in (("HOST", "PGHOST"), ("PORT", "PGPORT"), ("USER", "PGUSER"), ("PASSWORD", "PGPASSWORD"),
-                      ("NAME", "PGDATABASE")):
-        if db.get(key):
-            env[name] = str(db[key])
-    for key, name in (("sslmode", "PGSSLMODE"), ("sslrootcert", "PGSSLROOTCERT"), ("sslcert", "PGSSLCERT"),
-                      ("sslkey", "PGSSLKEY")):
-        if db.get("OPTIONS", {}).get(key):
-            env[name] = str(db["OPTIONS"][key])
-    return env
 
 
 def holds_data() -> bool:
@@ -104,7 +80,7 @@ if manifest.get("format") != "earshot-backup/1":
 for name, expected in manifest["sha256"].items():
     if not (source / name).is_file():
         fail(f"{name} is missing from {source}")
-    if sha256(source / name) != expected:
+    if backups.sha256_of(source / name) != expected:
         fail(f"{name}: its SHA-256 does not match the manifest; the backup is damaged or was changed")
 
 db = settings.DATABASES["default"]
@@ -141,7 +117,7 @@ else:
         with connection.cursor() as cursor:
             cursor.execute("DROP SCHEMA public CASCADE; CREATE SCHEMA public")
         connections.close_all()
-    done = subprocess.run([*command, str(source / "database.pgdump")], env=pg_env(db), capture_output=True,
+    done = subprocess.run([*command, str(source / "database.pgdump")], env=backups.pg_env(db), capture_output=True,
                           text=True)
     if done.returncode:
         fail(f"pg_restore failed: {done.stderr.strip()}")

@@ -33,13 +33,6 @@ class ChecklistState:
     def summary(self) -> dict[str, int]:
         return self.checklist["summary"] if self.checklist else {}
 
-    @property
-    def problems_by_path(self) -> dict[str, list[str]]:
-        grouped: dict[str, list[str]] = {}
-        for problem in self.problems:
-            grouped.setdefault(problem.path, []).append(problem.message)
-        return grouped
-
 
 def measurement_reader(revision: Revision):
     files = {measurement.name: measurement for measurement in revision.measurement_files.all()}

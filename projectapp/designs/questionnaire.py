@@ -258,7 +258,7 @@ def _set(target: dict[str, Any], dotted: str, value: Any) -> None:
         node[keys[-1]] = value
 
 
-def _read_question(question: Question, data: QueryDict, prefix: str, document_value: Any) -> Any:
+def _read_question(question: Question, data: QueryDict, prefix: str) -> Any:
     name = prefix + question.key
     if question.kind == "text":
         text = data.get(name, "").strip()
@@ -298,7 +298,7 @@ def apply_section(document: Mapping[str, Any], section: Section, data: QueryDict
         updated["antennas"] = _read_antennas(updated.get("antennas"), data)
         return updated
     for question in section.questions:
-        _set(updated, question.key, _read_question(question, data, "", get_path(document, question.key)))
+        _set(updated, question.key, _read_question(question, data, ""))
     for root in section.roots:
         if isinstance(updated.get(root), dict) and not updated[root] and root not in ("product", "modem"):
             del updated[root]
@@ -314,7 +314,7 @@ def _read_antennas(existing: Any, data: QueryDict) -> list[dict[str, Any]]:
         prefix = f"antennas[{row}]."
         antenna = copy.deepcopy(old[row]) if row < len(old) and isinstance(old[row], dict) else {}
         for question in ANTENNA_QUESTIONS:
-            value = _read_question(question, data, prefix, antenna.get(question.key))
+            value = _read_question(question, data, prefix)
             if value is None or (question.key == "cable_loss_db" and value == 0 and "cable_loss_db" not in antenna):
                 antenna.pop(question.key, None)
             else:

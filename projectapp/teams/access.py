@@ -2,7 +2,6 @@
 
 from django.core.exceptions import PermissionDenied
 from django.db.models import QuerySet
-from django.shortcuts import get_object_or_404
 
 from projectapp.teams.models import Membership, Team
 
@@ -24,6 +23,3 @@ def require_role(user, team: Team, role: str) -> None:
     if not has_role(user, team, role):
         raise PermissionDenied(f"This needs the {role} role in {team.name}.")
 
-
-def get_team_for_user(user, team_id: int) -> Team:
-    return get_object_or_404(teams_of(user), pk=team_id)
