@@ -119,23 +119,31 @@ if _database["ENGINE"] == "django.db.backends.sqlite3":
     # to 20 s for the lock rather than failing with "database is locked".
     _database["OPTIONS"] = {"transaction_mode": "IMMEDIATE", "timeout": 20,
                             "init_command": "PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL"}
-else:
-    _database["CONN_MAX_AGE"] = env_int("DATABASE_CONN_MAX_AGE", 60 if PRODUCTION else 0)
-    _database["CONN_HEALTH_CHECKS"] = True
+# A server process keeps its connection between requests (opening one costs more than a page's queries).
+_database["CONN_MAX_AGE"] = env_int("DATABASE_CONN_MAX_AGE", 60 if PRODUCTION else 0)
+_database["CONN_HEALTH_CHECKS"] = True
 DATABASES = {"default": _database}
 
-# -- cache (holds the log-in throttle's counters) ---------------------------------------------------------------
+# -- cache (log-in throttle counters, sessions, drawn figures and rendered page fragments) ----------------------
 # memory: per process (a developer's machine, tests); file: shared by the server processes of one machine;
 # database: shared by several machines (run `manage.py createcachetable` once).
 EARSHOT_CACHE = env_choice("EARSHOT_CACHE", ("memory", "file", "database"), "file" if PRODUCTION else "memory")
+_CACHE_OPTIONS = {"MAX_ENTRIES": env_int("EARSHOT_CACHE_MAX_ENTRIES", 5000)}
 CACHES = {
     "default": {
         "memory": {"BACKEND": "django.core.cache.backends.locmem.LocMemCache", "LOCATION": "earshot"},
         "file": {"BACKEND": "django.core.cache.backends.filebased.FileBasedCache",
-                 "LOCATION": str(VAR_DIR / "cache")},
-        "database": {"BACKEND": "django.core.cache.backends.db.DatabaseCache", "LOCATION": "earshot_cache"},
+                 "LOCATION": str(VAR_DIR / "cache"), "OPTIONS": _CACHE_OPTIONS},
+        "database": {"BACKEND": "django.core.cache.backends.db.DatabaseCache", "LOCATION": "earshot_cache",
+                     "OPTIONS": _CACHE_OPTIONS},
     }[EARSHOT_CACHE]
 }
+# A memory cache is one process's own: what one process forgets, another would still remember. So sessions
+# and the signed-in person are read from the cache only when every server process shares it.
+EARSHOT_SHARED_CACHE = EARSHOT_CACHE != "memory"
+SESSION_ENGINE = ("django.contrib.sessions.backends.cached_db" if EARSHOT_SHARED_CACHE
+                  else "django.contrib.sessions.backends.db")
+AUTHENTICATION_BACKENDS = ["projectapp.teams.backends.CachedUserBackend"]
 LOGIN_THROTTLE_FAILURES = env_int("LOGIN_THROTTLE_FAILURES", 5)
 LOGIN_THROTTLE_WINDOW_SECONDS = env_int("LOGIN_THROTTLE_WINDOW_SECONDS", 15 * 60)
 
