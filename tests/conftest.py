@@ -23,9 +23,13 @@ def media_in_tmp(settings, tmp_path):
 
 @pytest.fixture(autouse=True)
 def empty_cache():
-    """Each test starts with an empty cache (figures of frozen revisions are cached by id)."""
+    """Each test starts with an empty cache and no fragments kept in memory (keys name revisions by id)."""
     from django.core.cache import cache
 
+    from projectapp.fragments import LOCAL
+
     cache.clear()
+    LOCAL.clear()
     yield
     cache.clear()
+    LOCAL.clear()

@@ -4,11 +4,16 @@ Both come out in the contract's shape (earshot-checklist/1 as a dict), so templa
 PDF read one structure whichever state the revision is in.
 """
 
+import hashlib
+import json
 from dataclasses import dataclass, field
+from datetime import datetime
 from typing import Any
 
 from django.core.cache import cache
 
+from projectapp import fragments
+from projectapp.designs.access import utc_naive
 from projectapp.designs.models import Revision
 from rules.coverage import analyse_coverage
 from rules.design import Design, DesignError, Problem, parse_design
@@ -45,10 +50,30 @@ def measurement_reader(revision: Revision):
     return read_text
 
 
+def state_key(revision: Revision) -> str:
+    """What a revision's checklist, figures and design summary are computed from, as a short string.
+
+    A frozen revision never changes: its id and submission time name it (the time keeps the key unique if a
+    database is reset and ids come round again). A draft is named by its content: the document and the
+    measurement files kept with it (by id and SHA-256), so saving the same values again, or changing a
+    value and changing it back, finds what was already computed.
+    """
+    if not revision.is_draft:
+        return frozen_state_key(revision.pk, revision.submitted_at)
+    files = sorted((m.pk, m.name, m.sha256) for m in revision.measurement_files.all())
+    content = json.dumps([revision.document, files], sort_keys=True, separators=(",", ":"), default=str)
+    return f"draft-{revision.pk}-{hashlib.sha256(content.encode()).hexdigest()[:32]}"
+
+
+def frozen_state_key(revision_id: int, submitted_at: datetime | None) -> str:
+    """The state key of a submitted revision, from its id and submission time alone."""
+    moment = utc_naive(submitted_at)
+    return f"frozen-{revision_id}-{moment.isoformat() if moment else ''}"
+
+
 def draft_cache_key(revision: Revision, what: str) -> str:
-    """A draft changes only by saving it (every save moves updated_at), so its checklist and figures are
-    cached per saved state and rule set."""
-    return f"earshot:{what}:{RULESET_VERSION}:{revision.pk}:{revision.updated_at.timestamp()}"
+    """The cache key of something computed from a draft's content under this rule set."""
+    return f"earshot:{what}:{RULESET_VERSION}:{state_key(revision)}"
 
 
 def checklist_for(revision: Revision) -> ChecklistState:
@@ -84,3 +109,25 @@ def load_measurements(state: ChecklistState) -> tuple[LoadedMeasurement, ...]:
         except DesignError as error:
             state.problems = error.problems
     return state.measurements
+
+
+def summaries(revisions: list[Revision]) -> dict[int, dict[str, Any]]:
+    """Per revision id, what a list shows of it: the category, the finding counts (None when the design
+    can't be checked yet) and how many problems stand in the way. Kept in the cache per state."""
+    keys = {revision.pk: fragments.cache_key("summary", state_key(revision)) for revision in revisions}
+    found = cache.get_many(list(keys.values()))
+    result, missing = {}, {}
+    for revision in revisions:
+        key = keys[revision.pk]
+        if key in found:
+            result[revision.pk] = found[key]
+            continue
+        state = checklist_for(revision)
+        result[revision.pk] = missing[key] = {
+            "category": state.design.modem.category.label if state.design else "",
+            "counts": state.summary if state.checklist else None,
+            "problems": len(state.problems),
+        }
+    if missing:
+        cache.set_many(missing, timeout=30 * 24 * 3600)
+    return result

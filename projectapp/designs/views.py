@@ -8,19 +8,28 @@ htmx may call answers with the fragment it swaps; the same URL serves the full p
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
 from django.core.cache import cache
+from django.db.models import OuterRef, Subquery
 from django.http import HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.views.decorators.http import require_GET, require_http_methods, require_POST
 
+from projectapp import fragments
 from projectapp.designs import questionnaire, services
-from projectapp.designs.access import get_product_for_user, get_revision_for_user, products_for
+from projectapp.designs.access import (
+    get_product_for_user,
+    get_revision_for_user,
+    products_for,
+    revision_facts,
+)
 from projectapp.designs.checklists import (
     ChecklistState,
     checklist_for,
     coverage_rows,
-    draft_cache_key,
+    frozen_state_key,
     load_measurements,
+    state_key,
+    summaries,
 )
 from projectapp.designs.forms import ImportForm, ProductForm
 from projectapp.designs.models import Revision
@@ -43,14 +52,26 @@ from rules.touchstone import TouchstoneError
 @login_required
 @require_GET
 def product_list(request):
-    products = products_for(request.user).prefetch_related("revisions")
-    rows = []
-    for product in products:
-        latest = product.latest
-        state = checklist_for(latest) if latest else None
-        rows.append({"product": product, "latest": latest, "state": state})
+    newest = Revision.objects.filter(product=OuterRef("pk")).order_by("-number")
+    products = list(products_for(request.user).annotate(**{
+        f"latest_{name}": Subquery(newest.values(name)[:1]) for name in ("id", "number", "status", "updated_at")}))
     can_create = teams_where(request.user, Role.AUTHOR).exists()
-    return render(request, "designs/product_list.html", {"rows": rows, "can_create": can_create})
+    # Everything the page shows is named by these rows (a revision's counts follow from its id and when it
+    # was last saved), so the rendered page is kept per rows.
+    rows = tuple((product.pk, product.name, product.description, product.team.name, product.latest_id,
+                  product.latest_number, product.latest_status, str(product.latest_updated_at))
+                 for product in products)
+    return fragments.page(request, "designs/product_list.html", ("products", rows, can_create),
+                          lambda: {"rows": _product_rows(products), "can_create": can_create})
+
+
+def _product_rows(products) -> list[dict]:
+    latest = {revision.pk: revision for revision in Revision.objects.filter(
+        pk__in=[product.latest_id for product in products if product.latest_id]).prefetch_related(
+        "measurement_files")}
+    found = summaries(list(latest.values()))
+    return [{"product": product, "latest": latest.get(product.latest_id), "summary": found.get(product.latest_id)}
+            for product in products]
 
 
 @login_required
@@ -81,9 +102,6 @@ def product_detail(request, product_id: int):
     })
 
 
-FIGURES_VERSION = 1  # bump when a figure's drawing changes, so cached figures of frozen revisions are redrawn
-
-
 def _figures(state: ChecklistState, id_prefix: str) -> dict:
     svg = coverage_svg = None
     charts: list[str] = []
@@ -103,21 +121,16 @@ def _figures(state: ChecklistState, id_prefix: str) -> dict:
 
 
 def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> dict:
-    """The panel's figures, drawn once per frozen revision and once per saved state of a draft."""
-    if state.revision.is_draft:
-        key = f"{draft_cache_key(state.revision, 'figures')}:{FIGURES_VERSION}:{id_prefix}"
-    else:
-        # The submission time makes the key unique even if a database is reset and ids are reused.
-        stamp = state.revision.submitted_at.timestamp() if state.revision.submitted_at else 0
-        key = f"earshot:figures:{FIGURES_VERSION}:{state.revision.pk}:{stamp}:{id_prefix}"
+    """The panel's figures, drawn once per state of the revision (and version of the code that draws them)."""
+    key = fragments.cache_key("figures", state_key(state.revision), id_prefix)
     figures = cache.get(key)
     if figures is None:
         figures = _figures(state, id_prefix)
-        cache.set(key, figures, timeout=None if not state.revision.is_draft else 24 * 3600)
+        cache.set(key, figures, timeout=30 * 24 * 3600)
     return {"state": state, "coverage_columns": TABLE_COLUMNS, **figures}
 
 
-def _draft_context(request, revision: Revision, state: ChecklistState) -> dict:
+def _draft_context(revision: Revision, state: ChecklistState) -> dict:
     document = revision.document
     sections = []
     for section in questionnaire.SECTIONS:
@@ -148,15 +161,15 @@ def _measurement_rows(revision: Revision) -> list[dict]:
 def draft_edit(request, product_id: int):
     product = get_product_for_user(request.user, product_id)
     draft = product.draft
-    if draft is None:
-        return render(request, "designs/draft_none.html", {
-            "product": product, "latest": product.latest,
-            "is_author": has_role(request.user, product.team, Role.AUTHOR)})
     is_author = has_role(request.user, product.team, Role.AUTHOR)
+    if draft is None:
+        return render(request, "designs/draft_none.html", {"product": product, "latest": product.latest,
+                                                           "is_author": is_author})
     if not is_author:
         return redirect("revision_detail", product.pk, draft.number)
-    state = checklist_for(draft)
-    return render(request, "designs/draft_edit.html", _draft_context(request, draft, state))
+    return fragments.page(request, "designs/draft_edit.html",
+                          ("draft", state_key(draft), product.pk, product.name, draft.number),
+                          lambda: _draft_context(draft, checklist_for(draft)), timeout=fragments.DAY)
 
 
 @login_required
@@ -187,12 +200,20 @@ def draft_section_save(request, product_id: int, section: str):
     if action.startswith(("add", "remove:", "duplicate:")):
         verb, _, index = action.partition(":")
         document = questionnaire.antennas_action(document, verb, int(index) if index.isdigit() else None)
-    draft = services.draft_save_document(revision=draft, document=document, user=request.user)
-    state = checklist_for(draft)
+    if document != draft.document:  # saving what is already stored would only move updated_at
+        draft = services.draft_save_document(revision=draft, document=document, user=request.user)
     if request.htmx:
-        context = _draft_context(request, draft, state)
-        context["current"] = next(item for item in context["sections"] if item["section"] is current)
-        return render(request, "designs/draft_section_saved.html", context)
+        state = checklist_for(draft)
+        fields = questionnaire.section_fields(current, draft.document, state.problems)
+        flat = [item for row in fields for item in row] if current is questionnaire.ANTENNAS else fields
+        section = {"section": current, "fields": fields,
+                   "loose_problems": questionnaire.section_problems(current, state.problems, flat)}
+        panel = fragments.shared("designs/_panel_oob.html", ("panel", state_key(draft), product.pk),
+                                 lambda: {"product": product, "revision": draft, **_panel_context(state)},
+                                 timeout=fragments.DAY)
+        return render(request, "designs/draft_section_saved.html", {
+            "product": product, "revision": draft, "current": section, "presets": questionnaire.band_presets(),
+            "panel": fragments.personal(panel, request)})
     messages.success(request, f"{current.title} saved.")
     return redirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
 
@@ -218,14 +239,21 @@ def draft_submit(request, product_id: int):
 @login_required
 @require_GET
 def revision_detail(request, product_id: int, number: int):
-    revision = get_revision_for_user(request.user, product_id, number)
-    state = checklist_for(revision)
-    return render(request, "designs/revision_detail.html", {
-        "product": revision.product, "revision": revision,
-        "is_author": has_role(request.user, revision.product.team, Role.AUTHOR),
-        "design_text": services.document_export_text(revision=revision),
-        **_panel_context(state),
-    })
+    facts = revision_facts(request.user, product_id, number)
+    is_author = facts.is_draft and Role.AUTHOR in facts.roles  # only a draft's page differs by role
+    revisions = Revision.objects.select_related("product", "submitted_by")
+    draft = revisions.get(pk=facts.revision_id) if facts.is_draft else None  # named by its content
+
+    def context() -> dict:
+        revision = draft or revisions.get(pk=facts.revision_id)
+        return {"product": revision.product, "revision": revision, "is_author": is_author,
+                "design_text": services.document_export_text(revision=revision),
+                **_panel_context(checklist_for(revision))}
+
+    state = state_key(draft) if draft else frozen_state_key(facts.revision_id, facts.submitted_at)
+    return fragments.page(request, "designs/revision_detail.html",
+                          ("revision", state, product_id, facts.product_name, facts.status, facts.submitter_name,
+                           is_author), context)
 
 
 @login_required

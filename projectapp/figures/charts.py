@@ -617,7 +617,7 @@ def _frequency_chart(*, measurement: LoadedMeasurement, design: Design, title: s
                 _polyline(group, run, colour, dash)
                 run = []
                 continue
-            run += [x_axis.pt(frequency_mhz), y_axis.clamped_pt(value)]
+            run += [round(x_axis.pt(frequency_mhz), 2), round(y_axis.clamped_pt(value), 2)]  # 0.01 pt: finer than print
         _polyline(group, run, colour, dash)
         series.append(Series(curve.label, colour, dash, drawn_mhz, drawn, int(curve.values.shape[0])))
 
