@@ -7,8 +7,9 @@ What it does, all on this machine (the server listens on 127.0.0.1 only):
    `seed_demo --password ...` and `collectstatic`, and makes sure a signed PDF record exists to download.
 2. Starts gunicorn with the production settings (EARSHOT_ENV=production; HTTPS redirect and secure cookies off,
    since this is plain HTTP on the loopback) on a spare port with --workers (2 to 4) processes.
-3. Capacity: a closed loop of --connections clients with no pause, --capacity-seconds each, first on
-   /healthz/ (a trivial Django view: the floor) and then on a checklist page (a submitted revision).
+3. Capacity: a closed loop of --connections clients with no pause, --capacity-seconds each, on /healthz/
+   (a trivial Django view: the floor) and on the checklist pages of the submitted revisions, taking turns
+   in --capacity-rounds rounds so that a busy spell on a shared machine weighs on both alike.
 4. People: --users simulated people for --seconds, each with their own session (cookies), pausing up to
    --think seconds between requests: product lists, revision checklists, draft checklists, saving a
    questionnaire section as the author `maren` (with the CSRF token, as htmx sends it) and downloading a
@@ -141,6 +142,7 @@ def prepare(password: str, people: dict[str, int]) -> Targets:
 def open_sessions(people: dict[str, int]) -> dict[str, list[str]]:
     """Logged-in sessions made the way Django's own log-in makes them, without the deliberately slow password
     hash for each (one real log-in per person is timed separately): username → session keys."""
+    from django.conf import settings
     from django.contrib.auth import get_user_model
     from django.test import Client
 
@@ -149,7 +151,7 @@ def open_sessions(people: dict[str, int]) -> dict[str, list[str]]:
         user = get_user_model().objects.get(username=username)
         for _ in range(count):
             client = Client()
-            client.force_login(user, backend="django.contrib.auth.backends.ModelBackend")
+            client.force_login(user, backend=settings.AUTHENTICATION_BACKENDS[0])
             sessions.setdefault(username, []).append(client.session.session_key)
     return sessions
 
@@ -511,10 +513,13 @@ def main() -> int:
     parser.add_argument("--threads", type=int, default=1, help="threads per worker (above 1: gthread workers)")
     parser.add_argument("--connections", type=int, default=8, help="clients in each capacity loop")
     parser.add_argument("--capacity-seconds", type=float, default=10.0)
+    parser.add_argument("--capacity-rounds", type=int, default=3, help="alternate floor and checklist this often")
     parser.add_argument("--seed", type=int, default=7)
     args = parser.parse_args()
     if not 1 <= args.users <= 500 or not 1 <= args.seconds <= 600 or not 1 <= args.capacity_seconds <= 120:
         parser.error("keep --users within 1..500 and the phases within 600 s (capacity 120 s)")
+    if not 1 <= args.capacity_rounds <= 10:
+        parser.error("keep --capacity-rounds within 1..10")
 
     with tempfile.TemporaryDirectory(prefix="earshot-load-") as folder:
         var_dir = Path(folder) / "var"
@@ -556,17 +561,28 @@ def main() -> int:
             print_table("Alone: one person, one request at a time, 10 of each (what a request costs by itself)",
                         summarize(alone, None), check_p95=False)
             print("  (req/s here is 1 / the mean time: one process's rate for that request)")
-            floor_results, floor_elapsed = run_closed_loop(port, "floor (healthz)", ["/healthz/"],
-                                                           args.connections, args.capacity_seconds,
-                                                           args.max_requests, {})
-            checklist_results, checklist_elapsed = run_closed_loop(
-                port, f"revision checklists ({len(targets.submitted)})", targets.submitted, args.connections,
-                args.capacity_seconds, args.max_requests, people[-1].session.cookies)
+            # Floor and checklist take turns, so a busy spell on the machine falls on both alike.
+            floor_results, checklist_results, rounds = [], [], []
+            floor_elapsed = checklist_elapsed = 0.0
+            checklist_name = f"revision checklists ({len(targets.submitted)})"
+            for _ in range(args.capacity_rounds):
+                results_1, elapsed_1 = run_closed_loop(port, "floor (healthz)", ["/healthz/"], args.connections,
+                                                       args.capacity_seconds / args.capacity_rounds,
+                                                       args.max_requests, {})
+                results_2, elapsed_2 = run_closed_loop(port, checklist_name, targets.submitted, args.connections,
+                                                       args.capacity_seconds / args.capacity_rounds,
+                                                       args.max_requests, people[-1].session.cookies)
+                floor_results += results_1
+                checklist_results += results_2
+                floor_elapsed += elapsed_1
+                checklist_elapsed += elapsed_2
+                rounds.append((len(results_2) / elapsed_2) / (len(results_1) / elapsed_1))
             floor = summarize(floor_results, floor_elapsed)
             checklist = summarize(checklist_results, checklist_elapsed)
             capacity = {**floor, **checklist}
-            print_table(f"Capacity: {args.connections} clients without pause, {args.capacity_seconds:g} s each",
-                        capacity, check_p95=False)
+            print_table(f"Capacity: {args.connections} clients without pause, {args.capacity_seconds:g} s each, "
+                        f"in {args.capacity_rounds} alternating rounds", capacity, check_p95=False)
+            print("  checklist / floor in each round: " + ", ".join(f"{ratio:.2f}" for ratio in rounds))
             floor_rate = next(iter(floor.values()))["per_second"]
             checklist_rate = next(iter(checklist.values()))["per_second"]
             ratio = checklist_rate / floor_rate if floor_rate else float("nan")
