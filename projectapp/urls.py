@@ -3,11 +3,12 @@ from django.contrib.auth import views as auth_views
 from django.urls import include, path
 
 from projectapp.health import healthz
+from projectapp.teams.logout import LogOutView
 from projectapp.teams.throttle import ThrottledLoginView
 
 urlpatterns = [
     path("accounts/login/", ThrottledLoginView.as_view(), name="login"),
-    path("accounts/logout/", auth_views.LogoutView.as_view(), name="logout"),
+    path("accounts/logout/", LogOutView.as_view(), name="logout"),
     path("accounts/password/", auth_views.PasswordChangeView.as_view(), name="password_change"),
     path("accounts/password/done/", auth_views.PasswordChangeDoneView.as_view(), name="password_change_done"),
     path("admin/", admin.site.urls),

@@ -269,12 +269,28 @@ def test_a_post_without_the_csrf_token_is_refused_and_changes_nothing(site):
     assert b"The form had expired" in response.content
     assert not Product.objects.filter(name="Culvert level sensor").exists()
 
-    # the page's token, sent the way htmx sends it (hx-headers on <body>), is accepted
+    # the token the page's form carries is accepted
     page = client.get(reverse("product_create"))
-    token = re.search(r'"X-CSRFToken": "([^"]+)"', page.content.decode()).group(1)
-    response = client.post(reverse("product_create"), form, headers={"X-CSRFToken": token})
+    token = re.search(r'name="csrfmiddlewaretoken" value="([^"]+)"', page.content.decode()).group(1)
+    response = client.post(reverse("product_create"), {**form, "csrfmiddlewaretoken": token})
     assert response.status_code == 302
     assert Product.objects.filter(name="Culvert level sensor").exists()
+
+
+def test_pages_that_change_nothing_carry_no_csrf_token_and_logging_out_asks_first(site):
+    client = Client(enforce_csrf_checks=True)
+    client.force_login(site.author)
+    for url in (reverse("product_list"), site.submitted.latest.get_absolute_url()):
+        response = client.get(url)
+        assert "csrfmiddlewaretoken" not in response.content.decode(), url
+        assert "csrftoken" not in response.cookies, url
+    page = client.get(reverse("logout"))  # the header's "Log out" link
+    assert page.status_code == 200 and "_auth_user_id" in client.session
+    token = re.search(r'name="csrfmiddlewaretoken" value="([^"]+)"', page.content.decode()).group(1)
+    assert client.post(reverse("logout")).status_code == 403 and "_auth_user_id" in client.session
+    response = client.post(reverse("logout"), {"csrfmiddlewaretoken": token})
+    assert response.status_code == 302 and "_auth_user_id" not in client.session
+    assert "not logged in" in client.get(reverse("logout")).content.decode()
 
 
 def test_the_login_form_needs_the_csrf_token(site):
