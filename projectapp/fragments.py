@@ -124,18 +124,23 @@ def shared(template: str, key_parts: tuple[Hashable, ...], context: Callable[[],
            timeout: int | None = 7 * DAY) -> Pieces:
     """The template rendered with `context()` (called only when no copy is kept), as UTF-8 cut at the
     reader's markers: serving it is then one join, with no encoding and no searching."""
+    if settings.DEBUG:  # a developer editing a template sees the edit at once (the code stamp is per process)
+        return _render(template, context())
     key = cache_key(f"shared:{template}", *key_parts)
     pieces = LOCAL.get(key)
     if pieces is None:
         pieces = cache.get(key)
         if pieces is None:
-            html = render_to_string(template, {
-                **context(), "csrf_token": CSRF_MARK, "user": _Reader(), "flash_slot": FLASH_MARK,
-                "csp_nonce": NONCE_MARK})
-            pieces = tuple(_MARKS.split(html.encode()))
+            pieces = _render(template, context())
             cache.set(key, pieces, timeout)
         LOCAL.put(key, pieces)
     return pieces
+
+
+def _render(template: str, context: dict[str, Any]) -> Pieces:
+    html = render_to_string(template, {**context, "csrf_token": CSRF_MARK, "user": _Reader(),
+                                       "flash_slot": FLASH_MARK, "csp_nonce": NONCE_MARK})
+    return tuple(_MARKS.split(html.encode()))
 
 
 def _personal_bytes(pieces: Pieces, request) -> bytes:

@@ -216,3 +216,12 @@ def test_the_section_in_an_htmx_answer_is_the_section_on_the_page(product, autho
         return re.sub(r'<span class="saved-note[^>]*>.*?</span>', "", found, flags=re.S)
 
     assert section(answer) == section(page)
+
+
+def test_with_debug_on_every_page_is_drawn_afresh(submitted_product, author, settings, drawn):
+    settings.DEBUG = True  # a developer's machine: template edits show at once
+    client = signed_in(author)
+    url = submitted_product.latest.get_absolute_url()
+    pages = [client.get(url).content.decode() for _ in range(2)]
+    assert len(drawn) == 2 and "earshot:" not in pages[0] + pages[1]
+    assert "<span>author</span>" in pages[1]
