@@ -8,9 +8,9 @@ the reader put in as it goes out.
 Two rules keep that safe:
 
 - A page is rendered *without the request*. Where it would show something of the reader's it gets a marker
-  instead: their CSRF token, their name, their flash messages, the response's CSP nonce. `personal()` replaces the markers for each
-  reader. A marker begins with "<", which the template engine escapes in every value it puts in, so no text
-  typed by anyone can forge one.
+  instead: their CSRF token, their name, their flash messages, the response's CSP nonce; `page()` and
+  `personal()` fill the markers for each reader. A marker begins with "<", which the template engine
+  escapes in every value it puts in, so no text typed by anyone can forge one.
 - A key names everything the page shows (the caller passes the revision's state key, the product's name,
   the reader's role...) and the code that drew it (`code_stamp()`: a digest of the templates and the Python
   that fills them), so any change makes a new key and an out-of-date page is never read again; it just
