@@ -11,6 +11,7 @@ from datetime import datetime
 from typing import Any
 
 from django.core.cache import cache
+from django.db.models import prefetch_related_objects
 
 from projectapp import fragments
 from projectapp.designs.access import utc_naive
@@ -19,7 +20,6 @@ from rules.coverage import analyse_coverage
 from rules.design import Design, DesignError, Problem, parse_design
 from rules.evaluate import evaluate
 from rules.measurements import LoadedMeasurement, attach_measurements
-from rules.registry import RULESET_VERSION
 
 
 @dataclass
@@ -60,6 +60,7 @@ def state_key(revision: Revision) -> str:
     """
     if not revision.is_draft:
         return frozen_state_key(revision.pk, revision.submitted_at)
+    prefetch_related_objects([revision], "measurement_files")  # read once; later .all() calls reuse them
     files = sorted((m.pk, m.name, m.sha256) for m in revision.measurement_files.all())
     content = json.dumps([revision.document, files], sort_keys=True, separators=(",", ":"), default=str)
     return f"draft-{revision.pk}-{hashlib.sha256(content.encode()).hexdigest()[:32]}"
@@ -71,17 +72,12 @@ def frozen_state_key(revision_id: int, submitted_at: datetime | None) -> str:
     return f"frozen-{revision_id}-{moment.isoformat() if moment else ''}"
 
 
-def draft_cache_key(revision: Revision, what: str) -> str:
-    """The cache key of something computed from a draft's content under this rule set."""
-    return f"earshot:{what}:{RULESET_VERSION}:{state_key(revision)}"
-
-
 def checklist_for(revision: Revision) -> ChecklistState:
     state = ChecklistState(revision)
     try:
         state.design = parse_design(revision.document)
         if revision.is_draft:  # a frozen revision's checklist is stored; its files are read only when drawn
-            key = draft_cache_key(revision, "checklist")
+            key = fragments.cache_key("checklist", state_key(revision))  # the code stamp covers the rules
             state.checklist = cache.get(key)
             if state.checklist is None:
                 state.measurements = attach_measurements(state.design, measurement_reader(revision))

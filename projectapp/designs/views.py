@@ -130,14 +130,16 @@ def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> di
     return {"state": state, "coverage_columns": TABLE_COLUMNS, **figures}
 
 
+def _section_item(section: questionnaire.Section, revision: Revision, state: ChecklistState) -> dict:
+    """One questionnaire section as _section.html shows it: its fields, and problems no field holds."""
+    fields = questionnaire.section_fields(section, revision.document, state.problems)
+    flat = [item for row in fields for item in row] if section is questionnaire.ANTENNAS else fields
+    return {"section": section, "fields": fields,
+            "loose_problems": questionnaire.section_problems(section, state.problems, flat)}
+
+
 def _draft_context(revision: Revision, state: ChecklistState) -> dict:
-    document = revision.document
-    sections = []
-    for section in questionnaire.SECTIONS:
-        fields = questionnaire.section_fields(section, document, state.problems)
-        flat = [item for row in fields for item in row] if section is questionnaire.ANTENNAS else fields
-        sections.append({"section": section, "fields": fields,
-                         "loose_problems": questionnaire.section_problems(section, state.problems, flat)})
+    sections = [_section_item(section, revision, state) for section in questionnaire.SECTIONS]
     return {"product": revision.product, "revision": revision, "sections": sections,
             "presets": questionnaire.band_presets(), "measurements": _measurement_rows(revision),
             "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, **_panel_context(state)}
@@ -204,15 +206,12 @@ def draft_section_save(request, product_id: int, section: str):
         draft = services.draft_save_document(revision=draft, document=document, user=request.user)
     if request.htmx:
         state = checklist_for(draft)
-        fields = questionnaire.section_fields(current, draft.document, state.problems)
-        flat = [item for row in fields for item in row] if current is questionnaire.ANTENNAS else fields
-        section = {"section": current, "fields": fields,
-                   "loose_problems": questionnaire.section_problems(current, state.problems, flat)}
         panel = fragments.shared("designs/_panel_oob.html", ("panel", state_key(draft), product.pk),
                                  lambda: {"product": product, "revision": draft, **_panel_context(state)},
                                  timeout=fragments.DAY)
         return render(request, "designs/draft_section_saved.html", {
-            "product": product, "revision": draft, "current": section, "presets": questionnaire.band_presets(),
+            "product": product, "revision": draft, "current": _section_item(current, draft, state),
+            "presets": questionnaire.band_presets(),
             "panel": fragments.personal(panel, request)})
     messages.success(request, f"{current.title} saved.")
     return redirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
@@ -308,6 +307,10 @@ def rule_list(request):
         "rules": registered_rules(), "retired": RETIRED, "ruleset": RULESET_VERSION})
 
 
+def _back_to_measurements(product) -> HttpResponse:
+    return redirect(reverse("draft_edit", args=[product.pk]) + "#section-measurements")
+
+
 @login_required
 @require_POST
 def measurement_upload(request, product_id: int):
@@ -316,11 +319,11 @@ def measurement_upload(request, product_id: int):
     upload = request.FILES.get("touchstone")
     if draft is None or upload is None:
         messages.error(request, "touchstone: expected a Touchstone file (.s1p to .s8p) to upload to the draft")
-        return redirect(reverse("draft_edit", args=[product.pk]) + "#section-measurements")
+        return _back_to_measurements(product)
     if upload.size > services.MAX_MEASUREMENT_BYTES:
         messages.error(request, f"{upload.name}: expected at most {services.MAX_MEASUREMENT_BYTES // 1_000_000} MB, "
                                 f"got {upload.size / 1_000_000:.1f} MB; nothing was stored")
-        return redirect(reverse("draft_edit", args=[product.pk]) + "#section-measurements")
+        return _back_to_measurements(product)
     try:
         measurement = services.measurement_add(revision=draft, name=upload.name, content=upload.read(),
                                                user=request.user)
@@ -328,7 +331,7 @@ def measurement_upload(request, product_id: int):
         messages.error(request, f"{error} — nothing was stored.")
     else:
         messages.success(request, f"{measurement.name} kept with draft {draft.number}; check its port map.")
-    return redirect(reverse("draft_edit", args=[product.pk]) + "#section-measurements")
+    return _back_to_measurements(product)
 
 
 @login_required
@@ -339,12 +342,12 @@ def measurement_ports(request, product_id: int):
     name = request.POST.get("file", "")
     if draft is None or not draft.measurement_files.filter(name=name).exists():
         messages.error(request, f"file: no measurement named {name!r} is kept with the draft")
-        return redirect(reverse("draft_edit", args=[product.pk]) + "#section-measurements")
+        return _back_to_measurements(product)
     count = int(request.POST.get("port_count", "0") or 0)
     ports = [request.POST.get(f"port-{index}") or None for index in range(min(count, 64))]
     services.measurement_map_ports(revision=draft, name=name, ports=ports, user=request.user)
     messages.success(request, f"Port map of {name} saved.")
-    return redirect(reverse("draft_edit", args=[product.pk]) + "#section-measurements")
+    return _back_to_measurements(product)
 
 
 @login_required
@@ -356,4 +359,4 @@ def measurement_remove(request, product_id: int):
     if draft is not None:
         services.measurement_remove(revision=draft, name=name, user=request.user)
         messages.success(request, f"{name} removed from draft {draft.number}.")
-    return redirect(reverse("draft_edit", args=[product.pk]) + "#section-measurements")
+    return _back_to_measurements(product)
