@@ -380,6 +380,18 @@ def choose(mix, rng: random.Random, download_name: str) -> str:
     return download_name if name == "download" else name
 
 
+def run_threads(work: list[tuple], seconds: float) -> float:
+    """Runs each (function, arguments) in a thread of its own, all at once; the seconds until all are done
+    (a thread stuck past the run and one request's timeout is left behind)."""
+    threads = [threading.Thread(target=target, args=args, daemon=True) for target, args in work]
+    began = time.perf_counter()
+    for thread in threads:
+        thread.start()
+    for thread in threads:
+        thread.join(timeout=seconds + REQUEST_TIMEOUT_S + 10)
+    return time.perf_counter() - began
+
+
 def run_people(people: list[Person], targets: Targets, seconds: float, max_requests: int, think: float,
                seed: int) -> tuple[list[Result], float]:
     results: list[Result] = []
@@ -402,13 +414,8 @@ def run_people(people: list[Person], targets: Targets, seconds: float, max_reque
                 results.extend(step)
             time.sleep(rng.uniform(0, think))
 
-    threads = [threading.Thread(target=person_loop, args=(person, i), daemon=True) for i, person in enumerate(people)]
-    began = time.perf_counter()
-    for thread in threads:
-        thread.start()
-    for thread in threads:
-        thread.join(timeout=seconds + REQUEST_TIMEOUT_S + 10)
-    return results, time.perf_counter() - began
+    elapsed = run_threads([(person_loop, (person, i)) for i, person in enumerate(people)], seconds)
+    return results, elapsed
 
 
 def run_alone(person: Person, targets: Targets, repeats: int, download_name: str) -> list[Result]:
@@ -452,13 +459,7 @@ def run_closed_loop(port: int, scenario: str, paths: list[str], connections: int
                 results.append(Result(scenario, started, time.perf_counter() - started, ok, "" if ok else detail))
         session.close()
 
-    threads = [threading.Thread(target=loop, args=(index,), daemon=True) for index in range(connections)]
-    began = time.perf_counter()
-    for thread in threads:
-        thread.start()
-    for thread in threads:
-        thread.join(timeout=seconds + REQUEST_TIMEOUT_S + 10)
-    return results, time.perf_counter() - began
+    return results, run_threads([(loop, (index,)) for index in range(connections)], seconds)
 
 
 # -- figures ------------------------------------------------------------------------------------------------------

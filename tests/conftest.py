@@ -33,3 +33,21 @@ def empty_cache():
     yield
     cache.clear()
     LOCAL.clear()
+
+
+# -- people of the demo team's shape, for tests/web and tests/browser: each of those defines `team` (on a
+# plain or a transactional database), and these people join it.
+@pytest.fixture
+def author(team):
+    from projectapp.teams.models import Role
+    from tests.web.conftest import make_user
+
+    return make_user("author", team, Role.AUTHOR)
+
+
+@pytest.fixture
+def reviewer(team):
+    from projectapp.teams.models import Role
+    from tests.web.conftest import make_user
+
+    return make_user("reviewer", team, Role.REVIEWER)

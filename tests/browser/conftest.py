@@ -12,8 +12,7 @@ from pathlib import Path
 
 import pytest
 
-from projectapp.teams.models import Role, Team
-from tests.web.conftest import make_user
+from projectapp.teams.models import Team
 
 # Playwright's sync API runs an asyncio event loop in the test's own thread (it switches to it with
 # greenlets). Django sees that running loop and refuses ORM calls from the thread
@@ -115,19 +114,9 @@ def page_without_js(browser, request, tmp_path):
 
 
 # -- people ------------------------------------------------------------------------------------------------
-# The same three kinds of people as tests/web, on a transactional database: the live server answers from
-# its own thread and connection, so it only sees rows that were committed.
+# The team on a transactional database: the live server answers from its own thread and connection, so it
+# only sees rows that were committed. Its people (author, reviewer) come from tests/conftest.py.
 
 @pytest.fixture
 def team(transactional_db):
     return Team.objects.create(name="Tallow Creek Instruments")
-
-
-@pytest.fixture
-def author(team):
-    return make_user("author", team, Role.AUTHOR)
-
-
-@pytest.fixture
-def reviewer(team):
-    return make_user("reviewer", team, Role.REVIEWER)

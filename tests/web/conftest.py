@@ -1,4 +1,5 @@
-"""Three people for every view test: a team member with the role, a member without it, an outsider."""
+"""Three people for every view test: a team member with the role, a member without it, an outsider
+(author and reviewer are in tests/conftest.py, shared with the browser tests)."""
 
 import json
 from pathlib import Path
@@ -28,16 +29,6 @@ def team(db):
 @pytest.fixture
 def other_team(db):
     return Team.objects.create(name="Larchmere Metering")
-
-
-@pytest.fixture
-def author(team):
-    return make_user("author", team, Role.AUTHOR)
-
-
-@pytest.fixture
-def reviewer(team):
-    return make_user("reviewer", team, Role.REVIEWER)
 
 
 @pytest.fixture
