@@ -24,8 +24,8 @@ def table(headers: Sequence[str], rows: Sequence[Sequence[str]], right: Sequence
     return [line(headers), line(["-" * width for width in widths]), *(line(row) for row in rows)]
 
 
-def _range(pair: Sequence[float]) -> str:
-    return f"{pair[0]:g}–{pair[1]:g}"
+def _range(pair: Sequence[float] | None) -> str:
+    return "—" if pair is None else f"{pair[0]:g}–{pair[1]:g}"  # None: an SDL band's missing uplink
 
 
 def _evidence_value(value: Any) -> str:

@@ -163,7 +163,7 @@ def _design_summary(design) -> list[Flowable]:
 def _band_table(checklist: dict[str, Any]) -> list[Flowable]:
     rows = [["Band", "Duplex", "UL (MHz)", "DL (MHz)", "Lowest (MHz)", "λ (mm)", "λ/4 (mm)", "λ/2π (mm)"]]
     for row in checklist["bands"]:
-        rows.append([row["band"], row["duplex"], f"{row['ul_mhz'][0]:g}–{row['ul_mhz'][1]:g}",
+        rows.append([row["band"], row["duplex"], f"{row['ul_mhz'][0]:g}–{row['ul_mhz'][1]:g}" if row["ul_mhz"] else "—",
                      f"{row['dl_mhz'][0]:g}–{row['dl_mhz'][1]:g}", f"{row['lowest_mhz']:g}",
                      f"{row['wavelength_mm']:.1f}", f"{row['quarter_wave_mm']:.1f}", f"{row['near_field_mm']:.1f}"])
     return [

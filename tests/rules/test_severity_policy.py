@@ -205,11 +205,38 @@ def test_it_accepts_gain_brought_under_the_limit_by_cable_loss():
     assert severities_of(run(document), "gain-limit") == []
 
 
-def test_it_blocks_downlink_need_above_the_categorys_peak():
-    # TS 36.306 Table 4.1A-1: Cat M1 carries at most 1 000 bits per 1 ms TTI on the downlink.
-    [finding] = findings_of(run(design("cat-m1", deployment={"required_dl_kbps": 1500})), "throughput")
+def test_it_blocks_downlink_need_above_a_full_duplex_lte_m_modules_peak():
+    # TS 36.306 Table 4.1A-1: Cat M1 carries at most 1 000 bits per 1 ms TTI on the downlink (FD-FDD).
+    document = design("cat-m1", modem={"full_duplex": True}, deployment={"required_dl_kbps": 1500})
+    [finding] = findings_of(run(document), "throughput")
     assert finding.severity == "blocker"
-    assert finding.evidence == {"direction": "dl", "required_kbps": 1500.0, "peak_kbps": 1000.0}
+    assert finding.evidence == {"direction": "dl", "required_kbps": 1500.0, "peak_kbps": 1000.0,
+                                "duplex_mode": "FD-FDD", "tdd_pattern": None}
+
+
+def test_it_judges_an_lte_m_module_at_its_half_duplex_peak_unless_it_declares_full_duplex():
+    # Rel-13 Cat M1 HD-FDD peaks: 300 kbps DL (3 blocks of 1 000 bits per 10 ms), 375 kbps UL (3 per 8 ms)
+    # (from memory; block size from TS 36.306 Table 4.1A-1). 500 kbps passes full duplex, not half duplex.
+    half = run(design("cat-m1", deployment={"required_dl_kbps": 500, "required_ul_kbps": 500}))
+    assert {(f.evidence["direction"], f.evidence["peak_kbps"], f.evidence["duplex_mode"])
+            for f in findings_of(half, "throughput")} == {("dl", 300.0, "HD-FDD"), ("ul", 375.0, "HD-FDD")}
+    full = run(design("cat-m1", modem={"full_duplex": True},
+                      deployment={"required_dl_kbps": 500, "required_ul_kbps": 500}))
+    assert findings_of(full, "throughput") == []
+
+
+def test_it_gives_redcap_on_a_tdd_band_its_share_of_the_tdd_pattern():
+    # TS 38.306 §4.1.2 with 51 PRB at 30 kHz: 1 layer 256QAM DL 109.1 Mbps, 64QAM UL 87.6 Mbps; TDD DDDSU with
+    # S = 10:2:2 (common practice, from memory): DL share (3 + 10/14) / 5 = 0.743, UL (1 + 2/14) / 5 = 0.229.
+    document = design("nr-redcap", bands=["n78"], modem={"rx_ports": 1},
+                      deployment={"required_dl_kbps": 100_000, "required_ul_kbps": 50_000})
+    flagged = {f.evidence["direction"]: f for f in findings_of(run(document), "throughput")}
+    assert set(flagged) == {"dl", "ul"}  # 100 Mbps DL fits FDD's 109 Mbps but not TDD's 81 Mbps
+    assert flagged["dl"].evidence["peak_kbps"] == pytest.approx(109_145.6 * 0.742857, rel=1e-3)
+    assert flagged["ul"].evidence["peak_kbps"] == pytest.approx(87_560 * 0.228571, rel=1e-3)
+    assert flagged["ul"].evidence["tdd_pattern"] == "DDDSU with S = 10:2:2"
+    fdd = run(design("nr-redcap", bands=["n8"], modem={"rx_ports": 1}, deployment={"required_dl_kbps": 100_000}))
+    assert findings_of(fdd, "throughput") == []
 
 
 def test_it_blocks_uplink_need_above_the_categorys_peak():
