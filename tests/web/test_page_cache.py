@@ -127,7 +127,8 @@ def test_flash_messages_reach_a_cached_page_once(product, author):
     url = reverse("draft_edit", args=[product.pk])
     client.get(url)  # the draft page is now cached for this state
     client.post(reverse("draft_section_save", args=[product.pk, "deployment"]),
-                {"deployment.environment": "urban", "deployment.body_distance_mm": "250"})
+                {"deployment.environment": "urban", "deployment.body_distance_mm": "250",
+                 "version": product.draft.version})
     assert "Deployment saved." in client.get(url).content.decode()
     assert "Deployment saved." not in client.get(url).content.decode()
 
@@ -144,7 +145,8 @@ def test_every_change_a_page_shows_gives_a_fresh_page(client, product, submitted
     draft_url = reverse("draft_edit", args=[product.pk])
     assert 'value="4321"' not in author_client.get(draft_url).content.decode()
     author_client.post(reverse("draft_section_save", args=[product.pk, "deployment"]),
-                       {"deployment.environment": "urban", "deployment.body_distance_mm": "4321"})
+                       {"deployment.environment": "urban", "deployment.body_distance_mm": "4321",
+                        "version": product.draft.version})
     assert 'value="4321"' in author_client.get(draft_url).content.decode()
 
     Membership.objects.filter(user=reviewer).delete()
