@@ -119,6 +119,9 @@ if _database["ENGINE"] == "django.db.backends.sqlite3":
     # to 20 s for the lock rather than failing with "database is locked".
     _database["OPTIONS"] = {"transaction_mode": "IMMEDIATE", "timeout": 20,
                             "init_command": "PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL"}
+    # The test database is a file as well, not Django's shared in-memory one: there, two connections that
+    # write at once fail with "database table is locked" instead of waiting for the lock as they do here.
+    _database["TEST"] = {"NAME": str(VAR_DIR / "test-earshot.sqlite3")}
 # A server process keeps its connection between requests (opening one costs more than a page's queries).
 _database["CONN_MAX_AGE"] = env_int("DATABASE_CONN_MAX_AGE", 60 if PRODUCTION else 0)
 _database["CONN_HEALTH_CHECKS"] = True
