@@ -353,3 +353,40 @@ def test_typing_on_while_a_save_comes_back_keeps_every_keystroke(page, live_serv
     page.reload()
     for name, value in typed.items():
         expect(answer(page, name)).to_have_value(value)
+
+
+def test_a_stale_page_shows_the_other_change_and_keeps_what_was_typed(browser, page, live_server, author,
+                                                                       hive_gateway, team):
+    from tests.browser.conftest import DESKTOP
+    from tests.web.conftest import make_user
+
+    other_author = make_user("tobias", team, "author")
+    log_in(page, live_server, author)
+    draft_url = live_server.url + reverse("draft_edit", args=[hive_gateway.pk])
+    page.goto(draft_url)
+
+    other_context = browser.new_context(viewport=DESKTOP)
+    try:
+        other = other_context.new_page()
+        log_in(other, live_server, other_author)
+        other.goto(draft_url)
+        click_button(other, "Add an antenna")
+        expect(other.locator("#section-antennas fieldset.antenna-row")).to_have_count(3)
+    finally:
+        other_context.close()
+
+    # My page still shows two antennas; I move DIV and leave the field.
+    field = answer(page, "antennas[1].position_mm[0]")
+    field.fill("99")
+    field.press("Tab")
+    conflict = page.locator("#section-antennas-conflict [role=alert]")
+    expect(conflict).to_contain_text("Conflict. Antennas changed after you opened this page")
+    expect(conflict).to_contain_text("tobias")
+    expect(conflict).to_contain_text('antennas[2]: — → {"name": "ANT1"')
+    expect(field).to_have_value("99")
+    stored = Product.objects.get(pk=hive_gateway.pk).draft.document["antennas"]
+    assert [antenna["name"] for antenna in stored] == ["MAIN", "DIV", "ANT1"] and stored[1]["position_mm"][0] == 60
+
+    page.get_by_role("link", name="load theirs").click()
+    expect(page.locator("#section-antennas fieldset.antenna-row")).to_have_count(3)
+    expect(page.locator("#section-antennas-conflict [role=alert]")).to_have_count(0)
