@@ -336,7 +336,7 @@ def design_import(request, product_id: int):
     if not has_role(request.user, product.team, Role.AUTHOR):
         return render(request, "designs/no_role.html", {"role": "author", "product": product}, status=403)
     form = ImportForm(request.POST or None, request.FILES or None)
-    version_form = DraftVersionForm(request.POST or None)
+    version_form = DraftVersionForm(request.POST if request.method == "POST" else None)
     problems, conflict = [], None
     draft = product.draft
     read_version = draft.version if draft else 0

@@ -128,10 +128,13 @@ def test_a_save_without_a_readable_version_stores_nothing(product, author):
     client = signed_in(author)
     data = page_form(client, product, "deployment")
     before = draft_of(product).document
-    for version in ([], ["²"], ["-1"], ["9" * 400]):
+    for version in (["²"], ["-1"], ["9" * 400], ["two"]):
         answer = save(client, product, "deployment", {**data, "version": version,
                                                        "deployment.body_distance_mm": "5"}, **HTMX)
         assert answer.status_code == 400 and "version: expected" in answer.content.decode()
+    # No version at all reads as "saw none": refused, since the import changed this section.
+    missing = save(client, product, "deployment", {**data, "version": [], "deployment.body_distance_mm": "5"})
+    assert missing.status_code == 409
     assert draft_of(product).document == before
 
 
