@@ -77,8 +77,9 @@ def _locked_draft(revision: Revision) -> Revision:
 
 
 def _edits_since(draft: Revision, version: int, part: str) -> list[DraftEdit]:
-    roots = (*questionnaire.PARTS[part], *((FILE_KEY,) if part == questionnaire.MEASUREMENTS_PART else ())) \
-        if part != ALL_PARTS else None
+    roots: tuple[str, ...] | None = None  # the whole document
+    if part != ALL_PARTS:
+        roots = questionnaire.PARTS[part] + ((FILE_KEY,) if part == questionnaire.MEASUREMENTS_PART else ())
     edits = []
     events = AuditEvent.objects.filter(revision=draft, draft_version__gt=version).select_related("actor")
     for event in events.order_by("draft_version", "id"):
