@@ -69,6 +69,7 @@ INSTALLED_APPS = [
     "django.contrib.staticfiles",
     "django_htmx",
     "projectapp.teams",
+    "projectapp.library",
     "projectapp.designs",
     "projectapp.reviews",
     "projectapp.signoff",
