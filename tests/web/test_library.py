@@ -174,7 +174,7 @@ def test_a_duplicate_starts_at_version_1_with_the_values_and_files(whip, author)
 
 def test_export_then_import_into_another_team_exports_the_same_text(whip, team, author, outsider, other_team):
     services.entry_file_add(entry=whip, name="ring-slot.s1p", content=RING_SLOT, read_version=1, user=author)
-    module = services.entry_create(team=team, kind=MODULE, name="Fenwick M1 module", values=MODEM, user=author)
+    module = services.entry_create(team=team, kind=MODULE, name="Marsh M1 module", values=MODEM, user=author)
     services.entry_retire(entry=module, retired=True, user=author)
     text = services.library_export_text(team=team)
     document = json.loads(text)
@@ -182,9 +182,9 @@ def test_export_then_import_into_another_team_exports_the_same_text(whip, team, 
     assert document["antennas"][0]["files"][0]["sha256"] == hashlib.sha256(RING_SLOT).hexdigest()
 
     summary = services.library_import(team=other_team, text=text, source="tallow.json", user=outsider)
-    assert sorted(summary.created) == ["Fenwick M1 module", "Sedge whip 7"]
+    assert sorted(summary.created) == ["Marsh M1 module", "Sedge whip 7"]
     assert services.library_export_text(team=other_team) == text
-    assert Entry.objects.get(team=other_team, name="Fenwick M1 module").is_retired
+    assert Entry.objects.get(team=other_team, name="Marsh M1 module").is_retired
 
 
 def test_importing_the_libraries_own_export_changes_nothing(whip, team, author):
@@ -235,15 +235,15 @@ def test_a_bad_import_lists_every_problem_with_its_path_and_stores_nothing(whip,
 # -- pages ---------------------------------------------------------------------------------------------------------
 
 def test_the_list_searches_names_and_descriptions_and_leaves_retired_parts_out(client, whip, team, author):
-    module = services.entry_create(team=team, kind=MODULE, name="Fenwick M1 module", values=MODEM, user=author,
+    module = services.entry_create(team=team, kind=MODULE, name="Marsh M1 module", values=MODEM, user=author,
                                    description="LTE-M module, half duplex")
     client.force_login(author)
     page = client.get(reverse("library_list", args=[team.pk]), {"q": "half duplex"}).content.decode()
-    assert "Fenwick M1 module" in page and "Sedge whip 7" not in page
+    assert "Marsh M1 module" in page and "Sedge whip 7" not in page
     services.entry_retire(entry=module, retired=True, user=author)
-    assert "Fenwick M1 module" not in client.get(reverse("library_list", args=[team.pk])).content.decode()
+    assert "Marsh M1 module" not in client.get(reverse("library_list", args=[team.pk])).content.decode()
     shown = client.get(reverse("library_list", args=[team.pk]), {"retired": "on"}).content.decode()
-    assert "Fenwick M1 module" in shown
+    assert "Marsh M1 module" in shown
     assert client.get(reverse("library_list", args=[team.pk]), {"q": "x" * 500}).status_code == 400
 
 
@@ -318,10 +318,10 @@ def test_the_import_page_lists_every_problem_and_a_good_file_imports(client, tea
     response = client.post(reverse("library_import", args=[team.pk]), {"library_file": bad})
     text = response.content.decode()
     assert response.status_code == 400 and "format: expected" in text and "modules[0].values" in text
-    good = {"format": "earshot-library/1", "modules": [{"name": "Fenwick M1 module", "values": MODEM}]}
+    good = {"format": "earshot-library/1", "modules": [{"name": "Marsh M1 module", "values": MODEM}]}
     response = client.post(reverse("library_import", args=[team.pk]),
                            {"library_file": SimpleUploadedFile("good.json", json.dumps(good).encode())})
-    assert response.status_code == 302 and Entry.objects.get(team=team).name == "Fenwick M1 module"
+    assert response.status_code == 302 and Entry.objects.get(team=team).name == "Marsh M1 module"
 
 
 def test_a_person_in_two_teams_chooses_a_library_and_one_team_goes_straight_to_its_own(client, team, author):

@@ -38,8 +38,8 @@ def reed(team, author):
 
 
 @pytest.fixture
-def fenwick(team, author):
-    return library.entry_create(team=team, kind=MODULE, name="Fenwick C1 module", values=dict(MODULE_VALUES),
+def marsh(team, author):
+    return library.entry_create(team=team, kind=MODULE, name="Marsh C1 module", values=dict(MODULE_VALUES),
                                 user=author)
 
 
@@ -48,13 +48,13 @@ def fill(client, product, slug: str, target: str, entry, **extra):
     return save(client, product, slug, data, **extra)
 
 
-def test_the_questionnaire_offers_the_teams_parts_not_retired_ones(client, product, author, reed, fenwick, team):
+def test_the_questionnaire_offers_the_teams_parts_not_retired_ones(client, product, author, reed, marsh, team):
     library.entry_create(team=team, kind=ANTENNA, name="Old stub", values={}, user=author)
     library.entry_retire(entry=type(reed).objects.get(name="Old stub"), retired=True, user=author)
     page = signed_in(author).get(reverse("draft_edit", args=[product.pk])).content.decode()
     assert 'name="library-0-entry"' in page and 'name="library-new-entry"' in page
     assert 'name="library-modem-entry"' in page
-    assert "Reed flex 2 (v2)" in page and "Fenwick C1 module (v1)" in page and "Old stub" not in page
+    assert "Reed flex 2 (v2)" in page and "Marsh C1 module (v1)" in page and "Old stub" not in page
 
 
 def test_filling_an_antenna_copies_the_values_notes_the_entry_and_copies_its_files(product, author, reed):
@@ -105,15 +105,15 @@ def test_add_from_library_makes_a_new_row(product, author, reed):
     assert antennas[2]["role"] == "receive" and antennas[2]["library"]["name"] == "Reed flex 2"
 
 
-def test_filling_the_modem_keeps_the_bands_the_design_chose_that_the_module_has(product, author, fenwick):
+def test_filling_the_modem_keeps_the_bands_the_design_chose_that_the_module_has(product, author, marsh):
     client = signed_in(author)
-    answer = fill(client, product, "product", "modem", fenwick, **HTMX)
+    answer = fill(client, product, "product", "modem", marsh, **HTMX)
     assert answer.status_code == 200 and "Modem filled from library part" in answer.content.decode()
     modem = draft_of(product).document["modem"]
     assert modem["bands"] == ["B3", "B8", "B20"]  # the design's choice; the module supports them all
     assert modem["gain_limits_dbi"] == MODULE_VALUES["gain_limits_dbi"]
     assert modem["operator_single_antenna_approval"] is False  # the design's own answer stays
-    assert modem["library"] == {"name": "Fenwick C1 module", "version": 1}
+    assert modem["library"] == {"name": "Marsh C1 module", "version": 1}
 
 
 def test_a_fill_on_a_stale_section_is_refused_and_nothing_changes(product, author, reed):
