@@ -9,6 +9,7 @@ from django.contrib.auth import get_user_model
 
 from projectapp.designs import services
 from projectapp.teams.models import Membership, Role, Team
+from tests.django_isolation import empty_cache, fast_password_hashing, media_in_tmp  # noqa: F401 (autouse)
 
 EXAMPLES = Path(__file__).parents[2] / "rules" / "examples"
 PASSWORD = "test-pass-7Qx!"
