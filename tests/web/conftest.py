@@ -22,6 +22,13 @@ def make_user(username: str, team: Team, *roles: str):
     return user
 
 
+def signing_request():
+    """A request for a password check made outside a view (the throttle counts per user name and address)."""
+    from django.test import RequestFactory
+
+    return RequestFactory().post("/", REMOTE_ADDR="127.0.0.1")
+
+
 @pytest.fixture
 def team(db):
     return Team.objects.create(name="Tallow Creek Instruments")
