@@ -164,8 +164,7 @@ AXES_USERNAME_CALLABLE = "projectapp.teams.password_checks.throttle_username"
 AXES_RESET_ON_SUCCESS = True  # a successful log-in clears the count
 AXES_RESET_COOL_OFF_ON_FAILURE_DURING_LOCKOUT = False  # the lock ends a window after it began
 AXES_LOCKOUT_CALLABLE = "projectapp.teams.password_checks.locked_out"
-# The client's address is the connection's: X-Forwarded-For is whatever a client sends unless a proxy sets it.
-AXES_IPWARE_META_PRECEDENCE_ORDER = ("REMOTE_ADDR",)
+AXES_CLIENT_IP_CALLABLE = "projectapp.teams.password_checks.client_address"  # the connection's, not X-Forwarded-For
 AXES_DISABLE_ACCESS_LOG = True  # successful log-ins need no row each; failures are in AccessAttempt
 # New passwords hash with Argon2 (argon2-cffi); older hashes stay readable and are re-hashed with Argon2 the
 # next time the person logs in (Django does so for any hasher after the first). Tests use a fast hasher.

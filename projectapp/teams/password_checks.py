@@ -15,6 +15,7 @@ limit is reached are still answered; at most one per server thread (4 workers: 4
 Behind a proxy every request comes from the proxy's address and the lock becomes one per user name.
 """
 
+import ipaddress
 import math
 
 from django.conf import settings
@@ -36,6 +37,17 @@ def throttle_username(request, credentials) -> str | None:
     if not isinstance(name, str):
         return None
     return name.casefold().replace("\x00", "")[:USERNAME_MAX_LENGTH]
+
+
+def client_address(request) -> str | None:
+    """The address a failure is counted under (AXES_CLIENT_IP_CALLABLE): the connection's own. X-Forwarded-For
+    is whatever a client sends unless a proxy sets it, and a server on a Unix socket has no address (None:
+    the database column takes IP addresses only)."""
+    address = request.META.get("REMOTE_ADDR", "")
+    try:
+        return str(ipaddress.ip_address(address))
+    except ValueError:
+        return None
 
 
 def password_is_right(request, user, password: str) -> bool:
