@@ -71,6 +71,9 @@ def test_five_wrong_passwords_lock_the_user_name_for_fifteen_minutes(client, aut
     response = _log_in(client, "author", PASSWORD)
     assert response.status_code == 302
     assert client.session["_auth_user_id"] == str(author.pk)
+    # axes only refuses; the person is signed in by (and read back through) the cached backend
+    assert client.session["_auth_user_backend"] == "projectapp.teams.backends.CachedUserBackend"
+    assert client.get(reverse("product_list")).status_code == 200
 
 
 def test_the_lock_is_per_user_name_and_address(client, author, reviewer):
