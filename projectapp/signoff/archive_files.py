@@ -31,6 +31,7 @@ MAX_RECORD_BYTES = MAX_VERIFY_BYTES  # what the Verify page accepts; a record is
 MAX_MANIFEST_BYTES = 100_000_000  # about 1 kB a record
 MAX_COMPRESSION_RATIO = 100  # checked for entries over 1 MB
 CHUNK_BYTES = 1 << 20
+MAX_PROBLEMS_SHOWN = 200
 
 
 def manifest_entry(record: SignedRecord, superseded: dict[int, int]) -> dict[str, Any]:
@@ -81,6 +82,7 @@ class ArchiveCheck:
     checked: int = 0
     problems: list[str] = field(default_factory=list)
     refused: bool = False  # not a readable Earshot archive (exit 2), as opposed to records that don't verify
+    problem_count: int = 0  # all of them; `problems` keeps the first MAX_PROBLEMS_SHOWN
 
 
 def verify_archive(path: Path, *, against_database: bool = True) -> ArchiveCheck:
@@ -128,11 +130,16 @@ def verify_archive(path: Path, *, against_database: bool = True) -> ArchiveCheck
             result.problems.append(f"{MANIFEST}: the archive lists no signed record: nothing was verified")
         if against_database:
             result.problems += _missing_records(manifest, {entry["sha256"] for entry in entries})
+    result.problem_count = len(result.problems)
+    if len(result.problems) > MAX_PROBLEMS_SHOWN:
+        more = len(result.problems) - MAX_PROBLEMS_SHOWN
+        result.problems[MAX_PROBLEMS_SHOWN:] = [f"… and {more} more problem(s)"]
     return result
 
 
 def _refused(result: ArchiveCheck, problem: str) -> ArchiveCheck:
     result.problems.append(problem)
+    result.problem_count = len(result.problems)
     result.refused = True
     return result
 

@@ -10,7 +10,8 @@ failure that reached the limit (settings maps them onto AXES_FAILURE_LIMIT / AXE
 successful log-in clears the count. User names are compared case-folded.
 
 Known limit: axes counts a failure after the password was checked, so guesses already in flight when the
-limit is reached are still answered; at most one per server thread (4 workers: 4 extra).
+limit is reached are still answered: at most one more per request the server handles at once (4 sync
+workers: 3). The old throttle counted first; that race is small beside a count a flood could erase.
 
 Behind a proxy every request comes from the proxy's address and the lock becomes one per user name.
 """
@@ -87,7 +88,7 @@ def locked_out(request, original_response=None, credentials=None):
 class CheckedPasswordChangeForm(PasswordChangeForm):
     """Django's password-change form, with the old password checked through authenticate()."""
 
-    def __init__(self, user, *args, request=None, **kwargs):
+    def __init__(self, user, *args, request, **kwargs):
         self.request = request
         super().__init__(user, *args, **kwargs)
 

@@ -95,6 +95,15 @@ def test_a_zip_of_too_many_entries_is_refused_before_they_are_read(tmp_path, db,
     assert status == 2 and "61 entries; expected at most 50" in err
 
 
+def test_a_flood_of_unlisted_entries_is_summed_up(tmp_path, db):
+    files = {"manifest.json": json.dumps({"format": FORMAT, "records": []})}
+    files.update({f"junk/{index}": b"" for index in range(archive_files.MAX_PROBLEMS_SHOWN + 50)})
+    status, _, err = run_command(str(write_zip(tmp_path / "many.zip", files)), "--offline")
+    assert status == 1 and "… and 51 more problem(s)" in err
+    assert len(err.splitlines()) == archive_files.MAX_PROBLEMS_SHOWN + 2
+    assert err.splitlines()[-1] == f"{archive_files.MAX_PROBLEMS_SHOWN + 51} problem(s) in 0 record(s) checked."
+
+
 def test_an_archive_with_every_record_removed_does_not_verify(tmp_path, signed):
     exported = tmp_path / "archive.zip"
     export_archive(exported)

@@ -28,6 +28,6 @@ class Command(BaseCommand):
             self.stderr.write("Not verified: the file is not a readable Earshot archive.")
             sys.exit(2)
         if result.problems:
-            self.stderr.write(f"{len(result.problems)} problem(s) in {result.checked} record(s) checked.")
+            self.stderr.write(f"{result.problem_count} problem(s) in {result.checked} record(s) checked.")
             sys.exit(1)
         self.stdout.write(f"All {result.checked} record(s) verify.")
