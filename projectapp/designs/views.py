@@ -311,7 +311,8 @@ def draft_section_save(request, product_id: int, section: str):
         return render(request, template, {
             "product": product, "revision": draft, "presets": questionnaire.band_presets(),
             "current": _section_item(current, draft.document, state.problems, version=draft.version,
-                                     library=_library_choices(product)),
+                                     library={} if request.POST.get("answer") == "messages"  # no inputs sent back
+                                     else _library_choices(product)),
             "panel": fragments.personal(panel, request)})
     messages.success(request, f"{current.title} saved.")
     return redirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")

@@ -3,17 +3,7 @@
 from django.contrib import admin
 
 from projectapp.library.models import Entry, EntryFile
-
-
-class ReadOnlyAdmin(admin.ModelAdmin):
-    def has_add_permission(self, request):
-        return False
-
-    def has_change_permission(self, request, obj=None):
-        return False
-
-    def has_delete_permission(self, request, obj=None):
-        return False
+from projectapp.read_only_admin import ReadOnlyAdmin
 
 
 @admin.register(Entry)

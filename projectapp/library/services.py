@@ -339,8 +339,8 @@ def _read_incoming(document: Any, team: Team) -> tuple[list[_Incoming], list[Pro
             name = item.get("name")
             problems += name_form_problems(name, f"{path}.name")  # an existing name is an entry to update
             if isinstance(name, str) and existing.get(name) not in (None, kind):
-                problems.append(Problem(f"{path}.name", f"{name} is a {existing[name]} in this library, not "
-                                                        f"a {kind}"))
+                problems.append(Problem(f"{path}.name", f"{name} is {_a(existing[name])} in this library, not "
+                                                        f"{_a(kind)}"))
             if isinstance(name, str) and name in seen:
                 problems.append(Problem(f"{path}.name", f"expected a unique name; {name!r} is also {seen[name]}"))
             elif isinstance(name, str):
@@ -358,6 +358,10 @@ def _read_incoming(document: Any, team: Team) -> tuple[list[_Incoming], list[Pro
                 incoming.append(_Incoming(kind, name, description if isinstance(description, str) else "",
                                           retired is True, values, files))
     return incoming, problems
+
+
+def _a(kind: str) -> str:
+    return f"an {kind}" if kind[:1] in "aeiou" else f"a {kind}"
 
 
 def _read_files(value: Any, path: str, problems: list[Problem]) -> dict[str, bytes]:
