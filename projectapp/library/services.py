@@ -98,6 +98,18 @@ def description_problems(description: Any, path: str = "description") -> list[Pr
     return []
 
 
+MAX_VALUES_BYTES = 100_000  # a part's fields as JSON; a design file may hold at most 1 MB
+
+
+def values_problems(kind: str, values: Any, path: str = "values") -> list[Problem]:
+    """The design parser's problems with the part's values (paths under `path`), and a size bound: every design
+    filled from the part carries a copy."""
+    size = len(json.dumps(values, default=str)) if isinstance(values, dict) else 0
+    if size > MAX_VALUES_BYTES:
+        return [Problem(path, f"expected at most {MAX_VALUES_BYTES // 1000} kB of values, got {size // 1000} kB")]
+    return [Problem(f"{path}.{p.path}" if p.path else path, p.message) for p in part_problems(kind, values)]
+
+
 def _raise_if(problems: list[Problem]) -> None:
     if problems:
         raise PartInvalid(problems)
@@ -139,8 +151,7 @@ def entry_create(*, team: Team, kind: str, name: str, values: dict[str, Any], us
                  description: str = "") -> Entry:
     require_editor(user, team)
     _with_kind(kind)
-    _raise_if(name_problems(team=team, name=name) + description_problems(description)
-              + [Problem(f"values.{p.path}" if p.path else "values", p.message) for p in part_problems(kind, values)])
+    _raise_if(name_problems(team=team, name=name) + description_problems(description) + values_problems(kind, values))
     entry = Entry.objects.create(team=team, kind=kind, name=name, description=description, values=values,
                                  created_by=user, updated_by=user)
     _record(entry, user=user, action=AuditEvent.Action.PART_CREATED,
@@ -176,9 +187,7 @@ def entry_update(*, entry: Entry, values: dict[str, Any], description: str, read
     """Replaces an entry's values and description. None as `read_version` skips the check (scripts)."""
     require_editor(user, entry.team)
     current = _locked(entry, read_version)
-    _raise_if(description_problems(description)
-              + [Problem(f"values.{p.path}" if p.path else "values", p.message)
-                 for p in part_problems(current.kind, values)])
+    _raise_if(description_problems(description) + values_problems(current.kind, values))
     before = _state(current)
     current.values, current.description = values, description
     return _bump(current, before=before, user=user, action=AuditEvent.Action.PART_CHANGED,
@@ -351,8 +360,7 @@ def _read_incoming(document: Any, team: Team) -> tuple[list[_Incoming], list[Pro
             if not isinstance(retired, bool):
                 problems.append(Problem(f"{path}.retired", "expected true or false"))
             values = item.get("values")
-            problems += [Problem(f"{path}.values.{p.path}" if p.path else f"{path}.values", p.message)
-                         for p in part_problems(kind, values)]
+            problems += values_problems(kind, values, f"{path}.values")
             files = _read_files(item.get("files", []), f"{path}.files", problems) if kind == ANTENNA else {}
             if isinstance(name, str) and isinstance(values, dict):
                 incoming.append(_Incoming(kind, name, description if isinstance(description, str) else "",

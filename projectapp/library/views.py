@@ -32,6 +32,8 @@ from projectapp.library.parts import ANTENNA, MODULE
 from projectapp.reviews.audit import audit_trail
 from projectapp.teams.access import teams_of
 
+SHOWN_PROBLEMS = 200  # an import can carry thousands; the first ones say what is wrong
+
 
 @login_required
 @require_GET
@@ -257,7 +259,9 @@ def library_import(request, team_id: int):
         try:
             summary = services.library_import(team=team, text=upload.read(), source=upload.name, user=request.user)
         except services.PartInvalid as error:
-            problems = [str(problem) for problem in error.problems]
+            problems = [str(problem) for problem in error.problems[:SHOWN_PROBLEMS]]
+            if len(error.problems) > SHOWN_PROBLEMS:
+                problems.append(f"... and {len(error.problems) - SHOWN_PROBLEMS} more problems like these")
         except PermissionDenied:
             raise
         else:

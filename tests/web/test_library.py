@@ -347,3 +347,20 @@ def test_the_parser_checks_a_designs_library_note():
     with pytest.raises(DesignError) as raised:
         parse_design(document)
     assert {p.path for p in raised.value.problems} == {"modem.library.version", "antennas[0].library.name"}
+
+
+def test_an_import_with_thousands_of_problems_lists_the_first_ones_and_counts_the_rest(client, team, author):
+    values = {"efficiency_pct": {f"X{index}": 1 for index in range(3000)}}  # 3000 unknown bands
+    document = {"format": "earshot-library/1", "antennas": [{"name": "Huge", "values": values}]}
+    client.force_login(author)
+    response = client.post(reverse("library_import", args=[team.pk]),
+                           {"library_file": SimpleUploadedFile("huge.json", json.dumps(document).encode())})
+    text = response.content.decode()
+    assert response.status_code == 400 and "and 2800 more problems like these" in text
+    assert not Entry.objects.filter(team=team).exists()
+
+
+def test_a_parts_values_are_bounded_in_size(team, author):
+    values = {"ranges_mhz": [[700 + index, 701 + index] for index in range(20000)]}
+    with pytest.raises(services.PartInvalid, match="expected at most 100 kB of values"):
+        services.entry_create(team=team, kind=ANTENNA, name="Too long", values=values, user=author)
