@@ -13,7 +13,7 @@ from projectapp.designs.models import MeasurementFile, Product, Revision
 from projectapp.reviews.services import review_items_create
 from projectapp.teams.access import has_role, require_role
 from projectapp.teams.models import Role, Team
-from rules.design import FORMAT, DesignError, Problem, decode_design_text, parse_design
+from rules.design import FORMAT, DesignError, Problem, decode_design_text, parse_design, storage_problems
 from rules.evaluate import evaluate
 from rules.measurements import attach_measurements
 from rules.registry import RULESET_VERSION
@@ -65,9 +65,19 @@ def draft_get_or_start(*, product: Product, user) -> Revision:
     return draft
 
 
+def require_storable(document: Any) -> None:
+    """Raises DesignError, nothing stored, for a document no database can hold (NUL, lone surrogates, nesting
+    or size beyond the parser's limits): every write of a design document passes here."""
+    problems = storage_problems(document)
+    if problems:
+        raise DesignError(problems)
+
+
 def draft_save_document(*, revision: Revision, document: dict[str, Any], user) -> Revision:
-    """Stores what the questionnaire holds, valid or not: nothing typed is dropped."""
+    """Stores what the questionnaire holds, valid or not: nothing typed is dropped (what can't be stored at all
+    raises DesignError)."""
     require_role(user, revision.product.team, Role.AUTHOR)
+    require_storable(document)
     revision.document = document
     revision.save(update_fields=["document", "updated_at"])
     return revision
@@ -77,7 +87,7 @@ def draft_save_document(*, revision: Revision, document: dict[str, Any], user) -
 def revision_submit(*, revision: Revision, user) -> Revision:
     """Freezes a draft: the document, its checklist and the rule-set version, stored whole.
 
-    Raises DesignError (nothing changes) when the design can't be evaluated yet.
+    Raises DesignError (nothing changes) when the design can't be evaluated yet, or when a rule could not run.
     """
     require_role(user, revision.product.team, Role.AUTHOR)
     revision = Revision.objects.select_for_update().get(pk=revision.pk)
@@ -85,7 +95,12 @@ def revision_submit(*, revision: Revision, user) -> Revision:
         raise DesignError([Problem("", f"revision {revision.number} was already submitted")])
     design = parse_design(revision.document)
     measurements = attach_measurements(design, measurement_reader(revision))
-    revision.evaluation = evaluate(design, measurements).as_dict()
+    evaluation = evaluate(design, measurements)
+    if evaluation.rule_failures:  # an incomplete checklist is not frozen for people to sign
+        raise DesignError([Problem("", f"rule {failure.id} ({failure.title}) could not run on this design, so "
+                                       "the checklist is incomplete; that is an error in Earshot, logged for the "
+                                       "people who run it") for failure in evaluation.rule_failures])
+    revision.evaluation = evaluation.as_dict()
     revision.ruleset = RULESET_VERSION
     revision.status = Revision.Status.SUBMITTED
     revision.submitted_by = user
@@ -170,6 +185,7 @@ def measurement_map_ports(*, revision: Revision, name: str, ports: list[str | No
     for entry in document.get("measurements", []):
         if isinstance(entry, dict) and entry.get("file") == name:
             entry["ports"] = ports
+    require_storable(document)
     revision.document = document
     revision.save(update_fields=["document", "updated_at"])
     return revision

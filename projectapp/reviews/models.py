@@ -5,6 +5,8 @@ it. Items are matched across revisions by rule id and subjects, so a decision ca
 next revision until someone confirms it. The audit trail is append-only: the model refuses changes.
 """
 
+import hashlib
+
 from django.conf import settings
 from django.db import models
 from django.urls import reverse
@@ -35,7 +37,20 @@ def is_signing_started(revision_id: int) -> bool:
     return Signature.objects.filter(revision_id=revision_id).exists()
 
 
+def subjects_digest(subjects_key: str) -> str:
+    """SHA-256 of an item's subjects key: what the one-item-per-finding constraint compares. The key itself
+    may be long (a finding about 32 antennas names all of them) and an index entry can't be (PostgreSQL
+    refuses entries above about 2.7 kB)."""
+    return hashlib.sha256(subjects_key.encode()).hexdigest()
+
+
 class ReviewItemQuerySet(models.QuerySet):
+    def bulk_create(self, objs, *args, **kwargs):
+        objs = list(objs)
+        for item in objs:
+            item.subjects_digest = subjects_digest(item.subjects_key)
+        return super().bulk_create(objs, *args, **kwargs)
+
     def update(self, **kwargs):
         from projectapp.signoff.models import Signature
 
@@ -52,7 +67,9 @@ class ReviewItem(models.Model):
     revision = models.ForeignKey(Revision, on_delete=models.PROTECT, related_name="review_items")
     kind = models.CharField(max_length=10, choices=Kind.choices, default=Kind.RAISED)
     rule_id = models.CharField(max_length=16)
-    subjects_key = models.CharField(max_length=300)  # subjects joined with "|": the item's identity with rule_id
+    # Subjects joined with "|": with rule_id, the item's identity. Any length: a finding may name every antenna.
+    subjects_key = models.TextField()
+    subjects_digest = models.CharField(max_length=64, editable=False)  # set from subjects_key on every save
     topic = models.CharField(max_length=24)
     severity = models.CharField(max_length=10)
     title = models.CharField(max_length=300)
@@ -74,7 +91,8 @@ class ReviewItem(models.Model):
     class Meta:
         ordering = ["revision", "kind", "id"]
         constraints = [
-            models.UniqueConstraint(fields=["revision", "kind", "rule_id", "subjects_key"], name="one_item_per_finding"),
+            models.UniqueConstraint(fields=["revision", "kind", "rule_id", "subjects_digest"],
+                                    name="one_item_per_finding"),
         ]
 
     def __str__(self) -> str:
@@ -83,6 +101,7 @@ class ReviewItem(models.Model):
     def save(self, *args, **kwargs):
         if self.revision_id and is_signing_started(self.revision_id):
             raise SignedRevisionError("review items of a signed revision are frozen")
+        self.subjects_digest = subjects_digest(self.subjects_key)
         super().save(*args, **kwargs)
 
     def get_absolute_url(self) -> str:

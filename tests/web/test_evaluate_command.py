@@ -104,3 +104,29 @@ def test_rules_lists_every_rule_with_rationale_and_sources():
     text = subprocess.run([sys.executable, "manage.py", "rules"], cwd=ROOT, capture_output=True, text=True,
                           timeout=120).stdout
     assert "SEP-001" in text and "sources:" in text
+
+
+def test_a_rule_that_raises_is_on_stderr_and_in_the_json_and_the_exit_is_not_0(tmp_path, monkeypatch, capsys):
+    # In process, so one rule can be broken; an incomplete checklist can't promise "no blocker" (exit 0).
+    import dataclasses
+
+    from django.core.management import call_command
+
+    from rules import registry
+
+    def check(context):
+        yield from ()
+        raise ZeroDivisionError("float division by zero")
+
+    rule = {rule.id: rule for rule in registry.registered_rules()}["SIZ-001"]
+    monkeypatch.setitem(registry._RULES, "SIZ-001", dataclasses.replace(rule, check=check))
+    path = tmp_path / "design.json"
+    path.write_text(json.dumps(design()))  # no blocker
+    with pytest.raises(SystemExit) as exit_status:
+        call_command("evaluate", str(path), "--format", "json")
+    assert exit_status.value.code == 1
+    captured = capsys.readouterr()
+    output = json.loads(captured.out)
+    assert output["summary"]["blocker"] == 0
+    assert [failure["id"] for failure in output["rule_failures"]] == ["SIZ-001"]
+    assert "rule SIZ-001 could not run, so device-size is not checked: ZeroDivisionError" in captured.err

@@ -1,7 +1,8 @@
 """`manage.py evaluate DESIGN.json [--format text|json]`: the checklist for a design file.
 
 Exit status (contract): 0 no blocker, 1 at least one blocker, 2 the design or a measurement it names is
-invalid (every problem on stderr, each with its path).
+invalid (every problem on stderr, each with its path). A rule that could not run (a defect in Earshot, listed
+under `rule_failures` and on stderr) also gives 1: an incomplete checklist can't say "no blocker".
 """
 
 import json
@@ -43,7 +44,9 @@ class Command(BaseCommand):
             self.stdout.write(json.dumps(evaluation.as_dict(), indent=2, ensure_ascii=False))
         else:
             self.stdout.write(render_text(evaluation, ignored_paths=design.ignored_paths), ending="")
-        sys.exit(1 if evaluation.has_blocker else 0)
+        for failure in evaluation.rule_failures:
+            self.stderr.write(f"rule {failure.id} could not run, so {failure.topic} is not checked: {failure.error}")
+        sys.exit(1 if evaluation.has_blocker or evaluation.rule_failures else 0)
 
     def _fail(self, problems: list[str]) -> None:
         self.stderr.write(f"The design can't be evaluated ({len(problems)} problem{'s' * (len(problems) != 1)}):")
