@@ -15,7 +15,14 @@ from django.views.decorators.http import require_GET, require_POST
 from projectapp.designs.access import get_product_for_user, get_revision_for_user, products_for
 from projectapp.reviews import services
 from projectapp.reviews.comparison import compare_revisions
-from projectapp.reviews.forms import AssignForm, CommentForm, ConfirmForm, DecisionForm
+from projectapp.reviews.forms import (
+    AssignForm,
+    CommentForm,
+    CompareForm,
+    ConfirmForm,
+    DashboardFilterForm,
+    DecisionForm,
+)
 from projectapp.reviews.models import AuditEvent, Disposition, ReviewItem
 from projectapp.teams.access import teams_of
 from rules.findings import SEVERITIES, TOPICS
@@ -48,24 +55,19 @@ def current_review_revisions(user):
 def dashboard(request):
     base = items_for(request.user).filter(revision__in=current_review_revisions(request.user),
                                           kind=ReviewItem.Kind.RAISED)
-    filters = {key: request.GET.get(key, "") for key in ("product", "severity", "topic", "assignee", "state")}
-    if not filters["state"]:
-        filters["state"] = "open"
+    form = DashboardFilterForm(request.GET).read()
+    chosen, filters = form.cleaned, form.shown
+    filters["state"] = filters["state"] or "open"
     items = base
     if filters["state"] == "open":
         items = items.filter(OPEN_FILTER)
-    if filters["product"].isdigit():
-        items = items.filter(revision__product_id=int(filters["product"]))
-    if filters["severity"] in SEVERITIES:
-        items = items.filter(severity=filters["severity"])
-    if filters["topic"] in TOPICS:
-        items = items.filter(topic=filters["topic"])
-    if filters["assignee"] == "me":
+    items = form.apply(items, {"product": "revision__product_id", "severity": "severity", "topic": "topic"})
+    if chosen.get("assignee") == "me":
         items = items.filter(assignee=request.user)
-    elif filters["assignee"] == "nobody":
+    elif chosen.get("assignee") == "nobody":
         items = items.filter(assignee__isnull=True)
-    elif filters["assignee"].isdigit():
-        items = items.filter(assignee_id=int(filters["assignee"]))
+    elif "assignee" in chosen:
+        items = items.filter(assignee_id=int(chosen["assignee"]))
     severity_rank = {severity: index for index, severity in enumerate(SEVERITIES)}
     ordered = sorted(items, key=lambda item: (severity_rank.get(item.severity, 9), item.revision.product.name,
                                               TOPICS.index(item.topic) if item.topic in TOPICS else 99, item.pk))
@@ -73,6 +75,7 @@ def dashboard(request):
     context = {
         "items": ordered,
         "filters": filters,
+        "filter_problems": form.problems,
         "my_open": open_items.filter(assignee=request.user).count(),
         "by_product": open_items.values("revision__product_id", "revision__product__name")
         .annotate(n=Count("id")).order_by("revision__product__name"),
@@ -85,7 +88,7 @@ def dashboard(request):
         "topics": TOPICS,
     }
     template = "reviews/_dashboard_items.html" if request.htmx else "reviews/dashboard.html"
-    return render(request, template, context)
+    return render(request, template, context, status=form.status)
 
 
 def _card_context(request, item: ReviewItem, **extra) -> dict:
@@ -241,10 +244,11 @@ def revision_compare(request, product_id: int):
     product = get_product_for_user(request.user, product_id)
     revisions = list(product.revisions.order_by("number"))
     numbers = [revision.number for revision in revisions]
+    form = CompareForm(request.GET).read()
 
     def pick(name: str, default: int | None) -> int | None:
-        raw = request.GET.get(name, "")
-        return int(raw) if raw.isdigit() and int(raw) in numbers else default
+        chosen = form.cleaned.get(name)
+        return chosen if chosen in numbers else default
 
     newer = pick("to", numbers[-1] if numbers else None)
     older = pick("from", numbers[-2] if len(numbers) > 1 else newer)
@@ -253,4 +257,5 @@ def revision_compare(request, product_id: int):
         by_number = {revision.number: revision for revision in revisions}
         comparison = compare_revisions(by_number[older], by_number[newer])
     return render(request, "reviews/compare.html", {"product": product, "numbers": numbers, "older": older,
-                                                    "newer": newer, "comparison": comparison})
+                                                    "newer": newer, "comparison": comparison,
+                                                    "filter_problems": form.problems}, status=form.status)
