@@ -10,7 +10,6 @@ import hashlib
 import json
 from dataclasses import dataclass, field
 
-from django.contrib.auth import authenticate
 from django.core.exceptions import PermissionDenied
 from django.core.files.base import ContentFile
 from django.db import transaction
@@ -20,6 +19,7 @@ from projectapp.reviews.models import AuditEvent, Disposition, ReviewItem
 from projectapp.signoff.models import MEANINGS, Signature, SignedRecord, Supersession
 from projectapp.teams.access import has_role
 from projectapp.teams.models import Role
+from projectapp.teams.password_checks import is_locked_out, password_is_right
 
 
 class SigningError(ValueError):
@@ -84,8 +84,19 @@ def record_fingerprint(revision: Revision) -> str:
     return hashlib.sha256(canonical.encode("utf-8")).hexdigest()
 
 
+def revision_sign(*, revision: Revision, user, role: str, password: str, request) -> Signature:
+    """`request` is the HTTP request the password came with: the password check counts towards the same
+    lock as log-ins (teams/password_checks.py), per user name and address. It runs before the transaction,
+    so a wrong password stays counted when the signing is refused."""
+    if not password_is_right(request, user, password):
+        if is_locked_out(request):
+            raise SigningError("password: too many wrong passwords; password checks are locked for a while")
+        raise SigningError("password: that is not your password")
+    return _revision_sign_checked(revision=revision, user=user, role=role)
+
+
 @transaction.atomic
-def revision_sign(*, revision: Revision, user, role: str, password: str) -> Signature:
+def _revision_sign_checked(*, revision: Revision, user, role: str) -> Signature:
     revision = Revision.objects.select_for_update().select_related("product__team").get(pk=revision.pk)
     team = revision.product.team
     if hasattr(revision, "signed_record"):
@@ -94,8 +105,6 @@ def revision_sign(*, revision: Revision, user, role: str, password: str) -> Sign
         raise SigningError(f"role: {team.name} does not require a {role} signature")
     if not has_role(user, team, role):
         raise PermissionDenied(f"Signing as {role} needs the {role} role in {team.name}.")
-    if authenticate(username=user.get_username(), password=password) is None:
-        raise SigningError("password: that is not your password")
     state = readiness(revision)
     if not state.ready:
         raise SigningError(f"Revision {revision.number} can't be signed yet: {len(state.obstacles)} item(s) stand "

@@ -84,7 +84,8 @@ def test_a_malformed_antenna_action_is_refused_and_nothing_changes(client, revie
     client.force_login(author)
     url = reverse("draft_section_save", args=[reviewed.pk, "antennas"])
     before = reviewed.draft.document
-    data = {"antennas[0].name": "RENAMED", "antennas[0].role": "main", "action": action}
+    data = {"antennas[0].name": "RENAMED", "antennas[0].role": "main", "action": action,
+            "version": reviewed.draft.version}
     response = client.post(url, data, **HTMX)
     page = response.content.decode()
     assert response.status_code == 400 and "Nothing was saved: action: expected add, remove:N or duplicate:N" in page
@@ -96,7 +97,8 @@ def test_a_malformed_antenna_action_is_refused_and_nothing_changes(client, revie
 def test_an_unknown_region_preset_is_refused(client, reviewed, author):
     client.force_login(author)
     response = client.post(reverse("draft_section_save", args=[reviewed.pk, "product"]),
-                           {"product.name": "Orchard soil probe", "preset": "atlantis"}, **HTMX)
+                           {"product.name": "Orchard soil probe", "preset": "atlantis",
+                            "version": reviewed.draft.version}, **HTMX)
     assert response.status_code == 400 and "preset: expected one of the region presets" in response.content.decode()
 
 
@@ -105,7 +107,8 @@ def test_a_malformed_port_count_is_a_message_and_the_port_map_stays(client, revi
     client.force_login(author)
     before = reviewed.draft.document
     response = client.post(reverse("measurement_ports", args=[reviewed.pk]),
-                           {"file": "probe.s2p", "port_count": count, "port-0": "ANT1"}, follow=True)
+                           {"file": "probe.s2p", "port_count": count, "port-0": "ANT1",
+                            "version": reviewed.draft.version}, follow=True)
     page = response.content.decode()
     assert response.status_code == 200 and "port_count: expected" in page and "nothing was changed" in page
     assert reviewed.draft.document == before
@@ -115,7 +118,8 @@ def test_a_port_named_with_a_nul_is_refused_and_the_port_map_stays(client, revie
     client.force_login(author)
     before = reviewed.draft.document
     response = client.post(reverse("measurement_ports", args=[reviewed.pk]),
-                           {"file": "probe.s2p", "port_count": "2", "port-0": "A\x00", "port-1": ""}, follow=True)
+                           {"file": "probe.s2p", "port_count": "2", "port-0": "A\x00", "port-1": "",
+                            "version": reviewed.draft.version}, follow=True)
     assert "port-0: Null characters are not allowed" in response.content.decode()
     assert reviewed.draft.document == before
 
@@ -124,6 +128,7 @@ def test_a_valid_port_map_still_saves(client, reviewed, author):
     client.force_login(author)
     name = reviewed.draft.document["antennas"][0]["name"]
     client.post(reverse("measurement_ports", args=[reviewed.pk]),
-                {"file": "probe.s2p", "port_count": "2", "port-0": "", "port-1": name})
+                {"file": "probe.s2p", "port_count": "2", "port-0": "", "port-1": name,
+                 "version": reviewed.draft.version})
     [entry] = reviewed.draft.document["measurements"]
     assert entry["ports"] == [None, name]
