@@ -5,9 +5,12 @@ antennas on a jittered grid at two heights, field axes turning from one antenna 
 many pairs sit inside a quarter wave of each other and draw separation findings (the worst case for the
 drawing: every pair a line, the close ones coloured). For each N the script evaluates the design once
 (untimed), then times what a page pays for the drawing on the server: `placement_drawing` (layout and
-label placement) and `placement_svg` (the same plus the SVG text), best and median of --repeats runs.
+label placement) and `placement_svg` (the same plus the SVG text), best and median of --repeats runs, in
+CPU time of this process (what a request costs the server) and in wall time (which on a shared machine
+also counts the time spent waiting for a core).
 
-Target: the SVG of a 32-antenna design (the parser's cap, rules.design.MAX_ANTENNAS) in under 100 ms.
+Target: the SVG of a 32-antenna design (the parser's cap, rules.design.MAX_ANTENNAS) in under 100 ms of
+server (CPU) time, median.
 
 Run from the repository root: `.venv/bin/python benchmarks/placement.py [--repeats N] [--counts 8,16,32]`.
 This script prints figures; it asserts nothing.
@@ -67,13 +70,15 @@ def router_document(count: int) -> dict:
     }
 
 
-def timed(function: Callable[[], object], repeats: int) -> tuple[float, float]:
-    times = []
+def timed(function: Callable[[], object], repeats: int) -> tuple[float, float, float]:
+    """(best CPU, median CPU, median wall) seconds."""
+    cpu, wall = [], []
     for _ in range(repeats):
-        started = time.perf_counter()
+        started_cpu, started_wall = time.process_time(), time.perf_counter()
         function()
-        times.append(time.perf_counter() - started)
-    return min(times), statistics.median(times)
+        cpu.append(time.process_time() - started_cpu)
+        wall.append(time.perf_counter() - started_wall)
+    return min(cpu), statistics.median(cpu), statistics.median(wall)
 
 
 def main() -> int:
@@ -84,8 +89,8 @@ def main() -> int:
     options = parser.parse_args()
     counts = [int(count) for count in options.counts.split(",")]
 
-    rows = [("antennas", "pairs", "coloured pairs", "drawing best ms", "svg best ms", "svg median ms",
-             "svg kB")]
+    rows = [("antennas", "pairs", "coloured pairs", "drawing CPU ms", "svg CPU best ms", "svg CPU median ms",
+             "svg wall median ms", "svg kB")]
     target_median = None
     for count in counts:
         design = parse_design(router_document(count))
@@ -93,14 +98,14 @@ def main() -> int:
         drawing = partial(placement_drawing, design, pair_severities=severities, frequency_mhz=design.lowest_mhz)
         svg = partial(placement_svg, design, pair_severities=severities, frequency_mhz=design.lowest_mhz)
         svg()  # warm up: fonts, imports
-        drawing_best, _ = timed(drawing, options.repeats)
-        svg_best, svg_median = timed(svg, options.repeats)
+        _, drawing_median, _ = timed(drawing, options.repeats)
+        svg_best, svg_median, svg_wall = timed(svg, options.repeats)
         size_kb = len(svg().encode()) / 1000
         if count == TARGET_COUNT:
             target_median = svg_median
         rows.append((str(count), str(count * (count - 1) // 2), str(len(severities)),
-                     f"{drawing_best * 1000:.1f}", f"{svg_best * 1000:.1f}", f"{svg_median * 1000:.1f}",
-                     f"{size_kb:.0f}"))
+                     f"{drawing_median * 1000:.1f}", f"{svg_best * 1000:.1f}", f"{svg_median * 1000:.1f}",
+                     f"{svg_wall * 1000:.1f}", f"{size_kb:.0f}"))
     print_table(rows)
     print()
     if target_median is None:
@@ -108,8 +113,8 @@ def main() -> int:
               f"(not measured: add {TARGET_COUNT} to --counts)")
     else:
         verdict = "met" if target_median < TARGET_S else "NOT met"
-        print(f"target: the SVG of {TARGET_COUNT} antennas in under {TARGET_S * 1000:.0f} ms (median): "
-              f"{target_median * 1000:.1f} ms — {verdict}")
+        print(f"target: the SVG of {TARGET_COUNT} antennas in under {TARGET_S * 1000:.0f} ms of server time (CPU, "
+              f"median): {target_median * 1000:.1f} ms — {verdict}")
     return 0
 
 
