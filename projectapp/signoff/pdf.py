@@ -34,6 +34,8 @@ from projectapp.designs.models import Revision
 from projectapp.figures.charts import correlation_chart, coverage_chart, isolation_chart, return_loss_chart
 from projectapp.figures.placement import pair_severities_from_findings, placement_drawing
 from projectapp.reviews.models import ReviewItem
+from projectapp.reviews.provenance import decision_lines
+from projectapp.reviews.services import approver_ids
 from rules.coverage import TABLE_COLUMNS, analyse_coverage
 from rules.design import parse_design
 from rules.measurements import LoadedMeasurement, attach_measurements
@@ -175,21 +177,18 @@ def _band_table(checklist: dict[str, Any]) -> list[Flowable]:
     ]
 
 
-def _checklist(items: list[ReviewItem]) -> list[Flowable]:
-    rows = [["Severity", "Rule", "Finding", "Disposition", "Justification", "Decided by"]]
+def _checklist(items: list[ReviewItem], approvers: set[int]) -> list[Flowable]:
+    rows = [["Severity", "Rule", "Finding", "Decision", "Justification"]]
     for item in items:
         severity = Paragraph(f'<font color="{SEVERITY_COLOURS[item.severity].hexval().replace("0x", "#")}">'
                              f"<b>{esc(item.severity.upper())}</b></font>", CELL)
-        decided = ""
-        if item.decided_by:
-            decided = f"{item.decided_by.get_full_name() or item.decided_by.username}, " \
-                      f"{item.decided_at:%Y-%m-%d %H:%M} UTC" if item.decided_at else item.decided_by.username
-        if item.carried_from:
-            decided += f" (carried from revision {item.carried_from.number}, confirmed)"
-        rows.append([severity, f"{item.rule_id}\n{', '.join(item.subjects)}", item.title,
-                     item.get_disposition_display(), item.justification or "—", decided or "—"])
+        provenance = " ".join(line.text for line in decision_lines(item, approver_ids=approvers))
+        decision = Paragraph(f"<b>{esc(item.get_disposition_display())}</b>"
+                             + (f"<br/>{esc(provenance)}" if provenance else ""), CELL)
+        rows.append([severity, f"{item.rule_id}\n{', '.join(item.subjects)}", item.title, decision,
+                     item.justification or "—"])
     return [p("Checklist and dispositions", H2),
-            grid_table(rows, [16 * mm, 22 * mm, 46 * mm, 22 * mm, FRAME_WIDTH - 136 * mm, 30 * mm])]
+            grid_table(rows, [16 * mm, 22 * mm, 42 * mm, 52 * mm, FRAME_WIDTH - 132 * mm])]
 
 
 def _finding_details(items: list[ReviewItem]) -> list[Flowable]:
@@ -265,7 +264,7 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
     measurements = attach_measurements(design, measurement_reader(revision))  # read once, used twice
     checklist = revision.evaluation
     items = list(revision.review_items.filter(kind=ReviewItem.Kind.RAISED)
-                 .select_related("decided_by", "carried_from").order_by("id"))
+                 .select_related("decided_by", "carried_from", "decided_in", "confirmed_by").order_by("id"))
     rank = {"blocker": 0, "warning": 1, "note": 2}
     items.sort(key=lambda item: (rank.get(item.severity, 9), item.topic, item.rule_id, item.subjects_key))
     signatures = list(revision.signatures.select_related("signer").order_by("id"))
@@ -304,7 +303,7 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
         placement_drawing(design, pair_severities=pair_severities_from_findings(checklist["findings"]),
                           frequency_mhz=design.lowest_mhz, width_pt=FRAME_WIDTH, max_height_pt=PAGE_HEIGHT - 80 * mm),
         PageBreak(),
-        *_checklist(items),
+        *_checklist(items, approver_ids(product.team)),
         Spacer(1, 4 * mm),
         *_finding_details(items),
         *_measurement_charts(measurements, design),

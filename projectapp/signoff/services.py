@@ -17,6 +17,7 @@ from django.db import transaction
 
 from projectapp.designs.models import Revision
 from projectapp.reviews.models import AuditEvent, Disposition, ReviewItem
+from projectapp.reviews.services import approver_ids
 from projectapp.signoff.models import MEANINGS, Signature, SignedRecord, Supersession
 from projectapp.teams.access import has_role
 from projectapp.teams.models import Role
@@ -49,7 +50,9 @@ def readiness(revision: Revision) -> Readiness:
     if revision.is_draft:
         state.obstacles.append(f"Revision {revision.number} is a draft: submit it for review first.")
         return state
-    items = revision.review_items.filter(kind=ReviewItem.Kind.RAISED).order_by("id")
+    items = (revision.review_items.filter(kind=ReviewItem.Kind.RAISED).order_by("id")
+             .select_related("carried_from", "decided_by", "confirmed_by"))
+    approvers = approver_ids(revision.product.team)
     for item in items:
         label = f"{item.rule_id} {item.title}"
         if item.is_carried_unconfirmed and item.severity in ("blocker", "warning"):
@@ -58,11 +61,25 @@ def readiness(revision: Revision) -> Readiness:
         elif item.severity == "blocker" and item.disposition != Disposition.WAIVED:
             state.obstacles.append(f"{label}: a blocker must be waived by an approver "
                                    f"(now: {item.get_disposition_display().lower()}).")
+        elif item.severity == "blocker" and (item.waiver_authority is None
+                                             or item.waiver_authority.pk not in approvers):
+            state.obstacles.append(f"{label}: a blocker must be waived by an approver (now: {_waiver_text(item)}); "
+                                   "an approver must grant or confirm the waiver.")
         elif item.severity == "warning" and item.disposition not in (Disposition.CHANGE, Disposition.WAIVED,
                                                                      Disposition.NOT_APPLICABLE):
             state.obstacles.append(f"{label}: a warning needs a disposition "
                                    f"(now: {item.get_disposition_display().lower()}).")
     return state
+
+
+def _waiver_text(item: ReviewItem) -> str:
+    by = item.confirmed_by or item.decided_by
+    text = f"waived by {by.get_username()}" if by else "waived"
+    if item.confirmed_by_id:
+        text += " (confirmed)"
+    if item.decided_severity and item.decided_severity != item.severity:
+        text += f", granted when it was a {item.decided_severity}"
+    return text
 
 
 def record_fingerprint(revision: Revision) -> str:
@@ -74,8 +91,15 @@ def record_fingerprint(revision: Revision) -> str:
         "evaluation": revision.evaluation,
         "decisions": [
             [item.rule_id, item.subjects_key, item.kind, item.severity, item.disposition, item.justification,
-             item.decided_by.username if item.decided_by else None]
-            for item in revision.review_items.order_by("id").select_related("decided_by")
+             item.decided_by.username if item.decided_by else None,
+             # provenance: when and where it was decided, on which severity, what was carried, who confirmed
+             item.decided_at.isoformat() if item.decided_at else None,
+             item.decided_in.number if item.decided_in else None, item.decided_severity,
+             item.carried_from.number if item.carried_from else None, item.carried_confirmed,
+             item.confirmed_by.username if item.confirmed_by else None,
+             item.confirmed_at.isoformat() if item.confirmed_at else None]
+            for item in revision.review_items.order_by("id").select_related("decided_by", "decided_in",
+                                                                             "carried_from", "confirmed_by")
         ],
         "signatures": [[s.role, s.signer.username, s.signer_name, s.signed_at.isoformat()]
                        for s in revision.signatures.order_by("id").select_related("signer")],

@@ -17,7 +17,7 @@ from pypdf import PdfReader
 
 from projectapp.designs import services as design_services
 from projectapp.reviews.models import ReviewItem, SignedRevisionError
-from projectapp.reviews.services import review_item_decide
+from projectapp.reviews.services import review_item_confirm, review_item_decide
 from projectapp.signoff import services
 from projectapp.signoff.archive_files import export_archive, verify_archive
 from projectapp.signoff.models import ImmutableRecordError, SignedRecord, Supersession
@@ -240,3 +240,30 @@ def test_frozen_records_reject_changes_through_the_admin(client, submitted, auth
     assert client.post(reverse("admin:designs_revision_change", args=[submitted.pk]), {}).status_code == 403
     assert client.post(reverse("admin:designs_revision_delete", args=[submitted.pk]), {"post": "yes"}).status_code == 403
     assert SignedRecord.objects.filter(pk=record.pk).exists()
+
+
+def test_the_record_says_who_decided_what_and_what_was_carried(submitted, author, reviewer, approver):
+    product = submitted.product
+    eff = submitted.review_items.get(rule_id="EFF-001", kind="raised")
+    sep = submitted.review_items.get(rule_id="SEP-001", kind="raised")
+    review_item_decide(item=eff, user=reviewer, disposition="discussion", justification="",
+                       expected_version=eff.version)
+    review_item_decide(item=sep, user=approver, disposition="waived", justification="Pilot of 20 units",
+                       expected_version=sep.version)
+    draft = design_services.draft_get_or_start(product=product, user=author)
+    second = design_services.revision_submit(revision=draft, user=author)
+    eff2 = second.review_items.get(rule_id="EFF-001", kind="raised")
+    sep2 = second.review_items.get(rule_id="SEP-001", kind="raised")
+    review_item_decide(item=eff2, user=approver, disposition="waived", justification="Indoor use only",
+                       expected_version=eff2.version)
+    review_item_confirm(item=sep2, user=approver, expected_version=sep2.version)
+    for item in second.review_items.filter(kind="raised", severity="warning").exclude(pk=eff2.pk):
+        review_item_decide(item=item, user=reviewer, disposition="change", justification="",
+                           expected_version=item.version)
+    record = sign_all(second, author, reviewer, approver)
+    with record.pdf.open("rb") as handle:
+        text = pdf_text(handle.read())
+    assert "carried from revision 1, confirmed" not in text
+    assert "Revision 1 carried in: Needs discussion, decided by reviewer" in text  # EFF-001, decided anew
+    assert "Carried from revision 1; confirmed here by approver" in text  # SEP-001
+    assert text.count("in this revision") >= 1 and "in revision 1" in text
