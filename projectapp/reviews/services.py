@@ -3,6 +3,11 @@
 Every write records an AuditEvent in the same transaction. Decisions and assignments name the item
 version they were based on; if someone else saved in between, ReviewConflict carries their change and
 nothing is overwritten.
+
+Every write first takes the revision's row lock (as signing does) and reads the item afresh, and only
+then checks whether signing has started: a signature being recorded makes the write wait and then be
+refused, and a signature waits for a write in progress and then sees it. Nothing lands after the first
+signature.
 """
 
 from typing import Any
@@ -46,6 +51,14 @@ def can_review(user, item_or_revision) -> bool:
     revision = item_or_revision.revision if isinstance(item_or_revision, ReviewItem) else item_or_revision
     team = revision.product.team
     return has_role(user, team, Role.REVIEWER) or has_role(user, team, Role.APPROVER)
+
+
+def _lock_revision(item: ReviewItem) -> ReviewItem:
+    """Takes the item's revision row lock (the one signoff.services.revision_sign takes), then reads the item
+    as it is now. Call it first in a transaction, before any check."""
+    list(Revision.objects.select_for_update().filter(pk=item.revision_id).values_list("pk", flat=True))
+    return ReviewItem.objects.select_related("revision__product__team", "assignee", "decided_by", "decided_in",
+                                             "confirmed_by", "carried_from").get(pk=item.pk)
 
 
 def _require_reviewer(user, item: ReviewItem) -> None:
@@ -184,6 +197,7 @@ def _save_versioned(item: ReviewItem, expected_version: int, **values: Any) -> R
 @transaction.atomic
 def review_item_decide(*, item: ReviewItem, user, disposition: str, justification: str,
                        expected_version: int) -> ReviewItem:
+    item = _lock_revision(item)
     _require_reviewer(user, item)
     if disposition not in Disposition.values:
         raise ReviewInputError("disposition", f"disposition: expected one of {', '.join(Disposition.values)}")
@@ -210,6 +224,7 @@ def review_item_decide(*, item: ReviewItem, user, disposition: str, justificatio
 
 @transaction.atomic
 def review_item_confirm(*, item: ReviewItem, user, expected_version: int) -> ReviewItem:
+    item = _lock_revision(item)
     _require_reviewer(user, item)
     if not item.is_carried_unconfirmed:
         return item
@@ -243,6 +258,7 @@ def assignable_people(revision: Revision):
 
 @transaction.atomic
 def review_item_assign(*, item: ReviewItem, user, assignee, expected_version: int) -> ReviewItem:
+    item = _lock_revision(item)
     _require_reviewer(user, item)
     if assignee is not None and not assignable_people(item.revision).filter(pk=assignee.pk).exists():
         raise ReviewInputError("assignee", "assignee: expected a reviewer or approver of this team")
@@ -256,6 +272,7 @@ def review_item_assign(*, item: ReviewItem, user, assignee, expected_version: in
 
 @transaction.atomic
 def review_item_comment(*, item: ReviewItem, user, text: str) -> Comment:
+    item = _lock_revision(item)
     team = item.revision.product.team
     if not Membership.objects.filter(team=team, user=user).exists():
         raise PermissionDenied("Only team members comment.")

@@ -15,7 +15,7 @@ from django.core.exceptions import PermissionDenied
 from django.core.files.base import ContentFile
 from django.db import transaction
 
-from projectapp.designs.models import Revision
+from projectapp.designs.models import Product, Revision
 from projectapp.reviews.models import AuditEvent, Disposition, ReviewItem
 from projectapp.reviews.services import approver_ids
 from projectapp.signoff.models import MEANINGS, Signature, SignedRecord, Supersession
@@ -50,6 +50,9 @@ def readiness(revision: Revision) -> Readiness:
     if revision.is_draft:
         state.obstacles.append(f"Revision {revision.number} is a draft: submit it for review first.")
         return state
+    newer = None if hasattr(revision, "signed_record") else newer_record(revision)
+    if newer is not None:
+        state.obstacles.append(newer_record_obstacle(revision, newer))
     items = (revision.review_items.filter(kind=ReviewItem.Kind.RAISED).order_by("id")
              .select_related("carried_from", "decided_by", "confirmed_by"))
     approvers = approver_ids(revision.product.team)
@@ -108,12 +111,33 @@ def record_fingerprint(revision: Revision) -> str:
     return hashlib.sha256(canonical.encode("utf-8")).hexdigest()
 
 
+def newer_record(revision: Revision) -> SignedRecord | None:
+    """The record of a later revision of the same product, if one is archived."""
+    return (SignedRecord.objects.filter(revision__product_id=revision.product_id, revision__number__gt=revision.number)
+            .select_related("revision").order_by("-revision__number").first())
+
+
+def newer_record_obstacle(revision: Revision, newer: SignedRecord) -> str:
+    return (f"Revision {newer.revision.number} of {revision.product.name} is already signed and archived, so "
+            f"revision {revision.number} can no longer be signed: its record would compete with the newer one as "
+            "the current record. To go back to this design, start a new revision from it.")
+
+
 @transaction.atomic
 def revision_sign(*, revision: Revision, user, role: str, password: str) -> Signature:
+    # Locks, always in this order: the product (signatures of all its revisions take turns, so a record is
+    # archived knowing every other record), then the revision (review writes take only this one, and
+    # never the product after it, so the two can't deadlock). Every check below runs under them.
+    list(Product.objects.select_for_update().filter(pk=revision.product_id).values_list("pk", flat=True))
     revision = Revision.objects.select_for_update().select_related("product__team").get(pk=revision.pk)
     team = revision.product.team
     if hasattr(revision, "signed_record"):
         raise SigningError("This revision is already signed and archived.")
+    # Refused rather than archived as superseded at once: the newer record is the one in force, and an
+    # older design becomes current again only through a new revision that everyone signs.
+    newer = newer_record(revision)
+    if newer is not None:
+        raise SigningError(newer_record_obstacle(revision, newer))
     if role not in team.signoff_roles:
         raise SigningError(f"role: {team.name} does not require a {role} signature")
     if not has_role(user, team, role):

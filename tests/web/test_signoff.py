@@ -267,3 +267,22 @@ def test_the_record_says_who_decided_what_and_what_was_carried(submitted, author
     assert "Revision 1 carried in: Needs discussion, decided by reviewer" in text  # EFF-001, decided anew
     assert "Carried from revision 1; confirmed here by approver" in text  # SEP-001
     assert text.count("in this revision") >= 1 and "in revision 1" in text
+
+
+def test_an_older_revision_cannot_be_signed_once_a_newer_one_is_archived(client, submitted, author, reviewer,
+                                                                        approver):
+    settle(submitted, reviewer, approver)
+    services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD)  # signing started
+    draft = design_services.draft_get_or_start(product=submitted.product, user=author)
+    newer = design_services.revision_submit(revision=draft, user=author)
+    for item in newer.review_items.filter(kind="raised", severity__in=["blocker", "warning"]):
+        review_item_confirm(item=item, user=approver, expected_version=item.version)
+    newer_record = sign_all(newer, author, reviewer, approver)
+    url = reverse("signoff_sign", args=[submitted.product_id, 1])
+    client.force_login(reviewer)
+    response = client.post(url, {"role": "reviewer", "password": PASSWORD}, follow=True)
+    page = response.content.decode()
+    assert "Revision 2 of Hive gateway is already signed and archived, so revision 1 can no longer be signed" in page
+    assert submitted.signatures.count() == 1 and not SignedRecord.objects.filter(revision=submitted).exists()
+    assert any(o.startswith("Revision 2 of Hive gateway") for o in services.readiness(submitted).obstacles)
+    assert [record.pk for record in SignedRecord.objects.all() if record.is_current] == [newer_record.pk]
