@@ -1,13 +1,17 @@
 """Signing a revision and archiving its record.
 
 A revision can be signed when every blocker it raises is waived by an approver and every warning has a
-disposition. Each role the team requires signs once, after re-entering their password. The last
-signature builds the PDF, stores it through Django's storage with its SHA-256, and marks the product's
-previous record superseded (by adding a Supersession row; the old record itself never changes).
+disposition. Each role the team requires signs once, after re-entering their password. Every signature
+builds the PDF record with itself in it before it is accepted, the first one included: a record that
+can't be built is found while the review can still change, and the signature is refused with a message
+(nothing is recorded). The last signature stores the PDF through Django's storage with its SHA-256, and
+marks the product's previous record superseded (by adding a Supersession row; the old record itself
+never changes).
 """
 
 import hashlib
 import json
+import logging
 from dataclasses import dataclass, field
 
 from django.contrib.auth import authenticate
@@ -22,9 +26,15 @@ from projectapp.signoff.models import MEANINGS, Signature, SignedRecord, Superse
 from projectapp.teams.access import has_role
 from projectapp.teams.models import Role
 
+logger = logging.getLogger(__name__)
+
 
 class SigningError(ValueError):
     """A signature that can't be recorded; the message says why, naming the field when there is one."""
+
+
+class RecordBuildError(SigningError):
+    """The PDF record could not be built, so the signature that needed it was not recorded."""
 
 
 @dataclass
@@ -101,8 +111,8 @@ def record_fingerprint(revision: Revision) -> str:
              item.carried_from.number if item.carried_from else None, item.carried_confirmed,
              item.confirmed_by.username if item.confirmed_by else None,
              item.confirmed_at.isoformat() if item.confirmed_at else None]
-            for item in revision.review_items.order_by("id").select_related("decided_by", "decided_in",
-                                                                             "carried_from", "confirmed_by")
+            for item in revision.review_items.order_by("id").defer("finding", "previous_decision")
+            .select_related("decided_by", "decided_in", "carried_from", "confirmed_by")
         ],
         "signatures": [[s.role, s.signer.username, s.signer_name, s.signed_at.isoformat()]
                        for s in revision.signatures.order_by("id").select_related("signer")],
@@ -161,18 +171,36 @@ def revision_sign(*, revision: Revision, user, role: str, password: str) -> Sign
                               changes={"signature": [None, role]})
     if not [r for r in team.signoff_roles if r not in (*state.signed_roles, role)]:
         record_archive(revision=revision, user=user)
+    else:
+        record_build(revision=revision)  # built, not stored: see the module docstring
     return signature
+
+
+def record_build(*, revision: Revision) -> tuple[str, bytes]:
+    """The record's fingerprint and PDF as they stand (signatures so far included)."""
+    from projectapp.signoff.pdf import build_record_pdf
+
+    fingerprint = record_fingerprint(revision)
+    try:
+        return fingerprint, build_record_pdf(revision, fingerprint=fingerprint)
+    except Exception as error:  # noqa: BLE001 (any failure: the signature is refused with a message, not a 500)
+        logger.exception("the PDF record of %s could not be built", revision)
+        earlier = revision.signatures.count() > 1  # the signature being refused is already in the count
+        raise RecordBuildError(
+            f"The PDF record of revision {revision.number} could not be built ({type(error).__name__}), so your "
+            "signature was not recorded and nothing changed"
+            + (": the signatures already given stand." if earlier else ": the review is still open.")
+            + " The server log has the cause for whoever runs Earshot; sign again once it is fixed.") from error
 
 
 def record_archive(*, revision: Revision, user) -> SignedRecord:
     """Builds the PDF, stores it with its SHA-256, and supersedes the product's previous current record."""
-    from projectapp.signoff.pdf import build_record_pdf
-
-    fingerprint = record_fingerprint(revision)
-    pdf_bytes = build_record_pdf(revision, fingerprint=fingerprint)
+    fingerprint, pdf_bytes = record_build(revision=revision)
     sha256 = hashlib.sha256(pdf_bytes).hexdigest()
     record = SignedRecord(revision=revision, sha256=sha256, size_bytes=len(pdf_bytes), fingerprint=fingerprint)
-    slug = "".join(ch if ch.isalnum() else "-" for ch in revision.product.name.lower()).strip("-")
+    # ASCII and short: a name of emoji or CJK would be too long for a file system (255 bytes) and the field.
+    slug = "".join(ch if ch.isascii() and ch.isalnum() else "-" for ch in revision.product.name.lower())
+    slug = "-".join(part for part in slug.split("-") if part)[:40].strip("-") or "product"
     record.pdf.save(f"{slug}-rev{revision.number}-{sha256[:12]}.pdf", ContentFile(pdf_bytes), save=False)
     record.save()
     earlier = (SignedRecord.objects.filter(revision__product=revision.product, revision__number__lt=revision.number)

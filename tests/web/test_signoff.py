@@ -286,3 +286,33 @@ def test_an_older_revision_cannot_be_signed_once_a_newer_one_is_archived(client,
     assert submitted.signatures.count() == 1 and not SignedRecord.objects.filter(revision=submitted).exists()
     assert any(o.startswith("Revision 2 of Hive gateway") for o in services.readiness(submitted).obstacles)
     assert [record.pk for record in SignedRecord.objects.all() if record.is_current] == [newer_record.pk]
+
+
+def test_the_record_is_built_before_the_first_signature_and_a_failure_is_a_message(
+        client, submitted, author, reviewer, approver, monkeypatch, caplog):
+    from reportlab.platypus.doctemplate import LayoutError
+
+    from projectapp.signoff import pdf
+
+    settle(submitted, reviewer, approver)
+    built = []
+
+    def failing_build(revision, *, fingerprint):
+        built.append(revision.signatures.count())
+        raise LayoutError("Flowable too large on page 5")
+
+    monkeypatch.setattr(pdf, "build_record_pdf", failing_build)
+    client.force_login(author)
+    url = reverse("signoff_sign", args=[submitted.product_id, 1])
+    response = client.post(url, {"role": "author", "password": PASSWORD}, follow=True)
+    page = response.content.decode()
+    assert response.status_code == 200 and built == [1]  # built with the signature being given, at the first
+    assert "could not be built (LayoutError), so your signature was not recorded" in page
+    assert "the review is still open" in page
+    assert submitted.signatures.count() == 0 and "could not be built" in caplog.text
+    item = submitted.review_items.get(rule_id="EFF-001", kind="raised")  # the review can still change
+    review_item_decide(item=item, user=reviewer, disposition="waived", justification="Chamber-tested",
+                       expected_version=item.version)
+    monkeypatch.undo()
+    record = sign_all(submitted, author, reviewer, approver)
+    assert record.size_bytes > 0
