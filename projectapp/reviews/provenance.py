@@ -12,7 +12,7 @@ from datetime import datetime
 
 from django.utils.dateparse import parse_datetime
 
-from projectapp.reviews.models import Disposition, ReviewItem
+from projectapp.reviews.models import SEVERITY_RANK, Disposition, ReviewItem
 
 
 @dataclass(frozen=True)
@@ -55,14 +55,16 @@ def decision_lines(item: ReviewItem, *, approver_ids: set[int] | None = None) ->
         carried_in = f"Revision {item.carried_from.number} carried in"
         if previous.get("carried"):
             carried_in += (f": {disposition_label(previous['disposition'])}, decided by "
-                           f"{previous.get('decided_by_name') or 'someone'} {when(previous.get('decided_at'))}")
+                           f"{previous.get('decided_by_name') or 'someone'}, {when(previous.get('decided_at'))}")
         lines.append(Line(carried_in + "; decided anew here."))
     if previous and not previous.get("carried"):
+        # the lesser of the two severities the earlier decision stood on is the one this finding outgrew
+        lower = min(previous["severity"], previous.get("decided_severity") or previous["severity"],
+                    key=lambda severity: SEVERITY_RANK.get(severity, 9))
         lines.append(Line(
-            f"Revision {previous['revision']} had decided {disposition_label(previous['disposition'])} "
-            f"({previous.get('decided_by_name') or 'someone'}, {when(previous.get('decided_at'))}) when this was a "
-            f"{previous.get('decided_severity') or previous['severity']}; not carried: it is a {item.severity} now "
-            "and needs a new decision."))
+            f"Revision {previous['revision']} had {disposition_label(previous['disposition'])} "
+            f"({previous.get('decided_by_name') or 'someone'}, {when(previous.get('decided_at'))}) with this "
+            f"finding a {lower}; not carried: it is a {item.severity} now and needs a new decision."))
     if approver_ids is not None and item.severity == "blocker" and item.disposition == Disposition.WAIVED:
         authority = item.waiver_authority
         if authority is None or authority.pk not in approver_ids:
