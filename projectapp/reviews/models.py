@@ -169,6 +169,12 @@ class AuditEvent(models.Model):
         CONFIRMED = "confirmed", "Confirmed a carried disposition"
         COMMENT = "comment", "Commented"
         ASSIGNED = "assigned", "Assigned"
+        DRAFT_STARTED = "draft-started", "Started a draft"
+        SECTION_SAVED = "section-saved", "Saved a questionnaire section"
+        IMPORTED = "imported", "Imported a design file"
+        FILE_ADDED = "file-added", "Added a measurement file"
+        FILE_MAPPED = "file-mapped", "Mapped a measurement's ports"
+        FILE_REMOVED = "file-removed", "Removed a measurement file"
 
     product = models.ForeignKey(Product, on_delete=models.PROTECT, related_name="audit_events")
     revision = models.ForeignKey(Revision, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
@@ -176,7 +182,8 @@ class AuditEvent(models.Model):
     actor = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
     action = models.CharField(max_length=16, choices=Action.choices)
     summary = models.CharField(max_length=300)
-    changes = models.JSONField(default=dict)  # {"field": [before, after], ...}
+    changes = models.JSONField(default=dict)  # {"field": [before, after], ...}; design paths for design edits
+    draft_version = models.PositiveIntegerField(null=True, blank=True)  # the draft version a design edit made
     created_at = models.DateTimeField(auto_now_add=True)
 
     class Meta:

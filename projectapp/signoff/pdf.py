@@ -205,7 +205,7 @@ def _design_summary(design) -> list[Flowable]:
 def _band_table(checklist: dict[str, Any]) -> list[Flowable]:
     rows = [["Band", "Duplex", "UL (MHz)", "DL (MHz)", "Lowest (MHz)", "λ (mm)", "λ/4 (mm)", "λ/2π (mm)"]]
     for row in checklist["bands"]:
-        rows.append([row["band"], row["duplex"], f"{row['ul_mhz'][0]:g}–{row['ul_mhz'][1]:g}",
+        rows.append([row["band"], row["duplex"], f"{row['ul_mhz'][0]:g}–{row['ul_mhz'][1]:g}" if row["ul_mhz"] else "—",
                      f"{row['dl_mhz'][0]:g}–{row['dl_mhz'][1]:g}", f"{row['lowest_mhz']:g}",
                      f"{row['wavelength_mm']:.1f}", f"{row['quarter_wave_mm']:.1f}", f"{row['near_field_mm']:.1f}"])
     return [
@@ -302,12 +302,18 @@ def _coverage(measurements: Sequence[LoadedMeasurement], design) -> list[Flowabl
     table = [[f"{label} ({unit})" if unit else label for _, label, unit in TABLE_COLUMNS]]
     table += [["—" if row.get(key) is None else row.get(key) for key, _, _ in TABLE_COLUMNS] for row in rows]
     widths = [FRAME_WIDTH / len(TABLE_COLUMNS)] * len(TABLE_COLUMNS)
-    notes = [f"{row['band']}: {row['model_label']}; target {row['mcl_db']} dB ({row['mcl_source']}); entry loss "
-             f"{row['entry_loss_db']} dB ({row['entry_loss_source']}); ECC {row['ecc']} ({row['ecc_source']})."
+    notes = [f"{row['band']}: {row['model_label']} ({row['model_source']}"
+             + (f"; {row['model_reason']}" if row["model_reason"] else "") + f"); downlink target {row['mcl_dl_db']} dB "
+             f"({row['mcl_dl_source']}); "
+             + (f"uplink target {row['mcl_ul_db']} dB ({row['mcl_ul_source']}), power class {row['power_class']} "
+                f"({row['max_output_dbm']} dBm); " if row["mcl_ul_db"] is not None else "no uplink (SDL); ")
+             + f"one receive branch fewer {row['single_branch_cost_db']} dB ({row['single_branch_source']}), "
+             f"flat-Rayleigh bound {row['fading_bound_db']} dB; entry loss {row['entry_loss_db']} dB "
+             f"({row['entry_loss_source']}); cable loss {row['cable_loss_db']} dB; ECC {row['ecc']} ({row['ecc_source']})."
              for row in rows]
     return [PageBreak(), p("Coverage with one and two receive antennas", H2),
-            p("Downlink budget at each band's lowest downlink frequency; estimates with the stated assumptions.",
-              MUTED_SMALL),
+            p("Uplink and downlink budgets at each direction's lowest frequency; the direction with less margin "
+              "limits. Estimates with the stated assumptions.", MUTED_SMALL),
             *_figure("coverage chart", lambda: coverage_chart(rows, width_pt=FRAME_WIDTH, height_pt=200)),
             Spacer(1, 3 * mm),
             grid_table(table, widths), Spacer(1, 2 * mm), *[p(note, MUTED_SMALL) for note in notes]]

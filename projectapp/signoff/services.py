@@ -14,7 +14,6 @@ import json
 import logging
 from dataclasses import dataclass, field
 
-from django.contrib.auth import authenticate
 from django.core.exceptions import PermissionDenied
 from django.core.files.base import ContentFile
 from django.db import transaction
@@ -25,6 +24,7 @@ from projectapp.reviews.services import approver_ids
 from projectapp.signoff.models import MEANINGS, Signature, SignedRecord, Supersession
 from projectapp.teams.access import has_role
 from projectapp.teams.models import Role
+from projectapp.teams.password_checks import is_locked_out, password_is_right
 
 logger = logging.getLogger(__name__)
 
@@ -133,8 +133,19 @@ def newer_record_obstacle(revision: Revision, newer: SignedRecord) -> str:
             "the current record. To go back to this design, start a new revision from it.")
 
 
+def revision_sign(*, revision: Revision, user, role: str, password: str, request) -> Signature:
+    """`request` is the HTTP request the password came with: the password check counts towards the same
+    lock as log-ins (teams/password_checks.py), per user name and address. It runs before the transaction,
+    so a wrong password stays counted when the signing is refused."""
+    if not password_is_right(request, user, password):
+        if is_locked_out(request):
+            raise SigningError("password: too many wrong passwords; password checks are locked for a while")
+        raise SigningError("password: that is not your password")
+    return _revision_sign_checked(revision=revision, user=user, role=role)
+
+
 @transaction.atomic
-def revision_sign(*, revision: Revision, user, role: str, password: str) -> Signature:
+def _revision_sign_checked(*, revision: Revision, user, role: str) -> Signature:
     # Locks, always in this order: the product (signatures of all its revisions take turns, so a record is
     # archived knowing every other record), then the revision (review writes take only this one, and
     # never the product after it, so the two can't deadlock). Every check below runs under them.
@@ -152,8 +163,6 @@ def revision_sign(*, revision: Revision, user, role: str, password: str) -> Sign
         raise SigningError(f"role: {team.name} does not require a {role} signature")
     if not has_role(user, team, role):
         raise PermissionDenied(f"Signing as {role} needs the {role} role in {team.name}.")
-    if authenticate(username=user.get_username(), password=password) is None:
-        raise SigningError("password: that is not your password")
     state = readiness(revision)
     if not state.ready:
         raise SigningError(f"Revision {revision.number} can't be signed yet: {len(state.obstacles)} item(s) stand "

@@ -18,7 +18,7 @@ from projectapp.reviews.services import review_item_decide
 from projectapp.signoff import record_fonts, services
 from projectapp.signoff.models import SignedRecord
 from projectapp.teams.models import Membership, Role, Team
-from tests.web.conftest import EXAMPLES, PASSWORD
+from tests.web.conftest import EXAMPLES, PASSWORD, signing_request
 
 MAIN = "主天线-MAIN 📡"  # Chinese and an emoji
 DIV = "분집 DIV 😀 ダイバーシティ"  # Korean, an emoji, Japanese katakana
@@ -74,7 +74,7 @@ def hostile(db):
 
 def sign_all(revision, people) -> bytes:
     for role in ("author", "reviewer", "approver"):
-        services.revision_sign(revision=revision, user=people[role], role=role, password=PASSWORD)
+        services.revision_sign(revision=revision, user=people[role], role=role, password=PASSWORD, request=signing_request())
     with SignedRecord.objects.get(revision=revision).pdf.open("rb") as handle:
         return handle.read()
 

@@ -20,7 +20,7 @@ from projectapp.reviews import services as review_services
 from projectapp.reviews.models import Comment, ReviewItem
 from projectapp.signoff import services
 from projectapp.signoff.models import SignedRecord
-from tests.web.conftest import PASSWORD
+from tests.web.conftest import PASSWORD, signing_request
 
 pytestmark = pytest.mark.django_db(transaction=True)
 
@@ -110,7 +110,7 @@ def next_revision_ready(product, author, approver):
 
 
 def sign(revision, user, role: str) -> Callable[[], object]:
-    return lambda: services.revision_sign(revision=revision, user=user, role=role, password=PASSWORD)
+    return lambda: services.revision_sign(revision=revision, user=user, role=role, password=PASSWORD, request=signing_request())
 
 
 def review_writes(reviewer) -> dict[str, Callable[[ReviewItem], object]]:
@@ -163,8 +163,8 @@ def test_a_signature_waits_for_a_decision_in_progress_and_then_sees_it(ready, au
 def test_two_revisions_signed_at_once_leave_one_current_record(ready, product, author, reviewer, approver):
     newer = next_revision_ready(product, author, approver)
     for revision in (ready, newer):
-        services.revision_sign(revision=revision, user=author, role="author", password=PASSWORD)
-        services.revision_sign(revision=revision, user=reviewer, role="reviewer", password=PASSWORD)
+        services.revision_sign(revision=revision, user=author, role="author", password=PASSWORD, request=signing_request())
+        services.revision_sign(revision=revision, user=reviewer, role="reviewer", password=PASSWORD, request=signing_request())
     outcome: dict[str, str] = {}
     assert race(sign(newer, approver, "approver"), sign(ready, approver, "approver"), outcome, ("newer", "older"))
     assert outcome["newer"] == "done"

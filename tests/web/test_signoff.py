@@ -21,7 +21,7 @@ from projectapp.reviews.services import review_item_confirm, review_item_decide
 from projectapp.signoff import services
 from projectapp.signoff.archive_files import export_archive, verify_archive
 from projectapp.signoff.models import ImmutableRecordError, SignedRecord, Supersession
-from tests.web.conftest import PASSWORD
+from tests.web.conftest import PASSWORD, signing_request
 
 ROOT = Path(__file__).parents[2]
 
@@ -45,7 +45,7 @@ def settle(revision, reviewer, approver) -> None:
 
 def sign_all(revision, author, reviewer, approver) -> SignedRecord:
     for user, role in ((author, "author"), (reviewer, "reviewer"), (approver, "approver")):
-        services.revision_sign(revision=revision, user=user, role=role, password=PASSWORD)
+        services.revision_sign(revision=revision, user=user, role=role, password=PASSWORD, request=signing_request())
     return SignedRecord.objects.get(revision=revision)
 
 
@@ -77,23 +77,23 @@ def test_signing_needs_the_password_the_role_and_distinct_people(submitted, auth
     settle(submitted, reviewer, approver)
     assert services.readiness(submitted).ready
     with pytest.raises(services.SigningError, match="password: that is not your password"):
-        services.revision_sign(revision=submitted, user=author, role="author", password="wrong")
+        services.revision_sign(revision=submitted, user=author, role="author", password="wrong", request=signing_request())
     with pytest.raises(PermissionDenied):
-        services.revision_sign(revision=submitted, user=author, role="approver", password=PASSWORD)
-    services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD)
+        services.revision_sign(revision=submitted, user=author, role="approver", password=PASSWORD, request=signing_request())
+    services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD, request=signing_request())
     with pytest.raises(services.SigningError, match="already recorded"):
-        services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD)
+        services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD, request=signing_request())
     # the author also holds the reviewer role here; the team does not allow one person for two roles
     from projectapp.teams.models import Membership
     Membership.objects.create(team=submitted.product.team, user=author, role="reviewer")
     with pytest.raises(services.SigningError, match="different person for each role"):
-        services.revision_sign(revision=submitted, user=author, role="reviewer", password=PASSWORD)
+        services.revision_sign(revision=submitted, user=author, role="reviewer", password=PASSWORD, request=signing_request())
     assert submitted.signatures.count() == 1
 
 
 def test_signing_starts_the_freeze_of_the_review(client, submitted, author, reviewer, approver):
     settle(submitted, reviewer, approver)
-    services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD)
+    services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD, request=signing_request())
     item = submitted.review_items.get(rule_id="EFF-001", kind="raised")
     with pytest.raises(PermissionDenied):
         review_item_decide(item=item, user=reviewer, disposition="waived", justification="x",
@@ -272,7 +272,7 @@ def test_the_record_says_who_decided_what_and_what_was_carried(submitted, author
 def test_an_older_revision_cannot_be_signed_once_a_newer_one_is_archived(client, submitted, author, reviewer,
                                                                         approver):
     settle(submitted, reviewer, approver)
-    services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD)  # signing started
+    services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD, request=signing_request())  # signing started
     draft = design_services.draft_get_or_start(product=submitted.product, user=author)
     newer = design_services.revision_submit(revision=draft, user=author)
     for item in newer.review_items.filter(kind="raised", severity__in=["blocker", "warning"]):

@@ -37,7 +37,7 @@ class Migration(migrations.Migration):
 
     dependencies = [
         ('designs', '0001_initial'),
-        ('reviews', '0002_alter_auditevent_action'),
+        ('reviews', '0003_auditevent_design_edits'),
         migrations.swappable_dependency(settings.AUTH_USER_MODEL),
     ]
 
