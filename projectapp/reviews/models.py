@@ -39,7 +39,16 @@ def is_signing_started(revision_id: int) -> bool:
     return Signature.objects.filter(revision_id=revision_id).exists()
 
 
+PROVENANCE_REVISIONS = ("decided_in", "carried_from")
+
+
 class ReviewItemQuerySet(models.QuerySet):
+    def with_provenance(self):
+        """Items with the people and revisions their provenance names (reviews.provenance), without those
+        revisions' documents and checklists: large JSON, decoded once per item otherwise."""
+        return self.select_related("decided_by", "confirmed_by", *PROVENANCE_REVISIONS).defer(
+            *(f"{name}__{field}" for name in PROVENANCE_REVISIONS for field in ("document", "evaluation")))
+
     def update(self, **kwargs):
         from projectapp.signoff.models import Signature
 

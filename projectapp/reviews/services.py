@@ -57,8 +57,7 @@ def _lock_revision(item: ReviewItem) -> ReviewItem:
     """Takes the item's revision row lock (the one signoff.services.revision_sign takes), then reads the item
     as it is now. Call it first in a transaction, before any check."""
     list(Revision.objects.select_for_update().filter(pk=item.revision_id).values_list("pk", flat=True))
-    return ReviewItem.objects.select_related("revision__product__team", "assignee", "decided_by", "decided_in",
-                                             "confirmed_by", "carried_from").get(pk=item.pk)
+    return ReviewItem.objects.with_provenance().select_related("revision__product__team", "assignee").get(pk=item.pk)
 
 
 def _require_reviewer(user, item: ReviewItem) -> None:
@@ -99,17 +98,17 @@ def _iso(moment) -> str | None:
     return None if moment is None else moment.isoformat()
 
 
-def decision_snapshot(item: ReviewItem, *, carried: bool) -> dict[str, Any]:
+def decision_snapshot(item: ReviewItem, *, revision_number: int, carried: bool) -> dict[str, Any]:
     """An item's decision as it stood, for the next revision's item to keep (`previous_decision`)."""
     return {
-        "revision": item.revision.number,
+        "revision": revision_number,
         "severity": item.severity,
         "disposition": item.disposition,
         "justification": item.justification,
         "decided_by": _username(item.decided_by),
         "decided_by_name": _display_name(item.decided_by),
         "decided_at": _iso(item.decided_at),
-        "decided_in": item.decided_in.number if item.decided_in else item.revision.number,
+        "decided_in": item.decided_in.number if item.decided_in else revision_number,
         "decided_severity": item.decided_severity or item.severity,
         "confirmed_by": _username(item.confirmed_by),
         "confirmed_by_name": _display_name(item.confirmed_by),
@@ -139,7 +138,7 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
     if previous is not None:
         earlier = {(item.rule_id, item.subjects_key): item
                    for item in previous.review_items.filter(kind=ReviewItem.Kind.RAISED)
-                   .select_related("revision", "decided_by", "decided_in", "confirmed_by")}
+                   .with_provenance()}
     created = []
     seen: set[tuple[str, str]] = set()
     not_carried = 0
@@ -155,7 +154,7 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
             item.assignee = before.assignee
             carry = before.disposition != Disposition.OPEN and not severity_rose(now=item.severity, before=before)
             if before.disposition != Disposition.OPEN:
-                item.previous_decision = decision_snapshot(before, carried=carry)
+                item.previous_decision = decision_snapshot(before, revision_number=previous.number, carried=carry)
                 not_carried += not carry
             if carry:
                 item.disposition = before.disposition
@@ -187,8 +186,8 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
 def _save_versioned(item: ReviewItem, expected_version: int, **values: Any) -> ReviewItem:
     updated = ReviewItem.objects.filter(pk=item.pk, version=expected_version).update(
         version=F("version") + 1, updated_at=timezone.now(), **values)
-    current = ReviewItem.objects.select_related("revision__product__team", "assignee", "decided_by", "decided_in",
-                                                "confirmed_by", "carried_from").get(pk=item.pk)
+    current = ReviewItem.objects.with_provenance().select_related("revision__product__team", "assignee").get(
+        pk=item.pk)
     if not updated:
         raise ReviewConflict(current)
     return current

@@ -27,8 +27,7 @@ OPEN_FILTER = (Q(disposition__in=[Disposition.OPEN, Disposition.DISCUSSION])
 
 def items_for(user):
     return (ReviewItem.objects.filter(revision__product__team__in=teams_of(user))
-            .select_related("revision__product__team", "assignee", "decided_by", "carried_from", "decided_in",
-                            "confirmed_by"))
+            .with_provenance().select_related("revision__product__team", "assignee"))
 
 
 def get_item_for_user(user, item_id: int) -> ReviewItem:

@@ -340,7 +340,7 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
     measurements = attach_measurements(design, measurement_reader(revision))  # read once, used twice
     checklist = revision.evaluation
     items = list(revision.review_items.filter(kind=ReviewItem.Kind.RAISED)
-                 .select_related("decided_by", "carried_from", "decided_in", "confirmed_by").order_by("id"))
+                 .with_provenance().order_by("id"))
     rank = {"blocker": 0, "warning": 1, "note": 2}
     items.sort(key=lambda item: (rank.get(item.severity, 9), item.topic, item.rule_id, item.subjects_key))
     signatures = list(revision.signatures.select_related("signer").order_by("id"))

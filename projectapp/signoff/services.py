@@ -64,7 +64,7 @@ def readiness(revision: Revision) -> Readiness:
     if newer is not None:
         state.obstacles.append(newer_record_obstacle(revision, newer))
     items = (revision.review_items.filter(kind=ReviewItem.Kind.RAISED).order_by("id")
-             .select_related("carried_from", "decided_by", "confirmed_by"))
+             .with_provenance())
     approvers = approver_ids(revision.product.team)
     for item in items:
         label = f"{item.rule_id} {item.title}"
@@ -112,7 +112,7 @@ def record_fingerprint(revision: Revision) -> str:
              item.confirmed_by.username if item.confirmed_by else None,
              item.confirmed_at.isoformat() if item.confirmed_at else None]
             for item in revision.review_items.order_by("id").defer("finding", "previous_decision")
-            .select_related("decided_by", "decided_in", "carried_from", "confirmed_by")
+            .with_provenance()
         ],
         "signatures": [[s.role, s.signer.username, s.signer_name, s.signed_at.isoformat()]
                        for s in revision.signatures.order_by("id").select_related("signer")],
