@@ -290,7 +290,7 @@ def test_only_an_approver_confirms_a_carried_blocker_waiver(client, reviewed, au
     assert not any(o.startswith("SEP-001") for o in readiness(confirmed.revision).obstacles)
 
 
-def test_the_gate_counts_a_blocker_waived_only_when_an_approver_granted_or_confirmed_it(reviewed, reviewer,
+def test_the_gate_counts_a_blocker_waived_only_when_an_approver_granted_or_confirmed_it(client, reviewed, reviewer,
                                                                                         approver):
     """Rows that older code could leave behind: a reviewer's waiver carried onto a blocker and confirmed."""
     from projectapp.signoff.services import readiness
@@ -302,6 +302,9 @@ def test_the_gate_counts_a_blocker_waived_only_when_an_approver_granted_or_confi
         carried_from=revision, carried_confirmed=True, confirmed_by=reviewer)
     [obstacle] = [o for o in readiness(revision).obstacles if o.startswith("SEP-001")]
     assert "waived by an approver" in obstacle and "reviewer" in obstacle
+    client.force_login(reviewer)  # the card says so too
+    page = client.get(reverse("revision_review", args=[reviewed.pk, 1])).content.decode()
+    assert "Not an approver&#x27;s waiver: an approver must grant or confirm it before sign-off." in page
     ReviewItem.objects.filter(pk=sep.pk).update(confirmed_by=approver)
     assert not any(o.startswith("SEP-001") for o in readiness(revision).obstacles)
     # a waiver an approver granted on this finding as a blocker counts; the same person's waiver of it as a
