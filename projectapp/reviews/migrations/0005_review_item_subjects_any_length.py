@@ -15,7 +15,7 @@ def fill_digests(apps, schema_editor):
 
 class Migration(migrations.Migration):
     dependencies = [
-        ("reviews", "0003_auditevent_design_edits"),
+        ("reviews", "0004_reviewitem_decision_provenance"),
     ]
 
     operations = [
