@@ -13,3 +13,4 @@ bench:
 	scripts/bootstrap.sh test
 	.venv/bin/python benchmarks/engine.py
 	.venv/bin/python benchmarks/pdf_record.py
+	.venv/bin/python benchmarks/placement.py

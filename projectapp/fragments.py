@@ -39,6 +39,9 @@ from django.template.loader import render_to_string
 from django.utils.html import escape
 from django.utils.safestring import SafeString, mark_safe
 
+# A context holding this key, true, is rendered but not kept: the page shows something that failed (a design
+# that could not be checked, a figure that could not be drawn), which the next look should try again.
+NOT_KEPT = "fragments_not_kept"
 CSRF_MARK = mark_safe("<!--earshot:csrf-->")
 NAME_MARK = mark_safe("<!--earshot:reader-->")
 FLASH_MARK = mark_safe("<!--earshot:flash-->")
@@ -131,7 +134,10 @@ def shared(template: str, key_parts: tuple[Hashable, ...], context: Callable[[],
     if pieces is None:
         pieces = cache.get(key)
         if pieces is None:
-            pieces = _render(template, context())
+            values = context()
+            pieces = _render(template, values)
+            if values.get(NOT_KEPT):  # it shows a failure: the next reader gets a fresh try
+                return pieces
             cache.set(key, pieces, timeout)
         LOCAL.put(key, pieces)
     return pieces

@@ -7,8 +7,11 @@ with its path (`antennas[1].position_mm`) and what was expected there.
 
 import json
 import math
+import re
+import sys
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 from rules.catalog import DEFAULT_POWER_CLASS, Band, Category, bands, categories, power_classes
@@ -18,6 +21,85 @@ ROLES = ("main", "receive")
 MOUNTINGS = ("internal", "external")
 MATERIALS = ("plastic", "metal", "mixed")
 ENVIRONMENTS = ("outdoor", "indoor", "deep-indoor", "underground", "vehicle")
+
+
+# -- limits ------------------------------------------------------------------------------------------------
+# What the parser accepts, and why. Outside these ranges a value is physically impossible for a cellular
+# product, or it can't be stored, drawn or printed; inside them every rule's arithmetic stays finite
+# (a ground plane of 1e-308 mm squared is 0, a division by zero; 1e308 squared is infinite). They apply on
+# top of the bounds a field states where it is read (efficiency 0-100 %, gain and limits within 30 dBi,
+# cable loss 0-40 dB, receive ports 1-8). README.md ("The design file") shows the same table.
+@dataclass(frozen=True)
+class Limit:
+    low: float
+    high: float
+    why: str
+    least_magnitude: float = 0.0  # a direction: its largest component must be at least this in size
+
+
+# By the unit a field's name ends in (the contract's names carry their units), so a field added later is
+# bounded too; `PATH_LIMITS` overrides them for fields that need their own.
+UNIT_LIMITS: Mapping[str, Limit] = {
+    "_mm": Limit(-100_000.0, 100_000.0,
+                 "100 m either way: beyond any product (a rail car or a shipping container included); squares of "
+                 "such lengths stay far from float overflow"),
+    "_mhz": Limit(1.0, 100_000.0,
+                  "1 MHz to 100 GHz: every cellular band (FR2 ends at 71 GHz), GNSS and WLAN, with room; near 0 MHz a "
+                  "wavelength has no finite length"),
+    "_db": Limit(-300.0, 300.0,
+                 "a power ratio of 10^30 either way, far past anything physical; 10^(x/10) stays a finite float"),
+    "_dbi": Limit(-300.0, 300.0, "as for dB: 10^(x/10) stays a finite float; the fields themselves are tighter"),
+    "_dbm": Limit(-300.0, 300.0,
+                  "as for dB: a UE's output is at most about 33 dBm and sensitivities are above -150 dBm"),
+    "_pct": Limit(0.0, 100.0, "a share of the power: 0 to 100 %"),
+    "_kbps": Limit(0.0, 10_000_000.0,
+                   "10 Gbit/s: above the peak rate of every UE category (LTE Cat 20 peaks near 2 Gbit/s)"),
+}
+SMALLEST_SIZE_MM = 0.01
+PATH_LIMITS: Mapping[str, Limit] = {  # `[]` stands for any index
+    "enclosure.size_mm": Limit(SMALLEST_SIZE_MM, 100_000.0,
+                               "a size from 10 um (thinner than a board's thinnest copper, 12 um) to 100 m"),
+    "ground_plane_mm": Limit(SMALLEST_SIZE_MM, 100_000.0,
+                             "a size from 10 um (thinner than a board's thinnest copper, 12 um) to 100 m"),
+    "antennas[].size_mm": Limit(SMALLEST_SIZE_MM, 100_000.0,
+                                "a size from 10 um (a trace antenna's copper is 12-70 um thick) to 100 m"),
+    "antennas[].polarization": Limit(-1e6, 1e6,
+                                     "a direction in any unit: components within a million either way, the largest "
+                                     "at least 0.001, so lengths and angles stay finite", least_magnitude=0.001),
+}
+# Text: the longest each field may be. A name is stored in database columns and printed on the record:
+# the product and file names match their columns (designs.Product.name, designs.MeasurementFile.name);
+# an antenna name is a schematic label ("ANT1", "LTE main, top edge"), and 32 of them make a finding's
+# subjects. Any other text field: DEFAULT_TEXT_CHARS.
+TEXT_LIMITS: Mapping[str, int] = {
+    "product.name": 120,
+    "product.revision": 40,
+    "antennas[].name": 64,
+    "measurements[].file": 120,
+}
+DEFAULT_TEXT_CHARS = 200
+# Far above any cellular product's antenna count (a 5G gateway with 4x4 MIMO, diversity, GNSS and WLAN has
+# about a dozen), and what the placement drawing and the PDF can still show legibly: every antenna labelled,
+# the pairs with findings drawn.
+MAX_ANTENNAS = 32
+LIST_LIMITS: Mapping[str, tuple[int, str]] = {"antennas": (MAX_ANTENNAS, "antennas")}
+# The whole document. The contract's deepest value sits 5 levels down; 16 leaves room for what other tools
+# add, and stays far below where Python's copying and encoding run out of recursion (about 300 levels).
+# A design holds a few thousand values at most; the import form takes files up to 1 MB.
+MAX_NESTING = 16
+MAX_VALUES = 20_000
+MAX_DOCUMENT_CHARS = 1_000_000
+MAX_CHARACTER_PROBLEMS = 20  # one bad paste should not bury the other problems
+
+# Characters no text in the document may hold: C0 and C1 controls other than tab, line feed and carriage
+# return, and lone surrogates (half of a UTF-16 pair: not a character, and no database or UTF-8 file can
+# hold one). The contract's own text fields are single-line names, so they refuse tab and line breaks too,
+# U+FFFD (what a decoder leaves where a character could not be read) and the bidirectional controls that
+# reorder what a reviewer reads. NUL and lone surrogates can't be stored at all (PostgreSQL refuses NUL).
+_FREE_TEXT_REFUSED = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f\ud800-\udfff]")
+_NAME_REFUSED = re.compile("[\x00-\x1f\x7f-\x9f\ud800-\udfff\ufffd\u202a-\u202e\u2066-\u2069]")
+_KEY_REFUSED = re.compile("[\x00-\x1f\x7f-\x9f\ud800-\udfff]")
+_UNSTORABLE = re.compile("[\x00\ud800-\udfff]")
 
 
 @dataclass(frozen=True)
@@ -136,12 +218,127 @@ def _kind(value: Any) -> str:
 
 
 def _show(value: Any) -> str:
+    if isinstance(value, int) and not isinstance(value, bool) and value.bit_length() > 10_000:
+        return f"a number of about {int(value.bit_length() * math.log10(2))} digits"  # too long to print
     text = json.dumps(value) if isinstance(value, (str, int, float, bool, type(None))) else _kind(value)
     return text if len(text) <= 40 else text[:37] + "..."
 
 
 def _is_number(value: Any) -> bool:
-    return isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
+    """A JSON number that is a finite float (an integer of 400 digits is not: it overflows one)."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return False
+    if isinstance(value, int):
+        return -sys.float_info.max <= value <= sys.float_info.max
+    return math.isfinite(value)
+
+
+def _character_problem(character: str) -> str:
+    code = f"U+{ord(character):04X}"
+    if "\ud800" <= character <= "\udfff":
+        return f"lone surrogate {code} not allowed (half of a character: the text was cut or mis-encoded)"
+    if character == "\ufffd":
+        return (f"replacement character {code} not allowed: a character here could not be read or stored; "
+                "retype the text")
+    if "\u202a" <= character <= "\u202e" or "\u2066" <= character <= "\u2069":
+        return f"bidirectional control {code} not allowed (it changes the order in which the text reads)"
+    return f"control character {code} not allowed"
+
+
+def _key_text(key: str) -> str:
+    """A key as it appears in a path: characters that can't be shown escaped, and cut short if long."""
+    if not key:
+        return '""'
+    shown = _NAME_REFUSED.sub(lambda match: f"\\u{ord(match.group()):04x}", key)
+    return shown if len(shown) <= 40 else shown[:39] + "…"
+
+
+@lru_cache(maxsize=4096)  # bounded: band keys come from the document
+def _limit_for(path: str) -> Limit | None:
+    """The limit of a numeric field: its own row in PATH_LIMITS, else the unit its name ends in; a value
+    inside a field (a band's entry, a range's end) takes its field's limit."""
+    normalized = re.sub(r"\[\d+\]", "[]", path)
+    while normalized:
+        if normalized in PATH_LIMITS:
+            return PATH_LIMITS[normalized]
+        name = normalized.rsplit(".", 1)[-1].removesuffix("[]")
+        for suffix, limit in UNIT_LIMITS.items():
+            if name.endswith(suffix):
+                return limit
+        normalized = normalized[:-2] if normalized.endswith("[]") else normalized.rpartition(".")[0]
+    return None
+
+
+def _text_limit(path: str) -> int:
+    return TEXT_LIMITS.get(re.sub(r"\[\d+\]", "[]", path), DEFAULT_TEXT_CHARS)
+
+
+def _scan(document: Any, problem: Callable[[str, str], None], *, refused: re.Pattern[str],
+          keys_refused: re.Pattern[str], finite_numbers: bool) -> bool:
+    """Walks the whole document without recursion: reports text holding `refused` characters, keys holding
+    `keys_refused` ones, non-finite numbers (if asked) and lists longer than LIST_LIMITS; returns False, after
+    reporting it, when the document nests deeper than MAX_NESTING or is larger than MAX_VALUES values or
+    MAX_DOCUMENT_CHARS characters (then nothing more of it is read)."""
+    stack: list[tuple[Any, str, int]] = [(document, "", 0)]
+    values = characters = character_problems = 0
+
+    def top(path: str) -> str:
+        return re.split(r"[.\[]", path, maxsplit=1)[0] or path
+
+    while stack:
+        value, path, level = stack.pop()
+        values += 1
+        if values > MAX_VALUES:
+            problem(top(path), f"too large: the document holds more than {MAX_VALUES} values (a design needs a "
+                               "few thousand at most)")
+            return False
+        if isinstance(value, str):
+            characters += len(value)
+            found = refused.search(value)
+            if found and character_problems < MAX_CHARACTER_PROBLEMS:
+                character_problems += 1
+                problem(path, _character_problem(found.group()))
+        elif isinstance(value, float) and finite_numbers and not math.isfinite(value):
+            problem(path, f"expected a finite number, got {_show(value)}")
+        elif isinstance(value, (dict, list)):
+            items = list(value.items()) if isinstance(value, dict) else list(enumerate(value))
+            if items and level >= MAX_NESTING:
+                problem(path, f"nested more than {MAX_NESTING} levels deep (the contract's deepest value is 5 "
+                              "levels down)")
+                return False
+            normalized = re.sub(r"\[\d+\]", "[]", path)
+            if isinstance(value, list) and normalized in LIST_LIMITS and len(value) > LIST_LIMITS[normalized][0]:
+                most, what = LIST_LIMITS[normalized]
+                problem(path, f"expected at most {most} {what}, got {len(value)}")
+            children = []
+            for key, item in items:
+                if isinstance(key, str):
+                    characters += len(key)
+                    child = f"{path}.{_key_text(key)}" if path else _key_text(key)
+                    found = keys_refused.search(key)
+                    if found and character_problems < MAX_CHARACTER_PROBLEMS:
+                        character_problems += 1
+                        problem(child, _character_problem(found.group()))
+                else:
+                    child = f"{path}[{key}]"
+                children.append((item, child, level + 1))
+            stack.extend(reversed(children))  # problems come out in document order
+        if characters > MAX_DOCUMENT_CHARS:
+            problem(top(path), f"too large: the document holds more than {MAX_DOCUMENT_CHARS} characters of "
+                               "text (the import takes files up to 1 MB)")
+            return False
+    return True
+
+
+def storage_problems(document: Any) -> list[Problem]:
+    """What keeps a document out of the database: NUL characters and lone surrogates anywhere (PostgreSQL
+    and UTF-8 can't hold them), numbers that are not finite, nesting deeper than MAX_NESTING and a size
+    beyond MAX_VALUES or MAX_DOCUMENT_CHARS. The questionnaire stores unreadable answers as typed, for the
+    parser to explain; this is the little it can't store."""
+    problems: list[Problem] = []
+    _scan(document, lambda path, message: problems.append(Problem(path, message)), refused=_UNSTORABLE,
+          keys_refused=_UNSTORABLE, finite_numbers=True)
+    return problems
 
 
 class _Reader:
@@ -150,16 +347,25 @@ class _Reader:
     def __init__(self) -> None:
         self.problems: list[Problem] = []
         self.ignored: list[str] = []
+        self._reported: set[Problem] = set()
 
     def problem(self, path: str, message: str) -> None:
-        self.problems.append(Problem(path, message))
+        reported = Problem(path, message)
+        if reported not in self._reported:  # the scan and a field's reader may find the same thing
+            self._reported.add(reported)
+            self.problems.append(reported)
+
+    def scan(self, document: Any) -> bool:
+        """The whole document, every text and key in it: characters, size, nesting (see `_scan`)."""
+        return _scan(document, self.problem, refused=_FREE_TEXT_REFUSED, keys_refused=_KEY_REFUSED,
+                     finite_numbers=False)
 
     def object(self, value: Any, path: str, known: Sequence[str]) -> dict[str, Any] | None:
         if not isinstance(value, dict):
             self.problem(path, f"expected an object, got {_kind(value)}")
             return None
         prefix = f"{path}." if path else ""
-        self.ignored.extend(f"{prefix}{key}" for key in value if key not in known)
+        self.ignored.extend(f"{prefix}{_key_text(str(key))}" for key in value if key not in known)
         return value
 
     def text(self, value: Any, path: str, *, required: bool = False) -> str | None:
@@ -174,6 +380,14 @@ class _Reader:
             return None
         if required and not value.strip():
             self.problem(path, "required: expected non-empty text")
+            return None
+        longest = _text_limit(path)
+        if len(value) > longest:
+            self.problem(path, f"expected at most {longest} characters, got {len(value)}")
+            return None
+        found = _NAME_REFUSED.search(value)
+        if found:
+            self.problem(path, _character_problem(found.group()))
             return None
         return value
 
@@ -195,6 +409,10 @@ class _Reader:
             self.problem(path, f"expected a number{f' in {unit}' if unit else ''}, got {_show(value)}")
             return None
         number = float(value)
+        limit = _limit_for(path)
+        if limit is not None:
+            minimum = limit.low if minimum is None else max(minimum, limit.low)
+            maximum = limit.high if maximum is None else min(maximum, limit.high)
         if above is not None and number <= above:
             self.problem(path, f"expected a number above {above:g}{f' {unit}' if unit else ''}, got {number:g}")
             return None
@@ -238,7 +456,22 @@ class _Reader:
             what = "positive numbers" if positive else "numbers"
             self.problem(path, f"expected {length} {what} in {unit}; item {bad[0]} is {_show(value[bad[0]])}")
             return None
-        return tuple(float(item) for item in value)
+        numbers = tuple(float(item) for item in value)
+        limit = _limit_for(path)
+        if limit is None:
+            return numbers
+        outside = [index for index, number in enumerate(numbers) if not limit.low <= number <= limit.high]
+        if outside:
+            shown_unit = f" {unit}" if unit != "any unit" else ""
+            self.problem(path, f"expected {length} numbers from {limit.low:g} to {limit.high:g}{shown_unit}; "
+                               f"item {outside[0]} is {numbers[outside[0]]:g}")
+            return None
+        if max(abs(number) for number in numbers) < limit.least_magnitude:
+            shown = ", ".join(f"{number:g}" for number in numbers)
+            self.problem(path, f"expected a direction: at least one component of {limit.least_magnitude:g} or "
+                               f"more in size, got [{shown}]")
+            return None
+        return numbers
 
     def band(self, value: Any, path: str) -> Band | None:
         band = find_band(value)
@@ -256,8 +489,9 @@ class _Reader:
             return {}
         result = {}
         for key, item in value.items():
-            band = self.band(key, f"{path}.{key}")
-            number = read(item, f"{path}.{key}")
+            item_path = f"{path}.{_key_text(str(key))}"
+            band = self.band(key, item_path)
+            number = read(item, item_path)
             if band is not None and number is not None:
                 result[band.name] = number
         return result
@@ -274,6 +508,8 @@ def find_band(value: Any) -> Band | None:
 def parse_design(document: Any) -> Design:
     """Validates a decoded design document; raises DesignError listing every problem."""
     reader = _Reader()
+    if not reader.scan(document):  # too deep or too large: nothing more of it is read
+        raise DesignError(reader.problems)
     root = reader.object(document, "", ("format", "product", "modem", "enclosure", "ground_plane_mm",
                                          "antennas", "deployment", "measurements"))
     if root is None:

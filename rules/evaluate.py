@@ -1,5 +1,11 @@
-"""evaluate(): a parsed design (and its measurements) in, a checklist out (contract `earshot-checklist/1`)."""
+"""evaluate(): a parsed design (and its measurements) in, a checklist out (contract `earshot-checklist/1`).
 
+A rule that raises is contained: its findings are dropped (all of them, none half-made), it is listed
+under `rule_failures` with the error, and every other rule still runs. A checklist with a rule failure is
+incomplete, so a revision can't be submitted with one and the command line does not exit 0.
+"""
+
+import logging
 from collections import Counter
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -14,6 +20,21 @@ from rules.measurements import LoadedMeasurement
 from rules.registry import RULESET_VERSION, registered_rules
 
 CHECKLIST_FORMAT = "earshot-checklist/1"
+
+logger = logging.getLogger(__name__)
+
+
+@dataclass(frozen=True)
+class RuleFailure:
+    """A rule that raised instead of judging: the concern it covers is unchecked for this design."""
+
+    id: str
+    topic: str
+    title: str
+    error: str  # the exception's type and message, for the people who run Earshot
+
+    def as_dict(self) -> dict[str, Any]:
+        return {"id": self.id, "topic": self.topic, "title": self.title, "error": self.error}
 
 
 @dataclass(frozen=True)
@@ -58,6 +79,7 @@ class Evaluation:
     bands: tuple[BandRow, ...]
     findings: tuple[Finding, ...]
     ruleset: str = RULESET_VERSION
+    rule_failures: tuple[RuleFailure, ...] = ()
 
     @property
     def summary(self) -> dict[str, int]:
@@ -85,15 +107,24 @@ class Evaluation:
             "bands": [row.as_dict() for row in self.bands],
             "summary": self.summary,
             "findings": [finding.as_dict() for finding in self.findings],
+            "rule_failures": [failure.as_dict() for failure in self.rule_failures],
         }
 
 
 def evaluate(design: Design, measurements: Sequence[LoadedMeasurement] = ()) -> Evaluation:
     context = CheckContext(design, tuple(measurements))
-    findings = [finding for rule in registered_rules() for finding in rule.run(context)]
+    findings: list[Finding] = []
+    failures: list[RuleFailure] = []
+    for rule in registered_rules():
+        try:
+            findings += list(rule.run(context))
+        except Exception as error:  # one rule's defect must not take the whole checklist down
+            logger.exception("rule %s failed on %r", rule.id, design.product_name)
+            failures.append(RuleFailure(rule.id, rule.topic, rule.title, f"{type(error).__name__}: {error}"))
     findings.sort(key=Finding.sort_key)
     return Evaluation(
         design=design,
         bands=tuple(BandRow(band) for band in design.modem.bands),
         findings=tuple(findings),
+        rule_failures=tuple(failures),
     )

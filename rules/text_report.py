@@ -89,6 +89,10 @@ def render_text(evaluation: Evaluation, *, ignored_paths: Sequence[str] = ()) ->
         lines += ["", f"{HEADINGS[severity]} ({len(group)})"]
         for finding in group:
             lines += _finding_lines(finding)
+    if evaluation.rule_failures:
+        lines += ["", f"RULES THAT COULD NOT RUN ({len(evaluation.rule_failures)}): this checklist is incomplete"]
+        for failure in evaluation.rule_failures:
+            lines += [f"  {failure.id}  {failure.topic}", f"    {failure.title}: not checked ({failure.error})"]
     if ignored_paths:
         lines += ["", "Ignored (not part of earshot-design/1): " + ", ".join(ignored_paths)]
     lines += ["", "This checklist does not replace carrier acceptance, industry certification or regulatory "

@@ -2,15 +2,21 @@
 
 Both come out in the contract's shape (earshot-checklist/1 as a dict), so templates, exports and the
 PDF read one structure whichever state the revision is in.
+
+One design must never take a page down for anyone else: an error while checking a design (a defect in
+Earshot, not in the design, which the parser would have named) is logged and shown as that design's
+problem, and a list shows the row as not checked; a rule that raises is already contained by evaluate().
 """
 
 import hashlib
 import json
+import logging
 from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Any
 
 from django.core.cache import cache
+from django.db import DatabaseError
 from django.db.models import prefetch_related_objects
 
 from projectapp import fragments
@@ -20,6 +26,10 @@ from rules.coverage import analyse_coverage
 from rules.design import Design, DesignError, Problem, parse_design
 from rules.evaluate import evaluate
 from rules.measurements import LoadedMeasurement, attach_measurements
+
+logger = logging.getLogger(__name__)
+CHECK_FAILED = Problem("", "this design could not be checked: an error in Earshot, not in the design (it is "
+                           "logged for the people who run Earshot)")
 
 
 @dataclass
@@ -85,6 +95,11 @@ def checklist_for(revision: Revision) -> ChecklistState:
                 cache.set(key, state.checklist, timeout=24 * 3600)
     except DesignError as error:
         state.problems = error.problems
+    except DatabaseError:
+        raise  # the request can't go on without its database; that is not this design's doing
+    except Exception:
+        logger.exception("checking revision %s failed", revision.pk)
+        state.design, state.checklist, state.problems = None, None, [CHECK_FAILED]
     if not revision.is_draft:
         state.checklist = revision.evaluation
     return state
@@ -118,12 +133,22 @@ def summaries(revisions: list[Revision]) -> dict[int, dict[str, Any]]:
         if key in found:
             result[revision.pk] = found[key]
             continue
-        state = checklist_for(revision)
-        result[revision.pk] = missing[key] = {
-            "category": state.design.modem.category.label if state.design else "",
-            "counts": state.summary if state.checklist else None,
-            "problems": len(state.problems),
-        }
+        try:
+            state = checklist_for(revision)
+            summary = {
+                "category": state.design.modem.category.label if state.design else "",
+                "counts": state.summary if state.checklist else None,
+                "problems": len(state.problems),
+                "failed": state.problems == [CHECK_FAILED],
+            }
+        except DatabaseError:
+            raise
+        except Exception:  # the row says so; the list still shows every other design
+            logger.exception("summarising revision %s failed", revision.pk)
+            summary = {"category": "", "counts": None, "problems": 0, "failed": True}
+        result[revision.pk] = summary
+        if not summary["failed"]:  # a failure is not kept: the next look tries again
+            missing[key] = summary
     if missing:
         cache.set_many(missing, timeout=30 * 24 * 3600)
     return result

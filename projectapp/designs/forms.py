@@ -1,5 +1,6 @@
 from django import forms
 
+from projectapp.designs import questionnaire
 from projectapp.designs.models import Product
 from projectapp.library.models import Entry
 from projectapp.teams.models import Team
@@ -115,3 +116,60 @@ class LibraryApplyForm(LibraryTargetForm):
     def __init__(self, *args, keys: list[str], **kwargs):
         super().__init__(*args, **kwargs)
         self.fields["apply"].choices = [(key, key) for key in keys]
+
+
+class SectionActionForm(forms.Form):
+    """What a questionnaire section may post beside its answers: an antenna row action and a region preset."""
+
+    action = forms.RegexField(
+        regex=r"^(add|(remove|duplicate):[0-9]{1,3})$", required=False,
+        error_messages={"invalid": "action: expected add, remove:N or duplicate:N (N an antenna's row number)"})
+    preset = forms.ChoiceField(required=False, choices=(), error_messages={
+        "invalid_choice": "preset: expected one of the region presets listed beside the bands"})
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.fields["preset"].choices = [("", "")] + [(preset.slug, preset.label)
+                                                      for preset in questionnaire.band_presets()]
+
+    @property
+    def verb(self) -> str:
+        return self.cleaned_data["action"].partition(":")[0]
+
+    @property
+    def row(self) -> int | None:
+        _, _, index = self.cleaned_data["action"].partition(":")
+        return int(index) if index else None
+
+
+class PortMapForm(forms.Form):
+    """A kept measurement file's port map: which antenna each port measured (blank: no antenna)."""
+
+    MAX_PORTS = 64  # far beyond a Touchstone file's usual 1-8 ports; the form shows one select per port
+
+    file = forms.CharField(max_length=120)
+    port_count = forms.IntegerField(min_value=0, max_value=MAX_PORTS, error_messages={
+        "invalid": f"port_count: expected a whole number from 0 to {MAX_PORTS}",
+        "min_value": f"port_count: expected a whole number from 0 to {MAX_PORTS}",
+        "max_value": f"port_count: expected a whole number from 0 to {MAX_PORTS}",
+        "required": "port_count: expected the number of ports the form shows"})
+
+    def __init__(self, data, *args, **kwargs):
+        super().__init__(data, *args, **kwargs)
+        for index in range(self.MAX_PORTS):
+            if f"port-{index}" in data:
+                self.fields[f"port-{index}"] = forms.CharField(max_length=120, required=False)
+
+    @property
+    def ports(self) -> list[str | None]:
+        return [self.cleaned_data.get(f"port-{index}") or None for index in range(self.cleaned_data["port_count"])]
+
+    def problems(self) -> str:
+        return "; ".join(f"{error}" if str(error).startswith(f"{name}:") else f"{name}: {error}"
+                         for name, errors in self.errors.items() for error in errors)
+
+
+class MeasurementFileForm(forms.Form):
+    """A measurement file named by a form (to remove it)."""
+
+    file = forms.CharField(max_length=120)

@@ -226,32 +226,45 @@ def _set(target: dict[str, Any], dotted: str, value: Any) -> None:
         node[keys[-1]] = value
 
 
+_UNSTORABLE = re.compile("[\x00\ud800-\udfff]")
+
+
+def storable(raw: str) -> str:
+    """What was typed, with the characters no database can hold (NUL, lone surrogates) replaced by U+FFFD,
+    as a decoder marks what it could not read. Stored so, the parser names the field and asks for a retype."""
+    return _UNSTORABLE.sub("\ufffd", raw)
+
+
 def _read_question(question: Question, data: QueryDict, prefix: str) -> Any:
     name = prefix + question.key
+
+    def get(key: str) -> str:
+        return storable(data.get(key, ""))
+
     if question.kind == "text":
-        text = data.get(name, "").strip()
+        text = get(name).strip()
         return text or None
     if question.kind == "choice":
-        choice = data.get(name, "")
+        choice = get(name)
         return choice or None
     if question.kind == "bool":
         return data.get(name) in ("on", "true", "1")
     if question.kind in ("number", "integer"):
-        return read_number(data.get(name, ""))
+        return read_number(get(name))
     if question.kind == "ranges":
-        return read_ranges(data.get(name, ""))
+        return read_ranges(get(name))
     if question.kind == "vector":
-        values = [read_number(data.get(f"{name}[{index}]", "")) for index in range(len(question.parts))]
+        values = [read_number(get(f"{name}[{index}]")) for index in range(len(question.parts))]
         return None if all(value is None for value in values) else values
     if question.kind == "bands":
-        return [find_band(name_).name if find_band(name_) else name_ for name_ in data.getlist(name)]
+        return [find_band(name_).name if find_band(name_) else name_ for name_ in map(storable, data.getlist(name))]
     if question.kind == "band_numbers":
         result = {}
         for key in data:
             if key.startswith(name + "."):
-                value = read_number(data.get(key, ""))
+                value = read_number(get(key))
                 if value is not None:
-                    result[key[len(name) + 1:]] = value
+                    result[storable(key[len(name) + 1:])] = value
         return result or None
     raise ValueError(f"unknown question kind {question.kind}")
 

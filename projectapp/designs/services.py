@@ -20,7 +20,7 @@ from projectapp.reviews.models import AuditEvent
 from projectapp.reviews.services import review_items_create
 from projectapp.teams.access import has_role, require_role
 from projectapp.teams.models import Role, Team
-from rules.design import FORMAT, DesignError, Problem, decode_design_text, parse_design
+from rules.design import FORMAT, DesignError, Problem, decode_design_text, parse_design, storage_problems
 from rules.evaluate import evaluate
 from rules.measurements import attach_measurements
 from rules.registry import RULESET_VERSION
@@ -107,10 +107,19 @@ def _require_fresh(draft: Revision, part: str, read_version: int | None) -> None
                             edits=_edits_since(draft, read_version, part))
 
 
+def require_storable(document: Any) -> None:
+    """Raises DesignError, nothing stored, for a document no database can hold (NUL, lone surrogates, nesting
+    or size beyond the parser's limits): every write of a design document passes here, through _store()."""
+    problems = storage_problems(document)
+    if problems:
+        raise DesignError(problems)
+
+
 def _store(*, draft: Revision, document: dict[str, Any], user, action: str, summary: str,
            file_changes: Changes | None = None) -> Revision:
     """Writes a changed document (and records it): the next version, the parts it changed, one audit event
     with the paths before and after. An unchanged document and no file change write nothing at all."""
+    require_storable(document)
     changes = {} if document == draft.document else document_changes(draft.document, document)
     if file_changes:
         changes = {**changes, **file_changes}
@@ -213,7 +222,7 @@ def draft_save_document(*, revision: Revision, document: dict[str, Any], user,
 def revision_submit(*, revision: Revision, user) -> Revision:
     """Freezes a draft: the document, its checklist and the rule-set version, stored whole.
 
-    Raises DesignError (nothing changes) when the design can't be evaluated yet.
+    Raises DesignError (nothing changes) when the design can't be evaluated yet, or when a rule could not run.
     """
     require_role(user, revision.product.team, Role.AUTHOR)
     revision = Revision.objects.select_for_update().get(pk=revision.pk)
@@ -221,7 +230,12 @@ def revision_submit(*, revision: Revision, user) -> Revision:
         raise DesignError([Problem("", f"revision {revision.number} was already submitted")])
     design = parse_design(revision.document)
     measurements = attach_measurements(design, measurement_reader(revision))
-    revision.evaluation = evaluate(design, measurements).as_dict()
+    evaluation = evaluate(design, measurements)
+    if evaluation.rule_failures:  # an incomplete checklist is not frozen for people to sign
+        raise DesignError([Problem("", f"rule {failure.id} ({failure.title}) could not run on this design, so "
+                                       "the checklist is incomplete; that is an error in Earshot, logged for the "
+                                       "people who run it") for failure in evaluation.rule_failures])
+    revision.evaluation = evaluation.as_dict()
     revision.ruleset = RULESET_VERSION
     revision.status = Revision.Status.SUBMITTED
     revision.submitted_by = user

@@ -5,9 +5,13 @@ other teams), checks the role for writes (403), calls a service or the engine, a
 htmx may call answers with the fragment it swaps; the same URL serves the full page without JavaScript.
 """
 
+import logging
+from functools import partial
+
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
 from django.core.cache import cache
+from django.db import DatabaseError
 from django.db.models import OuterRef, Subquery
 from django.http import HttpResponse
 from django.shortcuts import redirect, render
@@ -24,6 +28,7 @@ from projectapp.designs.access import (
     revision_facts,
 )
 from projectapp.designs.checklists import (
+    CHECK_FAILED,
     ChecklistState,
     checklist_for,
     coverage_rows,
@@ -40,7 +45,10 @@ from projectapp.designs.forms import (
     LibraryApplyForm,
     LibraryEntryForm,
     LibraryTargetForm,
+    MeasurementFileForm,
+    PortMapForm,
     ProductForm,
+    SectionActionForm,
 )
 from projectapp.designs.models import Revision
 from projectapp.figures.charts import (
@@ -59,6 +67,8 @@ from rules.design import DesignError, Problem, parse_design
 from rules.registry import RETIRED, RULESET_VERSION, registered_rules
 from rules.touchstone import TouchstoneError
 
+logger = logging.getLogger(__name__)
+
 
 @login_required
 @require_GET
@@ -73,7 +83,13 @@ def product_list(request):
                   product.latest_number, product.latest_status, str(product.latest_updated_at))
                  for product in products)
     return fragments.page(request, "designs/product_list.html", ("products", rows, can_create),
-                          lambda: {"rows": _product_rows(products), "can_create": can_create})
+                          lambda: _product_list_context(products, can_create))
+
+
+def _product_list_context(products, can_create: bool) -> dict:
+    rows = _product_rows(products)
+    return {"rows": rows, "can_create": can_create,
+            fragments.NOT_KEPT: any(row["summary"] and row["summary"].get("failed") for row in rows)}
 
 
 def _product_rows(products) -> list[dict]:
@@ -114,21 +130,45 @@ def product_detail(request, product_id: int):
 
 
 def _figures(state: ChecklistState, id_prefix: str) -> dict:
+    """The panel's drawing, charts and coverage. A figure that fails to draw (a defect in Earshot) is left
+    out and named in `failed_figures`; the page still comes up with the rest."""
     svg = coverage_svg = None
     charts: list[str] = []
     coverage: list[dict] = []
+    failed: list[str] = []
+
+    def attempt(what: str, draw):
+        try:
+            return draw()
+        except DatabaseError:
+            raise
+        except Exception:
+            logger.exception("drawing the %s of revision %s failed", what, state.revision.pk)
+            failed.append(what)
+            return None
+
     if state.design is not None and state.checklist is not None:
-        svg = placement_svg(state.design, pair_severities=pair_severities_from_findings(state.findings),
-                            frequency_mhz=state.design.lowest_mhz, id_prefix=id_prefix)
-        measurements = load_measurements(state)
-        coverage = coverage_rows(state)
+        design = state.design
+        svg = attempt("placement drawing", lambda: placement_svg(
+            design, pair_severities=pair_severities_from_findings(state.findings),
+            frequency_mhz=design.lowest_mhz, id_prefix=id_prefix))
+        measurements = attempt("measurements", lambda: load_measurements(state)) or ()
+        coverage = attempt("coverage estimate", lambda: coverage_rows(state)) or []
         if coverage:
-            coverage_svg = chart_svg(coverage_chart(coverage, width_pt=560, height_pt=240), id_prefix="coverage")
+            coverage_svg = attempt("coverage chart", lambda: chart_svg(
+                coverage_chart(coverage, width_pt=560, height_pt=240), id_prefix="coverage"))
         for file_index, measurement in enumerate(measurements):
             for chart_index, build in enumerate((return_loss_chart, isolation_chart, correlation_chart)):
-                charts.append(chart_svg(build(measurement, state.design, width_pt=560, height_pt=240),
-                                        id_prefix=f"chart-{file_index}-{chart_index}"))
-    return {"placement_svg": svg, "chart_svgs": charts, "coverage": coverage, "coverage_svg": coverage_svg}
+                chart = attempt(f"charts of {measurement.file}", partial(
+                    _chart, build, measurement, design, id_prefix=f"chart-{file_index}-{chart_index}"))
+                if chart is not None:
+                    charts.append(chart)
+    return {"placement_svg": svg, "chart_svgs": charts, "coverage": coverage, "coverage_svg": coverage_svg,
+            "failed_figures": list(dict.fromkeys(failed))}
+
+
+def _chart(build, measurement, design, *, id_prefix: str) -> str:
+    return chart_svg(build(measurement, design, width_pt=560, height_pt=240), id_prefix=id_prefix)
 
 
 def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> dict:
@@ -137,8 +177,10 @@ def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> di
     figures = cache.get(key)
     if figures is None:
         figures = _figures(state, id_prefix)
-        cache.set(key, figures, timeout=30 * 24 * 3600)
-    return {"state": state, "coverage_columns": TABLE_COLUMNS, **figures}
+        if not figures["failed_figures"]:  # a failure is not kept: the next look tries again
+            cache.set(key, figures, timeout=30 * 24 * 3600)
+    failed = bool(figures["failed_figures"]) or CHECK_FAILED in state.problems
+    return {"state": state, "coverage_columns": TABLE_COLUMNS, fragments.NOT_KEPT: failed, **figures}
 
 
 def _section_item(section: questionnaire.Section, document: dict, problems: list[Problem], *, version: int,
@@ -266,9 +308,16 @@ def draft_section_save(request, product_id: int, section: str):
     if not form.is_valid():
         return _not_saved(request, product, current, VERSION_MESSAGE, status=400)
     library_action = LibraryActionForm(request.POST)
+    filling = request.POST.get("action", "").startswith("library:")
+    # the row action and preset; apply_answers() reads them once valid (a library action is read below)
+    extras = SectionActionForm({key: value for key, value in request.POST.items() if key != "action"}
+                               if filling else request.POST)
+    if not extras.is_valid():
+        return _not_saved(request, product, current, "Nothing was saved: " + "; ".join(
+            str(error) for errors in extras.errors.values() for error in errors), status=400)
     copied: list[str] = []
     try:
-        if request.POST.get("action", "").startswith("library:"):
+        if filling:
             if not library_action.is_valid():
                 return _not_saved(request, product, current, "action: expected library:<row>, library:new or "
                                                              "library:modem; nothing was stored", status=400)
@@ -297,6 +346,9 @@ def draft_section_save(request, product_id: int, section: str):
         return _not_saved(request, product, current, GONE_MESSAGE.format(product=product.name), status=409)
     except services.DraftConflict as conflict:
         return _section_conflict(request, current, conflict)
+    except DesignError as error:  # what no database can hold (services.require_storable)
+        return _not_saved(request, product, current, "Nothing was saved: " + "; ".join(
+            str(problem) for problem in error.problems), status=400)
     except (ValueError, TouchstoneError) as error:
         return _not_saved(request, product, current, f"{error}; nothing was stored", status=400)
     if request.htmx and copied:  # the measurements block changed too: the page again, at the section
@@ -361,8 +413,10 @@ def draft_submit(request, product_id: int):
     try:
         revision = services.revision_submit(revision=draft, user=request.user)
     except DesignError as error:
-        messages.error(request, f"Revision {draft.number} can't be submitted yet: fix the "
-                                f"{len(error.problems)} problem(s) listed beside the questions.")
+        loose = [problem.message for problem in error.problems if not problem.path]  # no question holds them
+        messages.error(request, f"Revision {draft.number} can't be submitted yet: " + (
+            "; ".join(loose) + "." if loose else
+            f"fix the {len(error.problems)} problem(s) listed beside the questions."))
         return redirect("draft_edit", product.pk)
     messages.success(request, f"Revision {revision.number} submitted for review and frozen.")
     return redirect(revision)
@@ -506,15 +560,18 @@ def measurement_ports(request, product_id: int):
     draft = product.draft
     if draft is not None:
         services.require_measurement_role(request.user, draft)
-    name = request.POST.get("file", "")
+    form = PortMapForm(request.POST)
+    if not form.is_valid():
+        messages.error(request, f"{form.problems()}; nothing was changed")
+        return _back_to_measurements(product)
+    name = form.cleaned_data["file"]
     if draft is None or not draft.measurement_files.filter(name=name).exists():
         messages.error(request, f"file: no measurement named {name!r} is kept with the draft")
         return _back_to_measurements(product)
     version = _measurement_version(request, product)
     if version is None:
         return _back_to_measurements(product)
-    count = int(request.POST.get("port_count", "0") or 0)
-    ports = [request.POST.get(f"port-{index}") or None for index in range(min(count, 64))]
+    ports = form.ports
     try:
         services.measurement_map_ports(revision=draft, name=name, ports=ports, user=request.user,
                                        read_version=version.read_version)
@@ -522,6 +579,9 @@ def measurement_ports(request, product_id: int):
         return _measurement_conflict(request, product, conflict, name=name, action="ports", ports=ports)
     except services.DraftGone:
         return render(request, "designs/gone.html", {"product": product}, status=409)
+    except DesignError as error:
+        messages.error(request, "; ".join(str(problem) for problem in error.problems) + "; nothing was changed")
+        return _back_to_measurements(product)
     messages.success(request, f"Port map of {name} saved.")
     return _back_to_measurements(product)
 
@@ -531,7 +591,11 @@ def measurement_ports(request, product_id: int):
 def measurement_remove(request, product_id: int):
     product = get_product_for_user(request.user, product_id)
     draft = product.draft
-    name = request.POST.get("file", "")
+    form = MeasurementFileForm(request.POST)
+    if not form.is_valid():
+        messages.error(request, "file: expected the name of a kept measurement file; nothing was removed")
+        return _back_to_measurements(product)
+    name = form.cleaned_data["file"]
     if draft is not None:
         services.require_measurement_role(request.user, draft)
         version = _measurement_version(request, product)

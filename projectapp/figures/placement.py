@@ -80,6 +80,10 @@ LEGEND_DETAIL_PT = 9.0
 LEGEND_HEADING_PT = 15.0
 NOTE_LINE_PT = 11.0
 MAX_NAME_CHARS = 24
+# Pair lines (and their distance labels) drawn at most: every pair of eight antennas. Beyond that a
+# drawing of every pair is a thicket (32 antennas have 496 pairs) and costs the page its speed; the
+# pairs with a spacing finding are drawn first, worst and nearest first, then the nearest others.
+MAX_DRAWN_PAIRS = 28
 DRAWABLE_MM = 1e9  # a thousand kilometres: beyond any enclosure, within float precision of a millimetre
 
 Box = tuple[float, float, float, float]  # x0, y0, x1, y1
@@ -107,9 +111,10 @@ class PlacementLayout:
     enclosure_given: bool
     placed: tuple[str, ...]
     unplaced: tuple[str, ...]
-    pairs: tuple[PairLine, ...]
+    pairs: tuple[PairLine, ...]  # every pair of placed antennas
     title: str
     description: str
+    drawn_pairs: tuple[PairLine, ...] = ()  # the pairs with a line and a label (at most MAX_DRAWN_PAIRS)
 
     @property
     def has_side_view(self) -> bool:
@@ -220,26 +225,51 @@ def _axis_text(polarization: tuple[float, float, float] | None) -> str:
 
 class _Placer:
     """Greedy label placement: each label takes the first candidate spot that covers nothing drawn or
-    labelled so far, or else the spot that covers least (weighted by what it would hide)."""
+    labelled so far, or else the spot that covers least (weighted by what it would hide).
+
+    The work is bounded: boxes live in numpy arrays that grow by doubling (nothing is rebuilt per label),
+    and a line is kept as one segment whose cover of a candidate is computed exactly (the length of it
+    inside the candidate, widened by the line's half width), not as a row of small boxes. Placing a label
+    costs candidates x (boxes + segments), and the drawing caps how many pair lines and labels it shows.
+    """
 
     def __init__(self, bounds: Box):
         self.bounds = bounds
-        self.taken: list[tuple[Box, float]] = []
+        self._boxes = np.empty((64, 4))
+        self._box_weights = np.empty(64)
+        self._box_count = 0
+        self._segments = np.empty((64, 4))
+        self._segment_weights = np.empty(64)  # weight x 2 x half width: cover per point of length
+        self._segment_halves = np.empty(64)
+        self._segment_count = 0
+
+    @property
+    def taken(self) -> int:
+        """How many boxes and segments are blocked so far."""
+        return self._box_count + self._segment_count
 
     def block(self, box: Box, weight: float) -> None:
-        self.taken.append((box, weight))
+        if self._box_count == len(self._boxes):
+            self._boxes = np.resize(self._boxes, (2 * len(self._boxes), 4))
+            self._box_weights = np.resize(self._box_weights, 2 * len(self._box_weights))
+        self._boxes[self._box_count] = box
+        self._box_weights[self._box_count] = weight
+        self._box_count += 1
 
     def block_segment(self, start: tuple[float, float], end: tuple[float, float], half_pt: float,
                       weight: float) -> None:
-        steps = max(1, math.ceil(math.dist(start, end) / (1.5 * half_pt)))
-        for step in range(steps + 1):
-            x = start[0] + (end[0] - start[0]) * step / steps
-            y = start[1] + (end[1] - start[1]) * step / steps
-            self.block((x - half_pt, y - half_pt, x + half_pt, y + half_pt), weight)
+        if self._segment_count == len(self._segments):
+            size = 2 * len(self._segments)
+            self._segments = np.resize(self._segments, (size, 4))
+            self._segment_weights = np.resize(self._segment_weights, size)
+            self._segment_halves = np.resize(self._segment_halves, size)
+        self._segments[self._segment_count] = (*start, *end)
+        self._segment_weights[self._segment_count] = weight * 2 * half_pt
+        self._segment_halves[self._segment_count] = half_pt
+        self._segment_count += 1
 
     def place(self, width: float, height: float, anchors: Sequence[tuple[float, float]]) -> Box:
-        # Every candidate is scored against every box taken so far at once (numpy): a drawing with many
-        # antennas has thousands of taken boxes and dozens of candidates per label.
+        # Every candidate is scored against every box and segment taken so far at once (numpy).
         corners = np.asarray(anchors, dtype=float).reshape(-1, 2)
         x0, y0 = corners[:, 0], corners[:, 1]
         x1, y1 = x0 + width, y0 + height
@@ -248,19 +278,44 @@ class _Placer:
         inside_h = np.minimum(y1, bounds[3]) - np.maximum(y0, bounds[1])
         inside = np.where((inside_w > 0) & (inside_h > 0), inside_w * inside_h, 0.0)
         costs = 40.0 * (width * height - inside)
-        if self.taken:
-            boxes = np.array([box for box, _ in self.taken], dtype=float)
-            weights = np.array([weight for _, weight in self.taken], dtype=float)
+        if self._box_count:
+            boxes = self._boxes[:self._box_count]
             over_w = np.minimum(x1[:, None], boxes[None, :, 2]) - np.maximum(x0[:, None], boxes[None, :, 0])
             over_h = np.minimum(y1[:, None], boxes[None, :, 3]) - np.maximum(y0[:, None], boxes[None, :, 1])
             covered = np.where((over_w > 0) & (over_h > 0), over_w * over_h, 0.0)
-            costs = costs + covered @ weights
+            costs = costs + covered @ self._box_weights[:self._box_count]
+        if self._segment_count:
+            costs = costs + self._segment_cover(x0, y0, x1, y1) @ self._segment_weights[:self._segment_count]
         free = np.flatnonzero(costs == 0.0)
         # The first spot that covers nothing wins; otherwise the cheapest, nearer spots breaking ties.
         choice = int(free[0]) if free.size else int(np.argmin(costs + 0.05 * np.arange(len(costs))))
         box = (float(x0[choice]), float(y0[choice]), float(x1[choice]), float(y1[choice]))
         self.block(box, 25.0)
         return box
+
+    def _segment_cover(self, x0: np.ndarray, y0: np.ndarray, x1: np.ndarray, y1: np.ndarray) -> np.ndarray:
+        """Candidates x segments: the length of each segment inside each candidate box widened by the
+        segment's half width (Liang-Barsky clipping of the segment's parameter to both slabs)."""
+        segments = self._segments[:self._segment_count]
+        half = self._segment_halves[:self._segment_count][None, :]
+        start_x, start_y = segments[None, :, 0], segments[None, :, 1]
+        delta_x, delta_y = segments[None, :, 2] - start_x, segments[None, :, 3] - start_y
+        enter = np.zeros((len(x0), self._segment_count))
+        leave = np.ones_like(enter)
+        for start, delta, low, high in ((start_x, delta_x, x0[:, None] - half, x1[:, None] + half),
+                                        (start_y, delta_y, y0[:, None] - half, y1[:, None] + half)):
+            moving = delta != 0
+            with np.errstate(divide="ignore", invalid="ignore"):
+                first = np.where(moving, (low - start) / delta, -np.inf)
+                second = np.where(moving, (high - start) / delta, np.inf)
+            # A segment parallel to the slab is inside it everywhere or nowhere.
+            outside = ~moving & ((start <= low) | (start >= high))
+            enter = np.maximum(enter, np.minimum(first, second))
+            leave = np.where(outside, 0.0, np.minimum(leave, np.maximum(first, second)))
+        length = np.hypot(delta_x, delta_y)
+        # A segment of no length (both ends at one point) covers like a point: count it as one half width.
+        length = np.where(length > 0, length, half)
+        return np.clip(leave - enter, 0.0, None) * length
 
 
 def _around(x: float, y: float, gap: float, width: float, height: float) -> list[tuple[float, float]]:
@@ -451,6 +506,19 @@ def _pairs(placed: Sequence[Antenna], pair_severities: Mapping[frozenset[str], s
         distance_mm = physics.distance_mm(first.position_mm, second.position_mm)  # type: ignore[arg-type]
         pairs.append(PairLine(first.name, second.name, distance_mm, severity))
     return pairs
+
+
+def _pairs_to_draw(pairs: Sequence[PairLine]) -> list[PairLine]:
+    """The pairs that get a line: all of them up to MAX_DRAWN_PAIRS; beyond, those with a finding (worst,
+    then nearest, first) and then the nearest others. Kept in their usual order, so the drawing of a
+    small design does not change."""
+    if len(pairs) <= MAX_DRAWN_PAIRS:
+        return list(pairs)
+    rank = {severity: index for index, severity in enumerate(SEVERITIES)}
+    order = sorted(range(len(pairs)), key=lambda index: (
+        rank.get(pairs[index].severity or "", len(SEVERITIES)), pairs[index].distance_mm, index))
+    chosen = set(order[:MAX_DRAWN_PAIRS])
+    return [pair for index, pair in enumerate(pairs) if index in chosen]
 
 
 def _ticks(low_mm: float, high_mm: float, step_mm: float) -> range:
@@ -720,7 +788,7 @@ def _scale_bar(group: Group, left: float, top: float, scale: float, width_pt: fl
 
 
 def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[PairLine], frequency_mhz: float,
-                 near_field_mm: float, quarter_wave_mm: float, side_view: bool) -> str:
+                 near_field_mm: float, quarter_wave_mm: float, side_view: bool, all_pairs: int) -> str:
     product = design.product_name + (f", revision {design.product_revision}" if design.product_revision else "")
     sentences = [f"Top view of the antenna placement of {product}: positions in mm in the enclosure frame, "
                  f"x to the right and y up."]
@@ -748,6 +816,10 @@ def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[Pair
         sentences.append("Pairs: " + "; ".join(
             f"{pair.first} to {pair.second} {_mm_text(pair.distance_mm)} mm apart, "
             f"{pair.severity or 'no finding'}" for pair in pairs) + ".")
+    if all_pairs > len(pairs):
+        sentences.append(f"Lines are drawn for {len(pairs)} of the {all_pairs} pairs: those with a spacing "
+                         f"finding, worst and nearest first, then the nearest others; the checklist lists "
+                         f"every finding.")
     if placed:
         sentences.append(f"Circles around each antenna show the reactive near field, λ/2π = "
                          f"{near_field_mm:.1f} mm, and a quarter wave, λ/4 = {quarter_wave_mm:.1f} mm, at "
@@ -776,6 +848,7 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
     near_field_mm = physics.near_field_radius_mm(frequency_mhz)
     quarter_wave_mm = physics.quarter_wave_mm(frequency_mhz)
     pairs = _pairs([antenna for antenna in design.antennas if antenna.position_mm is not None], pair_severities)
+    drawn_pairs = _pairs_to_draw(pairs)
     drawn = _drawable(design)
     placed = [antenna for antenna in drawn.antennas if antenna.position_mm is not None]
     unplaced = [antenna.name for antenna in drawn.antennas if antenna.position_mm is None]
@@ -787,6 +860,10 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
     legend = _legend_columns(width_pt, _legend_groups(frequency_mhz, near_field_mm, quarter_wave_mm))
     note_lines = simpleSplit(f"not placed: {', '.join(unplaced)} (no feed position given)", FONT_ITALIC, 8,
                              width_pt - 2 * MARGIN_PT) if unplaced else []
+    if len(drawn_pairs) < len(pairs):
+        note_lines += simpleSplit(f"lines for {len(drawn_pairs)} of {len(pairs)} pairs: those with a spacing "
+                                  "finding, worst and nearest first, then the nearest others (the checklist "
+                                  "lists every finding)", FONT_ITALIC, 8, width_pt - 2 * MARGIN_PT)
     # The height is these fixed rows plus the views' spans in mm times the scale.
     fixed_height_pt = (
         MARGIN_PT + HEADER_PT + 12 + 2 * PANEL_PAD_PT + TICK_ROW_PT + SCALE_ROW_PT
@@ -827,7 +904,7 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
     top_view = _View(panel_left_pt, top - top_height_pt, panel_width_pt, top_height_pt,
                      ex0 - PANEL_PAD_PT / scale, ey0 - PANEL_PAD_PT / scale, scale)
     labels = Group()
-    _top_view(group, labels, top_view, drawn, placed, pairs, enclosure, near_field_mm, quarter_wave_mm,
+    _top_view(group, labels, top_view, drawn, placed, drawn_pairs, enclosure, near_field_mm, quarter_wave_mm,
               step_mm)
     group.add(labels)
     top -= top_height_pt + TICK_ROW_PT
@@ -865,8 +942,9 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
         unplaced=tuple(unplaced),
         pairs=tuple(pairs),
         title=f"Antenna placement of {design.product_name}",
-        description=_description(design, placed, pairs, frequency_mhz, near_field_mm, quarter_wave_mm,
-                                 side is not None),
+        description=_description(design, placed, drawn_pairs, frequency_mhz, near_field_mm, quarter_wave_mm,
+                                 side is not None, len(pairs)),
+        drawn_pairs=tuple(drawn_pairs),
     )
     return drawing
 

@@ -1,6 +1,8 @@
 from django import forms
 
+from projectapp.filters import FilterForm, choice_field, id_field
 from projectapp.reviews.models import Disposition
+from rules.findings import SEVERITIES, TOPICS
 
 
 class DecisionForm(forms.Form):
@@ -25,3 +27,21 @@ class ConfirmForm(forms.Form):
 
 class CommentForm(forms.Form):
     text = forms.CharField(widget=forms.Textarea(attrs={"rows": 2}), max_length=4000, label="Comment")
+
+
+class DashboardFilterForm(FilterForm):
+    product = id_field("a product's number")
+    severity = choice_field(SEVERITIES)
+    topic = choice_field(TOPICS)
+    assignee = forms.RegexField(regex=r"^(me|nobody|[0-9]{1,18})$", required=False, error_messages={
+        "invalid": "expected me, nobody or a person's number from the list"})
+    state = choice_field(("open", "all"))
+
+
+class CompareForm(FilterForm):
+    from_ = id_field("a revision number")
+    to = id_field("a revision number")
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.fields["from"] = self.fields.pop("from_")  # `from` is a Python keyword, and the query's name

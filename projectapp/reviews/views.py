@@ -15,8 +15,16 @@ from django.views.decorators.http import require_GET, require_POST
 from projectapp.designs.access import get_product_for_user, get_revision_for_user, products_for
 from projectapp.reviews import services
 from projectapp.reviews.comparison import compare_revisions
-from projectapp.reviews.forms import AssignForm, CommentForm, ConfirmForm, DecisionForm
+from projectapp.reviews.forms import (
+    AssignForm,
+    CommentForm,
+    CompareForm,
+    ConfirmForm,
+    DashboardFilterForm,
+    DecisionForm,
+)
 from projectapp.reviews.models import AuditEvent, Disposition, ReviewItem
+from projectapp.reviews.provenance import decision_lines
 from projectapp.teams.access import teams_of
 from rules.findings import SEVERITIES, TOPICS
 
@@ -26,7 +34,7 @@ OPEN_FILTER = (Q(disposition__in=[Disposition.OPEN, Disposition.DISCUSSION])
 
 def items_for(user):
     return (ReviewItem.objects.filter(revision__product__team__in=teams_of(user))
-            .select_related("revision__product__team", "assignee", "decided_by", "carried_from"))
+            .with_provenance().select_related("revision__product__team", "assignee"))
 
 
 def get_item_for_user(user, item_id: int) -> ReviewItem:
@@ -48,24 +56,19 @@ def current_review_revisions(user):
 def dashboard(request):
     base = items_for(request.user).filter(revision__in=current_review_revisions(request.user),
                                           kind=ReviewItem.Kind.RAISED)
-    filters = {key: request.GET.get(key, "") for key in ("product", "severity", "topic", "assignee", "state")}
-    if not filters["state"]:
-        filters["state"] = "open"
+    form = DashboardFilterForm(request.GET).read()
+    chosen, filters = form.cleaned, form.shown
+    filters["state"] = filters["state"] or "open"
     items = base
     if filters["state"] == "open":
         items = items.filter(OPEN_FILTER)
-    if filters["product"].isdigit():
-        items = items.filter(revision__product_id=int(filters["product"]))
-    if filters["severity"] in SEVERITIES:
-        items = items.filter(severity=filters["severity"])
-    if filters["topic"] in TOPICS:
-        items = items.filter(topic=filters["topic"])
-    if filters["assignee"] == "me":
+    items = form.apply(items, {"product": "revision__product_id", "severity": "severity", "topic": "topic"})
+    if chosen.get("assignee") == "me":
         items = items.filter(assignee=request.user)
-    elif filters["assignee"] == "nobody":
+    elif chosen.get("assignee") == "nobody":
         items = items.filter(assignee__isnull=True)
-    elif filters["assignee"].isdigit():
-        items = items.filter(assignee_id=int(filters["assignee"]))
+    elif "assignee" in chosen:
+        items = items.filter(assignee_id=int(chosen["assignee"]))
     severity_rank = {severity: index for index, severity in enumerate(SEVERITIES)}
     ordered = sorted(items, key=lambda item: (severity_rank.get(item.severity, 9), item.revision.product.name,
                                               TOPICS.index(item.topic) if item.topic in TOPICS else 99, item.pk))
@@ -73,6 +76,7 @@ def dashboard(request):
     context = {
         "items": ordered,
         "filters": filters,
+        "filter_problems": form.problems,
         "my_open": open_items.filter(assignee=request.user).count(),
         "by_product": open_items.values("revision__product_id", "revision__product__name")
         .annotate(n=Count("id")).order_by("revision__product__name"),
@@ -85,13 +89,16 @@ def dashboard(request):
         "topics": TOPICS,
     }
     template = "reviews/_dashboard_items.html" if request.htmx else "reviews/dashboard.html"
-    return render(request, template, context)
+    return render(request, template, context, status=form.status)
 
 
-def _card_context(request, item: ReviewItem, **extra) -> dict:
+def _card_context(request, item: ReviewItem, *, approvers: set[int] | None = None, **extra) -> dict:
     people = services.assignable_people(item.revision)
+    if approvers is None:
+        approvers = services.approver_ids(item.revision.product.team)
     return {
         "item": item,
+        "provenance": decision_lines(item, approver_ids=approvers),
         "can_review": services.can_review(request.user, item),
         "decision_form": extra.pop("decision_form", None) or DecisionForm(initial={
             "disposition": item.disposition, "justification": item.justification, "version": item.version}),
@@ -110,7 +117,9 @@ def revision_review(request, product_id: int, number: int):
     severity_rank = {severity: index for index, severity in enumerate(SEVERITIES)}
     items.sort(key=lambda item: (item.kind, severity_rank.get(item.severity, 9),
                                  TOPICS.index(item.topic) if item.topic in TOPICS else 99, item.pk))
-    raised = [_card_context(request, item) for item in items if item.kind == ReviewItem.Kind.RAISED]
+    approvers = services.approver_ids(revision.product.team)
+    raised = [_card_context(request, item, approvers=approvers) for item in items
+              if item.kind == ReviewItem.Kind.RAISED]
     resolved = [item for item in items if item.kind == ReviewItem.Kind.RESOLVED]
     settled = sum(1 for card in raised if card["item"].is_settled)
     return render(request, "reviews/revision_review.html", {
@@ -241,10 +250,11 @@ def revision_compare(request, product_id: int):
     product = get_product_for_user(request.user, product_id)
     revisions = list(product.revisions.order_by("number"))
     numbers = [revision.number for revision in revisions]
+    form = CompareForm(request.GET).read()
 
     def pick(name: str, default: int | None) -> int | None:
-        raw = request.GET.get(name, "")
-        return int(raw) if raw.isdigit() and int(raw) in numbers else default
+        chosen = form.cleaned.get(name)
+        return chosen if chosen in numbers else default
 
     newer = pick("to", numbers[-1] if numbers else None)
     older = pick("from", numbers[-2] if len(numbers) > 1 else newer)
@@ -253,4 +263,5 @@ def revision_compare(request, product_id: int):
         by_number = {revision.number: revision for revision in revisions}
         comparison = compare_revisions(by_number[older], by_number[newer])
     return render(request, "reviews/compare.html", {"product": product, "numbers": numbers, "older": older,
-                                                    "newer": newer, "comparison": comparison})
+                                                    "newer": newer, "comparison": comparison,
+                                                    "filter_problems": form.problems}, status=form.status)

@@ -1,5 +1,8 @@
 from django import forms
 
+from projectapp.filters import FilterForm, choice_field, date_field, id_field
+from rules.catalog import categories
+
 MAX_VERIFY_BYTES = 30_000_000
 
 
@@ -22,3 +25,15 @@ class VerifyForm(forms.Form):
             raise forms.ValidationError(f"pdf: expected at most {MAX_VERIFY_BYTES // 1_000_000} MB, "
                                         f"got {upload.size / 1_000_000:.1f} MB")
         return upload
+
+
+class ArchiveFilterForm(FilterForm):
+    q = forms.CharField(required=False, max_length=200, error_messages={
+        "max_length": "expected at most %(limit_value)d characters", "null_characters_not_allowed":
+        "control character U+0000 not allowed"})
+    product = id_field("a product's number")
+    category = choice_field(tuple(categories()))
+    signer = id_field("a signer's number")
+    since = date_field()
+    until = date_field()
+    state = choice_field(("current", "superseded"))

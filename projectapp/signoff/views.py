@@ -7,12 +7,11 @@ from django.core.exceptions import PermissionDenied
 from django.db.models import Q
 from django.http import FileResponse
 from django.shortcuts import get_object_or_404, redirect, render
-from django.utils.dateparse import parse_date
 from django.views.decorators.http import require_GET, require_http_methods, require_POST
 
 from projectapp.designs.access import get_revision_for_user
 from projectapp.signoff import services
-from projectapp.signoff.forms import SignForm, VerifyForm
+from projectapp.signoff.forms import ArchiveFilterForm, SignForm, VerifyForm
 from projectapp.signoff.models import SignedRecord, Supersession
 from projectapp.teams.access import teams_of
 from rules.catalog import categories
@@ -74,27 +73,20 @@ def signoff_sign(request, product_id: int, number: int):
 @require_GET
 def archive_list(request):
     records = records_for(request.user)
-    query = {key: request.GET.get(key, "").strip() for key in ("q", "product", "category", "signer", "since",
-                                                                "until", "state")}
-    if query["q"]:
-        records = records.filter(Q(revision__product__name__icontains=query["q"]) | Q(sha256__startswith=query["q"])
-                                 | Q(fingerprint__startswith=query["q"]))
-    if query["product"].isdigit():
-        records = records.filter(revision__product_id=int(query["product"]))
-    if query["category"] in categories():
-        records = records.filter(revision__evaluation__design__category=query["category"])
-    if query["signer"].isdigit():
-        records = records.filter(revision__signatures__signer_id=int(query["signer"]))
-    since, until = parse_date(query["since"] or "") if query["since"] else None, \
-        parse_date(query["until"] or "") if query["until"] else None
-    if since:
-        records = records.filter(created_at__date__gte=since)
-    if until:
-        records = records.filter(created_at__date__lte=until)
+    form = ArchiveFilterForm(request.GET).read()
+    chosen, query = form.cleaned, form.shown
+    if "q" in chosen:
+        text = chosen["q"]
+        records = records.filter(Q(revision__product__name__icontains=text) | Q(sha256__startswith=text)
+                                 | Q(fingerprint__startswith=text))
+    records = form.apply(records, {"product": "revision__product_id",
+                                   "category": "revision__evaluation__design__category",
+                                   "signer": "revision__signatures__signer_id", "since": "created_at__date__gte",
+                                   "until": "created_at__date__lte"})
     superseded = Supersession.objects.values("older")
-    if query["state"] == "current":
+    if chosen.get("state") == "current":
         records = records.exclude(pk__in=superseded)
-    elif query["state"] == "superseded":
+    elif chosen.get("state") == "superseded":
         records = records.filter(pk__in=superseded)
     records = records.distinct()
     superseded_ids = set(Supersession.objects.values_list("older_id", flat=True))
@@ -105,7 +97,7 @@ def archive_list(request):
 
     return render(request, "signoff/archive.html", {
         "rows": rows, "query": query, "products": products_for(request.user), "signers": signers,
-        "categories": categories().values()})
+        "categories": categories().values(), "filter_problems": form.problems}, status=form.status)
 
 
 @login_required

@@ -37,6 +37,16 @@ def design(category: str = "cat-m1", bands: list[str] | None = None, antennas: l
     return document
 
 
+def deeply_nested(levels: int) -> dict:
+    """{"x": {"x": ...}} `levels` deep, as an unknown key another tool might add."""
+    root: dict = {}
+    node = root
+    for _ in range(levels):
+        node["x"] = {}
+        node = node["x"]
+    return root
+
+
 def run(document: dict, measurements: tuple[LoadedMeasurement, ...] = ()) -> Evaluation:
     return evaluate(parse_design(document), measurements)
 

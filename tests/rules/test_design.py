@@ -8,8 +8,19 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from rules.design import DesignError, parse_design, parse_design_text
-from tests.rules.design_builders import antenna, design
+from rules import design as design_module
+from rules.design import (
+    MAX_ANTENNAS,
+    MAX_NESTING,
+    MAX_VALUES,
+    TEXT_LIMITS,
+    DesignError,
+    parse_design,
+    parse_design_text,
+    storage_problems,
+)
+from rules.evaluate import evaluate
+from tests.rules.design_builders import antenna, deeply_nested, design
 
 EXAMPLES = sorted((Path(__file__).parents[2] / "rules" / "examples").glob("*.json"))
 
@@ -118,6 +129,11 @@ def test_it_names_the_accepted_categories_for_an_unknown_one():
     (lambda d: d.update(measurements=[{"ports": ["A"]}]), "measurements[0].file: required: expected text"),
 ])
 def test_it_explains_each_bad_field(mutate, expected):
+    assert_explained(mutate, expected)
+
+
+def assert_explained(mutate, expected: str) -> None:
+    """A valid design bent by `mutate` is refused with a problem that starts with `expected`."""
     document = design()
     mutate(document)
     found = problems(document)
@@ -142,12 +158,28 @@ def test_it_keeps_unknown_keys_out_of_the_way_and_lists_them():
     assert parse_design(document).ignored_paths == ("notes", "antennas[0].colour")
 
 
+# Any character, lone surrogates and control characters included; numbers of any size (a 400-digit integer
+# overflows a float), tiny and huge floats; nesting down to 40 levels.
+ANY_TEXT = st.text(st.characters(codec=None, exclude_categories=()), max_size=8)
+SCALARS = (st.none() | st.booleans() | st.integers() | st.integers(-10**6, 10**6)
+           | st.sampled_from([10**400, -10**400, 1e-308, 1e308, -1e308, 5e-324])
+           | st.floats(allow_nan=False, allow_infinity=False) | ANY_TEXT)
 JSON_VALUES = st.recursive(
-    st.none() | st.booleans() | st.integers(-10**6, 10**6) | st.floats(allow_nan=False, allow_infinity=False)
-    | st.text(max_size=8),
-    lambda children: st.lists(children, max_size=4) | st.dictionaries(st.text(max_size=6), children, max_size=4),
+    SCALARS,
+    lambda children: st.lists(children, max_size=4) | st.dictionaries(ANY_TEXT, children, max_size=4),
     max_leaves=20,
 )
+
+
+@st.composite
+def nested(draw):
+    """A value wrapped in up to 40 levels of lists and objects."""
+    value = draw(JSON_VALUES)
+    for _ in range(draw(st.integers(0, 40))):
+        value = [value] if draw(st.booleans()) else {draw(ANY_TEXT): value}
+    return value
+
+
 CONTRACT_KEYS = ["format", "product", "modem", "enclosure", "ground_plane_mm", "antennas", "deployment",
                  "measurements", "category", "bands", "name", "role", "position_mm", "polarization", "ranges_mhz",
                  "rx_ports", "material", "size_mm", "environment", "ports", "file"]
@@ -165,9 +197,31 @@ def assert_parses_or_explains(document) -> None:
 
 
 @settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-@given(JSON_VALUES)
+@given(JSON_VALUES | nested())
 def test_any_json_value_either_parses_or_is_rejected_with_path_named_problems(document):
     assert_parses_or_explains(document)
+
+
+@settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.dictionaries(ANY_TEXT, JSON_VALUES | nested(), max_size=3))
+def test_any_extra_keys_on_a_valid_design_parse_or_are_named_and_what_parses_can_be_stored(extra):
+    document = {**design(), **extra}
+    try:
+        parsed = parse_design(document)
+    except DesignError as error:
+        assert all(problem.path and problem.message for problem in error.problems), error.problems
+    else:
+        assert storage_problems(document) == []
+        assert not evaluate(parsed).rule_failures
+
+
+@settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.text(st.sampled_from('[]{}",:0123456789.e-\\u0Dd8\x00 tnrufals'), max_size=60) | st.binary(max_size=60))
+def test_any_text_either_parses_or_is_rejected_with_a_problem(text):
+    try:
+        parse_design_text(text)
+    except DesignError as error:
+        assert error.problems and all(problem.message for problem in error.problems)
 
 
 @settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
@@ -178,9 +232,11 @@ def test_any_mutation_of_a_valid_design_either_parses_or_names_the_field(mutatio
     for key, value in mutations:
         random.choice(targets)[key] = value
     try:
-        parse_design(json.loads(json.dumps(document)))
+        parsed = parse_design(json.loads(json.dumps(document)))
     except DesignError as error:
         assert all(problem.path for problem in error.problems), error.problems
+    else:  # whatever the parser accepts, every rule can judge
+        assert not evaluate(parsed).rule_failures
 
 
 def test_positions_may_be_negative_but_must_be_finite():
@@ -245,3 +301,125 @@ def test_a_satellite_band_needs_a_module_that_declares_satellite_access():
     problems = problems_of(design("cat-nb1", bands=["B8", "B256"]))
     assert any(problem.startswith("modem.bands[1]: B256 is a satellite (NTN) band; set modem.ntn")
                for problem in problems)
+
+
+# -- limits: what the parser accepts, so that every rule's arithmetic stays finite and every page can draw it --
+@pytest.mark.parametrize(("mutate", "expected"), [
+    # 1e-308 mm squared underflows to 0 (a division by zero in the size limit); 1e308 squared overflows.
+    (lambda d: d.update(ground_plane_mm=[1e-308, 1e-308]),
+     "ground_plane_mm: expected 2 numbers from 0.01 to 100000 mm; item 0 is 1e-308"),
+    (lambda d: d.update(ground_plane_mm=[1e308, 1e308]),
+     "ground_plane_mm: expected 2 numbers from 0.01 to 100000 mm; item 0 is 1e+308"),
+    (lambda d: d["enclosure"].update(size_mm=[150, 0.001, 30]),
+     "enclosure.size_mm: expected 3 numbers from 0.01 to 100000 mm; item 1 is 0.001"),
+    (lambda d: d["antennas"][0].update(position_mm=[20, -2e5, 10]),
+     "antennas[0].position_mm: expected 3 numbers from -100000 to 100000 mm; item 1 is -200000"),
+    (lambda d: d["antennas"][0].update(polarization=[1e-308, 0, 0]), "antennas[0].polarization: expected a direction"),
+    (lambda d: d["antennas"][0].update(polarization=[1e300, 1e300, 0]),
+     "antennas[0].polarization: expected 3 numbers from -1e+06 to 1e+06"),
+    (lambda d: d["antennas"][0].update(ranges_mhz=[[1e-308, 900]]),
+     "antennas[0].ranges_mhz[0]: expected 2 numbers from 1 to 100000 MHz; item 0 is 1e-308"),
+    (lambda d: d["deployment"].update(required_dl_kbps=1e308),
+     "deployment.required_dl_kbps: expected a number at least 0 and at most 1e+07 kbps, got 1e+308"),
+    (lambda d: d["deployment"].update(body_distance_mm=10**400),  # overflows a float: OverflowError before
+     "deployment.body_distance_mm: expected a number in mm, got 1000000000000000000000000000000000000..."),
+    (lambda d: d["modem"].update(rx_ports=10**400), "modem.rx_ports: expected a whole number from 1 to 8, got 1000"),
+    (lambda d: d["antennas"][0].update(cable_loss_db=10**400), "antennas[0].cable_loss_db: expected a number in dB"),
+])
+def test_it_refuses_physically_impossible_values_by_path(mutate, expected):
+    assert_explained(mutate, expected)
+
+
+def test_values_at_the_edges_of_the_limits_are_judged_by_every_rule():
+    document = design("cat-1", antennas=[
+        antenna("A", position=(-100_000, 100_000, 0), polarization=(0.001, 0, 0), size_mm=[0.01, 0.01, 0.01]),
+        antenna("B", "receive", position=(100_000, -100_000, 100_000), polarization=(1e6, -1e6, 1e6),
+                ranges_mhz=[[1, 100_000]], size_mm=[100_000, 100_000, 100_000]),
+    ], ground_plane_mm=[0.01, 0.01], enclosure={"size_mm": [100_000, 0.01, 100_000]},
+        deployment={"required_dl_kbps": 10_000_000, "required_ul_kbps": 0, "body_distance_mm": 100_000})
+    assert not evaluate(parse_design(document)).rule_failures
+    document["ground_plane_mm"] = [100_000, 100_000]
+    assert not evaluate(parse_design(document)).rule_failures
+
+
+def test_every_limit_states_why():
+    for table in (design_module.UNIT_LIMITS, design_module.PATH_LIMITS):
+        for key, limit in table.items():
+            assert limit.low < limit.high and len(limit.why) > 30, key
+    assert TEXT_LIMITS["product.name"] == 120  # the product name column (designs.Product.name)
+    assert TEXT_LIMITS["measurements[].file"] == 120  # the measurement file name column
+
+
+@pytest.mark.parametrize(("mutate", "expected"), [
+    (lambda d: d["product"].update(name="Probe\x00"), "product.name: control character U+0000 not allowed"),
+    (lambda d: d["antennas"][0].update(name="A\ud800"), "antennas[0].name: lone surrogate U+D800 not allowed"),
+    (lambda d: d["antennas"][0].update(name="A\nB"), "antennas[0].name: control character U+000A not allowed"),
+    (lambda d: d["antennas"][0].update(name="A\x1b[32mOK"), "antennas[0].name: control character U+001B not allowed"),
+    (lambda d: d["antennas"][0].update(name="A\u202eB"), "antennas[0].name: bidirectional control U+202E not allowed"),
+    (lambda d: d["antennas"][0].update(name="A\ufffd"), "antennas[0].name: replacement character U+FFFD not allowed"),
+    (lambda d: d["product"].update(revision="B\x7f"), "product.revision: control character U+007F not allowed"),
+    (lambda d: d.update(notes="line\x00"), "notes: control character U+0000 not allowed"),
+    (lambda d: d.update(notes=["fine", {"deep": "\udfff"}]), "notes[1].deep: lone surrogate U+DFFF not allowed"),
+    (lambda d: d.update({"no\x00tes": 1}), "no\\u0000tes: control character U+0000 not allowed"),
+    (lambda d: d["modem"].update(gain_limits_dbi={"B3\x00": 2}), "modem.gain_limits_dbi.B3\\u0000: control character"),
+    (lambda d: d["product"].update(name="P" * 121), "product.name: expected at most 120 characters, got 121"),
+    (lambda d: d["antennas"][0].update(name="A" * (TEXT_LIMITS["antennas[].name"] + 1)),
+     f"antennas[0].name: expected at most {TEXT_LIMITS['antennas[].name']} characters"),
+    (lambda d: d.update(measurements=[{"file": "m" * 117 + ".s2p", "ports": ["A"]}]),
+     "measurements[0].file: expected at most 120 characters, got 121"),
+])
+def test_it_refuses_characters_and_lengths_that_cannot_be_stored_or_shown_by_path(mutate, expected):
+    assert_explained(mutate, expected)
+
+
+def test_free_text_in_extra_keys_may_hold_tabs_and_line_breaks():
+    document = design(notes="first line\n\tsecond line\r\n")
+    assert parse_design(document).ignored_paths == ("notes",)
+
+
+def test_escaped_nul_and_surrogates_in_json_text_are_refused_by_path():
+    text = json.dumps(design(product={"name": "Probe"}))
+    for escape, expected in (("\\u0000", "product.name: control character U+0000 not allowed"),
+                             ("\\ud800", "product.name: lone surrogate U+D800 not allowed")):
+        with pytest.raises(DesignError) as caught:
+            parse_design_text(text.replace('"Probe"', f'"Pro{escape}be"'))
+        assert any(str(problem).startswith(expected) for problem in caught.value.problems), caught.value.problems
+
+
+def test_an_unknown_key_nested_too_deep_is_refused_with_a_clear_message():
+    # 900 levels decode fine, then copying the document (deepcopy) runs out of recursion.
+    document = design(extra=deeply_nested(900))
+    [found] = problems(document)
+    assert found.startswith("extra.x.x.x.x.x.x.x.x.x.x.x.x.x.x.x")
+    assert f"nested more than {MAX_NESTING} levels deep" in found
+    assert len(found) < 200
+    assert storage_problems(document) == [design_module.Problem(found.split(": ")[0], found.split(": ", 1)[1])]
+    parse_design(design(extra=deeply_nested(MAX_NESTING - 1)))  # the limit itself is fine
+    with pytest.raises(DesignError, match="not valid JSON"):
+        parse_design_text("[" * 100_000 + "]" * 100_000)
+
+
+def test_a_document_with_too_many_values_is_refused():
+    document = design(extra=list(range(MAX_VALUES)))
+    [found] = problems(document)
+    assert found.startswith("extra: ") and f"more than {MAX_VALUES} values" in found
+
+
+def test_it_caps_the_antennas_a_design_may_have():
+    names = [f"ANT{index}" for index in range(MAX_ANTENNAS)]
+    antennas = [antenna(name, "main" if index == 0 else "receive", position=(10 * index, 0, 0))
+                for index, name in enumerate(names)]
+    assert len(parse_design(design("cat-1", antennas=antennas)).antennas) == MAX_ANTENNAS
+    antennas.append(antenna("ONE-TOO-MANY", "receive"))
+    assert f"antennas: expected at most {MAX_ANTENNAS} antennas, got {MAX_ANTENNAS + 1}" in problems(
+        design("cat-1", antennas=antennas))
+
+
+def test_storage_problems_name_what_no_database_can_hold():
+    assert storage_problems(design()) == []
+    found = [str(problem) for problem in storage_problems(design(product={"name": "a\x00b"}, notes="\ud800",
+                                                                   ratio=math.nan))]
+    assert [problem.split(" (")[0] for problem in found] == [
+        "product.name: control character U+0000 not allowed", "notes: lone surrogate U+D800 not allowed",
+        "ratio: expected a finite number, got NaN"]
+    assert storage_problems(design(notes="\x01 is stored as typed")) == []  # the parser explains it instead

@@ -8,6 +8,7 @@ from django.urls import reverse
 from projectapp.designs import services
 from projectapp.designs.models import FrozenRevisionError, Product, Revision
 from rules.registry import RULESET_VERSION
+from tests.rules.design_builders import deeply_nested
 from tests.web.conftest import EXAMPLES
 
 HTMX = {"HTTP_HX_REQUEST": "true"}
@@ -255,3 +256,204 @@ def test_the_rules_page_lists_every_rule_from_the_registry(client, author):
     page = client_for(client, author).get(reverse("rule_list")).content.decode()
     for rule in registered_rules():
         assert rule.id in page and rule.sources[0].replace("'", "&#x27;") in page
+
+
+# -- input that breaks pages: refused by name, contained per design -------------------------------------------
+
+def upload(text: str | bytes, name: str = "design.json"):
+    from django.core.files.uploadedfile import SimpleUploadedFile
+    return SimpleUploadedFile(name, text.encode() if isinstance(text, str) else text, "application/json")
+
+
+def pages_of(product) -> list[str]:
+    return [reverse("product_list"), reverse("draft_edit", args=[product.pk]),
+            reverse("revision_detail", args=[product.pk, product.latest.number]),
+            reverse("revision_placement_svg", args=[product.pk, product.latest.number])]
+
+
+def assert_pages_answer(client, people, product, statuses=(200, 302, 404)):
+    """Every page of the product answers (the drawing may be 404 while the design can't be drawn), for each person."""
+    for person in people:
+        client.force_login(person)
+        for url in pages_of(product):
+            assert client.get(url).status_code in statuses, (person, url)
+
+
+def hive(**changes) -> dict:
+    document = json.loads((EXAMPLES / "hive-gateway.json").read_text())
+    for key, value in changes.items():
+        document[key] = value
+    return document
+
+
+@pytest.mark.parametrize(("value", "expected"), [
+    # 1e-308 mm in both ground-plane fields divided by zero in the size limit; 1e308 overflowed (ValueError).
+    ("1e-308", "ground_plane_mm: expected 2 numbers from 0.01 to 100000 mm; item 0 is 1e-308"),
+    ("1e308", "ground_plane_mm: expected 2 numbers from 0.01 to 100000 mm; item 0 is 1e+308"),
+])
+def test_a_physically_impossible_ground_plane_is_named_and_no_page_fails(client, product, author, reviewer,
+                                                                         value, expected):
+    document = hive()
+    response = client_for(client, author).post(reverse("design_import", args=[product.pk]), {
+        "design_file": upload(json.dumps(document).replace("[100, 60]", f"[{value}, {value}]"))})
+    assert response.status_code == 400 and expected in response.content.decode()
+    assert product.draft.document == document  # nothing stored
+    # Typed into the questionnaire it is kept as typed, the parser explains, and every page stays up.
+    response = client.post(reverse("draft_section_save", args=[product.pk, "enclosure"]), {
+        "enclosure.material": "plastic", "ground_plane_mm[0]": value, "ground_plane_mm[1]": value,
+        "version": version_of(product)}, **HTMX)
+    assert response.status_code == 200 and expected in response.content.decode()
+    assert_pages_answer(client, [author, reviewer], product)
+
+
+def test_a_400_digit_integer_in_an_import_is_named_by_its_path(client, product, author):
+    text = json.dumps(hive()).replace('"body_distance_mm": 150', '"body_distance_mm": 1' + "0" * 400)
+    response = client_for(client, author).post(reverse("design_import", args=[product.pk]),
+                                               {"design_file": upload(text)})
+    assert response.status_code == 400
+    assert "deployment.body_distance_mm: expected a number in mm, got 1000000" in response.content.decode()
+
+
+def test_nul_and_lone_surrogates_in_an_import_are_named_and_nothing_is_stored(client, product, author):
+    client_for(client, author)
+    before = product.draft.document
+    for escape, expected in (("\\u0000", "product.name: control character U+0000 not allowed"),
+                             ("\\ud800", "product.name: lone surrogate U+D800 not allowed"),
+                             ("\\u001b[32m", "product.name: control character U+001B not allowed")):
+        text = json.dumps(hive()).replace("Tallow Creek hive gateway", f"Tallow{escape} hive gateway")
+        response = client.post(reverse("design_import", args=[product.pk]), {"design_file": upload(text)})
+        assert response.status_code == 400 and expected in response.content.decode(), escape
+    assert product.draft.document == before
+    assert_pages_answer(client, [author], product)
+
+
+def test_a_nul_typed_into_the_questionnaire_is_stored_marked_and_named(client, product, author, reviewer):
+    # Stored as typed, a NUL was a 500 on PostgreSQL, and on SQLite every page of the draft afterwards.
+    url = reverse("draft_section_save", args=[product.pk, "product"])
+    response = client_for(client, author).post(url, {
+        "product.name": "Hive\x00gateway", "modem.category": "cat-1", "modem.bands": ["B3", "B8", "B20"],
+        "modem.gain_limits_dbi.B3\x00": "2", "version": version_of(product)}, **HTMX)
+    assert response.status_code == 200
+    document = product.draft.document
+    assert document["product"]["name"] == "Hive\ufffdgateway"
+    assert document["modem"]["gain_limits_dbi"] == {"B3\ufffd": 2}
+    page = response.content.decode()
+    assert "replacement character U+FFFD not allowed" in page
+    assert_pages_answer(client, [author, reviewer], product)
+
+
+def test_a_document_no_database_can_hold_is_refused_by_the_save_and_nothing_changes(product, author):
+    from rules.design import DesignError
+    before = product.draft.document
+    for bad in ({**before, "notes": "a\x00b"}, {**before, "notes": "\udc80"}, {**before, "ratio": float("nan")}):
+        with pytest.raises(DesignError):
+            services.draft_save_document(revision=product.draft, document=bad, user=author)
+    assert Revision.objects.get(pk=product.draft.pk).document == before
+
+
+def test_an_unknown_key_nested_900_deep_is_refused_and_saves_keep_working(client, product, author):
+    # Imported, it made every later save a 500 (RecursionError copying the document).
+    client_for(client, author)
+    response = client.post(reverse("design_import", args=[product.pk]),
+                           {"design_file": upload(json.dumps(hive(extra=deeply_nested(900))))})
+    page = response.content.decode()
+    assert response.status_code == 400 and "extra.x.x.x" in page and "nested more than 16 levels deep" in page
+    assert "extra" not in product.draft.document
+    response = client.post(reverse("draft_section_save", args=[product.pk, "deployment"]),
+                           {"deployment.environment": "indoor", "version": version_of(product)}, **HTMX)
+    assert response.status_code == 200 and product.draft.document["deployment"] == {"environment": "indoor"}
+
+
+def test_one_design_that_fails_to_check_leaves_every_list_and_page_up(client, product, team, author, reviewer,
+                                                                      monkeypatch):
+    from projectapp.designs import checklists
+    other = services.product_create(team=team, name="Orchard soil probe", user=author)
+    services.design_import(product=other, text=(EXAMPLES / "orchard-probe.json").read_text(),
+                           source="orchard-probe.json", user=author)
+    real = checklists.evaluate
+
+    def evaluate(design, measurements=()):
+        if design.product_name == "Tallow Creek hive gateway":
+            raise RuntimeError("a defect that only this design reaches")
+        return real(design, measurements)
+
+    monkeypatch.setattr(checklists, "evaluate", evaluate)
+    client_for(client, reviewer)
+    page = client.get(reverse("product_list")).content.decode()
+    assert "not checked: an error in Earshot" in page
+    assert page.count("count count-note") >= 1  # the orchard probe's row is counted as usual
+    client_for(client, author)
+    draft = client.get(reverse("draft_edit", args=[product.pk]))
+    assert draft.status_code == 200 and "this design could not be checked: an error in Earshot" in draft.content.decode()
+    assert_pages_answer(client, [author, reviewer], product)
+    monkeypatch.setattr(checklists, "evaluate", real)  # the failure was not kept: the next look checks again
+    assert "not checked" not in client.get(reverse("product_list")).content.decode()
+
+
+def test_a_figure_that_fails_to_draw_leaves_the_page_up_and_says_so(client, product, author, monkeypatch):
+    from projectapp.designs import views
+
+    def placement_svg(*args, **kwargs):
+        raise ValueError("a defect in the drawing")
+
+    monkeypatch.setattr(views, "placement_svg", placement_svg)
+    response = client_for(client, author).get(reverse("draft_edit", args=[product.pk]))
+    page = response.content.decode()
+    assert response.status_code == 200
+    assert "Not shown: the placement drawing" in page and "SEP-001" in page  # the checklist is all there
+
+
+def test_a_rule_that_raises_is_shown_on_the_checklist_and_the_draft_cannot_be_submitted(client, product, author,
+                                                                                        monkeypatch):
+    import dataclasses
+
+    from rules import registry
+
+    def check(context):
+        yield from ()
+        raise ZeroDivisionError("float division by zero")
+
+    rule = {rule.id: rule for rule in registry.registered_rules()}["SIZ-001"]
+    monkeypatch.setitem(registry._RULES, "SIZ-001", dataclasses.replace(rule, check=check))
+    client_for(client, author)
+    page = client.get(reverse("draft_edit", args=[product.pk])).content.decode()
+    assert "This checklist is incomplete." in page and "SIZ-001" in page and "SEP-001" in page
+    response = client.post(reverse("draft_submit", args=[product.pk]), follow=True)
+    assert "rule SIZ-001 (" in response.content.decode() and "could not run on this design" in response.content.decode()
+    assert product.draft is not None and not Revision.objects.filter(product=product, status="submitted").exists()
+
+
+def test_the_longest_names_on_the_most_antennas_submit_and_review(client, team, author, reviewer):
+    # Two antenna names over about 300 characters together broke submit (subjects_key was 300 long); now a
+    # finding about all 32 antennas, each with the longest name the parser takes, is one review item.
+    from rules.design import MAX_ANTENNAS, TEXT_LIMITS
+    longest = TEXT_LIMITS["antennas[].name"]
+    antennas = [{"name": f"{index:02d}" + "é" * (longest - 2), "role": "main" if index == 0 else "receive",
+                 "mounting": "internal", "position_mm": [10 * index, 10, 10], "polarization": [1, 0, 0],
+                 "ranges_mhz": [[790, 960], [1710, 2200]]} for index in range(MAX_ANTENNAS)]
+    document = hive(antennas=antennas, enclosure={"size_mm": [400, 80, 30], "material": "metal"},
+                    product={"name": "P" * TEXT_LIMITS["product.name"], "revision": "R" * 40})
+    product = services.product_create(team=team, name="Crowded", user=author)
+    services.design_import(product=product, text=json.dumps(document), source="crowded.json", user=author)
+    response = client_for(client, author).post(reverse("draft_submit", args=[product.pk]))
+    revision = Revision.objects.get(product=product, number=1)
+    assert response.status_code == 302 and revision.status == "submitted"
+    from projectapp.reviews.models import ReviewItem
+    metal = ReviewItem.objects.get(revision=revision, rule_id="ENC-001")
+    assert metal.subjects == [antenna["name"] for antenna in antennas]
+    assert len(metal.subjects_key) == MAX_ANTENNAS * (longest + 1) - 1
+    for person in (author, reviewer):
+        client.force_login(person)
+        for url in (revision.get_absolute_url(), reverse("revision_review", args=[product.pk, 1]),
+                    reverse("review_item", args=[metal.pk]), reverse("product_list")):
+            assert client.get(url).status_code == 200, url
+
+
+def test_more_antennas_than_the_cap_are_refused_at_import(client, product, author):
+    from rules.design import MAX_ANTENNAS
+    antenna = hive()["antennas"][1]
+    antennas = [{**antenna, "name": f"RX{index}"} for index in range(MAX_ANTENNAS + 1)]
+    response = client_for(client, author).post(reverse("design_import", args=[product.pk]),
+                                               {"design_file": upload(json.dumps(hive(antennas=antennas)))})
+    assert response.status_code == 400
+    assert f"antennas: expected at most {MAX_ANTENNAS} antennas, got {MAX_ANTENNAS + 1}" in response.content.decode()

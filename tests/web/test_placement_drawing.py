@@ -16,7 +16,7 @@ from reportlab.platypus import SimpleDocTemplate
 from projectapp.figures import placement
 from projectapp.figures.placement import pair_severities_from_findings, placement_drawing, placement_svg
 from rules import physics
-from rules.design import parse_design
+from rules.design import MAX_ANTENNAS, SMALLEST_SIZE_MM, UNIT_LIMITS, parse_design
 from rules.evaluate import evaluate
 from tests.rules.design_builders import antenna, design
 
@@ -284,8 +284,10 @@ def test_it_refuses_an_unknown_severity_or_a_frequency_that_is_not_positive():
         placement_drawing(parsed, pair_severities={}, frequency_mhz=0)
 
 
-coordinate = st.floats(min_value=-1e7, max_value=1e7, allow_nan=False, allow_infinity=False)
-size = st.floats(min_value=1e-3, max_value=1e7, allow_nan=False, allow_infinity=False)
+# Everything the parser accepts (rules.design: positions within 100 m, sizes from 10 um to 100 m), edges included.
+LENGTH = UNIT_LIMITS["_mm"]
+coordinate = st.floats(min_value=LENGTH.low, max_value=LENGTH.high, allow_nan=False, allow_infinity=False)
+size = st.floats(min_value=SMALLEST_SIZE_MM, max_value=LENGTH.high, allow_nan=False, allow_infinity=False)
 axis = st.lists(st.integers(-3, 3), min_size=3, max_size=3).filter(any)
 
 
@@ -324,3 +326,56 @@ def test_any_valid_design_renders_a_parseable_svg_with_every_antenna_named(docum
     width, height = (float(value) for value in root.get("viewBox").split()[2:])
     assert all(math.isfinite(value) for x, y, r, _ in circles(root) for value in (x, y, r))
     assert all(0 <= x <= width and 0 <= y <= height for x, y, _, _ in circles(root))
+
+
+def crowded(count: int) -> dict:
+    """`count` co-polarized antennas 30 mm apart in a row: every neighbour inside lambda/2pi at 791 MHz."""
+    return design("cat-1", antennas=[antenna("MAIN" if index == 0 else f"RX{index}", "main" if index == 0 else
+                                             "receive", position=(20 + 30 * index, 40, 10)) for index in range(count)],
+                  enclosure={"size_mm": [40 + 30 * count, 80, 30]}, ground_plane_mm=[20 + 30 * count, 70])
+
+
+def test_a_crowded_design_draws_the_pairs_with_findings_first_and_says_how_many_it_left_out():
+    root, _, layout = render(crowded(12))
+    assert len(layout.pairs) == 66 and len(layout.drawn_pairs) == placement.MAX_DRAWN_PAIRS
+    # Worst first, then nearest: the blockers are neighbours 30 mm apart (< lambda/2pi = 60.3 mm, co-polarized).
+    ranked = sorted(layout.pairs, key=lambda pair: (pair.severity is None, pair.severity != "blocker",
+                                                     pair.distance_mm))
+    assert {(p.first, p.second) for p in layout.drawn_pairs} == {(p.first, p.second)
+                                                                  for p in ranked[:placement.MAX_DRAWN_PAIRS]}
+    assert all(pair.severity == "blocker" for pair in layout.drawn_pairs if pair.distance_mm < 35)
+    drawn = [path for path in root.iter(f"{SVG}path") if style(path).get("stroke") in (BLOCKER, WARNING, NOTE, NO_FINDING)
+             and style(path).get("stroke-width") == "1.8"]
+    assert len(drawn) == placement.MAX_DRAWN_PAIRS + 4  # and the legend's four swatches
+    positions = {item["name"]: item["position_mm"] for item in crowded(12)["antennas"]}
+    for pair in layout.drawn_pairs:
+        first, second = positions[pair.first], positions[pair.second]
+        assert lines_between(root, layout.top_view_pt(*first[:2]), layout.top_view_pt(*second[:2])), pair
+    assert any(text.startswith(f"lines for {placement.MAX_DRAWN_PAIRS} of 66 pairs") for text in texts(root))
+    assert f"Lines are drawn for {placement.MAX_DRAWN_PAIRS} of the 66 pairs" in root.find(f"{SVG}desc").text
+    assert set(layout.placed) <= set(texts(root))  # every antenna is still named
+
+
+def test_a_small_design_draws_every_pair():
+    _, _, layout = render(crowded(8))
+    assert layout.drawn_pairs == layout.pairs and len(layout.pairs) == 28
+
+
+def test_the_most_antennas_the_parser_takes_all_fit_and_are_named():
+    root, _, layout = render(crowded(MAX_ANTENNAS), width_pt=480)
+    width, height = (float(value) for value in root.get("viewBox").split()[2:])
+    for x, y, r, _ in circles(root):
+        assert -0.01 <= x - r and x + r <= width + 0.01 and -0.01 <= y - r and y + r <= height + 0.01
+    assert len(layout.placed) == MAX_ANTENNAS and set(layout.placed) <= set(texts(root))
+
+
+def test_a_label_avoids_a_line_across_its_first_choice():
+    placer = placement._Placer((0.0, 0.0, 200.0, 200.0))
+    placer.block_segment((0.0, 50.0), (200.0, 50.0), 1.5, 1.0)  # a horizontal line at y = 50
+    # The first candidate straddles the line; the second is clear of it by 10 pt.
+    assert placer.place(20.0, 10.0, [(10.0, 45.0), (10.0, 60.0)]) == (10.0, 60.0, 30.0, 70.0)
+    # A candidate within the line's half width of it still counts as covering it.
+    assert placer.place(20.0, 10.0, [(100.0, 51.0), (100.0, 80.0)]) == (100.0, 80.0, 120.0, 90.0)
+    # A line of no length (both ends at one point) blocks like a point.
+    placer.block_segment((150.0, 150.0), (150.0, 150.0), 2.0, 1.0)
+    assert placer.place(10.0, 10.0, [(145.0, 145.0), (170.0, 170.0)]) == (170.0, 170.0, 180.0, 180.0)

@@ -257,6 +257,36 @@ def test_the_same_ids_work_for_a_member_so_the_404s_are_access_control(client, s
     assert not failures, "\n".join(failures)
 
 
+# Every parameter name a view or form here reads, each with a value that once gave a 500 somewhere (`²` passes
+# isdigit() but not int(), a date that does not exist, a NUL, a 400-digit number, numbers beyond physics).
+HOSTILE = {
+    "product": "²", "assignee": "²", "severity": "\x00", "topic": "9" * 400, "state": "²", "q": "\x00",
+    "category": "\x00", "signer": "9" * 400, "since": "2026-13-45", "until": "0000-00-00", "from": "²",
+    "to": "9" * 400, "action": "remove:²", "preset": "\x00", "port_count": "two", "file": "\x00",
+    "port-0": "\x00", "next": "\x00//example.com", "version": "²", "disposition": "\x00", "justification": "\x00",
+    "text": "\x00", "role": "\x00", "password": "\x00", "team": "²", "name": "\x00", "description": "\x00",
+    "product.name": "\x00", "modem.rx_ports": "9" * 400, "modem.gain_limits_dbi.B3\x00": "1e308",
+    "ground_plane_mm[0]": "1e-308", "ground_plane_mm[1]": "1e-308", "antennas[0].name": "\x00",
+    "antennas[0].position_mm[0]": "1e308", "deployment.body_distance_mm": "9" * 400,
+}
+
+
+def test_hostile_parameters_on_every_url_never_answer_500(site):
+    client = Client(raise_request_exception=False)
+    failures = []
+    for route in site_routes():
+        url = url_of(route, site.kwargs)
+        for method, headers in (("get", {}), ("post", {}), ("post", {"HTTP_HX_REQUEST": "true"})):
+            client.force_login(site.author)
+            with transaction.atomic():  # each request starts from the same data
+                response = getattr(client, method)(url, HOSTILE, **headers)
+                body_of(response)
+                transaction.set_rollback(True)
+            if response.status_code >= 500:
+                failures.append(f"{method.upper()} {url} {headers}: {response.status_code}")
+    assert not failures, "\n".join(failures)
+
+
 def test_admin_refuses_people_who_are_not_staff(client, site):
     client.force_login(site.outsider)
     response = client.get("/admin/")

@@ -3,11 +3,14 @@
 Exit status (contract): 0 no blocker, 1 at least one blocker, 2 the design or a measurement it names is
 invalid (every problem on stderr, each with its path). Whatever the file holds, the answer is one of these
 three with a message, never a traceback: a value the parser lets through and a rule then fails on is also
-exit 2, with a message of its own naming the rule (so that exit 1 always means "a blocker was raised").
+exit 2, with a message of its own naming the rule (so that exit 1 always means "a blocker was raised"). The
+rule's failure comes from evaluate(), which contains it (`rule_failures`); the traceback it logs is shown
+only with --traceback.
 Everything printed is escaped for the terminal (rules/terminal_text.py).
 """
 
 import json
+import logging
 import sys
 import traceback
 from pathlib import Path
@@ -36,6 +39,16 @@ class Command(BaseCommand):
         parser.add_argument("--format", choices=("text", "json"), default="text", dest="output_format")
 
     def handle(self, *args, **options):
+        rule_log = logging.getLogger("rules.evaluate")
+        was_disabled = rule_log.disabled
+        # evaluate() logs a failing rule's traceback for the people who run Earshot; here only --traceback shows it
+        rule_log.disabled = was_disabled or not options.get("traceback")
+        try:
+            self._evaluate(options)
+        finally:
+            rule_log.disabled = was_disabled
+
+    def _evaluate(self, options):
         for stream in (self.stdout, self.stderr):
             reconfigure = getattr(stream, "reconfigure", None)  # a real terminal or pipe, not a StringIO
             if reconfigure is not None:
@@ -52,6 +65,8 @@ class Command(BaseCommand):
             self._fail([f"{path}: a value the parser could not handle ({type(error).__name__}: {error})"])
         try:
             evaluation = evaluate(design, measurements)
+            if evaluation.rule_failures:
+                self._rules_could_not_run(evaluation)
             if options["output_format"] == "json":
                 output = printable_json(json.dumps(evaluation.as_dict(), indent=2, ensure_ascii=False)) + "\n"
             else:
@@ -94,6 +109,16 @@ class Command(BaseCommand):
         self.stderr.write("  A value may be beyond what the rule can compute with (check the design's numbers), "
                           "or this is a fault in Earshot: please report it with the design file (and the "
                           "output of --traceback).")
+        sys.exit(EXIT_INVALID)
+
+
+    def _rules_could_not_run(self, evaluation) -> None:
+        for failure in evaluation.rule_failures:
+            self.stderr.write(printable(
+                f"The design can't be evaluated: a rule failed on this design (rule {failure.id}, which checks "
+                f"{failure.topic}, raised {failure.error})."))
+        self.stderr.write("  This is a fault in Earshot (the parser should have named any value the rules can't "
+                          "compute with): please report it with the design file (and the output of --traceback).")
         sys.exit(EXIT_INVALID)
 
 

@@ -16,7 +16,7 @@ class Migration(migrations.Migration):
 
     dependencies = [
         ('designs', '0002_revision_version'),
-        ('reviews', '0003_auditevent_design_edits'),
+        ('reviews', '0005_review_item_subjects_any_length'),
         ('teams', '0002_team_allow_dual_signing_team_signoff_roles'),
     ]
 
