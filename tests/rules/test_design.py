@@ -98,7 +98,7 @@ def test_it_names_the_accepted_categories_for_an_unknown_one():
     (lambda d: d.update(ground_plane_mm=[100]), "ground_plane_mm: expected 2 numbers, got 1"),
     (lambda d: d.update(antennas=None), "antennas: expected a list of antennas (it may be empty), got nothing"),
     (lambda d: d["antennas"].append(antenna("A")), "antennas[1].name: expected a unique name; 'A' is also antennas[0]"),
-    (lambda d: d["antennas"][0].update(role="tx"), 'antennas[0].role: expected one of main, receive; got "tx"'),
+    (lambda d: d["antennas"][0].update(role="tx"), 'antennas[0].role: expected one of main, receive, gnss, wlan; got "tx"'),
     (lambda d: d["antennas"][0].pop("role"), "antennas[0].role: required: expected one of main, receive"),
     (lambda d: d["antennas"][0].update(mounting="glued"), "antennas[0].mounting: expected one of internal, external"),
     (lambda d: d["antennas"][0].update(polarization=[0, 0, 0]), "antennas[0].polarization: expected a direction"),

@@ -287,16 +287,22 @@ def test_it_says_when_a_measurement_does_not_cover_a_band():
 def test_it_warns_on_entered_efficiency_below_25_percent():
     evaluation = run(design("cat-m1", antennas=[antenna("A", efficiency_pct={"B20": 22, "B8": 30})]))
     [finding] = findings_of(evaluation, "efficiency")
-    assert finding.severity == "warning" and finding.evidence == {"band": "B20", "efficiency_pct": 22.0,
-                                                                  "basis": "entered"}
+    assert finding.severity == "warning"
+    assert (finding.evidence["band"], finding.evidence["efficiency_pct"]) == ("B20", 22.0)
+    assert finding.basis == "datasheet" and finding.evidence["source"] == "datasheet"
+    # -10 log10(0.22) = 6.6 dB, paid on uplink and downlink by a main antenna
+    assert finding.evidence["loss_db"] == pytest.approx(6.58, abs=0.01)
+    assert "uplink" in finding.explanation and "downlink" in finding.explanation
 
 
 def test_it_warns_when_the_measured_efficiency_bound_is_below_25_percent():
-    # |S11|^2 + |S21|^2 = 0.8^2 + 0.45^2 = 0.8425: at most 15.75 % can be radiated
-    document, measurements = measured({"low": (0.8, 0.45), "high": (0.1, 0.05)})
+    # |S11|^2 + |S21|^2 = 0.9^2 + 0.05^2 = 0.8125: at most 18.75 % can be radiated. The network is passive:
+    # for S11 = S22 = a, S21 = S12 = b the singular values are |a + b| = 0.95 and |a - b| (linear algebra).
+    document, measurements = measured({"low": (0.9, 0.05), "high": (0.1, 0.05)})
     findings = findings_of(run(document, measurements), "efficiency")
     assert {f.evidence["band"] for f in findings} == {"B8", "B20"}
-    assert findings[0].evidence["efficiency_pct"] == pytest.approx(15.75, abs=0.06)  # shown to 0.1 %
+    assert findings[0].evidence["efficiency_pct"] == pytest.approx(18.75, abs=0.06)  # shown to 0.1 %
+    assert {f.basis for f in findings} == {"measured"}
 
 
 # -- people and paperwork ------------------------------------------------------------------------------
