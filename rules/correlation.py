@@ -59,7 +59,8 @@ def efficiency_trust(context: CheckContext, first: str, second: str, band: Band)
     """Whether S-parameter ECC of the pair can be trusted in a band, and why (in words)."""
     efficiencies = [(name, context.design.antenna(name).efficiency_pct.get(band.name)) for name in (first, second)]
     missing = [name for name, value in efficiencies if value is None]
-    low = [f"{name} {value:g} %" for name, value in efficiencies if value is not None and value < TRUSTED_EFFICIENCY_PCT]
+    low = [f"{name} ({value:g} %)" for name, value in efficiencies
+           if value is not None and value < TRUSTED_EFFICIENCY_PCT]
     if not missing and not low:
         shown = " and ".join(f"{name} {value:g} %" for name, value in efficiencies)
         return True, (f"both antennas are at least {TRUSTED_EFFICIENCY_PCT:g} % efficient in {band.name} ({shown}), "
@@ -68,7 +69,8 @@ def efficiency_trust(context: CheckContext, first: str, second: str, band: Band)
     if missing:
         parts.append(f"no efficiency is entered for {' and '.join(missing)} in {band.name}")
     if low:
-        parts.append(f"{' and '.join(low)} efficient in {band.name} is below {TRUSTED_EFFICIENCY_PCT:g} %")
+        verb = "is" if len(low) == 1 else "are"
+        parts.append(f"in {band.name} {' and '.join(low)} {verb} less than {TRUSTED_EFFICIENCY_PCT:g} % efficient")
     return False, ("; ".join(parts) + ". S-parameter ECC assumes lossless antennas and reads low (optimistic) "
                    "when they are lossy, so only a far-field measurement can show the correlation is low")
 

@@ -455,7 +455,7 @@ def _parse_gain(reader: _Reader, value: Any, path: str) -> tuple[float | None, d
         return None, reader.band_map(
             value, path, lambda item, item_path: reader.number(item, item_path, minimum=-30, maximum=30, unit="dBi"))
     if value is not None and not _is_number(value):
-        reader.problem(path, f"expected a number in dBi (or an object of band to dBi), got {_show(value)}")
+        reader.problem(path, f"expected a number in dBi, got {_show(value)}; or an object of band to dBi")
         return None, {}
     return reader.number(value, path, minimum=-30, maximum=30, unit="dBi"), {}
 

@@ -11,6 +11,7 @@ from rules.findings import SEVERITIES, Finding
 WIDTH = 100
 wrap = partial(textwrap.wrap, break_on_hyphens=False, break_long_words=False)
 HEADINGS = {"blocker": "BLOCKERS", "warning": "WARNINGS", "note": "NOTES"}
+BASIS_WORDS = {"design": "from the design", "datasheet": "from datasheets", "measured": "measured"}
 
 
 def table(headers: Sequence[str], rows: Sequence[Sequence[str]], right: Sequence[bool]) -> list[str]:
@@ -38,7 +39,8 @@ def _evidence_value(value: Any) -> str:
 
 def _finding_lines(finding: Finding) -> list[str]:
     subjects = f" ({', '.join(finding.subjects)})" if finding.subjects else ""
-    lines = [f"  {finding.id}  {finding.topic}{subjects}", f"    {finding.title}"]
+    lines = [f"  {finding.id}  {finding.topic}{subjects}  [{BASIS_WORDS.get(finding.basis, finding.basis)}]",
+             f"    {finding.title}"]
     indent = " " * 6
     lines += wrap(finding.explanation, WIDTH, initial_indent=indent, subsequent_indent=indent)
     lines += wrap("Action: " + finding.action, WIDTH, initial_indent=indent, subsequent_indent=indent)
