@@ -22,7 +22,13 @@ import numpy as np
 import pytest
 from scipy.special import j0
 
-from benchmarks.far_field_data import SPEED_OF_LIGHT_MM_PER_S, dipole_field, grid, pattern_text, position_phase
+from benchmarks.far_field_data import (
+    SPEED_OF_LIGHT_MM_PER_S,
+    dipole_field,
+    grid,
+    pattern_text,
+    position_phase,
+)
 from rules import sparams
 from rules.design import FieldEnvironment, parse_design
 from rules.farfield import (
