@@ -45,6 +45,17 @@ GRID_DECIMALS = 6
 GRID_TOLERANCE_DEG = 1e-6
 FREQUENCY_TOLERANCE_MHZ = 1e-6
 ISOTROPIC = FieldEnvironment()
+# What each column may hold, checked row by row before the grid is built (column, low, high, in words).
+# Field values are relative, but beyond 1e100 their squares would overflow the integrals.
+MAX_FIELD = 1e100
+MAX_FREQUENCY_MHZ = 1e6
+_RANGES = (
+    ("frequency_mhz", 1e-9, MAX_FREQUENCY_MHZ, f"a positive frequency up to {MAX_FREQUENCY_MHZ:g} MHz"),
+    ("theta_deg", -GRID_TOLERANCE_DEG, 180.0 + GRID_TOLERANCE_DEG, "an angle from 0 to 180 degrees"),
+    ("phi_deg", -GRID_TOLERANCE_DEG, 360.0 - 10 * GRID_TOLERANCE_DEG, "an angle from 0 to under 360 degrees"),
+    *((column, -MAX_FIELD, MAX_FIELD, f"a field value of magnitude at most {MAX_FIELD:g}")
+      for column in ("e_theta_re", "e_theta_im", "e_phi_re", "e_phi_im")),
+)
 _NUMBER = re.compile(r"[ \t]*[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?[ \t]*")
 
 
@@ -172,16 +183,22 @@ class _Reader:
 
     def _grid(self, table: np.ndarray, line_of: Callable[[int], int]) -> FarFieldPattern:
         frequency = table[:, 0]
-        bad = np.flatnonzero(frequency <= 0)
-        if bad.size:
-            raise self.error(f"frequency_mhz: expected a positive frequency, got {frequency[bad[0]]:g}",
-                             line_of(int(bad[0])))
+        for column, low, high, what in _RANGES:
+            values = table[:, HEADER.split(",").index(column)]
+            bad = np.flatnonzero(~((values >= low) & (values <= high)))
+            if bad.size:
+                raise self.error(f"{column}: expected {what}, got {values[bad[0]]:g}", line_of(int(bad[0])))
         frequencies, frequency_index = np.unique(frequency, return_inverse=True)
         thetas, theta_index = np.unique(np.round(table[:, 1], GRID_DECIMALS), return_inverse=True)
         phis, phi_index = np.unique(np.round(table[:, 2], GRID_DECIMALS), return_inverse=True)
         self._check_axis("theta_deg", thetas, table[:, 1], line_of, closed=True)
         self._check_axis("phi_deg", phis, table[:, 2], line_of, closed=False)
         counts = (frequencies.size, thetas.size, phis.size)
+        if counts[0] * counts[1] * counts[2] > 4 * table.shape[0]:
+            # Far more grid points than rows: not a full grid. Said without counting which points are missing.
+            raise self.error(
+                f"{table.shape[0]} rows can't fill {counts[0]} frequencies x {counts[1]} theta x {counts[2]} phi "
+                "values: every frequency needs the same full grid", line_of(table.shape[0] - 1))
         flat = (frequency_index * counts[1] + theta_index) * counts[2] + phi_index
         seen = np.bincount(flat, minlength=counts[0] * counts[1] * counts[2])
         if (seen > 1).any():
@@ -244,17 +261,18 @@ class _Reader:
 def _fast_table(body: str) -> np.ndarray | None:
     """The rows parsed by numpy's C reader when the body is plainly well formed; None means 'read carefully'.
 
-    numpy accepts a superset of the careful pass only in nan and inf, which the finiteness check turns away,
-    so whatever this returns the careful pass would have returned too."""
-    body = body.rstrip("\n")
-    if not body or "#" in body or "\n\n" in body or not body.isascii() or body[0] == "\n":
+    Every line must be a row: a comment or blank line in the body makes numpy fail or skip it, the row count
+    then differs from the line count, and the careful pass takes over (it alone knows line numbers). numpy
+    accepts a superset of the careful pass only in nan and inf, which the finiteness check turns away, so
+    whatever this returns the careful pass would have returned too."""
+    if not body or body.isspace():
         return None
+    lines = body.count("\n") + (0 if body.endswith("\n") else 1)
     try:
-        table = np.loadtxt(io.StringIO(body), delimiter=",", comments=None, quotechar=None, dtype=np.float64,
-                           ndmin=2)
+        table = np.loadtxt(io.StringIO(body), delimiter=",", comments=None, dtype=np.float64, ndmin=2)
     except ValueError:
         return None
-    if table.shape[1] != COLUMNS or not np.isfinite(table).all():
+    if table.shape != (lines, COLUMNS) or not np.isfinite(table).all():
         return None
     return table
 

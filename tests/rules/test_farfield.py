@@ -20,6 +20,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy.special import j0
 
 from benchmarks.far_field_data import (
@@ -365,3 +367,20 @@ def test_a_bad_file_is_named_with_its_line_in_the_design_problems():
     document = far_field_design([{"kind": "far-field", "file": "a.csv", "antenna": "A"}])
     with pytest.raises(DesignError, match=r"measurements\[0\]\.file: a\.csv:5: expected 7 comma-separated"):
         attach(document, {"a.csv": _with_line(small_file(), 5, "1,2")})
+
+
+_FIELD = st.one_of(st.floats(allow_nan=True, allow_infinity=True).map(repr), st.integers(-400, 400).map(str),
+                   st.sampled_from(["", " ", "x", "1e", "--1", "0x10", "1_0", "٣", "#", "nan", "1,2"]))
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.lists(_FIELD, min_size=0, max_size=8).map(",".join), max_size=12),
+       st.booleans())
+def test_any_text_either_reads_or_raises_a_far_field_error(rows, with_header):
+    text = "\n".join(([HEADER] if with_header else []) + rows) + "\n"
+    try:
+        read = parse_far_field(text, source="fuzz.csv")
+    except FarFieldError as error:
+        assert str(error).startswith("fuzz.csv")
+    else:
+        assert np.isfinite(read.e_theta).all() and read.theta_deg[-1] == 180
