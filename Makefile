@@ -12,4 +12,5 @@ test:
 bench:
 	scripts/bootstrap.sh test
 	.venv/bin/python benchmarks/engine.py
+	.venv/bin/python benchmarks/far_field.py
 	.venv/bin/python benchmarks/pdf_record.py

@@ -1,8 +1,9 @@
 """What every check sees: the parsed design, its measurements, and the quantities derived from both once."""
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from functools import cached_property
+from typing import Any
 
 import numpy as np
 
@@ -55,6 +56,8 @@ class CheckContext:
     design: Design
     measurements: tuple[LoadedMeasurement, ...] = ()  # Touchstone files
     far_fields: tuple[LoadedPattern, ...] = ()
+    # Figures several rules ask for (a pair's measured correlation in a band), computed once per evaluation.
+    memo: dict[Any, Any] = field(default_factory=dict, compare=False, repr=False)
 
     @cached_property
     def cellular_antennas(self) -> tuple[Antenna, ...]:

@@ -94,26 +94,37 @@ def sparameter_correlation(context: CheckContext, measurement: LoadedMeasurement
 
 def pair_correlations(context: CheckContext, first: str, second: str, band: Band) -> list[MeasuredCorrelation]:
     """Every measurement of the pair, with its worst ECC over the band's downlink: S-parameter files that
-    have both antennas on a port, and the far-field patterns of both."""
-    found = []
-    for measurement in context.measurements:
-        i, j = measurement.port_of(first), measurement.port_of(second)
-        if i is not None and j is not None:
-            found.append(sparameter_correlation(context, measurement, i, j, first, second, band))
+    have both antennas on a port, and the far-field patterns of both (last). Computed once per evaluation."""
+    key = ("pair_correlations", first, second, band.name)
+    if key not in context.memo:
+        found = []
+        for measurement in context.measurements:
+            i, j = measurement.port_of(first), measurement.port_of(second)
+            if i is not None and j is not None:
+                found.append(sparameter_correlation(context, measurement, i, j, first, second, band))
+        pattern = pattern_correlation(context, first, second, band)
+        if pattern is not None:
+            found.append(pattern)
+        context.memo[key] = found
+    return list(context.memo[key])
+
+
+def pattern_correlation(context: CheckContext, first: str, second: str, band: Band) -> MeasuredCorrelation | None:
+    """The far-field ECC of the pair over the band's downlink, or None when either antenna has no pattern."""
     first_pattern, second_pattern = context.pattern_of(first), context.pattern_of(second)
     ecc = context.pattern_correlations.get((first, second))
-    if first_pattern is not None and second_pattern is not None and ecc is not None:
-        frequencies = first_pattern.frequencies_mhz
-        low, high = band.dl_mhz
-        inside = (frequencies >= low - sparams.EDGE_TOLERANCE_MHZ) & (frequencies <= high + sparams.EDGE_TOLERANCE_MHZ)
-        worst = sparams.worst_maximum(ecc, frequencies, inside)
-        found.append(MeasuredCorrelation(
-            method="far-field", files=(first_pattern.file, second_pattern.file),
-            ecc=None if worst is None else worst.value, frequency_mhz=None if worst is None else worst.frequency_mhz,
-            covered=worst is not None, passive=True, trustworthy=True,
-            reason="far-field patterns give the correlation without assuming lossless antennas",
-        ))
-    return found
+    if first_pattern is None or second_pattern is None or ecc is None:
+        return None
+    frequencies = first_pattern.frequencies_mhz
+    low, high = band.dl_mhz
+    inside = (frequencies >= low - sparams.EDGE_TOLERANCE_MHZ) & (frequencies <= high + sparams.EDGE_TOLERANCE_MHZ)
+    worst = sparams.worst_maximum(ecc, frequencies, inside)
+    return MeasuredCorrelation(
+        method="far-field", files=(first_pattern.file, second_pattern.file),
+        ecc=None if worst is None else worst.value, frequency_mhz=None if worst is None else worst.frequency_mhz,
+        covered=worst is not None, passive=True, trustworthy=True,
+        reason="far-field patterns give the correlation without assuming lossless antennas",
+    )
 
 
 @dataclass(frozen=True)

@@ -136,7 +136,11 @@ def largest_singular_value(network: Network) -> np.ndarray:
     with np.errstate(over="ignore", invalid="ignore"):
         finite = np.isfinite(s).all(axis=(1, 2)) & (np.abs(s) < 1e150).all(axis=(1, 2))
     if finite.any():
-        result[finite] = np.linalg.svd(s[finite], compute_uv=False)[:, 0]
+        # The squared singular values are the eigenvalues of the Hermitian S^H S; eigvalsh on that is about
+        # twice as fast as an SVD for the small matrices of antenna measurements, and as accurate here.
+        chosen = s[finite]
+        gram = np.conj(np.swapaxes(chosen, 1, 2)) @ chosen
+        result[finite] = np.sqrt(np.maximum(np.linalg.eigvalsh(gram)[:, -1], 0.0))
     return result
 
 

@@ -11,7 +11,7 @@ from rules import farfield, sparams
 from rules.catalog import Band
 from rules.checks.measured import ECC_BLOCKER, ECC_WARNING, MRC_MODEL, diversity_sentence
 from rules.context import CheckContext, ranges_to_serve
-from rules.correlation import TAGA, VAUGHAN_ANDERSEN, MeasuredCorrelation, pair_correlations
+from rules.correlation import TAGA, VAUGHAN_ANDERSEN, MeasuredCorrelation, pattern_correlation
 from rules.findings import Flag
 from rules.measurements import LoadedPattern
 from rules.registry import rule
@@ -25,8 +25,7 @@ def _pattern_pairs(context: CheckContext) -> Iterator[tuple[LoadedPattern, Loade
 
 
 def _far_field(context: CheckContext, first: str, second: str, band: Band) -> MeasuredCorrelation | None:
-    return next((result for result in pair_correlations(context, first, second, band)
-                 if result.method == "far-field"), None)
+    return pattern_correlation(context, first, second, band)
 
 
 def _environment_words(item: LoadedPattern) -> str:
