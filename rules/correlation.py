@@ -123,7 +123,7 @@ def pattern_correlation(context: CheckContext, first: str, second: str, band: Ba
         method="far-field", files=(first_pattern.file, second_pattern.file),
         ecc=None if worst is None else worst.value, frequency_mhz=None if worst is None else worst.frequency_mhz,
         covered=worst is not None, passive=True, trustworthy=True,
-        reason="far-field patterns give the correlation without assuming lossless antennas",
+        reason="patterns give the correlation without assuming lossless antennas",
     )
 
 

@@ -27,7 +27,7 @@ from rules.registry import rule
 DIVERSITY_OUTAGE = 0.01
 ECC_WARNING = 0.5
 ECC_BLOCKER = 0.7
-MRC_MODEL = "maximal-ratio combining of two Rayleigh-fading branches at 1 % outage (rules/coverage.py)"
+MRC_MODEL = "maximal-ratio combining of two Rayleigh-fading branches at 1 % outage, as in the coverage budget"
 
 
 def diversity_share(ecc: float) -> float:

@@ -4,6 +4,7 @@ efficiency, and the throughput the product needs against the category's peak."""
 import math
 from collections.abc import Iterator
 
+from rules.checks.measured import DIVERSITY_OUTAGE, MRC_MODEL
 from rules.context import CheckContext
 from rules.correlation import pair_correlations
 from rules.coverage import coverage_data, second_antenna_gain
@@ -13,8 +14,6 @@ from rules.registry import rule
 
 MIN_EFFICIENCY_PCT = 25.0  # design.md severity policy: a warning below a quarter of the power radiated
 IMBALANCE_LIMIT_DB = 3.0  # common practice: diversity branches within 3 dB of each other
-DIVERSITY_OUTAGE = 0.01  # the diversity model's outage probability (common practice: 1 %)
-MRC_MODEL = "maximal-ratio combining of two Rayleigh-fading branches at 1 % outage (rules/coverage.py)"
 
 
 def efficiency_basis(antennas: list[Antenna]) -> str:
