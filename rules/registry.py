@@ -46,6 +46,8 @@ class Rule:
     rationale: str
     sources: tuple[str, ...]
     check: CheckFunction
+    added_in: str | None = None  # the rule set that introduced it (None: before rule set 2)
+    changed_in: str | None = None  # the last rule set that changed what it says
 
     def run(self, context: "CheckContext") -> Iterator[Finding]:
         for flag in self.check(context):
@@ -88,8 +90,10 @@ RETIRED: tuple[RetiredRule, ...] = ()
 
 def rule(
     *, id: str, topic: str, severities: Iterable[str], title: str, rationale: str, sources: Iterable[str],
+    added_in: str | None = None, changed_in: str | None = None,
 ) -> Callable[[CheckFunction], CheckFunction]:
-    """Registers a check function under a stable id. The function takes one argument, `context`."""
+    """Registers a check function under a stable id. The function takes one argument, `context`.
+    `added_in` and `changed_in` name the rule set that introduced the rule or last changed its meaning."""
     severities = tuple(severities)
     sources = tuple(sources)
 
@@ -108,7 +112,7 @@ def rule(
         parameters = list(inspect.signature(function).parameters.values())
         if [parameter.name for parameter in parameters] != ["context"]:
             raise RuleDefinitionError(f"{where}: a check takes exactly one parameter, 'context'")
-        _RULES[id] = Rule(id, topic, severities, title, rationale, sources, function)
+        _RULES[id] = Rule(id, topic, severities, title, rationale, sources, function, added_in, changed_in)
         return function
 
     return register

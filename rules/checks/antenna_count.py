@@ -11,7 +11,7 @@ TS_38_300 = "3GPP TS 38.300 §16.13"
 
 
 @rule(
-    id="CNT-001", topic="antenna-count", severities=("blocker", "warning"),
+    id="CNT-001", changed_in="2.0.0", topic="antenna-count", severities=("blocker", "warning"),
     title="Fewer receive antennas than the category requires",
     rationale=(
         "Cat 1 is specified with two receive antennas (receive diversity) and Cat 4 and up with two for "
@@ -86,7 +86,7 @@ def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="CNT-002", topic="antenna-count", severities=("blocker",),
+    id="CNT-002", changed_in="2.0.0", topic="antenna-count", severities=("blocker",),
     title="No main (transmit and receive) antenna",
     rationale="The module transmits through its main port; a design of only receive antennas cannot attach.",
     sources=(TS_36_306,),
@@ -108,7 +108,7 @@ def no_main_antenna(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="CNT-003", topic="antenna-count", severities=("note",),
+    id="CNT-003", changed_in="2.0.0", topic="antenna-count", severities=("note",),
     title="Antennas the modem won't use",
     rationale=(
         "A single-receive category (NB-IoT, LTE-M, Cat 1bis) uses one antenna; a module uses as many as it "

@@ -8,7 +8,7 @@ from rules.registry import rule
 
 
 @rule(
-    id="BND-001", topic="band-coverage", severities=("blocker",),
+    id="BND-001", changed_in="2.0.0", topic="band-coverage", severities=("blocker",),
     title="A selected band is outside an antenna's rated ranges",
     rationale=(
         "A main antenna transmits and receives, so it must cover a band's uplink and downlink; a receive "
@@ -47,7 +47,7 @@ def band_outside_rated_range(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="BND-002", topic="band-coverage", severities=("note",),
+    id="BND-002", changed_in="2.0.0", topic="band-coverage", severities=("note",),
     title="Band coverage can't be checked: rated ranges not given",
     rationale="Without the antenna's rated frequency ranges the engine cannot tell whether it serves the bands.",
     sources=("common practice",),

@@ -33,7 +33,7 @@ def outside_enclosure_mm(context: CheckContext, antenna: Antenna) -> float:
 
 
 @rule(
-    id="SEP-001", topic="separation", severities=("blocker", "warning", "note"),
+    id="SEP-001", changed_in="2.0.0", topic="separation", severities=("blocker", "warning", "note"),
     title="Receive antennas too close for the lowest frequency",
     rationale=(
         "Inside the reactive near field (lambda/2pi) of one antenna a second one is coupled through the "
@@ -193,7 +193,7 @@ def _measured_verdict(context: CheckContext, first: str, second: str) -> _Verdic
 
 
 @rule(
-    id="SEP-002", topic="separation", severities=("note",),
+    id="SEP-002", changed_in="2.0.0", topic="separation", severities=("note",),
     title="Spacing can't be judged: feed position not given",
     rationale="Spacing rules need every receive antenna's feed point.",
     sources=("common practice",),
@@ -221,7 +221,7 @@ def position_unknown(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="SEP-003", topic="separation", severities=("note",),
+    id="SEP-003", added_in="2.0.0", topic="separation", severities=("note",),
     title="Spacing passes only on a feed position outside the enclosure",
     rationale=(
         "An internal antenna whose feed point lies outside the enclosure box was probably entered from the wrong "
@@ -261,7 +261,7 @@ def _internal_cellular(context: CheckContext) -> list[Antenna]:
 
 
 @rule(
-    id="GND-001", topic="ground-plane", severities=("blocker", "warning", "note"),
+    id="GND-001", changed_in="2.0.0", topic="ground-plane", severities=("blocker", "warning", "note"),
     title="Ground plane short for the lowest frequency",
     rationale=(
         "An embedded antenna uses the board's ground as its counterpoise; the board then radiates too. "
@@ -342,7 +342,7 @@ def ground_plane_short(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="GND-002", topic="ground-plane", severities=("note",),
+    id="GND-002", changed_in="2.0.0", topic="ground-plane", severities=("note",),
     title="Ground plane size not given",
     rationale="The ground length decides how well an embedded antenna works at low frequencies.",
     sources=("common practice",),
@@ -460,7 +460,7 @@ def internal_antenna_in_metal(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="ENC-002", topic="enclosure", severities=("warning",),
+    id="ENC-002", added_in="2.0.0", topic="enclosure", severities=("warning",),
     title="An internal antenna's feed lies outside the enclosure",
     rationale=(
         "Feed points are given in the enclosure's frame, from one corner along its edges. An internal antenna "

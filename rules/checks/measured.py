@@ -59,7 +59,7 @@ def _cellular_ports(context: CheckContext, measurement: LoadedMeasurement) -> li
 
 
 @rule(
-    id="MEA-001", topic="measurement", severities=("warning",),
+    id="MEA-001", added_in="2.0.0", topic="measurement", severities=("warning",),
     title="A measurement is not passive in a band",
     rationale=(
         "A passive network can't return more power than it is fed, for any combination of incident waves: no "
@@ -110,7 +110,7 @@ def not_passive(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="MAT-001", topic="matching", severities=("blocker", "warning"),
+    id="MAT-001", changed_in="2.0.0", topic="matching", severities=("blocker", "warning"),
     title="Measured return loss below 6 dB in a band",
     rationale=(
         "Return loss below 6 dB (VSWR above 3:1) reflects more than a quarter of the power; below 3.5 dB "
@@ -152,7 +152,7 @@ def poor_match(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="MAT-002", topic="matching", severities=("note",),
+    id="MAT-002", changed_in="2.0.0", topic="matching", severities=("note",),
     title="A measurement does not cover a band",
     rationale="A band the measurement does not span is unmeasured: nothing can be said about it from the file.",
     sources=("common practice",),
@@ -199,7 +199,7 @@ def _pairs(context: CheckContext) -> Iterator[PairWindow]:
 
 
 @rule(
-    id="ISO-001", topic="isolation", severities=("blocker", "warning"),
+    id="ISO-001", changed_in="2.0.0", topic="isolation", severities=("blocker", "warning"),
     title="Measured isolation below 10 dB in a band",
     rationale=(
         "Isolation is how much of the power fed to one antenna arrives at the other's port: below 10 dB more "
@@ -234,7 +234,7 @@ def poor_isolation(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="ECC-001", topic="correlation", severities=("blocker", "warning"),
+    id="ECC-001", changed_in="2.0.0", topic="correlation", severities=("blocker", "warning"),
     title="Envelope correlation from S-parameters above 0.5 in a band's downlink",
     rationale=(
         "Diversity and MIMO need the two receive signals to fade independently. In the engine's diversity model "
@@ -284,7 +284,7 @@ def _sparameter_results(context: CheckContext) -> Iterator[tuple[MeasuredCorrela
 
 
 @rule(
-    id="ECC-002", topic="correlation", severities=("note",),
+    id="ECC-002", added_in="2.0.0", topic="correlation", severities=("note",),
     title="Low envelope correlation from S-parameters of lossy antennas: not shown to be low",
     rationale=(
         LOSSY_CAVEAT + " With either antenna below 50 % efficiency in a band, or no efficiency entered, a low "
@@ -324,7 +324,7 @@ def optimistic_correlation(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="EFF-002", topic="efficiency", severities=("warning",),
+    id="EFF-002", changed_in="2.0.0", topic="efficiency", severities=("warning",),
     title="Measured radiation-efficiency bound below 25 % in a band",
     rationale=(
         "Power that is reflected back or coupled into other ports is not radiated, so "

@@ -33,7 +33,7 @@ def _environment_words(item: LoadedPattern) -> str:
 
 
 @rule(
-    id="ECC-003", topic="correlation", severities=("blocker", "warning"),
+    id="ECC-003", added_in="2.0.0", topic="correlation", severities=("blocker", "warning"),
     title="Envelope correlation from far-field patterns above 0.5 in a band's downlink",
     rationale=(
         "Integrating both antennas' complex fields over the sphere gives their envelope correlation without "
@@ -69,7 +69,7 @@ def high_pattern_correlation(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="ECC-004", topic="correlation", severities=("note",),
+    id="ECC-004", added_in="2.0.0", topic="correlation", severities=("note",),
     title="Envelope correlation from far-field patterns at most 0.5",
     rationale=(
         "Where the patterns of a pair show an envelope correlation of 0.5 or less in every band they reach, the "
@@ -127,7 +127,7 @@ def pattern_correlation_summary(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="EFF-004", topic="efficiency", severities=("warning", "note"),
+    id="EFF-004", added_in="2.0.0", topic="efficiency", severities=("warning", "note"),
     title="Efficiency and mean effective gain from an absolute far-field pattern",
     rationale=(
         "An absolute pattern (|E_theta|^2 + |E_phi|^2 is the realized gain) gives the antenna's total efficiency, "

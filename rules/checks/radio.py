@@ -22,7 +22,7 @@ def efficiency_basis(antennas: list[Antenna]) -> str:
 
 
 @rule(
-    id="GAI-001", topic="gain-limit", severities=("blocker",),
+    id="GAI-001", changed_in="2.0.0", topic="gain-limit", severities=("blocker",),
     title="Antenna gain above the module approval's limit",
     rationale=(
         "A module's radio approval is granted with a maximum antenna gain per band (it bounds the radiated "
@@ -67,7 +67,7 @@ def gain_above_approval(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="GAI-002", topic="gain-limit", severities=("note",),
+    id="GAI-002", changed_in="2.0.0", topic="gain-limit", severities=("note",),
     title="Gain limits given but an antenna's gain is not",
     rationale=("Without the transmitting antenna's peak gain in a band the approval limit there can't be checked; "
                "a per-band gain that leaves out a limited band leaves that band unjudged."),
@@ -137,7 +137,7 @@ def throughput_above_peak(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="EFF-001", topic="efficiency", severities=("warning",),
+    id="EFF-001", changed_in="2.0.0", topic="efficiency", severities=("warning",),
     title="Entered antenna efficiency below 25 % in a band",
     rationale=(
         "Below 25 % total efficiency an antenna loses more than 6 dB: three quarters of the power. A main "
@@ -175,7 +175,7 @@ def low_entered_efficiency(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="EFF-003", topic="efficiency", severities=("warning",),
+    id="EFF-003", added_in="2.0.0", topic="efficiency", severities=("warning",),
     title="Main and receive antenna efficiencies more than 3 dB apart in a band",
     rationale=(
         "Diversity gain is largest when both branches bring the same signal power. With maximal-ratio combining "
