@@ -14,3 +14,4 @@ fi
 .venv/bin/python manage.py makemigrations --check --dry-run
 .venv/bin/python -m pytest "$@"
 .venv/bin/python ../shared/contract/check.py
+.venv/bin/python ../shared/contract/ruleset2.py
