@@ -16,8 +16,6 @@ Run from the repository root: `.venv/bin/python benchmarks/far_field.py [--repea
 import argparse
 import sys
 import tempfile
-import time
-from collections.abc import Callable
 from itertools import combinations
 from pathlib import Path
 
@@ -26,7 +24,7 @@ import numpy as np
 REPO_ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(REPO_ROOT))
 
-from benchmarks.engine import ANTENNA_PLACES, print_table, verdict  # noqa: E402
+from benchmarks.engine import ANTENNA_PLACES, best_of, print_table, verdict  # noqa: E402
 from benchmarks.far_field_data import dipole_field, grid, pattern_text  # noqa: E402
 from rules.farfield import ISOTROPIC as ISOTROPIC_ENVIRONMENT  # noqa: E402
 from rules.farfield import correlation_matrix, envelope_correlation, parse_far_field  # noqa: E402
@@ -49,15 +47,6 @@ def write_files(directory: Path) -> list[Path]:
                         encoding="utf-8")
         paths.append(path)
     return paths
-
-
-def best_of(repeats: int, action: Callable[[], object]) -> float:
-    times = []
-    for _ in range(repeats):
-        started = time.perf_counter()
-        action()
-        times.append(time.perf_counter() - started)
-    return min(times)
 
 
 def read_ours(paths: list[Path]) -> list:

@@ -31,11 +31,12 @@ import math
 import re
 from collections.abc import Callable
 from dataclasses import dataclass
-from functools import cache, partial
+from functools import cache
 
 import numpy as np
 
 from rules.design import FieldEnvironment
+from rules.file_error import FileError
 
 HEADER = "frequency_mhz,theta_deg,phi_deg,e_theta_re,e_theta_im,e_phi_re,e_phi_im"
 COLUMNS = 7
@@ -59,20 +60,8 @@ _RANGES = (
 _NUMBER = re.compile(r"[ \t]*[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?[ \t]*")
 
 
-class FarFieldError(ValueError):
+class FarFieldError(FileError):
     """A file that can't be read as a far-field pattern. str() gives 'NAME:LINE: message'."""
-
-    def __init__(self, message: str, *, source: str, line: int | None = None) -> None:
-        super().__init__(message)
-        self.message = message
-        self.source = source
-        self.line = line
-
-    def __str__(self) -> str:
-        return f"{self.source}: {self.message}" if self.line is None else f"{self.source}:{self.line}: {self.message}"
-
-    def __reduce__(self) -> tuple[Callable[[str], "FarFieldError"], tuple[str]]:
-        return (partial(FarFieldError, source=self.source, line=self.line), (self.message,))
 
 
 @dataclass(frozen=True, eq=False)
