@@ -120,14 +120,18 @@ class _Reader:
         body_start, header_line = self._header()
         body = self.text[body_start:]
         table = _fast_table(body)
-        row_lines: np.ndarray | None = None
+        row_lines: list[np.ndarray] = []
         if table is None:
-            table, row_lines = self._careful_table(body, header_line + 1)
+            table, lines = self._careful_table(body, header_line + 1)
+            row_lines.append(lines)
         if table.shape[0] == 0:
             raise self.error("no data rows after the header", header_line)
 
         def line_of(row: int) -> int:
-            return int(row_lines[row]) if row_lines is not None else header_line + 1 + row
+            # Only an error needs a line: after the fast pass the careful one finds them (numpy skips blank lines).
+            if not row_lines:
+                row_lines.append(self._careful_table(body, header_line + 1)[1])
+            return int(row_lines[0][row])
 
         return self._grid(table, line_of)
 
@@ -177,6 +181,18 @@ class _Reader:
             bad = np.flatnonzero(~((values >= low) & (values <= high)))
             if bad.size:
                 raise self.error(f"{column}: expected {what}, got {values[bad[0]]:g}", line_of(int(bad[0])))
+        canonical = _canonical_grid(table)
+        if canonical is not None:
+            frequencies, thetas, phis = canonical
+            self._check_axis("theta_deg", thetas, table[:, 1], line_of, closed=True)
+            self._check_axis("phi_deg", phis, table[:, 2], line_of, closed=False)
+            shape = (frequencies.size, thetas.size, phis.size)
+            return FarFieldPattern(
+                source=self.source, frequencies_mhz=_read_only(frequencies), theta_deg=_read_only(thetas),
+                phi_deg=_read_only(phis),
+                e_theta=_read_only((table[:, 3] + 1j * table[:, 4]).reshape(shape)),
+                e_phi=_read_only((table[:, 5] + 1j * table[:, 6]).reshape(shape)),
+            )
         frequencies, frequency_index = np.unique(frequency, return_inverse=True)
         thetas, theta_index = np.unique(np.round(table[:, 1], GRID_DECIMALS), return_inverse=True)
         phis, phi_index = np.unique(np.round(table[:, 2], GRID_DECIMALS), return_inverse=True)
@@ -247,21 +263,47 @@ class _Reader:
             raise self.error(f"{column}: {what}", row_with(values[-1]))
 
 
+def _canonical_grid(table: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+    """Frequencies, thetas and phis when the rows run in the order exporters write them (frequency, then
+    theta, then phi, each increasing) over a full grid; None for any other order, which the general path
+    sorts out. A handful of vectorized comparisons instead of three sorts."""
+    frequency, theta, phi = table[:, 0], table[:, 1], table[:, 2]
+    rows = table.shape[0]
+    phi_points = int(np.argmax(theta != theta[0]))
+    if phi_points < 2 or rows % phi_points:
+        return None
+    blocks = rows // phi_points
+    starts = frequency[::phi_points]
+    theta_points = int(np.argmax(starts != starts[0])) or blocks
+    if blocks % theta_points:
+        return None
+    frequency_points = blocks // theta_points
+    phis = phi[:phi_points]
+    thetas = theta[: theta_points * phi_points: phi_points]
+    frequencies = frequency[:: theta_points * phi_points]
+    if not ((phi.reshape(blocks, phi_points) == phis).all()
+            and (theta.reshape(frequency_points, theta_points, phi_points) == thetas[None, :, None]).all()
+            and (frequency.reshape(frequency_points, -1) == frequencies[:, None]).all()):
+        return None
+    if (np.diff(phis) <= 0).any() or (np.diff(thetas) <= 0).any() or (np.diff(frequencies) <= 0).any():
+        return None
+    return frequencies.copy(), np.round(thetas, GRID_DECIMALS), np.round(phis, GRID_DECIMALS)
+
+
 def _fast_table(body: str) -> np.ndarray | None:
     """The rows parsed by numpy's C reader when the body is plainly well formed; None means 'read carefully'.
 
-    Every line must be a row: a comment or blank line in the body makes numpy fail or skip it, the row count
-    then differs from the line count, and the careful pass takes over (it alone knows line numbers). numpy
-    accepts a superset of the careful pass only in nan and inf, which the finiteness check turns away, so
-    whatever this returns the careful pass would have returned too."""
+    A comment line in the body makes numpy fail (comments are off), and the careful pass takes over; blank
+    lines numpy skips, as the careful pass does. numpy accepts a superset of the careful pass only in nan and
+    inf, which the finiteness check turns away, so whatever this returns the careful pass would have returned
+    too."""
     if not body or body.isspace():
         return None
-    lines = body.count("\n") + (0 if body.endswith("\n") else 1)
     try:
         table = np.loadtxt(io.StringIO(body), delimiter=",", comments=None, dtype=np.float64, ndmin=2)
     except ValueError:
         return None
-    if table.shape != (lines, COLUMNS) or not np.isfinite(table).all():
+    if table.shape[1] != COLUMNS or not np.isfinite(table).all():
         return None
     return table
 

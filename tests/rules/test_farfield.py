@@ -384,3 +384,19 @@ def test_any_text_either_reads_or_raises_a_far_field_error(rows, with_header):
         assert str(error).startswith("fuzz.csv")
     else:
         assert np.isfinite(read.e_theta).all() and read.theta_deg[-1] == 180
+
+
+def test_a_blank_line_in_the_data_still_leaves_errors_on_the_right_line():
+    lines = _lines(small_file())
+    text = "\n".join([*lines[:6], "", *lines[6:20], lines[8], *lines[20:]]) + "\n"
+    # the repeated row (file line 9) now also stands on line 22, after the blank line 7
+    with pytest.raises(FarFieldError, match=r"ant1\.csv:22: the point .* is given twice"):
+        parse_far_field(text, source="ant1.csv")
+
+
+def test_rows_in_the_exporters_order_and_shuffled_give_the_same_pattern():
+    text = small_file(step_deg=5.0, frequencies=(700.0, 800.0, 900.0))
+    header, *rows = _lines(text)
+    reversed_text = "\n".join([header, *rows[::-1]]) + "\n"
+    ordered, backwards = parse_far_field(text, source="a.csv"), parse_far_field(reversed_text, source="b.csv")
+    assert np.array_equal(ordered.e_phi, backwards.e_phi) and np.array_equal(ordered.theta_deg, backwards.theta_deg)
