@@ -142,7 +142,6 @@ def prepare(password: str, people: dict[str, int]) -> Targets:
 def open_sessions(people: dict[str, int]) -> dict[str, list[str]]:
     """Logged-in sessions made the way Django's own log-in makes them, without the deliberately slow password
     hash for each (one real log-in per person is timed separately): username → session keys."""
-    from django.conf import settings
     from django.contrib.auth import get_user_model
     from django.test import Client
 
@@ -151,7 +150,7 @@ def open_sessions(people: dict[str, int]) -> dict[str, list[str]]:
         user = get_user_model().objects.get(username=username)
         for _ in range(count):
             client = Client()
-            client.force_login(user, backend=settings.AUTHENTICATION_BACKENDS[0])
+            client.force_login(user, backend="projectapp.teams.backends.CachedUserBackend")
             sessions.setdefault(username, []).append(client.session.session_key)
     return sessions
 
@@ -159,6 +158,7 @@ def open_sessions(people: dict[str, int]) -> dict[str, list[str]]:
 def signed_record(team, password: str):
     """The demo team's signed record, signing a ready revision through the sign-off service if none exists."""
     from django.contrib.auth import get_user_model
+    from django.test import RequestFactory
 
     from projectapp.signoff import services
     from projectapp.signoff.models import SignedRecord
@@ -176,7 +176,8 @@ def signed_record(team, password: str):
                       .exclude(pk__in=revision.signatures.values("signer")).first())
             if signer is None:
                 return None, f"nobody in {team.name} can sign as {role}"
-            services.revision_sign(revision=revision, user=signer, role=role, password=password)
+            services.revision_sign(revision=revision, user=signer, role=role, password=password,
+                                   request=RequestFactory().post("/"))
         return SignedRecord.objects.get(revision=revision), (
             f"signed {revision} through the sign-off service to have a PDF to download")
     return None, "no submitted demo revision is ready to sign"

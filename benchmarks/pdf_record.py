@@ -11,12 +11,14 @@ The whole product life runs through the services, as the app runs it: a team wit
 and an approver, a product, the measurement upload, the design import, submission, and a disposition on
 every blocker and warning (the approver waives each with a justification). Then:
 
-- the three signatures (`revision_sign`, timed once; it includes three password checks with Django's
-  default hasher and the PDF build and archive on the last signature);
+- the three signatures (`revision_sign`, timed once; it includes three password checks with Argon2, the
+  first of PASSWORD_HASHERS, and a PDF build at every signature: the first two check that the record
+  builds before the signature is accepted, the last one is archived);
 - `build_record_pdf(revision, fingerprint=record_fingerprint(revision))` on the signed revision, one
   untimed first build (imports, fonts) and then best and median of --repeats runs.
 
-Targets: the record builds in under 1 s and is under 1 MB (1,000,000 bytes). With --profile, or when the
+Targets: the record builds in under 1 s (wall clock and CPU time of this process) and is under 1 MB
+(1,000,000 bytes), fonts embedded. With --profile, or when the
 time target is missed, cProfile's top costs of one build are printed.
 
 Everything lives in a temporary folder (EARSHOT_VAR_DIR, set before Django starts, with a fresh SQLite
@@ -143,11 +145,14 @@ def build_scenario(*, directory: Path, points: int, band_names: list[str]):
 
 
 def sign_flow(revision, people) -> float:
+    from django.test import RequestFactory
+
     from projectapp.signoff.services import revision_sign
 
     started = time.perf_counter()
     for role in ("author", "reviewer", "approver"):
-        revision_sign(revision=revision, user=people[role], role=role, password=PASSWORD)
+        revision_sign(revision=revision, user=people[role], role=role, password=PASSWORD,
+                      request=RequestFactory().post("/"))
     return time.perf_counter() - started
 
 
@@ -316,7 +321,8 @@ def run(directory: Path, arguments: argparse.Namespace, band_names: list[str]) -
         (f"build time, median of {arguments.repeats}", f"{median_s:.3f} s", "< 1 s",
          verdict(median_s, TIME_TARGET_S)),
         (f"build CPU time of this process, median of {arguments.repeats}",
-         f"{statistics.median(cpu_times):.3f} s", "", ""),
+         f"{statistics.median(cpu_times):.3f} s", "< 1 s", verdict(statistics.median(cpu_times), TIME_TARGET_S)),
+        (f"build CPU time of this process, best of {arguments.repeats}", f"{min(cpu_times):.3f} s", "", ""),
         ("sign flow, 3 x revision_sign (once)", f"{sign_s:.3f} s", "", ""),
         ("  of which each of its 3 password checks", f"{hash_s:.3f} s", "", ""),
     ])
@@ -324,8 +330,8 @@ def run(directory: Path, arguments: argparse.Namespace, band_names: list[str]) -
     print("\n".join([
         "Build time: wall clock (time.perf_counter) of record_fingerprint() and build_record_pdf(), which reads",
         "and parses the Touchstone file for the charts; CPU time (time.process_time) is less affected by other",
-        "load on the machine. The sign flow includes three password checks (Django's default hasher), one PDF",
-        "build, storing the PDF and the audit rows.",
+        "load on the machine. The sign flow includes three password checks (Argon2), three PDF builds (one per",
+        "signature), storing the last PDF and the audit rows.",
     ]))
     if arguments.profile or median_s >= TIME_TARGET_S:
         print()

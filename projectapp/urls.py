@@ -4,12 +4,12 @@ from django.urls import include, path
 
 from projectapp.health import healthz
 from projectapp.teams.logout import LogOutView
-from projectapp.teams.throttle import ThrottledLoginView
+from projectapp.teams.password_checks import CheckedPasswordChangeView
 
 urlpatterns = [
-    path("accounts/login/", ThrottledLoginView.as_view(), name="login"),
+    path("accounts/login/", auth_views.LoginView.as_view(), name="login"),
     path("accounts/logout/", LogOutView.as_view(), name="logout"),
-    path("accounts/password/", auth_views.PasswordChangeView.as_view(), name="password_change"),
+    path("accounts/password/", CheckedPasswordChangeView.as_view(), name="password_change"),
     path("accounts/password/done/", auth_views.PasswordChangeDoneView.as_view(), name="password_change_done"),
     path("admin/", admin.site.urls),
     path("healthz/", healthz, name="healthz"),

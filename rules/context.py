@@ -47,8 +47,8 @@ def uncovered_ranges(
 
 def ranges_to_serve(antenna: Antenna, band: Band) -> list[tuple[float, float]]:
     """What an antenna must work over in a band: a main antenna transmits and receives, a receive
-    antenna only receives (for a TDD band both are the same range)."""
-    return merge_ranges([band.ul_mhz, band.dl_mhz] if antenna.transmits else [band.dl_mhz])
+    antenna only receives (for a TDD band both are the same range; an SDL band has only a downlink)."""
+    return merge_ranges(list(band.ranges_mhz) if antenna.transmits else [band.dl_mhz])
 
 
 @dataclass(frozen=True)

@@ -52,7 +52,7 @@ def downlink_ranges(band: Band) -> list[tuple[float, float]]:
 
 def band_scope(band: Band) -> list[tuple[float, float]]:
     """Every frequency of a band, uplink and downlink: what a measurement must be passive over."""
-    return merge_ranges([band.ul_mhz, band.dl_mhz])
+    return merge_ranges(list(band.ranges_mhz))
 
 
 def efficiency_trust(context: CheckContext, first: str, second: str, band: Band) -> tuple[bool, str]:

@@ -1,23 +1,26 @@
-"""Downlink coverage with one and with two receive antennas: path loss, the second antenna's gain, range.
+"""Uplink and downlink coverage, and what one receive branch fewer costs: path loss, target, range.
 
-For each selected band, at its lowest downlink frequency, the analysis answers: how much path loss the
-category's coverage target leaves once the deployment's entry loss and the antenna's efficiency are
-paid, how much a second receive antenna adds to that, how far each case reaches by an empirical
-path-loss model, and which share of the two-antenna area a single antenna covers.
+For each selected band the analysis budgets both directions at each direction's lowest frequency: the
+category's coverage target (maximum coupling loss) for that direction, less the deployment's entry loss,
+the main antenna's efficiency and cable loss, and for the uplink the power class's difference from the
+23 dBm the targets assume. Losing a receive branch changes only the downlink. The direction with less
+margin limits the coverage; when the uplink limits, a missing receive branch may cost no coverage at all.
 
 Methods and their sources
-- Free-space loss, ITU-R P.525: L = 32.45 + 20 log f(MHz) + 20 log d(km).
-- Okumura-Hata: Hata, "Empirical formula for propagation loss in land mobile radio services", IEEE
-  Trans. Veh. Technol. 29(3), 1980. Valid 150-1500 MHz, 1-20 km, base 30-200 m, mobile 1-10 m.
-- COST-231 Hata: COST Action 231 final report, "Digital mobile radio towards future generation
-  systems" (1999), section 4.4. Valid 1500-2000 MHz, same distances and heights.
-- Second-antenna gain: maximal-ratio combining (MRC) of two branches in Rayleigh fading. The combined
-  SNR is a sum of two independent exponentials whose means are the eigenvalues of the branches'
-  covariance matrix, so its outage quantile has a closed-form CDF solved here by bisection.
-- Coverage targets (maximum coupling loss, MCL) and entry losses: rules/data/coverage.toml, one source
-  per row.
+- Path loss: 3GPP TR 38.901 Table 7.4.1-1, one family for every band: UMa, UMi street canyon and RMa, LOS
+  or NLOS, with their breakpoint distances, default heights and validity ranges (frequency 0.5-100 GHz,
+  0.5-30 GHz for RMa; 10 m to 5 km, 10 km for RMa LOS). Outside them the analysis refuses rather than
+  extrapolating or falling back to another model.
+- One receive branch fewer: the published single-receive-branch figures (coverage.toml [single_branch]:
+  about 3 dB static, 3-5 dB in fading, 4 dB headline) scaled for a weaker second antenna, and beside them
+  the bound of flat Rayleigh fading: maximal-ratio combining (MRC) of two branches, whose combined SNR is a
+  sum of two independent exponentials with the eigenvalues of the branches' covariance as means, so its
+  outage quantile has a closed-form CDF solved here by bisection.
+- Coverage targets, power classes and entry losses: rules/data/coverage.toml and power_classes.toml, one
+  source per row.
 
-Frequencies are in MHz, distances in km, heights in m, losses and gains in dB.
+Frequencies are in MHz, distances in km (TR 38.901's formulas take metres and GHz), heights in m, losses
+and gains in dB.
 """
 
 import math
@@ -28,51 +31,41 @@ from functools import cache
 from typing import Any
 
 from rules import sparams
-from rules.catalog import DATA_DIR, Band, categories
+from rules.catalog import DATA_DIR, Band, categories, power_classes
 from rules.context import CheckContext
 from rules.design import ENVIRONMENTS, Antenna, Design
 from rules.findings import round_evidence
 from rules.measurements import LoadedMeasurement
 
-FREE_SPACE = "free-space"
-OKUMURA_HATA = "okumura-hata"
-COST231_HATA = "cost231-hata"
-MODELS = (FREE_SPACE, OKUMURA_HATA, COST231_HATA)
-MODEL_LABELS = {
-    FREE_SPACE: "free space (ITU-R P.525)",
-    OKUMURA_HATA: "Okumura-Hata (Hata 1980)",
-    COST231_HATA: "COST-231 Hata (COST 231 final report)",
+UMA = "uma"
+UMI = "umi"
+RMA = "rma"
+SCENARIOS = (UMA, UMI, RMA)
+TR_38_901 = "3GPP TR 38.901 Table 7.4.1-1"
+SCENARIO_LABELS = {
+    UMA: "TR 38.901 UMa (urban macro)",
+    UMI: "TR 38.901 UMi (street-canyon micro)",
+    RMA: "TR 38.901 RMa (rural macro)",
 }
-MODEL_SOURCES = {
-    FREE_SPACE: "ITU-R P.525",
-    OKUMURA_HATA: "Hata, IEEE Trans. Veh. Technol. 29(3), 1980",
-    COST231_HATA: "COST Action 231 final report (1999), section 4.4",
+# TR 38.901 §7.2 / Table 7.4.1-1: base station heights (UMa and UMi fixed, RMa a range with 35 m default),
+# user heights, and for RMa the average building height h and street width W with their defaults.
+DEFAULT_BASE_HEIGHT_M = {UMA: 25.0, UMI: 10.0, RMA: 35.0}
+DEFAULT_BUILDING_HEIGHT_M = 5.0
+DEFAULT_STREET_WIDTH_M = 20.0
+# Validity as Table 7.4.1-1 and its notes state it: parameter -> (low, high), edges included. UMa allows
+# users up to 22.5 m, but above 13 m its effective environment height is drawn at random (note 1); the
+# deterministic form here (h_E = 1 m) holds below 13 m, so that is where it stops.
+VALIDITY: Mapping[str, Mapping[str, tuple[float, float]]] = {
+    UMA: {"frequency_mhz": (500.0, 100_000.0), "distance_km": (0.01, 5.0), "base_height_m": (25.0, 25.0),
+          "mobile_height_m": (1.5, 13.0)},
+    UMI: {"frequency_mhz": (500.0, 100_000.0), "distance_km": (0.01, 5.0), "base_height_m": (10.0, 10.0),
+          "mobile_height_m": (1.5, 22.5)},
+    RMA: {"frequency_mhz": (500.0, 30_000.0), "distance_km": (0.01, 5.0), "base_height_m": (10.0, 150.0),
+          "mobile_height_m": (1.0, 10.0), "building_height_m": (5.0, 50.0), "street_width_m": (5.0, 50.0)},
 }
-
-# Clutter classes. Okumura-Hata: "urban" is the small/medium city formula, "urban-large" the large city
-# one, "suburban" and "open" Hata's corrections to the small/medium city formula. COST-231 Hata:
-# "urban" and "suburban" both take Cm = 0 dB ("medium sized city and suburban centres"), "urban-large"
-# Cm = 3 dB ("metropolitan centres"); the report gives no open-area form, so "open" is refused there.
-AREAS = ("urban-large", "urban", "suburban", "open")
-COST231_AREAS = ("urban-large", "urban", "suburban")
-
-# Validity ranges as the models' authors state them: parameter -> (low, high), edges included.
-HATA_VALIDITY: Mapping[str, tuple[float, float]] = {
-    "frequency_mhz": (150.0, 1500.0),
-    "distance_km": (1.0, 20.0),
-    "base_height_m": (30.0, 200.0),
-    "mobile_height_m": (1.0, 10.0),
-}
-COST231_VALIDITY: Mapping[str, tuple[float, float]] = {**HATA_VALIDITY, "frequency_mhz": (1500.0, 2000.0)}
-MODEL_VALIDITY: Mapping[str, Mapping[str, tuple[float, float]]] = {
-    OKUMURA_HATA: HATA_VALIDITY, COST231_HATA: COST231_VALIDITY,
-}
-# Hata gives the large-city mobile-height correction in one form up to 200 MHz and another from 400 MHz;
-# between the two we switch at 300 MHz (common practice; ns-3 switches at 200 MHz). Every cellular band
-# lies above 400 MHz, where the choice does not matter.
-HATA_LARGE_CITY_SWITCH_MHZ = 300.0
-# Free space holds at any distance in the far field; the range search stops at these bounds.
-FREE_SPACE_SEARCH_KM = (1e-3, 1e5)
+RMA_LOS_FARTHEST_KM = 10.0  # RMa LOS holds to 10 km, its NLOS form to 5 km
+SPEED_OF_LIGHT_NOTE_M_PER_S = 3.0e8  # Table 7.4.1-1 notes 1 and 5 take c = 3.0 x 10^8 m/s for d_BP
+REFERENCE_POWER_DBM = 23.0  # the UE power the MCL targets of TR 36.888 and TR 45.820 assume (from memory)
 # Bisection stops when the bracket of log10(distance) or of the SNR quantile is this narrow.
 _LOG_DISTANCE_TOLERANCE = 1e-12
 _RELATIVE_QUANTILE_TOLERANCE = 1e-13
@@ -89,13 +82,14 @@ class OutsideValidity(ValueError):
         self.parameter = parameter
         self.value = value
         self.valid = valid
+        label = SCENARIO_LABELS.get(model, model)
         if isinstance(value, str):
             allowed = ", ".join(str(item) for item in valid)
-            message = f"{MODEL_LABELS[model]} does not cover {parameter} {value!r}; it covers {allowed}"
+            message = f"{label} does not cover {parameter} {value!r}; it covers {allowed}"
         else:
             low, high = valid
-            message = (f"{MODEL_LABELS[model]} is valid for {parameter} from {low:g} to {high:g}; "
-                       f"got {value:g}")
+            span = f"{low:g}" if low == high else f"from {low:g} to {high:g}"
+            message = f"{label} is valid for {parameter} {span}; got {value:g}"
         super().__init__(message)
 
 
@@ -103,193 +97,152 @@ class CoverageDataError(ValueError):
     """coverage.toml breaks its own rules (a missing category, environment or source)."""
 
 
-# -- path loss ---------------------------------------------------------------------------------------------
+# -- path loss: 3GPP TR 38.901 Table 7.4.1-1 ----------------------------------------------------------------
 
 def free_space_loss_db(frequency_mhz: float, distance_km: float) -> float:
-    """Basic transmission loss in free space, ITU-R P.525: 32.45 + 20 log f(MHz) + 20 log d(km)."""
+    """Basic transmission loss in free space, ITU-R P.525: 32.45 + 20 log f(MHz) + 20 log d(km). Not a
+    coverage model (it ignores terrain and clutter); kept as the reference the TR 38.901 LOS forms start from."""
     if not (frequency_mhz > 0 and distance_km > 0):
         raise ValueError(f"free-space loss needs a positive frequency and distance; got "
                          f"{frequency_mhz:g} MHz, {distance_km:g} km")
     return 32.45 + 20.0 * math.log10(frequency_mhz) + 20.0 * math.log10(distance_km)
 
 
-def _check_area(model: str, area: str, allowed: Sequence[str]) -> None:
-    if area not in AREAS:
-        raise ValueError(f"area should be one of {', '.join(AREAS)}; got {area!r}")
-    if area not in allowed:
-        raise OutsideValidity(model, "area", area, tuple(allowed))
+@dataclass(frozen=True)
+class Geometry:
+    """Heights and (RMa) surroundings of a link; None base height means the scenario's default."""
 
+    scenario: str = UMA
+    los: bool = False
+    base_height_m: float | None = None
+    mobile_height_m: float = 1.5
+    building_height_m: float = DEFAULT_BUILDING_HEIGHT_M
+    street_width_m: float = DEFAULT_STREET_WIDTH_M
 
-def check_validity(model: str, **values: float) -> None:
-    """Raises OutsideValidity for the first value (frequency_mhz, distance_km, base_height_m,
-    mobile_height_m) outside the model's stated range. Free space has no such limits."""
-    limits = MODEL_VALIDITY.get(model, {})
-    for parameter, value in values.items():
-        if parameter in limits:
+    @property
+    def base_m(self) -> float:
+        return DEFAULT_BASE_HEIGHT_M[self.scenario] if self.base_height_m is None else self.base_height_m
+
+    @property
+    def label(self) -> str:
+        return f"{SCENARIO_LABELS[self.scenario]} {'LOS' if self.los else 'NLOS'}"
+
+    def distance_limits_km(self) -> tuple[float, float]:
+        nearest_km, farthest_km = VALIDITY[self.scenario]["distance_km"]
+        if self.scenario == RMA and self.los:
+            farthest_km = RMA_LOS_FARTHEST_KM
+        return nearest_km, farthest_km
+
+    def check(self, frequency_mhz: float, distance_km: float | None = None) -> None:
+        """Raises OutsideValidity for the first value outside Table 7.4.1-1's stated range."""
+        if self.scenario not in SCENARIOS:
+            raise ValueError(f"scenario should be one of {', '.join(SCENARIOS)}; got {self.scenario!r}")
+        limits = VALIDITY[self.scenario]
+        values: dict[str, float] = {"frequency_mhz": frequency_mhz, "base_height_m": self.base_m,
+                                    "mobile_height_m": self.mobile_height_m}
+        if self.scenario == RMA:
+            values |= {"building_height_m": self.building_height_m, "street_width_m": self.street_width_m}
+        for parameter, value in values.items():
             low, high = limits[parameter]
-            if not low <= value <= high:
-                raise OutsideValidity(model, parameter, value, (low, high))
+            if not (low - 1e-9 <= value <= high + 1e-9):
+                raise OutsideValidity(self.scenario, parameter, value, (low, high))
+        if distance_km is not None:
+            low, high = self.distance_limits_km()
+            if not (low - 1e-12 <= distance_km <= high + 1e-12):
+                raise OutsideValidity(self.scenario, "distance_km", distance_km, (low, high))
 
 
-def _small_city_mobile_correction_db(frequency_mhz: float, mobile_height_m: float) -> float:
-    """a(hm) for a small or medium city (Hata 1980): (1.1 log f - 0.7) hm - (1.56 log f - 0.8)."""
-    log_f = math.log10(frequency_mhz)
-    return (1.1 * log_f - 0.7) * mobile_height_m - (1.56 * log_f - 0.8)
+def breakpoint_distance_m(frequency_mhz: float, geometry: Geometry) -> float:
+    """Table 7.4.1-1 notes 1 and 5: RMa d_BP = 2 pi h_BS h_UT f_c / c; UMa and UMi d'_BP = 4 h'_BS h'_UT
+    f_c / c with effective heights h' = h - h_E, h_E = 1 m (UMi always, UMa for users below 13 m)."""
+    frequency_hz = frequency_mhz * 1e6
+    if geometry.scenario == RMA:
+        return 2.0 * math.pi * geometry.base_m * geometry.mobile_height_m * frequency_hz / SPEED_OF_LIGHT_NOTE_M_PER_S
+    return (4.0 * (geometry.base_m - 1.0) * (geometry.mobile_height_m - 1.0) * frequency_hz
+            / SPEED_OF_LIGHT_NOTE_M_PER_S)
 
 
-def _large_city_mobile_correction_db(frequency_mhz: float, mobile_height_m: float) -> float:
-    """a(hm) for a large city (Hata 1980): 8.29 (log 1.54 hm)^2 - 1.1 at low frequencies,
-    3.2 (log 11.75 hm)^2 - 4.97 at high ones."""
-    if frequency_mhz < HATA_LARGE_CITY_SWITCH_MHZ:
-        return 8.29 * math.log10(1.54 * mobile_height_m) ** 2 - 1.1
-    return 3.2 * math.log10(11.75 * mobile_height_m) ** 2 - 4.97
+def _rma_los_db(frequency_ghz: float, distance_3d_m: float, building_height_m: float) -> float:
+    h = building_height_m
+    return (20.0 * math.log10(40.0 * math.pi * distance_3d_m * frequency_ghz / 3.0)
+            + min(0.03 * h**1.72, 10.0) * math.log10(distance_3d_m) - min(0.044 * h**1.72, 14.77)
+            + 0.002 * math.log10(h) * distance_3d_m)
 
 
-def hata_distance_slope_db_per_decade(base_height_m: float) -> float:
-    """How many dB the Hata and COST-231 Hata losses grow per tenfold distance: 44.9 - 6.55 log hb."""
-    return 44.9 - 6.55 * math.log10(base_height_m)
+def _los_db(frequency_mhz: float, distance_2d_m: float, geometry: Geometry) -> float:
+    fc = frequency_mhz / 1000.0
+    height_difference_m = geometry.base_m - geometry.mobile_height_m
+    distance_3d_m = math.hypot(distance_2d_m, height_difference_m)
+    breakpoint_m = breakpoint_distance_m(frequency_mhz, geometry)
+    if geometry.scenario == RMA:
+        if distance_2d_m <= breakpoint_m:
+            return _rma_los_db(fc, distance_3d_m, geometry.building_height_m)
+        return (_rma_los_db(fc, breakpoint_m, geometry.building_height_m)
+                + 40.0 * math.log10(distance_3d_m / breakpoint_m))
+    near_slope, constant, far_term = (22.0, 28.0, 9.0) if geometry.scenario == UMA else (21.0, 32.4, 9.5)
+    if distance_2d_m <= breakpoint_m:
+        return constant + near_slope * math.log10(distance_3d_m) + 20.0 * math.log10(fc)
+    return (constant + 40.0 * math.log10(distance_3d_m) + 20.0 * math.log10(fc)
+            - far_term * math.log10(breakpoint_m**2 + height_difference_m**2))
 
 
-def okumura_hata_loss_db(
-    frequency_mhz: float, distance_km: float, base_height_m: float = 30.0, mobile_height_m: float = 1.5,
-    area: str = "urban",
-) -> float:
-    """Median path loss by Hata's formulas (IEEE Trans. Veh. Technol. 29(3), 1980).
-
-    Urban: 69.55 + 26.16 log f - 13.82 log hb - a(hm) + (44.9 - 6.55 log hb) log d, with a(hm) of the
-    small/medium city ("urban", also the base of "suburban" and "open") or of the large city
-    ("urban-large"). Suburban: urban - 2 (log(f / 28))^2 - 5.4. Open: urban - 4.78 (log f)^2 +
-    18.33 log f - 40.94. Raises OutsideValidity outside 150-1500 MHz, 1-20 km, hb 30-200 m, hm 1-10 m.
-    """
-    _check_area(OKUMURA_HATA, area, AREAS)
-    check_validity(OKUMURA_HATA, frequency_mhz=frequency_mhz, distance_km=distance_km,
-                   base_height_m=base_height_m, mobile_height_m=mobile_height_m)
-    log_f = math.log10(frequency_mhz)
-    if area == "urban-large":
-        mobile_correction_db = _large_city_mobile_correction_db(frequency_mhz, mobile_height_m)
-    else:
-        mobile_correction_db = _small_city_mobile_correction_db(frequency_mhz, mobile_height_m)
-    urban_db = (69.55 + 26.16 * log_f - 13.82 * math.log10(base_height_m) - mobile_correction_db
-                + hata_distance_slope_db_per_decade(base_height_m) * math.log10(distance_km))
-    if area == "suburban":
-        return urban_db - 2.0 * math.log10(frequency_mhz / 28.0) ** 2 - 5.4
-    if area == "open":
-        return urban_db - 4.78 * log_f**2 + 18.33 * log_f - 40.94
-    return urban_db
+def _nlos_prime_db(frequency_mhz: float, distance_2d_m: float, geometry: Geometry) -> float:
+    fc = frequency_mhz / 1000.0
+    h_bs, h_ut = geometry.base_m, geometry.mobile_height_m
+    distance_3d_m = math.hypot(distance_2d_m, h_bs - h_ut)
+    if geometry.scenario == UMA:
+        return 13.54 + 39.08 * math.log10(distance_3d_m) + 20.0 * math.log10(fc) - 0.6 * (h_ut - 1.5)
+    if geometry.scenario == UMI:
+        return 35.3 * math.log10(distance_3d_m) + 22.4 + 21.3 * math.log10(fc) - 0.3 * (h_ut - 1.5)
+    h, width = geometry.building_height_m, geometry.street_width_m
+    return (161.04 - 7.1 * math.log10(width) + 7.5 * math.log10(h)
+            - (24.37 - 3.7 * (h / h_bs) ** 2) * math.log10(h_bs)
+            + (43.42 - 3.1 * math.log10(h_bs)) * (math.log10(distance_3d_m) - 3.0)
+            + 20.0 * math.log10(fc) - (3.2 * math.log10(11.75 * h_ut) ** 2 - 4.97))
 
 
-def cost231_hata_loss_db(
-    frequency_mhz: float, distance_km: float, base_height_m: float = 30.0, mobile_height_m: float = 1.5,
-    area: str = "urban",
-) -> float:
-    """Median path loss by COST-231 Hata (COST 231 final report, section 4.4).
-
-    46.3 + 33.9 log f - 13.82 log hb - a(hm) + (44.9 - 6.55 log hb) log d + Cm, with Hata's a(hm): the
-    small/medium city form and Cm = 0 dB for "urban" and "suburban" (the report's "medium sized city and
-    suburban centres"), the large-city form and Cm = 3 dB for "urban-large" ("metropolitan centres").
-    The report has no open-area form: "open" raises OutsideValidity, as do values outside 1500-2000 MHz,
-    1-20 km, hb 30-200 m, hm 1-10 m.
-    """
-    _check_area(COST231_HATA, area, COST231_AREAS)
-    check_validity(COST231_HATA, frequency_mhz=frequency_mhz, distance_km=distance_km,
-                   base_height_m=base_height_m, mobile_height_m=mobile_height_m)
-    return _cost231_formula_db(frequency_mhz, distance_km, base_height_m, mobile_height_m, area)
+def path_loss_db(frequency_mhz: float, distance_km: float, geometry: Geometry = Geometry()) -> float:
+    """Median path loss (no shadow fading) of TR 38.901 Table 7.4.1-1 at a 2D distance. NLOS is the larger
+    of the LOS form and the NLOS form PL', as the table defines it. Raises OutsideValidity outside the
+    table's frequency, distance, height and (RMa) building and street ranges."""
+    geometry.check(frequency_mhz, distance_km)
+    distance_2d_m = distance_km * 1000.0
+    los_db = _los_db(frequency_mhz, distance_2d_m, geometry)
+    if geometry.los:
+        return los_db
+    return max(los_db, _nlos_prime_db(frequency_mhz, distance_2d_m, geometry))
 
 
-def _cost231_formula_db(
-    frequency_mhz: float, distance_km: float, base_height_m: float, mobile_height_m: float, area: str,
-) -> float:
-    """COST-231 Hata's formula without its validity checks (tests compare it with values computed
-    beyond 2000 MHz elsewhere; the engine always goes through cost231_hata_loss_db)."""
-    if area == "urban-large":
-        mobile_correction_db = _large_city_mobile_correction_db(frequency_mhz, mobile_height_m)
-        metropolitan_db = 3.0
-    else:
-        mobile_correction_db = _small_city_mobile_correction_db(frequency_mhz, mobile_height_m)
-        metropolitan_db = 0.0
-    return (46.3 + 33.9 * math.log10(frequency_mhz) - 13.82 * math.log10(base_height_m) - mobile_correction_db
-            + hata_distance_slope_db_per_decade(base_height_m) * math.log10(distance_km) + metropolitan_db)
+def distance_slope_db_per_decade(geometry: Geometry) -> float:
+    """dB of extra loss per tenfold distance far from the mast: the NLOS forms' coefficients of log10(d3D)
+    (UMa 39.08, UMi 35.3, RMa 43.42 - 3.1 log h_BS), or 40 beyond the LOS breakpoint."""
+    if geometry.los:
+        return 40.0
+    if geometry.scenario == UMA:
+        return 39.08
+    if geometry.scenario == UMI:
+        return 35.3
+    return 43.42 - 3.1 * math.log10(geometry.base_m)
 
 
-def path_loss_db(
-    frequency_mhz: float, distance_km: float, model: str, *, base_height_m: float = 30.0,
-    mobile_height_m: float = 1.5, area: str = "urban",
-) -> float:
-    """Path loss by the named model (one of MODELS); heights and area are ignored by free space."""
-    if model == FREE_SPACE:
-        return free_space_loss_db(frequency_mhz, distance_km)
-    if model == OKUMURA_HATA:
-        return okumura_hata_loss_db(frequency_mhz, distance_km, base_height_m, mobile_height_m, area)
-    if model == COST231_HATA:
-        return cost231_hata_loss_db(frequency_mhz, distance_km, base_height_m, mobile_height_m, area)
-    raise ValueError(f"model should be one of {', '.join(MODELS)}; got {model!r}")
-
-
-def distance_slope_db_per_decade(model: str, base_height_m: float = 30.0) -> float:
-    """dB of extra loss per tenfold distance: 20 in free space, 44.9 - 6.55 log hb for both Hata models."""
-    if model == FREE_SPACE:
-        return 20.0
-    if model in MODEL_VALIDITY:
-        return hata_distance_slope_db_per_decade(base_height_m)
-    raise ValueError(f"model should be one of {', '.join(MODELS)}; got {model!r}")
-
-
-def distance_limits_km(model: str) -> tuple[float, float]:
-    """The distances a model answers for: its validity range, or the search bounds for free space."""
-    if model == FREE_SPACE:
-        return FREE_SPACE_SEARCH_KM
-    return MODEL_VALIDITY[model]["distance_km"]
-
-
-def max_range_km(
-    frequency_mhz: float, allowed_loss_db: float, model: str, *, base_height_m: float = 30.0,
-    mobile_height_m: float = 1.5, area: str = "urban",
-) -> float | None:
-    """The distance at which the model's path loss reaches `allowed_loss_db`, found by bisection on
-    log10(distance). None when that distance lies outside the model's distance range (below 1 km or
-    beyond 20 km for the Hata models). Raises OutsideValidity for a frequency, height or area the model
-    does not cover."""
-
-    def loss_at(distance_km: float) -> float:
-        return path_loss_db(frequency_mhz, distance_km, model, base_height_m=base_height_m,
-                            mobile_height_m=mobile_height_m, area=area)
-
-    nearest_km, farthest_km = distance_limits_km(model)
-    if not loss_at(nearest_km) <= allowed_loss_db <= loss_at(farthest_km):
+def max_range_km(frequency_mhz: float, allowed_loss_db: float, geometry: Geometry = Geometry()) -> float | None:
+    """The 2D distance at which the path loss reaches `allowed_loss_db`, found by bisection on
+    log10(distance). None when that distance lies outside the model's distances (below 10 m or beyond
+    5 km, 10 km for RMa LOS). Raises OutsideValidity for a frequency or height the model does not cover."""
+    nearest_km, farthest_km = geometry.distance_limits_km()
+    if not path_loss_db(frequency_mhz, nearest_km, geometry) <= allowed_loss_db <= path_loss_db(
+            frequency_mhz, farthest_km, geometry):
         return None
     low, high = math.log10(nearest_km), math.log10(farthest_km)
-    # Path loss grows with distance in every model here (the Hata slope stays above 29 dB per decade
-    # for masts up to 200 m), so the bracket always holds the answer.
+    # Every form of the table grows with distance (the NLOS max of two growing functions too), so the
+    # bracket always holds the answer.
     while high - low > _LOG_DISTANCE_TOLERANCE:
         middle = (low + high) / 2.0
-        if loss_at(10.0**middle) < allowed_loss_db:
+        if path_loss_db(frequency_mhz, 10.0**middle, geometry) < allowed_loss_db:
             low = middle
         else:
             high = middle
     return min(farthest_km, max(nearest_km, float(10.0 ** ((low + high) / 2.0))))
-
-
-@dataclass(frozen=True)
-class ModelChoice:
-    model: str
-    reason: str | None  # why a preferred model was refused, None when an empirical model applies
-
-
-def choose_model(
-    frequency_mhz: float, *, area: str, base_height_m: float, mobile_height_m: float,
-) -> ModelChoice:
-    """Okumura-Hata up to 1500 MHz, COST-231 Hata from there to 2000 MHz; free space (which ignores
-    terrain and clutter) when neither covers the frequency, heights or area, with the reasons."""
-    refusals = []
-    for model, function in ((OKUMURA_HATA, okumura_hata_loss_db), (COST231_HATA, cost231_hata_loss_db)):
-        try:
-            nearest_km = MODEL_VALIDITY[model]["distance_km"][0]
-            function(frequency_mhz, nearest_km, base_height_m, mobile_height_m, area)
-        except OutsideValidity as refusal:
-            refusals.append(str(refusal))
-            continue
-        return ModelChoice(model, None)
-    return ModelChoice(FREE_SPACE, "; ".join(refusals))
 
 
 # -- second receive antenna ------------------------------------------------------------------------------
@@ -415,19 +368,71 @@ def area_share_ratio(gain_db: float, slope_db_per_decade: float) -> float:
     return float(10.0 ** (-2.0 * gain_db / slope_db_per_decade))
 
 
+# -- one receive branch fewer: the published figures and the fading bound -----------------------------------
+
+@dataclass(frozen=True)
+class SingleBranchCost:
+    """What the downlink loses without the second receive branch, as a range with its assumptions.
+
+    static_db: the array gain alone, 10 log10(1 + eta2 / eta1) (3 dB for equal antennas). low_db, high_db,
+    headline_db: the published single-branch figures for equal branches (coverage.toml [single_branch]), less
+    the array gain a weaker second antenna would not have brought, and never above the bound. bound_db: the
+    flat-Rayleigh MRC gain at the outage probability (second_antenna_gain), the most a second branch adds
+    when nothing else in the link fights fading.
+    """
+
+    static_db: float
+    low_db: float
+    headline_db: float
+    high_db: float
+    bound: SecondAntennaGain
+    source: str
+
+    @property
+    def bound_db(self) -> float:
+        return self.bound.total_db
+
+
+def single_branch_cost(
+    published: "PublishedSingleBranch", outage_probability: float = 0.01, ecc: float = 0.0,
+    efficiency_ratio: float = 1.0,
+) -> SingleBranchCost:
+    bound = second_antenna_gain(outage_probability, ecc, efficiency_ratio)
+    static_db = bound.array_gain_db
+    shortfall_db = 10.0 * math.log10(2.0) - static_db  # array gain a weaker second antenna does not bring
+
+    def scaled(figure_db: float) -> float:
+        return max(0.0, min(bound.total_db, figure_db - shortfall_db))
+
+    return SingleBranchCost(
+        static_db=static_db,
+        low_db=scaled(published.fading_low_db),
+        headline_db=scaled(published.headline_db),
+        high_db=scaled(published.fading_high_db),
+        bound=bound,
+        source=published.source,
+    )
+
+
 # -- data: coverage targets, entry losses, defaults -------------------------------------------------------
 
 @dataclass(frozen=True)
 class CoverageTarget:
     category: str
-    reference_db: float
-    improvement_db: float
-    reference_rx_antennas: int
-    source: str
+    ul_mcl_db: float
+    dl_mcl_db: float
+    dl_reference_rx_antennas: int
+    ul_source: str
+    dl_source: str
 
-    @property
-    def mcl_db(self) -> float:
-        return self.reference_db + self.improvement_db
+
+@dataclass(frozen=True)
+class PublishedSingleBranch:
+    static_db: float
+    fading_low_db: float
+    fading_high_db: float
+    headline_db: float
+    source: str
 
 
 @dataclass(frozen=True)
@@ -439,8 +444,8 @@ class EntryLoss:
 
 @dataclass(frozen=True)
 class Assumptions:
-    area: str
-    base_height_m: float
+    scenario: str
+    los: bool
     mobile_height_m: float
     outage_probability: float
     reference_distance_km: float
@@ -453,6 +458,7 @@ class Assumptions:
 @dataclass(frozen=True)
 class CoverageData:
     targets: Mapping[str, CoverageTarget]
+    single_branch: PublishedSingleBranch
     entry_losses: Mapping[str, EntryLoss]
     assumptions: Assumptions
 
@@ -472,30 +478,35 @@ def _text(table: Mapping[str, Any], key: str, where: str) -> str:
 
 
 def parse_coverage_data(tables: Mapping[str, Any]) -> CoverageData:
-    """Checks and types the decoded coverage.toml: every category has a target and every environment an
-    entry loss, each with a source."""
-    references = tables.get("references", {})
+    """Checks and types the decoded coverage.toml: every category has a target per direction and every
+    environment an entry loss, each with a source."""
     targets: dict[str, CoverageTarget] = {}
     for category_id, table in tables.get("targets", {}).items():
         where = f"targets.{category_id}"
-        reference_name = _text(table, "reference", where)
-        if reference_name not in references:
-            raise CoverageDataError(f"coverage.toml [{where}]: reference {reference_name!r} is not in "
-                                    "[references]")
-        rx_antennas = table.get("reference_rx_antennas")
+        rx_antennas = table.get("dl_reference_rx_antennas")
         if rx_antennas not in (1, 2) or isinstance(rx_antennas, bool):
-            raise CoverageDataError(f"coverage.toml [{where}]: reference_rx_antennas should be 1 or 2")
-        _text(references[reference_name], "source", f"references.{reference_name}")
+            raise CoverageDataError(f"coverage.toml [{where}]: dl_reference_rx_antennas should be 1 or 2")
         targets[category_id] = CoverageTarget(
             category=category_id,
-            reference_db=_number(references[reference_name], "mcl_db", f"references.{reference_name}"),
-            improvement_db=_number(table, "improvement_db", where),
-            reference_rx_antennas=int(rx_antennas),
-            source=_text(table, "source", where),
+            ul_mcl_db=_number(table, "ul_mcl_db", where),
+            dl_mcl_db=_number(table, "dl_mcl_db", where),
+            dl_reference_rx_antennas=int(rx_antennas),
+            ul_source=_text(table, "ul_source", where),
+            dl_source=_text(table, "dl_source", where),
         )
     missing = sorted(set(categories()) - set(targets))
     if missing:
         raise CoverageDataError(f"coverage.toml: no coverage target for {', '.join(missing)}")
+
+    branch = tables.get("single_branch", {})
+    published = PublishedSingleBranch(
+        **{name: _number(branch, name, "single_branch")
+           for name in ("static_db", "fading_low_db", "fading_high_db", "headline_db")},
+        source=_text(branch, "source", "single_branch"),
+    )
+    if not 0 <= published.fading_low_db <= published.headline_db <= published.fading_high_db:
+        raise CoverageDataError("coverage.toml [single_branch]: expected fading_low_db <= headline_db <= "
+                                "fading_high_db")
 
     losses: dict[str, EntryLoss] = {}
     for environment, table in tables.get("entry_loss", {}).items():
@@ -511,19 +522,22 @@ def parse_coverage_data(tables: Mapping[str, Any]) -> CoverageData:
         raise CoverageDataError(f"coverage.toml: no entry loss for {', '.join(missing)}")
 
     defaults = tables.get("defaults", {})
-    names = ("base_height_m", "mobile_height_m", "outage_probability", "reference_distance_km",
-             "base_gain_db", "assumed_ecc", "assumed_efficiency_ratio")
+    names = ("mobile_height_m", "outage_probability", "reference_distance_km", "base_gain_db", "assumed_ecc",
+             "assumed_efficiency_ratio")
     numbers = {name: _number(defaults, name, "defaults") for name in names}
-    source_keys = {"area": "area_source", "base_height_m": "base_height_source",
-                   "mobile_height_m": "mobile_height_source", "outage_probability": "outage_source",
-                   "reference_distance_km": "reference_distance_source", "base_gain_db": "base_gain_source",
-                   "assumed_ecc": "assumed_ecc_source",
+    source_keys = {"scenario": "scenario_source", "los": "los_source", "mobile_height_m": "mobile_height_source",
+                   "outage_probability": "outage_source", "reference_distance_km": "reference_distance_source",
+                   "base_gain_db": "base_gain_source", "assumed_ecc": "assumed_ecc_source",
                    "assumed_efficiency_ratio": "assumed_efficiency_ratio_source"}
     sources = {name: _text(defaults, key, "defaults") for name, key in source_keys.items()}
-    area = _text(defaults, "area", "defaults")
-    if area not in AREAS:
-        raise CoverageDataError(f"coverage.toml [defaults]: area should be one of {AREAS}")
-    return CoverageData(targets, losses, Assumptions(area=area, sources=sources, **numbers))
+    scenario = _text(defaults, "scenario", "defaults")
+    if scenario not in SCENARIOS:
+        raise CoverageDataError(f"coverage.toml [defaults]: scenario should be one of {SCENARIOS}")
+    los = defaults.get("los")
+    if not isinstance(los, bool):
+        raise CoverageDataError("coverage.toml [defaults]: los should be true or false")
+    return CoverageData(targets, published, losses,
+                        Assumptions(scenario=scenario, los=los, sources=sources, **numbers))
 
 
 @cache
@@ -536,78 +550,145 @@ def coverage_data() -> CoverageData:
 
 @dataclass(frozen=True)
 class CoverageAnalysis:
-    """One band's downlink budget with one and with two receive antennas (see module docstring)."""
+    """One band's budget in both directions, with the downlink with one and with two receive antennas
+    (see the module docstring). Allowed losses are path losses the link can take; margins are what is left
+    at the reference distance; None ranges and margins mean the model does not cover the case (model_reason)."""
 
     band: str
     frequency_mhz: float  # the band's lowest downlink frequency
-    model: str
-    model_reason: str | None  # why an empirical model was refused (then model is free space)
-    area: str
-    base_height_m: float
-    mobile_height_m: float
+    ul_frequency_mhz: float | None  # the band's lowest uplink frequency; None for an SDL band
+    geometry: Geometry
+    model_reason: str | None  # why TR 38.901 refused this band (then no margin or range is given)
     target: CoverageTarget
-    base_gain_db: float  # net gain of the base station's antenna and feeder
+    power_class: int
+    max_output_dbm: float
+    power_class_source: str
+    base_gain_db: float
     environment: str
     environment_given: bool
     entry_loss_db: float
     entry_loss_source: str
-    antenna_loss_db: float  # -10 log10(efficiency) of the first antenna in the band; 0 when not entered
+    antenna_loss_db: float  # -10 log10(efficiency) of the main antenna in the band; 0 when not entered
     antenna_loss_source: str
-    gain: SecondAntennaGain
+    cable_loss_db: float  # the main antenna's feed
+    cost: SingleBranchCost
     ecc_source: str
     efficiency_source: str
     fitted_rx_antennas: int  # receive antennas the design connects: 2 means the two-antenna case is real
-    allowed_loss_one_db: float
-    allowed_loss_two_db: float
+    allowed_ul_db: float | None
+    allowed_dl_one_db: float
+    allowed_dl_two_db: float
     reference_distance_km: float
-    path_loss_reference_db: float
+    path_loss_dl_reference_db: float | None
+    path_loss_ul_reference_db: float | None
     range_one_km: float | None
     range_two_km: float | None
     range_note: str | None
-    distance_slope_db_per_decade: float
 
     @property
-    def empirical(self) -> bool:
-        """True when an Okumura-Hata model applies (ranges and area share then mean something)."""
-        return self.model != FREE_SPACE
+    def modelled(self) -> bool:
+        """True when TR 38.901 covers the band (margins, ranges and area shares then mean something)."""
+        return self.model_reason is None
 
     @property
-    def second_antenna_gain_db(self) -> float:
-        return self.gain.total_db
+    def model_label(self) -> str:
+        return self.geometry.label
 
     @property
-    def margin_one_db(self) -> float:
-        return self.allowed_loss_one_db - self.path_loss_reference_db
+    def distance_slope_db_per_decade(self) -> float:
+        return distance_slope_db_per_decade(self.geometry)
 
     @property
-    def margin_two_db(self) -> float:
-        return self.allowed_loss_two_db - self.path_loss_reference_db
+    def margin_ul_db(self) -> float | None:
+        if self.allowed_ul_db is None or self.path_loss_ul_reference_db is None:
+            return None
+        return self.allowed_ul_db - self.path_loss_ul_reference_db
+
+    def margin_dl_db(self, antennas: int) -> float | None:
+        if self.path_loss_dl_reference_db is None:
+            return None
+        allowed_db = self.allowed_dl_two_db if antennas >= 2 else self.allowed_dl_one_db
+        return allowed_db - self.path_loss_dl_reference_db
+
+    def limiting_direction(self, antennas: int) -> str:
+        """"ul" when the uplink has less margin than the downlink with this many receive antennas, else "dl"
+        (an SDL band has only a downlink; unmodelled bands compare allowed losses)."""
+        if self.allowed_ul_db is None:
+            return "dl"
+        margin_ul, margin_dl = self.margin_ul_db, self.margin_dl_db(antennas)
+        if margin_ul is None or margin_dl is None:
+            allowed_dl = self.allowed_dl_two_db if antennas >= 2 else self.allowed_dl_one_db
+            return "ul" if self.allowed_ul_db < allowed_dl else "dl"
+        return "ul" if margin_ul < margin_dl else "dl"
+
+    def margin_db(self, antennas: int) -> float | None:
+        """Coverage margin at the reference distance: the smaller of the two directions'."""
+        margins = [margin for margin in (self.margin_ul_db, self.margin_dl_db(antennas)) if margin is not None]
+        if self.path_loss_dl_reference_db is None:
+            return None
+        return min(margins)
+
+    @property
+    def margin_one_db(self) -> float | None:
+        return self.margin_db(1)
+
+    @property
+    def margin_two_db(self) -> float | None:
+        return self.margin_db(2)
+
+    def coverage_loss_db(self, branch_cost_db: float) -> float:
+        """How much of a downlink loss of `branch_cost_db` reaches the coverage: none while the uplink
+        still limits, all of it once the downlink does (margins compared at each direction's frequency)."""
+        if self.allowed_ul_db is None:
+            return branch_cost_db
+        if self.margin_ul_db is not None and self.margin_dl_db(2) is not None:
+            headroom_db = self.margin_dl_db(2) - self.margin_ul_db  # type: ignore[operator]
+        else:
+            headroom_db = self.allowed_dl_two_db - self.allowed_ul_db
+        return max(0.0, branch_cost_db - max(0.0, headroom_db))
+
+    def area_share_ratio_for(self, branch_cost_db: float) -> float:
+        """Area a single receive antenna covers as a share of two antennas', from the coverage it loses at
+        the model's distance slope far from the mast, (r1 / r2)^2."""
+        return area_share_ratio(self.coverage_loss_db(branch_cost_db), self.distance_slope_db_per_decade)
 
     @property
     def area_share_ratio(self) -> float:
-        """Area a single antenna covers as a share of two antennas': (r1 / r2)^2. Computed from the
-        distance slope, so it holds even where the ranges fall outside the model's distance range."""
-        return area_share_ratio(self.gain.total_db, self.distance_slope_db_per_decade)
+        return self.area_share_ratio_for(self.cost.headline_db)
 
     @property
     def area_share_pct(self) -> float:
         return 100.0 * self.area_share_ratio
 
+    @property
+    def area_share_bound_pct(self) -> float:
+        return 100.0 * self.area_share_ratio_for(self.cost.bound_db)
+
     def as_dict(self) -> dict[str, Any]:
         """A row for JSON and templates: every key names its unit, numbers rounded as evidence is."""
+        cost = self.cost
         row: dict[str, Any] = {
             "band": self.band,
             "frequency_mhz": self.frequency_mhz,
-            "model": self.model,
-            "model_label": MODEL_LABELS[self.model],
-            "model_source": MODEL_SOURCES[self.model],
+            "ul_frequency_mhz": self.ul_frequency_mhz,
+            "model": self.geometry.scenario,
+            "model_label": self.model_label,
+            "model_source": TR_38_901,
             "model_reason": self.model_reason,
-            "area": self.area,
-            "base_height_m": self.base_height_m,
-            "mobile_height_m": self.mobile_height_m,
-            "mcl_db": self.target.mcl_db,
-            "mcl_source": self.target.source,
-            "reference_rx_antennas": self.target.reference_rx_antennas,
+            "scenario": self.geometry.scenario,
+            "los": self.geometry.los,
+            "base_height_m": self.geometry.base_m,
+            "mobile_height_m": self.geometry.mobile_height_m,
+            "mcl_db": self.target.dl_mcl_db,
+            "mcl_source": self.target.dl_source,
+            "mcl_dl_db": self.target.dl_mcl_db,
+            "mcl_dl_source": self.target.dl_source,
+            "mcl_ul_db": self.target.ul_mcl_db if self.allowed_ul_db is not None else None,
+            "mcl_ul_source": self.target.ul_source,
+            "reference_rx_antennas": self.target.dl_reference_rx_antennas,
+            "power_class": self.power_class,
+            "max_output_dbm": self.max_output_dbm,
+            "power_class_source": self.power_class_source,
             "base_gain_db": self.base_gain_db,
             "environment": self.environment,
             "environment_given": self.environment_given,
@@ -615,63 +696,54 @@ class CoverageAnalysis:
             "entry_loss_source": self.entry_loss_source,
             "antenna_loss_db": self.antenna_loss_db,
             "antenna_loss_source": self.antenna_loss_source,
-            "outage_pct": 100.0 * self.gain.outage_probability,
-            "ecc": self.gain.ecc,
+            "cable_loss_db": self.cable_loss_db,
+            "outage_pct": 100.0 * cost.bound.outage_probability,
+            "ecc": cost.bound.ecc,
             "ecc_source": self.ecc_source,
-            "efficiency_ratio": self.gain.efficiency_ratio,
+            "efficiency_ratio": cost.bound.efficiency_ratio,
             "efficiency_source": self.efficiency_source,
-            "array_gain_db": self.gain.array_gain_db,
-            "diversity_gain_db": self.gain.diversity_gain_db,
-            "second_antenna_gain_db": self.gain.total_db,
+            "single_branch_cost_db": cost.headline_db,
+            "single_branch_cost_range_db": [cost.low_db, cost.high_db],
+            "single_branch_static_db": cost.static_db,
+            "single_branch_source": cost.source,
+            "fading_bound_db": cost.bound_db,
+            "array_gain_db": cost.bound.array_gain_db,
+            "diversity_gain_db": cost.bound.diversity_gain_db,
+            "second_antenna_gain_db": cost.headline_db,
             "fitted_rx_antennas": self.fitted_rx_antennas,
-            "allowed_loss_one_db": self.allowed_loss_one_db,
-            "allowed_loss_two_db": self.allowed_loss_two_db,
+            "allowed_ul_db": self.allowed_ul_db,
+            "allowed_loss_one_db": self.allowed_dl_one_db,
+            "allowed_loss_two_db": self.allowed_dl_two_db,
             "reference_distance_km": self.reference_distance_km,
-            "path_loss_reference_db": self.path_loss_reference_db,
+            "margin_ul_db": self.margin_ul_db,
+            "margin_dl_one_db": self.margin_dl_db(1),
+            "margin_dl_two_db": self.margin_dl_db(2),
             "margin_one_db": self.margin_one_db,
             "margin_two_db": self.margin_two_db,
+            "limiting_one": self.limiting_direction(1),
+            "limiting_two": self.limiting_direction(2),
             "range_one_km": self.range_one_km,
             "range_two_km": self.range_two_km,
             "range_note": self.range_note,
             "distance_slope_db_per_decade": self.distance_slope_db_per_decade,
-            "area_share_pct": self.area_share_pct,
+            "area_share_pct": self.area_share_pct if self.modelled else None,
+            "area_share_bound_pct": self.area_share_bound_pct if self.modelled else None,
         }
         return {key: round_evidence(key, value) for key, value in row.items()}
-
-    def chart_series(self, points: int = 40) -> dict[str, Any]:
-        """Data for a range chart: the model's path loss over its distance range (log-spaced), the allowed
-        loss with one and with two antennas as horizontal lines, and where they cross (the ranges)."""
-        if points < 2:
-            raise ValueError("a chart needs at least 2 points")
-        nearest_km, farthest_km = (distance_limits_km(self.model) if self.empirical
-                                   else MODEL_VALIDITY[OKUMURA_HATA]["distance_km"])
-        step = (math.log10(farthest_km) - math.log10(nearest_km)) / (points - 1)
-        distances_km = [10.0 ** (math.log10(nearest_km) + index * step) for index in range(points - 1)]
-        distances_km.append(farthest_km)
-        losses_db = [path_loss_db(self.frequency_mhz, distance_km, self.model,
-                                  base_height_m=self.base_height_m, mobile_height_m=self.mobile_height_m,
-                                  area=self.area)
-                     for distance_km in distances_km]
-        return {
-            "band": self.band,
-            "model_label": MODEL_LABELS[self.model],
-            "distance_km": [round(value, 4) for value in distances_km],
-            "path_loss_db": [round(value, 2) for value in losses_db],
-            "allowed_loss_one_db": round(self.allowed_loss_one_db, 2),
-            "allowed_loss_two_db": round(self.allowed_loss_two_db, 2),
-            "range_one_km": self.range_one_km,
-            "range_two_km": self.range_two_km,
-        }
 
 
 # Columns of the coverage table: key of CoverageAnalysis.as_dict(), heading, unit.
 TABLE_COLUMNS: tuple[tuple[str, str, str], ...] = (
     ("band", "Band", ""),
     ("frequency_mhz", "DL from", "MHz"),
+    ("ul_frequency_mhz", "UL from", "MHz"),
     ("model_label", "Path-loss model", ""),
-    ("mcl_db", "Coverage target (MCL)", "dB"),
+    ("mcl_dl_db", "DL target (MCL)", "dB"),
+    ("mcl_ul_db", "UL target (MCL)", "dB"),
     ("entry_loss_db", "Entry loss", "dB"),
-    ("second_antenna_gain_db", "Second antenna adds", "dB"),
+    ("single_branch_cost_db", "One receive branch fewer costs (DL)", "dB"),
+    ("fading_bound_db", "Flat-Rayleigh bound", "dB"),
+    ("limiting_one", "Limits with 1 antenna", ""),
     ("margin_one_db", "Margin at reference distance, 1 antenna", "dB"),
     ("margin_two_db", "Margin at reference distance, 2 antennas", "dB"),
     ("range_one_km", "Range, 1 antenna", "km"),
@@ -710,36 +782,30 @@ def measured_ecc(
     return worst
 
 
-def _range_note(
-    analysis_model: str, ranges: tuple[float | None, float | None], allowed_db: tuple[float, float],
-    limits_db: tuple[float, float],
-) -> str | None:
-    if analysis_model == FREE_SPACE:
-        return ("No range is estimated: free space ignores terrain, buildings and clutter and would "
-                "overstate it many times. The area share uses the free-space distance slope (20 dB per "
-                "decade), which makes the single antenna's share smaller than a cluttered path would.")
-    nearest_km, farthest_km = distance_limits_km(analysis_model)
+def _range_note(geometry: Geometry, limiting: Sequence[tuple[str, float, float, float | None]]) -> str | None:
+    """Why a range is missing: (label, frequency, allowed loss, range) for one and two antennas."""
+    nearest_km, farthest_km = geometry.distance_limits_km()
     notes = []
-    labels = ("one antenna", "two antennas")
-    for label, range_km, allowed_loss_db in zip(labels, ranges, allowed_db, strict=True):
+    for label, frequency_mhz, allowed_db, range_km in limiting:
         if range_km is not None:
             continue
-        if allowed_loss_db < limits_db[0]:
-            notes.append(f"with {label} the link closes at less than {nearest_km:g} km, the model's shortest "
-                         "distance")
+        if allowed_db < path_loss_db(frequency_mhz, nearest_km, geometry):
+            notes.append(f"with {label} the link closes at less than {1000 * nearest_km:g} m, the model's "
+                         "shortest distance")
         else:
             notes.append(f"with {label} the link would reach beyond {farthest_km:g} km, the model's longest "
                          "distance")
     if not notes:
         return None
-    return ("; ".join(notes).capitalize() + ". The area share still follows from the model's distance slope.")
+    return "; ".join(notes).capitalize() + ". The area share still follows from the model's distance slope."
 
 
 def analyse_coverage(
     design: Design | CheckContext,
     measurements: Sequence[LoadedMeasurement] = (),
     *,
-    area: str | None = None,
+    scenario: str | None = None,
+    los: bool | None = None,
     base_height_m: float | None = None,
     mobile_height_m: float | None = None,
     outage_probability: float | None = None,
@@ -749,19 +815,21 @@ def analyse_coverage(
     ecc: float | None = None,
     efficiency_ratio: float | None = None,
 ) -> list[CoverageAnalysis]:
-    """The downlink budget of every selected band, at its lowest downlink frequency.
+    """The uplink and downlink budget of every selected band, at each direction's lowest frequency.
 
-    Allowed path loss: the category's MCL target (a coupling loss between antenna connectors, so antenna
-    gains count) plus the base station's net antenna gain, less the environment's entry loss and the first
-    antenna's efficiency loss (when entered; the target's device antenna is taken as lossless). The target
-    holds for the category's reference receive antennas: with a one-antenna reference, two antennas add
-    the second antenna's gain; with a two-antenna reference, one antenna falls short by it.
+    Allowed path loss: the category's MCL target for the direction (a coupling loss between antenna
+    connectors, so antenna gains count) plus the base station's net antenna gain, less the environment's
+    entry loss and the main antenna's efficiency loss (when entered; the target's device antenna is taken
+    as lossless) and cable loss; the uplink also gains or loses the power class's difference from 23 dBm.
+    The downlink target holds for the category's reference receive antennas: with a one-antenna reference,
+    two antennas add the single-branch cost; with a two-antenna reference, one antenna falls short by it.
 
-    The second antenna's gain uses, in this order: the worst ECC measured over the band's downlink for
-    the design's two antennas, the `ecc` given here ("entered"), or the assumed default; and the ratio of
-    the entered efficiencies of both antennas in the band, the `efficiency_ratio` given here, or the
-    assumed default. `entry_loss_db` overrides the loss of any environment; every other keyword overrides
-    the default of coverage.toml. A band no empirical model covers is analysed in free space, and says why.
+    The single-branch cost uses, in this order: the worst ECC measured over the band's downlink for the
+    design's two antennas, the `ecc` given here ("entered"), or the assumed default; and the ratio of the
+    entered efficiencies (less cable losses) of both antennas in the band, the `efficiency_ratio` given
+    here, or the assumed default. `entry_loss_db` overrides the loss of any environment; every other keyword
+    overrides the default of coverage.toml. A band TR 38.901 does not cover is budgeted without a path loss,
+    and says why.
     """
     if isinstance(design, CheckContext):
         measurements = measurements or design.measurements
@@ -771,18 +839,21 @@ def analyse_coverage(
         rx_connected = CheckContext(design).rx_connected
     data = coverage_data()
     defaults = data.assumptions
-    area = defaults.area if area is None else area
-    if area not in AREAS:
-        raise ValueError(f"area should be one of {', '.join(AREAS)}; got {area!r}")
-    base_height_m = defaults.base_height_m if base_height_m is None else base_height_m
-    mobile_height_m = defaults.mobile_height_m if mobile_height_m is None else mobile_height_m
+    geometry = Geometry(
+        scenario=defaults.scenario if scenario is None else scenario,
+        los=defaults.los if los is None else los,
+        base_height_m=base_height_m,
+        mobile_height_m=defaults.mobile_height_m if mobile_height_m is None else mobile_height_m,
+    )
+    if geometry.scenario not in SCENARIOS:
+        raise ValueError(f"scenario should be one of {', '.join(SCENARIOS)}; got {geometry.scenario!r}")
     outage_probability = defaults.outage_probability if outage_probability is None else outage_probability
     reference_distance_km = (defaults.reference_distance_km if reference_distance_km is None
                              else reference_distance_km)
     base_gain_db = defaults.base_gain_db if base_gain_db is None else base_gain_db
-    nearest_km, farthest_km = HATA_VALIDITY["distance_km"]
+    nearest_km, farthest_km = geometry.distance_limits_km()
     if not nearest_km <= reference_distance_km <= farthest_km:
-        raise OutsideValidity(OKUMURA_HATA, "reference_distance_km", reference_distance_km,
+        raise OutsideValidity(geometry.scenario, "reference_distance_km", reference_distance_km,
                               (nearest_km, farthest_km))
 
     environment_given = design.deployment.environment is not None
@@ -799,21 +870,22 @@ def analyse_coverage(
     if not environment_given:
         entry_source = f"environment not given: taken as outdoor ({entry_source})"
 
-    def loss_db(frequency_mhz: float, distance_km: float, model: str) -> float:
-        return path_loss_db(frequency_mhz, distance_km, model, base_height_m=base_height_m,
-                            mobile_height_m=mobile_height_m, area=area)
-
-    def reach_km(frequency_mhz: float, allowed_loss_db: float, model: str) -> float | None:
-        return max_range_km(frequency_mhz, allowed_loss_db, model, base_height_m=base_height_m,
-                            mobile_height_m=mobile_height_m, area=area)
-
-    target = data.targets[design.modem.category.id]
+    modem = design.modem
+    power = power_classes()[modem.power_class]
+    target = data.targets[modem.category.id]
     main, second = _main_and_second(design)
+    main_cable_db = main.cable_loss_db if main else 0.0
     results = []
-    for band in design.modem.bands:
+    for band in modem.bands:
         frequency_mhz = band.dl_mhz[0]
-        choice = choose_model(frequency_mhz, area=area, base_height_m=base_height_m,
-                              mobile_height_m=mobile_height_m)
+        ul_frequency_mhz = band.ul_mhz[0] if band.ul_mhz is not None else None
+        reason = None
+        try:
+            for checked_mhz in (frequency_mhz, ul_frequency_mhz):
+                if checked_mhz is not None:
+                    geometry.check(checked_mhz)
+        except OutsideValidity as refusal:
+            reason = str(refusal)
 
         band_ecc, ecc_source = defaults.assumed_ecc, defaults.sources["assumed_ecc"]
         found = measured_ecc(measurements, main.name, second.name, band) if main and second else None
@@ -825,11 +897,13 @@ def analyse_coverage(
         main_efficiency = main.efficiency_pct.get(band.name) if main else None
         second_efficiency = second.efficiency_pct.get(band.name) if second else None
         ratio, ratio_source = defaults.assumed_efficiency_ratio, defaults.sources["assumed_efficiency_ratio"]
-        if main_efficiency and second_efficiency is not None:
-            ratio, ratio_source = second_efficiency / main_efficiency, "entered efficiencies"
+        if main_efficiency and second_efficiency is not None and main and second:
+            ratio = (second_efficiency / main_efficiency) * 10.0 ** ((main.cable_loss_db - second.cable_loss_db) / 10.0)
+            ratio_source = "entered efficiencies" + (" and cable losses" if main.cable_loss_db or
+                                                     second.cable_loss_db else "")
         elif efficiency_ratio is not None:
             ratio, ratio_source = efficiency_ratio, "entered"
-        gain = second_antenna_gain(outage_probability, band_ecc, ratio)
+        cost = single_branch_cost(data.single_branch, outage_probability, band_ecc, ratio)
 
         if main is not None and main_efficiency:
             antenna_db = -10.0 * math.log10(main_efficiency / 100.0)
@@ -839,28 +913,45 @@ def analyse_coverage(
         else:
             antenna_db, antenna_source = 0.0, "efficiency not entered: no antenna loss counted"
 
-        at_reference_db = target.mcl_db + base_gain_db - entry_db - antenna_db
-        if target.reference_rx_antennas == 2:
-            allowed_two_db, allowed_one_db = at_reference_db, at_reference_db - gain.total_db
+        device_db = base_gain_db - entry_db - antenna_db - main_cable_db
+        allowed_ul_db = (None if ul_frequency_mhz is None
+                         else target.ul_mcl_db + device_db + (power.max_output_dbm - REFERENCE_POWER_DBM))
+        at_reference_db = target.dl_mcl_db + device_db
+        if target.dl_reference_rx_antennas == 2:
+            allowed_two_db, allowed_one_db = at_reference_db, at_reference_db - cost.headline_db
         else:
-            allowed_one_db, allowed_two_db = at_reference_db, at_reference_db + gain.total_db
+            allowed_one_db, allowed_two_db = at_reference_db, at_reference_db + cost.headline_db
 
-        ranges: tuple[float | None, float | None] = (None, None)
-        limits_db = (0.0, 0.0)
-        if choice.model != FREE_SPACE:
-            ranges = (reach_km(frequency_mhz, allowed_one_db, choice.model),
-                      reach_km(frequency_mhz, allowed_two_db, choice.model))
-            limits_db = (loss_db(frequency_mhz, nearest_km, choice.model),
-                         loss_db(frequency_mhz, farthest_km, choice.model))
+        path_dl = path_ul = None
+        ranges: list[float | None] = [None, None]
+        note = reason
+        if reason is None:
+            path_dl = path_loss_db(frequency_mhz, reference_distance_km, geometry)
+            if ul_frequency_mhz is not None:
+                path_ul = path_loss_db(ul_frequency_mhz, reference_distance_km, geometry)
+            limiting = []
+            for index, (label, allowed_dl_db) in enumerate((("one antenna", allowed_one_db),
+                                                             ("two antennas", allowed_two_db))):
+                dl_range = max_range_km(frequency_mhz, allowed_dl_db, geometry)
+                margin_dl = allowed_dl_db - path_dl
+                if (allowed_ul_db is not None and path_ul is not None and ul_frequency_mhz is not None
+                        and allowed_ul_db - path_ul < margin_dl):
+                    limiting.append((label, ul_frequency_mhz, allowed_ul_db,
+                                     max_range_km(ul_frequency_mhz, allowed_ul_db, geometry)))
+                else:
+                    limiting.append((label, frequency_mhz, allowed_dl_db, dl_range))
+                ranges[index] = limiting[-1][3]
+            note = _range_note(geometry, limiting)
         results.append(CoverageAnalysis(
             band=band.name,
             frequency_mhz=frequency_mhz,
-            model=choice.model,
-            model_reason=choice.reason,
-            area=area,
-            base_height_m=base_height_m,
-            mobile_height_m=mobile_height_m,
+            ul_frequency_mhz=ul_frequency_mhz,
+            geometry=geometry,
+            model_reason=reason,
             target=target,
+            power_class=power.number,
+            max_output_dbm=power.max_output_dbm,
+            power_class_source=power.source,
             base_gain_db=base_gain_db,
             environment=environment,
             environment_given=environment_given,
@@ -868,18 +959,19 @@ def analyse_coverage(
             entry_loss_source=entry_source,
             antenna_loss_db=antenna_db,
             antenna_loss_source=antenna_source,
-            gain=gain,
+            cable_loss_db=main_cable_db,
+            cost=cost,
             ecc_source=ecc_source,
             efficiency_source=ratio_source,
             fitted_rx_antennas=min(rx_connected, 2),
-            allowed_loss_one_db=allowed_one_db,
-            allowed_loss_two_db=allowed_two_db,
+            allowed_ul_db=allowed_ul_db,
+            allowed_dl_one_db=allowed_one_db,
+            allowed_dl_two_db=allowed_two_db,
             reference_distance_km=reference_distance_km,
-            path_loss_reference_db=loss_db(frequency_mhz, reference_distance_km, choice.model),
+            path_loss_dl_reference_db=path_dl,
+            path_loss_ul_reference_db=path_ul,
             range_one_km=ranges[0],
             range_two_km=ranges[1],
-            range_note=_range_note(choice.model, ranges, (allowed_one_db, allowed_two_db), limits_db),
-            distance_slope_db_per_decade=distance_slope_db_per_decade(choice.model, base_height_m),
+            range_note=note,
         ))
     return results
-

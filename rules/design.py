@@ -11,7 +11,7 @@ from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
-from rules.catalog import Band, Category, bands, categories
+from rules.catalog import DEFAULT_POWER_CLASS, Band, Category, bands, categories, power_classes
 
 FORMAT = "earshot-design/1"
 ROLES = ("main", "receive", "gnss", "wlan")
@@ -83,6 +83,14 @@ class Modem:
     rx_ports: int | None = None
     gain_limits_dbi: Mapping[str, float] = field(default_factory=dict)
     operator_single_antenna_approval: bool = False
+    power_class: int = DEFAULT_POWER_CLASS  # UE power class (TS 36.101 clause 6.2.2, TS 38.101-1 clause 6.2.1)
+    conducted_sensitivity_dbm: Mapping[str, float] = field(default_factory=dict)  # datasheet, per band
+    full_duplex: bool = False  # LTE-M only: the module runs FD-FDD; default half-duplex (HD-FDD), as most do
+    ntn: bool = False  # the module supports satellite (non-terrestrial network) access
+
+    @property
+    def max_output_dbm(self) -> float:
+        return power_classes()[self.power_class].max_output_dbm
 
 
 @dataclass(frozen=True)
@@ -352,7 +360,8 @@ def _parse_modem(reader: _Reader, value: Any) -> Modem | None:
         reader.problem("modem", "required: expected an object with category and bands")
         return None
     raw = reader.object(value, "modem", ("category", "bands", "rx_ports", "gain_limits_dbi",
-                                         "operator_single_antenna_approval"))
+                                         "operator_single_antenna_approval", "power_class",
+                                         "conducted_sensitivity_dbm", "full_duplex", "ntn"))
     if raw is None:
         return None
     category_id = raw.get("category")
@@ -388,9 +397,35 @@ def _parse_modem(reader: _Reader, value: Any) -> Modem | None:
     )
     approval = reader.boolean(raw.get("operator_single_antenna_approval"),
                               "modem.operator_single_antenna_approval", False)
+    power_class = DEFAULT_POWER_CLASS
+    raw_class = raw.get("power_class")
+    if raw_class is not None:
+        if _is_number(raw_class) and float(raw_class) == int(raw_class) and int(raw_class) in power_classes():
+            power_class = int(raw_class)
+        else:
+            accepted = ", ".join(str(number) for number in power_classes())
+            reader.problem("modem.power_class", f"expected a UE power class ({accepted}), got {_show(raw_class)}")
+    sensitivity = reader.band_map(
+        raw.get("conducted_sensitivity_dbm"), "modem.conducted_sensitivity_dbm",
+        lambda item, path: reader.number(item, path, minimum=-150, maximum=-50, unit="dBm"),
+    )
+    full_duplex = reader.boolean(raw.get("full_duplex"), "modem.full_duplex", False)
+    if full_duplex and category is not None and category.id in ("cat-nb1", "cat-nb2"):
+        reader.problem("modem.full_duplex", "NB-IoT is half-duplex only (3GPP TS 36.306); expected false or "
+                                            "nothing")
+    ntn = reader.boolean(raw.get("ntn"), "modem.ntn", False)
+    for index, band in enumerate(selected):
+        if band.satellite and not ntn:
+            reader.problem(f"modem.bands[{index}]", f"{band.name} is a satellite (NTN) band; set modem.ntn to "
+                                                    "true if the module supports satellite access")
+    if selected and not any(band.has_uplink for band in selected):
+        names = ", ".join(band.name for band in selected)
+        reader.problem("modem.bands", f"{names}: supplemental-downlink (SDL) bands have no uplink and work only "
+                                      "beside a band with one; expected at least one band with an uplink")
     if category is None or not selected:
         return None
-    return Modem(category, tuple(selected), rx_ports, gain_limits, approval)
+    return Modem(category, tuple(selected), rx_ports, gain_limits, approval, power_class, sensitivity,
+                 full_duplex, ntn)
 
 
 def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:

@@ -42,7 +42,7 @@ class BandRow:
         return {
             "band": self.band.name,
             "technology": self.band.technology,
-            "ul_mhz": list(self.band.ul_mhz),
+            "ul_mhz": list(self.band.ul_mhz) if self.band.ul_mhz is not None else None,  # None: SDL
             "dl_mhz": list(self.band.dl_mhz),
             "duplex": self.band.duplex,
             "lowest_mhz": self.lowest_mhz,

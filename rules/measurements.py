@@ -1,9 +1,11 @@
 """Measurements a design names: Touchstone files and far-field patterns, read and tied to its antennas."""
 
+import os
+import stat
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
 from functools import cached_property
-from pathlib import Path
+from pathlib import Path, PurePosixPath
 
 import numpy as np
 
@@ -16,6 +18,10 @@ from rules.touchstone import Network, TouchstoneError, parse_touchstone
 # Up to 1.01 is taken as measurement noise (common practice: a calibrated VNA's trace noise and drift);
 # above it the file is not trusted at that frequency.
 PASSIVITY_LIMIT = 1.01
+
+
+class MeasurementPathError(ValueError):
+    """A file name or file that `read_beside` refuses to read; the message says why."""
 
 
 @dataclass(frozen=True)
@@ -131,7 +137,7 @@ def attach_measurements(design: Design, read_text: Callable[[str], str]) -> Atta
         path = f"measurements[{index}]"
         try:
             text = read_text(reference.file)
-        except (OSError, UnicodeDecodeError) as error:
+        except (OSError, UnicodeDecodeError, MeasurementPathError) as error:
             reason = error.strerror if isinstance(error, OSError) and error.strerror else str(error)
             problems.append(Problem(f"{path}.file", f"cannot read {reference.file}: {reason}"))
             continue
@@ -182,11 +188,56 @@ def _load_pattern(reference: MeasurementRef, text: str, path: str, problems: lis
     return LoadedPattern(reference.file, reference.antenna or "", pattern, environment, reference.absolute)
 
 
-def read_beside(design_path: Path) -> Callable[[str], str]:
-    """A reader for files named relative to the design file, as the contract says."""
+def read_beside(design_path: Path, *, max_bytes: int) -> Callable[[str], str]:
+    """A reader for files named relative to the design file, as the contract says. It reads only regular files
+    in the design file's folder or below it (no absolute path, no `..`, no symbolic link leading out) and at
+    most `max_bytes` of each (the caller's upload limit), and it never waits on a pipe. A design file may
+    come from someone else; naming /dev/zero, a FIFO or another folder's files must not hang, exhaust memory
+    or read what lies elsewhere."""
     base = design_path.resolve().parent
 
     def read_text(file_name: str) -> str:
-        return (base / file_name).read_text(encoding="utf-8", errors="replace")
+        data = _read_regular_file(_inside(base, file_name), max_bytes)
+        return data.decode("utf-8", errors="replace")
 
     return read_text
+
+
+def _inside(base: Path, file_name: str) -> Path:
+    if not file_name:
+        raise MeasurementPathError("the file name is empty")
+    if "\x00" in file_name:
+        raise MeasurementPathError("the file name contains a NUL character")
+    relative = PurePosixPath(file_name)
+    if relative.is_absolute():
+        raise MeasurementPathError("an absolute path; name the file relative to the design file's folder")
+    if ".." in relative.parts:
+        raise MeasurementPathError("'..' leads out of the design file's folder; name a file in it or below it")
+    target = (base / relative).resolve()
+    if not target.is_relative_to(base):
+        raise MeasurementPathError("a symbolic link to outside the design file's folder")
+    return target
+
+
+def _read_regular_file(path: Path, max_bytes: int) -> bytes:
+    limit = f"expected at most {_size(max_bytes)}"
+    if not stat.S_ISREG(os.stat(path).st_mode):  # before opening: opening a device or a FIFO can block
+        raise MeasurementPathError("not a regular file")
+    # O_NONBLOCK: should the path turn into a FIFO meanwhile, opening it returns at once instead of waiting.
+    descriptor = os.open(path, os.O_RDONLY | os.O_NONBLOCK | getattr(os, "O_NOCTTY", 0))
+    with os.fdopen(descriptor, "rb") as handle:
+        info = os.fstat(handle.fileno())
+        if not stat.S_ISREG(info.st_mode):
+            raise MeasurementPathError("not a regular file")
+        if info.st_size > max_bytes:
+            raise MeasurementPathError(f"{limit}, got {_size(info.st_size)}")
+        data = handle.read(max_bytes + 1)  # the file may grow after fstat
+    if len(data) > max_bytes:
+        raise MeasurementPathError(f"{limit}, got more")
+    return data
+
+
+def _size(count: int) -> str:
+    if count >= 1_000_000:
+        return f"{count / 1_000_000:g} MB" if count % 1_000_000 == 0 else f"{count / 1_000_000:.1f} MB"
+    return f"{count / 1000:g} kB" if count % 1000 == 0 else f"{count / 1000:.1f} kB"

@@ -1,4 +1,8 @@
-"""The checklist as an engineer reads it in a terminal: a band table, then findings by severity."""
+"""The checklist as an engineer reads it in a terminal: a band table, then findings by severity.
+
+Everything printed passes through `terminal_text.printable`: names, the revision and ignored keys come from
+the design file, and a control character in them must show as an escape, not act on the terminal.
+"""
 
 import textwrap
 from collections.abc import Sequence
@@ -7,15 +11,25 @@ from typing import Any
 
 from rules.evaluate import Evaluation
 from rules.findings import SEVERITIES, Finding
+from rules.terminal_text import printable
 
 WIDTH = 100
-wrap = partial(textwrap.wrap, break_on_hyphens=False, break_long_words=False)
+_wrap = partial(textwrap.wrap, break_on_hyphens=False, break_long_words=False)
+
+
+def wrap(text: str, width: int, *, initial_indent: str = "", subsequent_indent: str = "") -> list[str]:
+    """Escaped first: textwrap would turn a carriage return into a space and hide it."""
+    return _wrap(printable(text), width, initial_indent=initial_indent, subsequent_indent=subsequent_indent)
+
+
 HEADINGS = {"blocker": "BLOCKERS", "warning": "WARNINGS", "note": "NOTES"}
 BASIS_WORDS = {"design": "from the design", "datasheet": "from datasheets", "measured": "measured"}
 
 
 def table(headers: Sequence[str], rows: Sequence[Sequence[str]], right: Sequence[bool]) -> list[str]:
     """Aligned columns: numbers to the right, text to the left."""
+    headers = [printable(header) for header in headers]
+    rows = [[printable(cell) for cell in row] for row in rows]
     widths = [max(len(headers[index]), *(len(row[index]) for row in rows)) for index in range(len(headers))]
 
     def line(cells: Sequence[str]) -> str:
@@ -25,8 +39,8 @@ def table(headers: Sequence[str], rows: Sequence[Sequence[str]], right: Sequence
     return [line(headers), line(["-" * width for width in widths]), *(line(row) for row in rows)]
 
 
-def _range(pair: Sequence[float]) -> str:
-    return f"{pair[0]:g}–{pair[1]:g}"
+def _range(pair: Sequence[float] | None) -> str:
+    return "—" if pair is None else f"{pair[0]:g}–{pair[1]:g}"  # None: an SDL band's missing uplink
 
 
 def _evidence_value(value: Any) -> str:
@@ -81,4 +95,4 @@ def render_text(evaluation: Evaluation, *, ignored_paths: Sequence[str] = ()) ->
         lines += ["", "Ignored (not part of earshot-design/1): " + ", ".join(ignored_paths)]
     lines += ["", "This checklist does not replace carrier acceptance, industry certification or regulatory "
                   "approval."]
-    return "\n".join(lines) + "\n"
+    return "\n".join(printable(line) for line in lines) + "\n"

@@ -41,7 +41,8 @@ class MeasurementInline(admin.TabularInline):
 class RevisionAdmin(admin.ModelAdmin):
     list_display = ["product", "number", "status", "ruleset", "submitted_at"]
     list_filter = ["status", "product__team"]
-    readonly_fields = ["product", "number", "status", "document", "evaluation", "ruleset", "based_on", "created_by",
+    readonly_fields = ["product", "number", "status", "document", "version", "section_versions", "evaluation",
+                       "ruleset", "based_on", "created_by",
                        "created_at", "updated_at", "submitted_by", "submitted_at"]
     inlines = [MeasurementInline]
 

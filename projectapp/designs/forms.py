@@ -38,3 +38,25 @@ class ImportForm(forms.Form):
             raise forms.ValidationError(
                 f"design_file: expected at most {MAX_DESIGN_FILE_BYTES // 1000} kB, got {upload.size // 1000} kB.")
         return upload
+
+
+class DraftVersionForm(forms.Form):
+    """The draft version a page was read at, posted by every form that changes a draft; `overwrite` is the
+    version a person saw in a conflict message when they chose to save their entries over the other change.
+
+    A post that names no version is taken as having read none (0): it may change only what nobody has
+    changed in this draft yet, so it can never overwrite an edit unseen."""
+
+    version = forms.IntegerField(min_value=0, max_value=2**31 - 1, required=False)
+    overwrite = forms.IntegerField(min_value=0, max_value=2**31 - 1, required=False)
+
+    @property
+    def read_version(self) -> int:
+        overwrite = self.cleaned_data.get("overwrite")
+        if overwrite is not None:
+            return overwrite
+        return self.cleaned_data.get("version") or 0
+
+
+VERSION_MESSAGE = ("version: expected the draft version this page was read at (a whole number); reload the page "
+                   "and make the change again")

@@ -62,6 +62,11 @@ class Revision(models.Model):
     # Set at submission: the checklist (earshot-checklist/1) and the rule set that produced it.
     evaluation = models.JSONField(null=True, blank=True)
     ruleset = models.CharField(max_length=20, blank=True)
+    # Counts the draft's changes: every write names the version it read, so a stale page can't overwrite
+    # what someone else saved meanwhile. `section_versions` holds, per part of the document (a questionnaire
+    # section's slug, or "measurements"), the version that last changed it.
+    version = models.PositiveIntegerField(default=1)
+    section_versions = models.JSONField(default=dict, blank=True)
     based_on = models.ForeignKey("self", on_delete=models.PROTECT, null=True, blank=True, related_name="+")
     created_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, related_name="+")
     created_at = models.DateTimeField(auto_now_add=True)

@@ -32,6 +32,7 @@ class Question:
     parts: tuple[str, ...] = ()  # labels of a vector's numbers
     blank_label: str = ""  # a choice question's "not given" option, if it may be left out
     default: str = ""  # what the parser assumes when the answer is left out (design-file.md defaults)
+    reshapes: bool = False  # changing it changes which questions or options the section shows
 
 
 @dataclass(frozen=True)
@@ -56,7 +57,7 @@ PRODUCT = Section(
         Question("modem.category", "UE category", "choice",
                  "The module's LTE or NR category, on the first page of its datasheet (for example 'Cat M1' or "
                  "'Cat 1bis'). It decides how many receive antennas the product needs.",
-                 choices=CATEGORY_CHOICES),
+                 choices=CATEGORY_CHOICES, reshapes=True),
         Question("modem.bands", "Bands", "bands",
                  "The bands the product must work on: the intersection of what the module supports (datasheet, "
                  "'supported bands') and what the target operators use. Start from a region preset and trim."),
@@ -155,6 +156,24 @@ DEPLOYMENT = Section(
 
 SECTIONS: tuple[Section, ...] = (PRODUCT, ENCLOSURE, ANTENNAS, DEPLOYMENT)
 SECTIONS_BY_SLUG: Mapping[str, Section] = {section.slug: section for section in SECTIONS}
+
+# The parts of a design document that change independently, each with the top-level keys it holds: the
+# questionnaire's sections and the measurements (changed by the measurement files' forms). A save checks
+# for changes by others only in its own part, so two people editing different parts both keep their work.
+MEASUREMENTS_PART = "measurements"
+PARTS: Mapping[str, tuple[str, ...]] = {**{section.slug: section.roots for section in SECTIONS},
+                                        MEASUREMENTS_PART: ("measurements",)}
+PART_TITLES: Mapping[str, str] = {**{section.slug: section.title for section in SECTIONS},
+                                  MEASUREMENTS_PART: "Measurements"}
+
+
+def part_content(document: Any, part: str) -> dict[str, Any]:
+    source = document if isinstance(document, dict) else {}
+    return {root: source.get(root) for root in PARTS[part]}
+
+
+def parts_changed(before: Any, after: Any) -> list[str]:
+    return [part for part in PARTS if part_content(before, part) != part_content(after, part)]
 
 
 @dataclass(frozen=True)
@@ -289,6 +308,12 @@ def _read_question(question: Question, data: QueryDict, prefix: str) -> Any:
     raise ValueError(f"unknown question kind {question.kind}")
 
 
+def _is_shown_default(question: Question, value: Any, stored: Any) -> bool:
+    """A left-out answer comes back as the default the form shows for it: it stays left out, so saving an
+    untouched section stores nothing new."""
+    return stored is None and bool(question.default) and value == question.default
+
+
 def apply_section(document: Mapping[str, Any], section: Section, data: QueryDict) -> dict[str, Any]:
     """A copy of `document` with the section's answers from the posted form in place of the old ones.
 
@@ -299,10 +324,30 @@ def apply_section(document: Mapping[str, Any], section: Section, data: QueryDict
         updated["antennas"] = _read_antennas(updated.get("antennas"), data)
         return updated
     for question in section.questions:
-        _set(updated, question.key, _read_question(question, data, ""))
+        value = _read_question(question, data, "")
+        if _is_shown_default(question, value, get_path(updated, question.key)):
+            continue
+        _set(updated, question.key, value)
     for root in section.roots:
         if isinstance(updated.get(root), dict) and not updated[root] and root not in ("product", "modem"):
             del updated[root]
+    return updated
+
+
+def apply_answers(document: Mapping[str, Any], section: Section, data: QueryDict) -> dict[str, Any]:
+    """A copy of `document` with a posted section applied: its answers, then a region preset (the product
+    section) or an antenna row action (add, remove:N, duplicate:N) if the post carries one. Nothing outside
+    the section's roots changes."""
+    updated = apply_section(document, section, data)
+    preset = data.get("preset")
+    if preset and "modem" in section.roots:
+        chosen = next((item for item in band_presets() if item.slug == preset), None)
+        if chosen is not None:
+            updated = set_bands(updated, chosen.bands)
+    action = data.get("action", "")
+    if section is ANTENNAS and action.startswith(("add", "remove:", "duplicate:")):
+        verb, _, index = action.partition(":")
+        updated = antennas_action(updated, verb, int(index) if index.isdecimal() and len(index) < 6 else None)
     return updated
 
 
@@ -316,6 +361,8 @@ def _read_antennas(existing: Any, data: QueryDict) -> list[dict[str, Any]]:
         antenna = copy.deepcopy(old[row]) if row < len(old) and isinstance(old[row], dict) else {}
         for question in ANTENNA_QUESTIONS:
             value = _read_question(question, data, prefix)
+            if _is_shown_default(question, value, antenna.get(question.key)):
+                continue
             if value is None or (question.key == "cable_loss_db" and value == 0 and "cable_loss_db" not in antenna):
                 antenna.pop(question.key, None)
             else:

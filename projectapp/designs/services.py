@@ -1,6 +1,7 @@
 """Every write to products and revisions goes through these functions (keyword-only, `<entity>_<action>`)."""
 
 import json
+from collections.abc import Mapping
 from typing import Any
 
 from django.core.exceptions import PermissionDenied
@@ -8,8 +9,12 @@ from django.core.files.base import ContentFile
 from django.db import transaction
 from django.utils import timezone
 
+from projectapp.designs import questionnaire
 from projectapp.designs.checklists import measurement_reader
+from projectapp.designs.document_changes import Changes, document_changes
 from projectapp.designs.models import MeasurementFile, Product, Revision
+from projectapp.reviews.audit import audit_record
+from projectapp.reviews.models import AuditEvent
 from projectapp.reviews.services import review_items_create
 from projectapp.teams.access import has_role, require_role
 from projectapp.teams.models import Role, Team
@@ -29,11 +34,110 @@ def blank_document(*, product_name: str) -> dict[str, Any]:
     }
 
 
+class DraftConflict(Exception):
+    """Someone changed this part of the draft after the version the change was read at; nothing was stored.
+
+    `revision` is the draft as it is now; `edits` lists what others changed in the part since then
+    (`DraftEdit`s, oldest first), for the person to see before they decide."""
+
+    def __init__(self, *, revision: Revision, part: str, read_version: int, edits: list["DraftEdit"]):
+        self.revision, self.part, self.read_version, self.edits = revision, part, read_version, edits
+        self.title = questionnaire.PART_TITLES.get(part, "The draft")
+        super().__init__(f"{questionnaire.PART_TITLES.get(part, 'the draft')} of {revision} changed since "
+                         f"version {read_version} (now version {revision.version})")
+
+
+class DraftGone(Exception):
+    """The draft was submitted (and frozen) while the change was on its way."""
+
+    def __init__(self, revision: Revision):
+        self.revision = revision
+        super().__init__(f"{revision} is no longer a draft")
+
+
+class DraftEdit:
+    """One change to a draft as a conflict shows it: who, when, which version, and the paths it changed."""
+
+    def __init__(self, event: AuditEvent, changes: Changes):
+        self.actor, self.at, self.version = event.actor, event.created_at, event.draft_version
+        self.summary, self.changes = event.summary, changes
+
+
+ALL_PARTS = ""  # a change of the whole document (an import)
+FILE_KEY = "file"  # the audit path of a measurement file itself (its name, size and SHA-256)
+
+
+def _locked_draft(revision: Revision) -> Revision:
+    """The revision's row, locked until the transaction ends, read afresh: what this change builds on."""
+    current = Revision.objects.select_for_update().get(pk=revision.pk)
+    if not current.is_draft:
+        raise DraftGone(current)
+    current.product = revision.product
+    return current
+
+
+def _edits_since(draft: Revision, version: int, part: str) -> list[DraftEdit]:
+    roots: tuple[str, ...] | None = None  # the whole document
+    if part != ALL_PARTS:
+        roots = questionnaire.PARTS[part] + ((FILE_KEY,) if part == questionnaire.MEASUREMENTS_PART else ())
+    edits = []
+    events = AuditEvent.objects.filter(revision=draft, draft_version__gt=version).select_related("actor")
+    for event in events.order_by("draft_version", "id"):
+        changes = {path: pair for path, pair in event.changes.items()
+                   if roots is None or path.split(".")[0].split("[")[0] in roots}
+        if changes:
+            edits.append(DraftEdit(event, changes))
+    return edits
+
+
+def _require_fresh(draft: Revision, part: str, read_version: int | None) -> None:
+    """Raises DraftConflict when `part` (or, for ALL_PARTS, anything) changed after `read_version`.
+
+    None skips the check: for callers that replace the document on purpose (scripts, the demo data)."""
+    if read_version is None:
+        return
+    if part == ALL_PARTS:
+        changed_at = draft.version if draft.version > 1 else 0  # version 1: as started, nothing edited yet
+    else:
+        changed_at = int((draft.section_versions or {}).get(part, 0))
+    if changed_at > read_version:
+        raise DraftConflict(revision=draft, part=part, read_version=read_version,
+                            edits=_edits_since(draft, read_version, part))
+
+
+def _store(*, draft: Revision, document: dict[str, Any], user, action: str, summary: str,
+           file_changes: Changes | None = None) -> Revision:
+    """Writes a changed document (and records it): the next version, the parts it changed, one audit event
+    with the paths before and after. An unchanged document and no file change write nothing at all."""
+    changes = {} if document == draft.document else document_changes(draft.document, document)
+    if file_changes:
+        changes = {**changes, **file_changes}
+    if not changes:
+        return draft
+    parts = questionnaire.parts_changed(draft.document, document)
+    if file_changes and questionnaire.MEASUREMENTS_PART not in parts:
+        parts.append(questionnaire.MEASUREMENTS_PART)
+    draft.version += 1
+    draft.section_versions = {**(draft.section_versions or {}), **dict.fromkeys(parts, draft.version)}
+    draft.document = document
+    draft.save(update_fields=["document", "version", "section_versions", "updated_at"])
+    audit_record(product=draft.product, revision=draft, actor=user, action=action, summary=summary,
+                 changes=changes, draft_version=draft.version)
+    return draft
+
+
+def _describe_file(measurement: MeasurementFile) -> str:
+    return f"{measurement.name}: {measurement.size_bytes} bytes, SHA-256 {measurement.sha256}"
+
+
 @transaction.atomic
 def product_create(*, team: Team, name: str, description: str = "", user) -> Product:
     require_role(user, team, Role.AUTHOR)
     product = Product.objects.create(team=team, name=name, description=description, created_by=user)
-    Revision.objects.create(product=product, number=1, document=blank_document(product_name=name), created_by=user)
+    draft = Revision.objects.create(product=product, number=1, document=blank_document(product_name=name),
+                                    created_by=user)
+    audit_record(product=product, revision=draft, actor=user, action=AuditEvent.Action.DRAFT_STARTED,
+                 summary=f"Created {name} with an empty draft revision 1", draft_version=draft.version)
     return product
 
 
@@ -62,15 +166,45 @@ def draft_get_or_start(*, product: Product, user) -> Revision:
                                     created_by=user)
     if latest is not None:
         _copy_measurements(source=latest, target=draft, user=user)
+    files = draft.measurement_files.count()
+    audit_record(product=product, revision=draft, actor=user, action=AuditEvent.Action.DRAFT_STARTED,
+                 summary=f"Started draft revision {number}" + (f", copied from revision {latest.number}"
+                                                               + (f" with {files} measurement file(s)" if files else "")
+                                                               if latest else ""),
+                 draft_version=draft.version)
     return draft
 
 
-def draft_save_document(*, revision: Revision, document: dict[str, Any], user) -> Revision:
-    """Stores what the questionnaire holds, valid or not: nothing typed is dropped."""
+@transaction.atomic
+def draft_section_save(*, revision: Revision, section: questionnaire.Section, answers: Mapping[str, Any],
+                       read_version: int, user) -> Revision:
+    """Stores one posted questionnaire section into the draft, valid or not (nothing typed is dropped).
+
+    An atomic read-modify-write of that section alone: the row is locked, the section's answers go into the
+    document as it is now, and every other part stays as others left it. If someone changed this section
+    after `read_version`, DraftConflict says what they changed and nothing is stored; a post that leaves the
+    section as stored writes nothing (no new version, no audit event).
+    """
     require_role(user, revision.product.team, Role.AUTHOR)
-    revision.document = document
-    revision.save(update_fields=["document", "updated_at"])
-    return revision
+    draft = _locked_draft(revision)
+    document = questionnaire.apply_answers(draft.document, section, answers)
+    if questionnaire.part_content(document, section.slug) == questionnaire.part_content(draft.document,
+                                                                                        section.slug):
+        return draft
+    _require_fresh(draft, section.slug, read_version)
+    return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.SECTION_SAVED,
+                  summary=f"Saved {section.title} of draft revision {draft.number}")
+
+
+@transaction.atomic
+def draft_save_document(*, revision: Revision, document: dict[str, Any], user,
+                        read_version: int | None = None) -> Revision:
+    """Replaces the draft's whole document (scripts and tests; people save sections or import)."""
+    require_role(user, revision.product.team, Role.AUTHOR)
+    draft = _locked_draft(revision)
+    _require_fresh(draft, ALL_PARTS, read_version)
+    return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.SECTION_SAVED,
+                  summary=f"Saved the design document of draft revision {draft.number}")
 
 
 @transaction.atomic
@@ -96,17 +230,22 @@ def revision_submit(*, revision: Revision, user) -> Revision:
 
 
 @transaction.atomic
-def design_import(*, product: Product, text: str | bytes, source: str, user) -> Revision:
+def design_import(*, product: Product, text: str | bytes, source: str, user,
+                  read_version: int | None = None) -> Revision:
     """Puts an imported design file into the product's draft (starting one if needed).
 
     The file must be a valid design whose measurements name files the draft already has; otherwise
-    DesignError lists every problem and nothing is stored.
+    DesignError lists every problem and nothing is stored. It replaces the whole document, so it refuses
+    (DraftConflict) if the draft changed after `read_version` (0: the page showed no draft, or one as
+    started); None skips that check (scripts).
     """
     document = decode_design_text(text, source=source)
     design = parse_design(document)
-    draft = draft_get_or_start(product=product, user=user)
+    draft = _locked_draft(draft_get_or_start(product=product, user=user))
+    _require_fresh(draft, ALL_PARTS, read_version)
     attach_measurements(design, measurement_reader(draft))
-    return draft_save_document(revision=draft, document=document, user=user)
+    return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.IMPORTED,
+                  summary=f"Imported {source[:120]} into draft revision {draft.number}")
 
 
 def document_export_text(*, revision: Revision) -> str:
@@ -145,48 +284,68 @@ def measurement_add(*, revision: Revision, name: str, content: bytes, user) -> M
     if len(content) > MAX_MEASUREMENT_BYTES:
         raise ValueError(f"{name}: expected at most {MAX_MEASUREMENT_BYTES // 1_000_000} MB, "
                          f"got {len(content) / 1_000_000:.1f} MB")
-    if revision.measurement_files.filter(name=name).exists():
-        raise ValueError(f"{name}: a file of that name is already kept with this draft; remove it first")
     network = parse_touchstone(content.decode("utf-8", errors="replace"), source=name)
-    document = json.loads(json.dumps(revision.document))
-    antennas = [a.get("name") for a in document.get("antennas", []) if isinstance(a, dict) and a.get("name")]
-    ports = [antennas[index] if index < len(antennas) else None for index in range(network.port_count)]
-    measurements = document.get("measurements") if isinstance(document.get("measurements"), list) else []
-    document["measurements"] = [*measurements, {"file": name, "ports": ports}]
     with transaction.atomic():
-        measurement = MeasurementFile(revision=revision, name=name, size_bytes=len(content),
+        draft = _locked_draft(revision)  # adds to the document as it is now: nothing another save wrote is lost
+        if draft.measurement_files.filter(name=name).exists():
+            raise ValueError(f"{name}: a file of that name is already kept with this draft; remove it first")
+        document = json.loads(json.dumps(draft.document))
+        antennas = [a.get("name") for a in _list(document.get("antennas")) if isinstance(a, dict) and a.get("name")]
+        ports = [antennas[index] if index < len(antennas) else None for index in range(network.port_count)]
+        document["measurements"] = [*_list(document.get("measurements")), {"file": name, "ports": ports}]
+        measurement = MeasurementFile(revision=draft, name=name, size_bytes=len(content),
                                       sha256=MeasurementFile.digest(content), uploaded_by=user)
         measurement.file.save(name, ContentFile(content), save=False)
         measurement.save()
-        revision.document = document
-        revision.save(update_fields=["document", "updated_at"])
+        _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_ADDED,
+               summary=f"Added {name} to draft revision {draft.number}",
+               file_changes={FILE_KEY: [None, _describe_file(measurement)]})
     return measurement
 
 
-def measurement_map_ports(*, revision: Revision, name: str, ports: list[str | None], user) -> Revision:
-    """Sets which antenna each port of a kept file measured (None: not connected to an antenna)."""
-    require_measurement_role(user, revision)
-    document = json.loads(json.dumps(revision.document))
-    for entry in document.get("measurements", []):
-        if isinstance(entry, dict) and entry.get("file") == name:
-            entry["ports"] = ports
-    revision.document = document
-    revision.save(update_fields=["document", "updated_at"])
-    return revision
+def _list(value: Any) -> list[Any]:
+    return value if isinstance(value, list) else []
 
 
 @transaction.atomic
-def measurement_remove(*, revision: Revision, name: str, user) -> None:
+def measurement_map_ports(*, revision: Revision, name: str, ports: list[str | None], user,
+                          read_version: int | None = None) -> Revision:
+    """Sets which antenna each port of a kept file measured (None: not connected to an antenna).
+
+    Refuses (DraftConflict) if the measurements changed after `read_version`; None skips that check."""
     require_measurement_role(user, revision)
-    document = json.loads(json.dumps(revision.document))
+    draft = _locked_draft(revision)
+    document = json.loads(json.dumps(draft.document))
+    for entry in _list(document.get("measurements")):
+        if isinstance(entry, dict) and entry.get("file") == name:
+            entry["ports"] = ports
+    if document == draft.document:
+        return draft
+    _require_fresh(draft, questionnaire.MEASUREMENTS_PART, read_version)
+    return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_MAPPED,
+                  summary=f"Mapped the ports of {name} in draft revision {draft.number}")
+
+
+@transaction.atomic
+def measurement_remove(*, revision: Revision, name: str, user, read_version: int | None = None) -> None:
+    """Removes a kept file and its entry. Refuses (DraftConflict) if the measurements changed after
+    `read_version`; None skips that check."""
+    require_measurement_role(user, revision)
+    draft = _locked_draft(revision)
+    files = list(draft.measurement_files.filter(name=name))
+    document = json.loads(json.dumps(draft.document))
     if isinstance(document.get("measurements"), list):
         document["measurements"] = [entry for entry in document["measurements"]
                                     if not (isinstance(entry, dict) and entry.get("file") == name)]
         if not document["measurements"]:
             del document["measurements"]
-    revision.document = document
-    revision.save(update_fields=["document", "updated_at"])
-    for measurement in revision.measurement_files.filter(name=name):
+    if not files and document == draft.document:
+        return
+    _require_fresh(draft, questionnaire.MEASUREMENTS_PART, read_version)
+    _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_REMOVED,
+           summary=f"Removed {name} from draft revision {draft.number}",
+           file_changes={FILE_KEY: [_describe_file(files[0]), None]} if files else None)
+    for measurement in files:
         stored = measurement.file.name
         measurement.delete()
         transaction.on_commit(lambda stored=stored, storage=measurement.file.storage: storage.delete(stored))

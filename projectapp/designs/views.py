@@ -13,6 +13,7 @@ from django.http import HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.views.decorators.http import require_GET, require_http_methods, require_POST
+from django_htmx.http import reswap
 
 from projectapp import fragments
 from projectapp.designs import questionnaire, services
@@ -31,7 +32,7 @@ from projectapp.designs.checklists import (
     state_key,
     summaries,
 )
-from projectapp.designs.forms import ImportForm, ProductForm
+from projectapp.designs.forms import VERSION_MESSAGE, DraftVersionForm, ImportForm, ProductForm
 from projectapp.designs.models import Revision
 from projectapp.figures.charts import (
     chart_svg,
@@ -41,10 +42,10 @@ from projectapp.figures.charts import (
     return_loss_chart,
 )
 from projectapp.figures.placement import pair_severities_from_findings, placement_svg
-from projectapp.teams.access import has_role, teams_where
+from projectapp.teams.access import has_role, require_role, teams_where
 from projectapp.teams.models import Role
 from rules.coverage import TABLE_COLUMNS
-from rules.design import DesignError
+from rules.design import DesignError, Problem, parse_design
 from rules.registry import RETIRED, RULESET_VERSION, registered_rules
 from rules.touchstone import TouchstoneError
 
@@ -130,16 +131,21 @@ def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> di
     return {"state": state, "coverage_columns": TABLE_COLUMNS, **figures}
 
 
-def _section_item(section: questionnaire.Section, revision: Revision, state: ChecklistState) -> dict:
-    """One questionnaire section as _section.html shows it: its fields, and problems no field holds."""
-    fields = questionnaire.section_fields(section, revision.document, state.problems)
+def _section_item(section: questionnaire.Section, document: dict, problems: list[Problem], *, version: int,
+                  conflict: services.DraftConflict | None = None) -> dict:
+    """One questionnaire section as _section.html shows it: its fields, problems no field holds, the draft
+    version its values were read at, and a conflict if its last save met someone else's change."""
+    fields = questionnaire.section_fields(section, document, problems)
     flat = [item for row in fields for item in row] if section is questionnaire.ANTENNAS else fields
-    return {"section": section, "fields": fields,
-            "loose_problems": questionnaire.section_problems(section, state.problems, flat)}
+    return {"section": section, "fields": fields, "flat": flat, "version": version, "conflict": conflict,
+            "loose_problems": questionnaire.section_problems(section, problems, flat)}
 
 
-def _draft_context(revision: Revision, state: ChecklistState) -> dict:
-    sections = [_section_item(section, revision, state) for section in questionnaire.SECTIONS]
+def _draft_context(revision: Revision, state: ChecklistState, *, kept: dict | None = None) -> dict:
+    """The draft page's context; `kept` replaces one section's item (a conflict shown with what was typed)."""
+    sections = [kept if kept and kept["section"] is section
+                else _section_item(section, revision.document, state.problems, version=revision.version)
+                for section in questionnaire.SECTIONS]
     return {"product": revision.product, "revision": revision, "sections": sections,
             "presets": questionnaire.band_presets(), "measurements": _measurement_rows(revision),
             "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, **_panel_context(state)}
@@ -169,8 +175,10 @@ def draft_edit(request, product_id: int):
                                                            "is_author": is_author})
     if not is_author:
         return redirect("revision_detail", product.pk, draft.number)
+    # The page carries the draft's version in every form (what each save names as read), so it is part of
+    # the key; the state key names the content, which the checklist and figures are cached by.
     return fragments.page(request, "designs/draft_edit.html",
-                          ("draft", state_key(draft), product.pk, product.name, draft.number),
+                          ("draft", state_key(draft), draft.version, product.pk, product.name, draft.number),
                           lambda: _draft_context(draft, checklist_for(draft)), timeout=fragments.DAY)
 
 
@@ -184,37 +192,81 @@ def draft_start(request, product_id: int):
     return redirect("draft_edit", product.pk)
 
 
+def _problems_of(document: dict) -> list[Problem]:
+    try:
+        parse_design(document)
+    except DesignError as error:
+        return error.problems
+    return []
+
+
 @login_required
 @require_POST
 def draft_section_save(request, product_id: int, section: str):
+    """Saves one questionnaire section. Without JavaScript: a redirect back to the section. With htmx, the
+    answer `answer` asks for: "messages" (a changed answer: messages, version and panel, never the inputs) or
+    the whole section (a row action, a preset, the Save button). A stale save is a 409 with the other
+    person's change and nothing stored; what this person typed stays in the form."""
     product = get_product_for_user(request.user, product_id)
+    require_role(request.user, product.team, Role.AUTHOR)
     current = questionnaire.SECTIONS_BY_SLUG.get(section)
     draft = product.draft
     if current is None or draft is None:
-        return render(request, "designs/gone.html", {"product": product}, status=404)
-    document = questionnaire.apply_section(draft.document, current, request.POST)
-    preset = request.POST.get("preset")
-    action = request.POST.get("action", "")
-    if preset:
-        chosen = next((item for item in questionnaire.band_presets() if item.slug == preset), None)
-        if chosen is not None:
-            document = questionnaire.set_bands(document, chosen.bands)
-    if action.startswith(("add", "remove:", "duplicate:")):
-        verb, _, index = action.partition(":")
-        document = questionnaire.antennas_action(document, verb, int(index) if index.isdigit() else None)
-    if document != draft.document:  # saving what is already stored would only move updated_at
-        draft = services.draft_save_document(revision=draft, document=document, user=request.user)
+        return _not_saved(request, product, current, GONE_MESSAGE.format(product=product.name), status=404)
+    form = DraftVersionForm(request.POST)
+    if not form.is_valid():
+        return _not_saved(request, product, current, VERSION_MESSAGE, status=400)
+    try:
+        draft = services.draft_section_save(revision=draft, section=current, answers=request.POST,
+                                            read_version=form.read_version, user=request.user)
+    except services.DraftGone:
+        return _not_saved(request, product, current, GONE_MESSAGE.format(product=product.name), status=409)
+    except services.DraftConflict as conflict:
+        return _section_conflict(request, current, conflict)
     if request.htmx:
         state = checklist_for(draft)
         panel = fragments.shared("designs/_panel_oob.html", ("panel", state_key(draft), product.pk),
                                  lambda: {"product": product, "revision": draft, **_panel_context(state)},
                                  timeout=fragments.DAY)
-        return render(request, "designs/draft_section_saved.html", {
-            "product": product, "revision": draft, "current": _section_item(current, draft, state),
-            "presets": questionnaire.band_presets(),
+        template = ("designs/draft_section_messages.html" if request.POST.get("answer") == "messages"
+                    else "designs/draft_section_saved.html")
+        return render(request, template, {
+            "product": product, "revision": draft, "presets": questionnaire.band_presets(),
+            "current": _section_item(current, draft.document, state.problems, version=draft.version),
             "panel": fragments.personal(panel, request)})
     messages.success(request, f"{current.title} saved.")
     return redirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
+
+
+GONE_MESSAGE = ("{product} has no draft any more (it was submitted for review): nothing was stored. Start a new "
+                "draft from the product's page to change the design.")
+
+
+def _not_saved(request, product, section: questionnaire.Section | None, notice: str, *, status: int):
+    """A save refused before it reached the document: above the section with htmx (the inputs keep what was
+    typed), otherwise a page that says so."""
+    if request.htmx and section is not None:
+        response = render(request, "designs/draft_section_notice.html", {"section": section, "notice": notice},
+                          status=status)
+        return reswap(response, "none")
+    if status == 400 and section is not None:
+        messages.error(request, notice)
+        return redirect(reverse("draft_edit", args=[product.pk]) + f"#section-{section.slug}")
+    return render(request, "designs/gone.html", {"product": product}, status=status)
+
+
+def _section_conflict(request, section: questionnaire.Section, conflict: services.DraftConflict) -> HttpResponse:
+    """409: the other person's change above the section. With htmx only that box is sent (the inputs keep
+    what was typed); without, the page again, this section holding what was posted."""
+    draft = conflict.revision
+    if request.htmx:
+        response = render(request, "designs/draft_section_conflict.html", {
+            "product": draft.product, "conflict": conflict, "current": {"section": section}}, status=409)
+        return reswap(response, "none")
+    typed = questionnaire.apply_answers(draft.document, section, request.POST)
+    kept = _section_item(section, typed, _problems_of(typed), version=conflict.read_version, conflict=conflict)
+    return render(request, "designs/draft_edit.html", _draft_context(draft, checklist_for(draft), kept=kept),
+                  status=409)
 
 
 @login_required
@@ -284,20 +336,29 @@ def design_import(request, product_id: int):
     if not has_role(request.user, product.team, Role.AUTHOR):
         return render(request, "designs/no_role.html", {"role": "author", "product": product}, status=403)
     form = ImportForm(request.POST or None, request.FILES or None)
-    problems = []
-    if request.method == "POST" and form.is_valid():
+    version_form = DraftVersionForm(request.POST if request.method == "POST" else None)
+    problems, conflict = [], None
+    draft = product.draft
+    read_version = draft.version if draft else 0
+    if request.method == "POST" and not version_form.is_valid():
+        problems = [VERSION_MESSAGE]
+    elif request.method == "POST" and form.is_valid():
         upload = form.cleaned_data["design_file"]
         try:
             draft = services.design_import(product=product, text=upload.read(), source=upload.name,
-                                           user=request.user)
+                                           user=request.user, read_version=version_form.read_version)
         except DesignError as error:
             problems = [str(problem) for problem in error.problems]
+            read_version = version_form.read_version
+        except services.DraftConflict as error:
+            conflict, draft, read_version = error, error.revision, error.revision.version
         else:
             messages.success(request, f"{upload.name} imported into draft revision {draft.number}.")
             return redirect("draft_edit", product.pk)
     return render(request, "designs/import.html", {"product": product, "form": form, "problems": problems,
-                                                   "draft": product.draft},
-                  status=400 if problems else 200)
+                                                   "draft": draft, "read_version": read_version,
+                                                   "conflict": conflict},
+                  status=409 if conflict else 400 if problems else 200)
 
 
 @login_required
@@ -327,6 +388,8 @@ def measurement_upload(request, product_id: int):
     try:
         measurement = services.measurement_add(revision=draft, name=upload.name, content=upload.read(),
                                                user=request.user)
+    except services.DraftGone:
+        return render(request, "designs/gone.html", {"product": product}, status=409)
     except (TouchstoneError, ValueError) as error:
         messages.error(request, f"{error} — nothing was stored.")
     else:
@@ -334,18 +397,50 @@ def measurement_upload(request, product_id: int):
     return _back_to_measurements(product)
 
 
+def _measurement_conflict(request, product, conflict: services.DraftConflict, *, name: str, action: str,
+                          ports: list[str | None] | None = None) -> HttpResponse:
+    """409: what others changed in the measurements, and the person's own change kept in a form that, posted
+    again, replaces theirs."""
+    draft = conflict.revision
+    document = draft.document if isinstance(draft.document, dict) else {}
+    antennas = [a.get("name") for a in document.get("antennas", []) if isinstance(a, dict) and a.get("name")]
+    return render(request, "designs/measurement_conflict.html", {
+        "product": product, "revision": draft, "conflict": conflict, "name": name, "action": action,
+        "ports": list(enumerate(ports or [])), "antennas": antennas,
+        "is_author": has_role(request.user, product.team, Role.AUTHOR)}, status=409)
+
+
+def _measurement_version(request, product) -> DraftVersionForm | None:
+    form = DraftVersionForm(request.POST)
+    if form.is_valid():
+        return form
+    messages.error(request, VERSION_MESSAGE + "; nothing was changed")
+    return None
+
+
 @login_required
 @require_POST
 def measurement_ports(request, product_id: int):
     product = get_product_for_user(request.user, product_id)
     draft = product.draft
+    if draft is not None:
+        services.require_measurement_role(request.user, draft)
     name = request.POST.get("file", "")
     if draft is None or not draft.measurement_files.filter(name=name).exists():
         messages.error(request, f"file: no measurement named {name!r} is kept with the draft")
         return _back_to_measurements(product)
+    version = _measurement_version(request, product)
+    if version is None:
+        return _back_to_measurements(product)
     count = int(request.POST.get("port_count", "0") or 0)
     ports = [request.POST.get(f"port-{index}") or None for index in range(min(count, 64))]
-    services.measurement_map_ports(revision=draft, name=name, ports=ports, user=request.user)
+    try:
+        services.measurement_map_ports(revision=draft, name=name, ports=ports, user=request.user,
+                                       read_version=version.read_version)
+    except services.DraftConflict as conflict:
+        return _measurement_conflict(request, product, conflict, name=name, action="ports", ports=ports)
+    except services.DraftGone:
+        return render(request, "designs/gone.html", {"product": product}, status=409)
     messages.success(request, f"Port map of {name} saved.")
     return _back_to_measurements(product)
 
@@ -357,6 +452,16 @@ def measurement_remove(request, product_id: int):
     draft = product.draft
     name = request.POST.get("file", "")
     if draft is not None:
-        services.measurement_remove(revision=draft, name=name, user=request.user)
+        services.require_measurement_role(request.user, draft)
+        version = _measurement_version(request, product)
+        if version is None:
+            return _back_to_measurements(product)
+        try:
+            services.measurement_remove(revision=draft, name=name, user=request.user,
+                                        read_version=version.read_version)
+        except services.DraftConflict as conflict:
+            return _measurement_conflict(request, product, conflict, name=name, action="remove")
+        except services.DraftGone:
+            return render(request, "designs/gone.html", {"product": product}, status=409)
         messages.success(request, f"{name} removed from draft {draft.number}.")
     return _back_to_measurements(product)

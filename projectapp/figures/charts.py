@@ -268,7 +268,7 @@ def _served_mhz(design: Design, antenna_name: str, band: Band) -> list[tuple[flo
     is judged over both directions."""
     antenna = next((antenna for antenna in design.antennas if antenna.name == antenna_name), None)
     if antenna is None:
-        return merge_ranges([band.ul_mhz, band.dl_mhz])
+        return merge_ranges(list(band.ranges_mhz))
     return ranges_to_serve(antenna, band)
 
 
@@ -388,7 +388,9 @@ class _Curve:
 def _band_spans(design: Design) -> list[tuple[str, str, float, float]]:
     spans = []
     for band in design.modem.bands:
-        if band.ul_mhz == band.dl_mhz:
+        if band.ul_mhz is None:
+            spans.append((band.name, "DL", *band.dl_mhz))
+        elif band.ul_mhz == band.dl_mhz:
             spans.append((band.name, "TDD", *band.dl_mhz))
         else:
             spans.append((band.name, "UL", *band.ul_mhz))
@@ -712,8 +714,10 @@ def _bands_sentence(design: Design, measurement: LoadedMeasurement) -> str:
     sources = " and ".join(dict.fromkeys(band.reference for band in shown))
     return (f"Shaded: the design's bands with their edges from {sources}: " + "; ".join(
         f"{band.name} UL {_number_text(band.ul_mhz[0])}–{_number_text(band.ul_mhz[1])} MHz, "
-        f"DL {_number_text(band.dl_mhz[0])}–{_number_text(band.dl_mhz[1])} MHz" if band.ul_mhz != band.dl_mhz
-        else f"{band.name} {_number_text(band.dl_mhz[0])}–{_number_text(band.dl_mhz[1])} MHz (TDD)"
+        f"DL {_number_text(band.dl_mhz[0])}–{_number_text(band.dl_mhz[1])} MHz"
+        if band.ul_mhz is not None and band.ul_mhz != band.dl_mhz
+        else f"{band.name} {_number_text(band.dl_mhz[0])}–{_number_text(band.dl_mhz[1])} MHz "
+             f"({'TDD' if band.ul_mhz else 'downlink only'})"
         for band in shown) + ".")
 
 

@@ -2,7 +2,10 @@
 
 An item carries its finding as submitted (the frozen checklist entry) and what the team decided about
 it. Items are matched across revisions by rule id and subjects, so a decision carries forward to the
-next revision until someone confirms it. The audit trail is append-only: the model refuses changes.
+next revision until someone confirms it, unless the finding's severity rose: a decision taken on a
+warning never becomes a decision on a blocker. Each item keeps its decision's provenance: who decided,
+when, in which revision and on which severity; what the previous revision had decided (carried or
+not); who confirmed a carried decision here. The audit trail is append-only: the model refuses changes.
 """
 
 from django.conf import settings
@@ -23,6 +26,7 @@ class Disposition(models.TextChoices):
 # Dispositions that settle an item (a warning or note needs one of these before sign-off).
 SETTLED = (Disposition.CHANGE, Disposition.WAIVED, Disposition.NOT_APPLICABLE)
 NEEDS_JUSTIFICATION = (Disposition.WAIVED, Disposition.NOT_APPLICABLE)
+SEVERITY_RANK = {"note": 0, "warning": 1, "blocker": 2}  # higher is graver
 
 
 class SignedRevisionError(RuntimeError):
@@ -35,7 +39,16 @@ def is_signing_started(revision_id: int) -> bool:
     return Signature.objects.filter(revision_id=revision_id).exists()
 
 
+PROVENANCE_REVISIONS = ("decided_in", "carried_from")
+
+
 class ReviewItemQuerySet(models.QuerySet):
+    def with_provenance(self):
+        """Items with the people and revisions their provenance names (reviews.provenance), without those
+        revisions' documents and checklists: large JSON, decoded once per item otherwise."""
+        return self.select_related("decided_by", "confirmed_by", *PROVENANCE_REVISIONS).defer(
+            *(f"{name}__{field}" for name in PROVENANCE_REVISIONS for field in ("document", "evaluation")))
+
     def update(self, **kwargs):
         from projectapp.signoff.models import Signature
 
@@ -64,8 +77,19 @@ class ReviewItem(models.Model):
     decided_at = models.DateTimeField(null=True, blank=True)
     assignee = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
                                  related_name="review_items")
+    # Provenance of the decision in force: the revision it was made in and the finding's severity then.
+    decided_in = models.ForeignKey(Revision, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
+    decided_severity = models.CharField(max_length=10, blank=True)
+    # Set at submission when the previous revision's decision was carried in: the revision it came from.
+    # It never changes; carried_confirmed closes the carry (by a confirmation here or a new decision).
     carried_from = models.ForeignKey(Revision, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
     carried_confirmed = models.BooleanField(default=False)
+    confirmed_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
+                                     related_name="+")
+    confirmed_at = models.DateTimeField(null=True, blank=True)
+    # What the previous submitted revision had decided about the same finding, as it stood at submission,
+    # whether or not it was carried (see reviews.services.decision_snapshot); null when it had no decision.
+    previous_decision = models.JSONField(null=True, blank=True)
     version = models.PositiveIntegerField(default=1)  # optimistic locking: a save names the version it read
     updated_at = models.DateTimeField(auto_now=True)
 
@@ -100,6 +124,27 @@ class ReviewItem(models.Model):
     def is_settled(self) -> bool:
         return self.disposition in SETTLED and not self.is_carried_unconfirmed
 
+    @property
+    def is_redecided(self) -> bool:
+        """A decision was carried in, and someone here decided anew instead of confirming it."""
+        return (self.carried_from_id is not None and self.carried_confirmed and self.confirmed_by_id is None
+                and self.decided_in_id == self.revision_id)
+
+    @property
+    def waiver_authority(self):
+        """Whose authority a waiver of this finding rests on, for the rule that only an approver waives a
+        blocker: the person who confirmed a carried waiver here, or the person who granted it on this
+        finding at its present severity or graver. None when no one's does (a carried waiver not yet
+        confirmed, or a waiver given when the finding was less severe)."""
+        if self.disposition != Disposition.WAIVED or self.is_carried_unconfirmed:
+            return None
+        if self.confirmed_by_id is not None:
+            return self.confirmed_by
+        decided_rank = SEVERITY_RANK.get(self.decided_severity or "", -1)
+        if self.decided_by_id is not None and decided_rank >= SEVERITY_RANK.get(self.severity, 9):
+            return self.decided_by
+        return None
+
 
 class Comment(models.Model):
     item = models.ForeignKey(ReviewItem, on_delete=models.PROTECT, related_name="comments")
@@ -133,6 +178,12 @@ class AuditEvent(models.Model):
         CONFIRMED = "confirmed", "Confirmed a carried disposition"
         COMMENT = "comment", "Commented"
         ASSIGNED = "assigned", "Assigned"
+        DRAFT_STARTED = "draft-started", "Started a draft"
+        SECTION_SAVED = "section-saved", "Saved a questionnaire section"
+        IMPORTED = "imported", "Imported a design file"
+        FILE_ADDED = "file-added", "Added a measurement file"
+        FILE_MAPPED = "file-mapped", "Mapped a measurement's ports"
+        FILE_REMOVED = "file-removed", "Removed a measurement file"
 
     product = models.ForeignKey(Product, on_delete=models.PROTECT, related_name="audit_events")
     revision = models.ForeignKey(Revision, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
@@ -140,7 +191,8 @@ class AuditEvent(models.Model):
     actor = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
     action = models.CharField(max_length=16, choices=Action.choices)
     summary = models.CharField(max_length=300)
-    changes = models.JSONField(default=dict)  # {"field": [before, after], ...}
+    changes = models.JSONField(default=dict)  # {"field": [before, after], ...}; design paths for design edits
+    draft_version = models.PositiveIntegerField(null=True, blank=True)  # the draft version a design edit made
     created_at = models.DateTimeField(auto_now_add=True)
 
     class Meta:

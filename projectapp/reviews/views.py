@@ -17,6 +17,7 @@ from projectapp.reviews import services
 from projectapp.reviews.comparison import compare_revisions
 from projectapp.reviews.forms import AssignForm, CommentForm, ConfirmForm, DecisionForm
 from projectapp.reviews.models import AuditEvent, Disposition, ReviewItem
+from projectapp.reviews.provenance import decision_lines
 from projectapp.teams.access import teams_of
 from rules.findings import SEVERITIES, TOPICS
 
@@ -26,7 +27,7 @@ OPEN_FILTER = (Q(disposition__in=[Disposition.OPEN, Disposition.DISCUSSION])
 
 def items_for(user):
     return (ReviewItem.objects.filter(revision__product__team__in=teams_of(user))
-            .select_related("revision__product__team", "assignee", "decided_by", "carried_from"))
+            .with_provenance().select_related("revision__product__team", "assignee"))
 
 
 def get_item_for_user(user, item_id: int) -> ReviewItem:
@@ -88,10 +89,13 @@ def dashboard(request):
     return render(request, template, context)
 
 
-def _card_context(request, item: ReviewItem, **extra) -> dict:
+def _card_context(request, item: ReviewItem, *, approvers: set[int] | None = None, **extra) -> dict:
     people = services.assignable_people(item.revision)
+    if approvers is None:
+        approvers = services.approver_ids(item.revision.product.team)
     return {
         "item": item,
+        "provenance": decision_lines(item, approver_ids=approvers),
         "can_review": services.can_review(request.user, item),
         "decision_form": extra.pop("decision_form", None) or DecisionForm(initial={
             "disposition": item.disposition, "justification": item.justification, "version": item.version}),
@@ -110,7 +114,9 @@ def revision_review(request, product_id: int, number: int):
     severity_rank = {severity: index for index, severity in enumerate(SEVERITIES)}
     items.sort(key=lambda item: (item.kind, severity_rank.get(item.severity, 9),
                                  TOPICS.index(item.topic) if item.topic in TOPICS else 99, item.pk))
-    raised = [_card_context(request, item) for item in items if item.kind == ReviewItem.Kind.RAISED]
+    approvers = services.approver_ids(revision.product.team)
+    raised = [_card_context(request, item, approvers=approvers) for item in items
+              if item.kind == ReviewItem.Kind.RAISED]
     resolved = [item for item in items if item.kind == ReviewItem.Kind.RESOLVED]
     settled = sum(1 for card in raised if card["item"].is_settled)
     return render(request, "reviews/revision_review.html", {

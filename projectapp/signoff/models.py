@@ -40,7 +40,8 @@ class Signature(WriteOnce):
     revision = models.ForeignKey(Revision, on_delete=models.PROTECT, related_name="signatures")
     role = models.CharField(max_length=16, choices=Role.choices)
     signer = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
-    signer_name = models.CharField(max_length=300)  # as it was when signed
+    # As it was when signed: Django's full name, first (150) + space + last (150) characters at most.
+    signer_name = models.CharField(max_length=301)
     meaning = models.CharField(max_length=200)
     signed_at = models.DateTimeField(auto_now_add=True)
 

@@ -4,13 +4,22 @@ Cover, design summary, band table, placement drawing (vector), the checklist wit
 the findings in detail, measurement charts when the revision has measurements, the signatures, and a
 cautions page. Every page carries "page X of Y" and a footer with product, revision and fingerprint;
 tables that split across pages repeat their header.
+
+Whatever the forms and the parser accept must lay out: every table may split inside a row (a 4,000
+character justification or a 1,000 character name is taller than a page in a narrow column), a word
+longer than its column is broken, a very long justification is cut in the checklist table and printed
+whole under the findings in detail, and a figure that fails to draw is replaced by a note saying so
+(the tables carry the same data). Text goes through record_fonts, which embeds fonts that have every
+name's characters.
 """
 
 import io
-from collections.abc import Sequence
+import logging
+from collections.abc import Callable, Sequence
+from functools import partial
 from typing import Any
 
-from reportlab import rl_config
+from reportlab import platypus, rl_config
 from reportlab.lib import colors
 from reportlab.lib.enums import TA_LEFT
 from reportlab.lib.pagesizes import A4
@@ -20,8 +29,8 @@ from reportlab.pdfgen import canvas as pdf_canvas
 from reportlab.platypus import (
     CondPageBreak,
     KeepTogether,
+    LongTable,
     PageBreak,
-    Paragraph,
     SimpleDocTemplate,
     Spacer,
     Table,
@@ -34,9 +43,24 @@ from projectapp.designs.models import Revision
 from projectapp.figures.charts import correlation_chart, coverage_chart, isolation_chart, return_loss_chart
 from projectapp.figures.placement import pair_severities_from_findings, placement_drawing
 from projectapp.reviews.models import ReviewItem
+from projectapp.reviews.provenance import decision_lines
+from projectapp.reviews.services import approver_ids
+from projectapp.signoff.record_fonts import (
+    SANS,
+    SANS_BOLD,
+    draw_text,
+    embed_drawing_text,
+    fit,
+    markup,
+    printable,
+    register,
+    text_width,
+)
 from rules.coverage import TABLE_COLUMNS, analyse_coverage
 from rules.design import parse_design
 from rules.measurements import LoadedMeasurement, attach_measurements
+
+logger = logging.getLogger(__name__)
 
 # Compressed streams stay binary: ASCII85 would make the file 25 % larger and cost a third of the build.
 rl_config.useA85 = 0
@@ -52,32 +76,50 @@ MARGIN = 18 * mm
 FRAME_WIDTH = PAGE_WIDTH - 2 * MARGIN
 
 _styles = getSampleStyleSheet()
-BODY = ParagraphStyle("body", parent=_styles["BodyText"], fontName="Helvetica", fontSize=9, leading=12,
+BODY = ParagraphStyle("body", parent=_styles["BodyText"], fontName=SANS, fontSize=9, leading=12,
                       textColor=INK, alignment=TA_LEFT)
 SMALL = ParagraphStyle("small", parent=BODY, fontSize=7.5, leading=9.5, textColor=INK)
 MUTED_SMALL = ParagraphStyle("muted", parent=SMALL, textColor=MUTED)
-H1 = ParagraphStyle("h1", parent=BODY, fontName="Helvetica-Bold", fontSize=20, leading=25, spaceAfter=6)
-H2 = ParagraphStyle("h2", parent=BODY, fontName="Helvetica-Bold", fontSize=13, leading=17, spaceBefore=10,
+H1 = ParagraphStyle("h1", parent=BODY, fontName=SANS_BOLD, fontSize=20, leading=25, spaceAfter=6)
+H2 = ParagraphStyle("h2", parent=BODY, fontName=SANS_BOLD, fontSize=13, leading=17, spaceBefore=10,
                     spaceAfter=5)
-H3 = ParagraphStyle("h3", parent=BODY, fontName="Helvetica-Bold", fontSize=10, leading=13, spaceBefore=6,
+H3 = ParagraphStyle("h3", parent=BODY, fontName=SANS_BOLD, fontSize=10, leading=13, spaceBefore=6,
                     spaceAfter=2)
 CELL = ParagraphStyle("cell", parent=SMALL)
-CELL_BOLD = ParagraphStyle("cellbold", parent=SMALL, fontName="Helvetica-Bold")
+CELL_BOLD = ParagraphStyle("cellbold", parent=SMALL, fontName=SANS_BOLD)
+# A row splits across pages only when it must, and never into a piece shorter than this (points).
+MIN_ROW_PIECE_PT = 30
+# Longer justifications are cut in the checklist table and printed whole under the findings in detail.
+JUSTIFICATION_IN_TABLE_CHARS = 600
+
+
+class Paragraph(platypus.Paragraph):
+    """A paragraph that keeps its last layout. A table wraps every cell to measure its rows, again each time
+    it splits across a page and again to draw it; a paragraph's lines depend on the width alone, so the
+    repeats were a third of the record's build time."""
+
+    _wrapped_width: float | None = None
+
+    def wrap(self, availWidth, availHeight):  # noqa: N803 (reportlab's names)
+        if availWidth != self._wrapped_width or not hasattr(self, "blPara"):  # split() may drop the layout
+            super().wrap(availWidth, availHeight)
+            self._wrapped_width = availWidth
+        return self.width, self.height
 
 
 def esc(value: Any) -> str:
-    text = "" if value is None else str(value)
-    return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+    """Paragraph markup of a value typed by someone: escaped, each character in a font that has it."""
+    return markup(value)
 
 
 def p(text: Any, style: ParagraphStyle = CELL) -> Paragraph:
-    return Paragraph(esc(text), style)
+    return Paragraph(markup(text, base=SANS_BOLD if style.fontName == SANS_BOLD else SANS), style)
 
 
 def grid_table(rows: Sequence[Sequence[Any]], widths: Sequence[float], *, header: bool = True) -> Table:
-    """A table whose header row repeats on every page it spans."""
-    table = Table([[cell if isinstance(cell, Flowable) else p(cell) for cell in row] for row in rows],
-                  colWidths=widths, repeatRows=1 if header else 0, hAlign="LEFT")
+    """A table whose header row repeats on every page it spans; a row taller than the space left splits."""
+    table = LongTable([[cell if isinstance(cell, Flowable | list) else p(cell) for cell in row] for row in rows],
+                  colWidths=widths, repeatRows=1 if header else 0, hAlign="LEFT", splitInRow=MIN_ROW_PIECE_PT)
     style = [("GRID", (0, 0), (-1, -1), 0.4, LINE), ("VALIGN", (0, 0), (-1, -1), "TOP"),
              ("LEFTPADDING", (0, 0), (-1, -1), 3), ("RIGHTPADDING", (0, 0), (-1, -1), 3),
              ("TOPPADDING", (0, 0), (-1, -1), 2), ("BOTTOMPADDING", (0, 0), (-1, -1), 2)]
@@ -111,10 +153,10 @@ def numbered_canvas(footer_text: str):
             self.saveState()
             self.setStrokeColor(LINE)
             self.line(MARGIN, 13 * mm, PAGE_WIDTH - MARGIN, 13 * mm)
-            self.setFont("Helvetica", 7)
             self.setFillColor(MUTED)
-            self.drawString(MARGIN, 9 * mm, footer_text)
-            self.drawRightString(PAGE_WIDTH - MARGIN, 9 * mm, f"page {self._pageNumber} of {total}")
+            number = f"page {self._pageNumber} of {total}"
+            draw_text(self, MARGIN, 9 * mm, footer_text, size=7)
+            draw_text(self, PAGE_WIDTH - MARGIN, 9 * mm, number, size=7, anchor="end")
             self.restoreState()
 
     return NumberedCanvas
@@ -163,7 +205,7 @@ def _design_summary(design) -> list[Flowable]:
 def _band_table(checklist: dict[str, Any]) -> list[Flowable]:
     rows = [["Band", "Duplex", "UL (MHz)", "DL (MHz)", "Lowest (MHz)", "λ (mm)", "λ/4 (mm)", "λ/2π (mm)"]]
     for row in checklist["bands"]:
-        rows.append([row["band"], row["duplex"], f"{row['ul_mhz'][0]:g}–{row['ul_mhz'][1]:g}",
+        rows.append([row["band"], row["duplex"], f"{row['ul_mhz'][0]:g}–{row['ul_mhz'][1]:g}" if row["ul_mhz"] else "—",
                      f"{row['dl_mhz'][0]:g}–{row['dl_mhz'][1]:g}", f"{row['lowest_mhz']:g}",
                      f"{row['wavelength_mm']:.1f}", f"{row['quarter_wave_mm']:.1f}", f"{row['near_field_mm']:.1f}"])
     return [
@@ -175,21 +217,43 @@ def _band_table(checklist: dict[str, Any]) -> list[Flowable]:
     ]
 
 
-def _checklist(items: list[ReviewItem]) -> list[Flowable]:
-    rows = [["Severity", "Rule", "Finding", "Disposition", "Justification", "Decided by"]]
+def _checklist(items: list[ReviewItem], approvers: set[int]) -> list[Flowable]:
+    rows = [["Severity", "Rule", "Finding", "Decision", "Justification"]]
     for item in items:
         severity = Paragraph(f'<font color="{SEVERITY_COLOURS[item.severity].hexval().replace("0x", "#")}">'
                              f"<b>{esc(item.severity.upper())}</b></font>", CELL)
-        decided = ""
-        if item.decided_by:
-            decided = f"{item.decided_by.get_full_name() or item.decided_by.username}, " \
-                      f"{item.decided_at:%Y-%m-%d %H:%M} UTC" if item.decided_at else item.decided_by.username
-        if item.carried_from:
-            decided += f" (carried from revision {item.carried_from.number}, confirmed)"
-        rows.append([severity, f"{item.rule_id}\n{', '.join(item.subjects)}", item.title,
-                     item.get_disposition_display(), item.justification or "—", decided or "—"])
+        # One paragraph per line: a line break inside a paragraph takes reportlab's slower layout path.
+        decision = [Paragraph(f"<b>{esc(item.get_disposition_display())}</b>", CELL),
+                    *[p(line.text) for line in decision_lines(item, approver_ids=approvers)]]
+        rows.append([severity, f"{item.rule_id}\n{', '.join(item.subjects)}", item.title, decision,
+                     _justification_in_table(item)])
     return [p("Checklist and dispositions", H2),
-            grid_table(rows, [16 * mm, 22 * mm, 46 * mm, 22 * mm, FRAME_WIDTH - 136 * mm, 30 * mm])]
+            grid_table(rows, [18 * mm, 22 * mm, 40 * mm, 52 * mm, FRAME_WIDTH - 132 * mm])]
+
+
+def _is_cut(item: ReviewItem) -> bool:
+    return len(item.justification) > JUSTIFICATION_IN_TABLE_CHARS
+
+
+def _justification_in_table(item: ReviewItem) -> str:
+    if not item.justification:
+        return "—"
+    if not _is_cut(item):
+        return item.justification
+    return (item.justification[:JUSTIFICATION_IN_TABLE_CHARS - 100].rstrip()
+            + f" … (continued under Findings in detail, {item.rule_id})")
+
+
+def _figure(what: str, build: Callable[[], Flowable | None]) -> list[Flowable]:
+    """A figure with the glyphs of every name; a note in its place if it fails to draw, so that one odd
+    design never makes the record unbuildable (the tables carry the same data)."""
+    try:
+        drawing = build()
+    except Exception:  # noqa: BLE001 (contained on purpose; the server log keeps the traceback)
+        logger.exception("the %s of a record could not be drawn", what)
+        return [p(f"The {what} could not be drawn for this design; the tables of this record give its data.",
+                  MUTED_SMALL)]
+    return [] if drawing is None else [embed_drawing_text(drawing)]
 
 
 def _finding_details(items: list[ReviewItem]) -> list[Flowable]:
@@ -208,6 +272,9 @@ def _finding_details(items: list[ReviewItem]) -> list[Flowable]:
         if evidence:
             block.append(Paragraph(f"<b>Evidence:</b> {esc(evidence)}", SMALL))
         block.append(Paragraph(f"<b>Sources:</b> {esc('; '.join(finding.get('references', [])))}", MUTED_SMALL))
+        if _is_cut(item):  # the checklist table shows its beginning
+            block.append(Paragraph(f"<b>Justification ({esc(item.get_disposition_display())}):</b> "
+                                   f"{esc(item.justification)}", SMALL))
         block.append(Spacer(1, 2.5 * mm))
         flowables.append(KeepTogether(block))
     return flowables
@@ -221,9 +288,10 @@ def _measurement_charts(measurements: Sequence[LoadedMeasurement], design) -> li
         flowables.append(p(f"{measurement.file}: ports " + ", ".join(
             f"{index + 1} = {name or 'not connected'}" for index, name in enumerate(measurement.ports)), SMALL))
         for build in (return_loss_chart, isolation_chart, correlation_chart):
-            drawing = build(measurement, design, width_pt=FRAME_WIDTH, height_pt=200)
-            if drawing is not None:
-                flowables += [CondPageBreak(215), drawing, Spacer(1, 3 * mm)]
+            drawn = _figure(f"chart of {measurement.file}",
+                            partial(build, measurement, design, width_pt=FRAME_WIDTH, height_pt=200))
+            if drawn:
+                flowables += [CondPageBreak(215), *drawn, Spacer(1, 3 * mm)]
     return flowables
 
 
@@ -234,13 +302,20 @@ def _coverage(measurements: Sequence[LoadedMeasurement], design) -> list[Flowabl
     table = [[f"{label} ({unit})" if unit else label for _, label, unit in TABLE_COLUMNS]]
     table += [["—" if row.get(key) is None else row.get(key) for key, _, _ in TABLE_COLUMNS] for row in rows]
     widths = [FRAME_WIDTH / len(TABLE_COLUMNS)] * len(TABLE_COLUMNS)
-    notes = [f"{row['band']}: {row['model_label']}; target {row['mcl_db']} dB ({row['mcl_source']}); entry loss "
-             f"{row['entry_loss_db']} dB ({row['entry_loss_source']}); ECC {row['ecc']} ({row['ecc_source']})."
+    notes = [f"{row['band']}: {row['model_label']} ({row['model_source']}"
+             + (f"; {row['model_reason']}" if row["model_reason"] else "") + f"); downlink target {row['mcl_dl_db']} dB "
+             f"({row['mcl_dl_source']}); "
+             + (f"uplink target {row['mcl_ul_db']} dB ({row['mcl_ul_source']}), power class {row['power_class']} "
+                f"({row['max_output_dbm']} dBm); " if row["mcl_ul_db"] is not None else "no uplink (SDL); ")
+             + f"one receive branch fewer {row['single_branch_cost_db']} dB ({row['single_branch_source']}), "
+             f"flat-Rayleigh bound {row['fading_bound_db']} dB; entry loss {row['entry_loss_db']} dB "
+             f"({row['entry_loss_source']}); cable loss {row['cable_loss_db']} dB; ECC {row['ecc']} ({row['ecc_source']})."
              for row in rows]
     return [PageBreak(), p("Coverage with one and two receive antennas", H2),
-            p("Downlink budget at each band's lowest downlink frequency; estimates with the stated assumptions.",
-              MUTED_SMALL),
-            coverage_chart(rows, width_pt=FRAME_WIDTH, height_pt=200), Spacer(1, 3 * mm),
+            p("Uplink and downlink budgets at each direction's lowest frequency; the direction with less margin "
+              "limits. Estimates with the stated assumptions.", MUTED_SMALL),
+            *_figure("coverage chart", lambda: coverage_chart(rows, width_pt=FRAME_WIDTH, height_pt=200)),
+            Spacer(1, 3 * mm),
             grid_table(table, widths), Spacer(1, 2 * mm), *[p(note, MUTED_SMALL) for note in notes]]
 
 
@@ -265,14 +340,19 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
     measurements = attach_measurements(design, measurement_reader(revision))  # read once, used twice
     checklist = revision.evaluation
     items = list(revision.review_items.filter(kind=ReviewItem.Kind.RAISED)
-                 .select_related("decided_by", "carried_from").order_by("id"))
+                 .with_provenance().order_by("id"))
     rank = {"blocker": 0, "warning": 1, "note": 2}
     items.sort(key=lambda item: (rank.get(item.severity, 9), item.topic, item.rule_id, item.subjects_key))
     signatures = list(revision.signatures.select_related("signer").order_by("id"))
     product = revision.product
     grouped = " ".join(fingerprint[index:index + 4] for index in range(0, 32, 4))
-    footer = f"{product.name} · revision {revision.number} · fingerprint {grouped}"
+    # The footer's line leaves room for "page 999 of 999"; a long product name is cut to fit (the cover
+    # has it whole).
+    suffix = f" · revision {revision.number} · fingerprint {grouped}"
+    room_pt = FRAME_WIDTH - 60 - text_width(suffix, size=7)
+    footer = fit(product.name, size=7, width=room_pt) + suffix
 
+    register()
     story: list[Flowable] = [
         Spacer(1, 25 * mm),
         p("Antenna design record", H1),
@@ -301,10 +381,11 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
         *_band_table(checklist),
         PageBreak(),
         p("Placement", H2),
-        placement_drawing(design, pair_severities=pair_severities_from_findings(checklist["findings"]),
-                          frequency_mhz=design.lowest_mhz, width_pt=FRAME_WIDTH, max_height_pt=PAGE_HEIGHT - 80 * mm),
+        *_figure("placement drawing", lambda: placement_drawing(
+            design, pair_severities=pair_severities_from_findings(checklist["findings"]),
+            frequency_mhz=design.lowest_mhz, width_pt=FRAME_WIDTH, max_height_pt=PAGE_HEIGHT - 80 * mm)),
         PageBreak(),
-        *_checklist(items),
+        *_checklist(items, approver_ids(product.team)),
         Spacer(1, 4 * mm),
         *_finding_details(items),
         *_measurement_charts(measurements, design),
@@ -322,8 +403,10 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
     ]
     buffer = io.BytesIO()
     document = SimpleDocTemplate(buffer, pagesize=A4, leftMargin=MARGIN, rightMargin=MARGIN, topMargin=MARGIN,
-                                 bottomMargin=20 * mm, title=f"{product.name} revision {revision.number} record",
-                                 author=product.team.name, subject="Antenna design record", creator="Earshot",
+                                 bottomMargin=20 * mm,
+                                 title=printable(f"{product.name} revision {revision.number} record"),
+                                 author=printable(product.team.name), subject="Antenna design record",
+                                 creator="Earshot",
                                  invariant=1)
     document.build(story, canvasmaker=numbered_canvas(footer))
     return buffer.getvalue()

@@ -54,7 +54,7 @@ def signoff_sign(request, product_id: int, number: int):
         return redirect("signoff_page", product_id, number)
     try:
         signature = services.revision_sign(revision=revision, user=request.user, role=form.cleaned_data["role"],
-                                           password=form.cleaned_data["password"])
+                                           password=form.cleaned_data["password"], request=request)
     except services.SigningError as error:
         messages.error(request, str(error))
         return redirect("signoff_page", product_id, number)

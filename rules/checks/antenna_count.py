@@ -41,7 +41,8 @@ def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
             explanation=(
                 f"{category.label} is specified with {required} receive antennas; the design fits {fitted}. "
                 "An operator has approved single-antenna operation, so the device may be accepted on that "
-                "network, but it loses receive diversity (typically several dB at the cell edge) and another "
+                "network, but it loses receive diversity (about 3-5 dB of downlink at the cell edge in 3GPP's "
+                "single-receive-branch evaluations) and another "
                 f"operator may refuse it.{ports_note}"
             ),
             action=(

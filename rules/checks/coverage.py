@@ -3,26 +3,22 @@
 from collections.abc import Iterator
 
 from rules.context import CheckContext
-from rules.coverage import (
-    MODEL_LABELS,
-    MODEL_SOURCES,
-    CoverageAnalysis,
-    analyse_coverage,
-    hata_distance_slope_db_per_decade,
-)
+from rules.coverage import TR_38_901, CoverageAnalysis, analyse_coverage
 from rules.findings import Flag
 from rules.registry import rule
 
 # Warn when one antenna covers less than this share of the area two antennas cover. Covered area goes
 # with the square of the range, so 70 % means about 1.43 times the base stations for the same area, or
-# 30 % of the two-antenna area left uncovered (common practice: cell area ~ range^2). At the Hata distance
-# slope for a 30 m mast (35.2 dB per decade) 70 % is 2.7 dB, just under the 3.0 dB array gain an equally
-# efficient second antenna brings even without fading. So for such an antenna the warning stands on the
-# array gain alone, whatever share of the fading diversity the channel coding recovers. Only a second
-# antenna both much less efficient than the first and strongly correlated with it adds less.
+# 30 % of the two-antenna area left uncovered (common practice: cell area ~ range^2). At TR 38.901 UMa
+# NLOS's distance slope (39.08 dB per decade) 70 % is 3.0 dB of lost downlink coverage: the static cost of a
+# receive branch alone. So the headline single-branch cost (4 dB, 62 %) warns when the downlink limits, and
+# a loss the uplink absorbs does not.
 AREA_SHARE_WARNING_RATIO = 0.70
 
 MRC = "maximal-ratio combining of two Rayleigh-fading branches, exact outage with correlated branches"
+SINGLE_BRANCH = "3GPP TR 36.888 and TR 38.875 single-receive-branch evaluations (from memory)"
+REDCAP_1RX = "3GPP TS 38.331 cellBarredRedCap1Rx"
+DIRECTION_WORDS = {"dl": "downlink", "ul": "uplink"}
 
 
 def could_use_two(context: CheckContext) -> bool:
@@ -37,34 +33,54 @@ def could_use_two(context: CheckContext) -> bool:
 
 
 def _range_text(analysis: CoverageAnalysis) -> str:
+    if not analysis.modelled:
+        return ""
+    where = (f"By {analysis.model_label} ({analysis.geometry.base_m:g} m mast, device at "
+             f"{analysis.geometry.mobile_height_m:g} m)")
     if analysis.range_one_km is not None and analysis.range_two_km is not None:
-        return (f"By {MODEL_LABELS[analysis.model]} ({analysis.area}, {analysis.base_height_m:g} m mast, "
-                f"device at {analysis.mobile_height_m:g} m) one antenna reaches about "
-                f"{analysis.range_one_km:.1f} km against {analysis.range_two_km:.1f} km with two.")
-    if not analysis.empirical:
-        return analysis.range_note or ""
-    model = MODEL_LABELS[analysis.model]
-    return f"Path loss by {model} ({analysis.area}). {analysis.range_note or ''}".rstrip()
+        return (f"{where} one antenna reaches about {analysis.range_one_km:.2f} km against "
+                f"{analysis.range_two_km:.2f} km with two.")
+    return f"{where}: {analysis.range_note or ''}".rstrip()
+
+
+def _direction_text(analysis: CoverageAnalysis) -> str:
+    if analysis.allowed_ul_db is None:
+        return (f"{analysis.band} is a supplemental-downlink band: its uplink runs on another band, so only "
+                "the downlink is budgeted here.")
+    limiting_one, limiting_two = analysis.limiting_direction(1), analysis.limiting_direction(2)
+    margins = (f"margins at {analysis.reference_distance_km:g} km: uplink {analysis.margin_ul_db:+.1f} dB, "
+               f"downlink {analysis.margin_dl_db(2):+.1f} dB with two antennas and "
+               f"{analysis.margin_dl_db(1):+.1f} dB with one" if analysis.modelled else
+               f"allowed losses: uplink {analysis.allowed_ul_db:.1f} dB, downlink {analysis.allowed_dl_two_db:.1f} "
+               f"dB with two antennas and {analysis.allowed_dl_one_db:.1f} dB with one")
+    if limiting_one == "ul":
+        return (f"The uplink limits the coverage with one antenna as with two ({margins}), and losing a "
+                "receive branch changes only the downlink: by this budget the cellular coverage does not "
+                "shrink.")
+    if limiting_two == "ul":
+        return (f"With two antennas the uplink limits, with one the downlink ({margins}): part of the "
+                f"branch's cost is absorbed, {analysis.coverage_loss_db(analysis.cost.headline_db):.1f} dB "
+                "reaches the coverage.")
+    return f"The downlink limits the coverage ({margins}), so the branch's whole cost reaches it."
 
 
 @rule(
-    id="COV-001", topic="coverage", severities=("warning", "note"),
+    id="COV-001", changed_in="2.0.0", topic="coverage", severities=("warning", "note"),
     title="One receive antenna where the modem can use two: the coverage it costs",
     rationale=(
-        "A second receive antenna adds the array gain of maximal-ratio combining (3 dB for two equally "
-        "efficient antennas) and a diversity gain against Rayleigh fading (several dB more at 1 % outage, "
-        "less the more correlated the antennas are). The downlink budget of each band, from the category's "
-        "coverage target through an Okumura-Hata path-loss model, turns that gain into range and covered "
-        "area. A warning when one antenna covers less than 70 % of the two-antenna area: 1.43 times the "
-        "base stations for the same area, and at the Hata distance slope for a 30 m mast (35.2 dB per "
-        "decade) about 2.7 dB, just under the 3 dB array gain of an equally efficient second antenna "
-        "alone, so the warning does not rest on the fading statistics. Otherwise, or where only free space "
-        "applies (above 2000 MHz), a note. Only for categories or modules that can use two receive "
-        "antennas; designs that fit two lose nothing."
+        "A second receive antenna helps only the downlink. 3GPP's single-receive-branch evaluations (TR "
+        "36.888 for LTE-M, TR 38.875 for RedCap) put its loss at about 3 dB static and 3-5 dB in fading, "
+        "because LTE and NR already get frequency, HARQ and coding diversity; that range (4 dB headline) is "
+        "what the rule judges by, with the flat-Rayleigh MRC outage gain shown beside it as a bound. Both "
+        "directions are budgeted from the category's coverage targets (TR 36.888's 140.7 dB legacy LTE "
+        "target is the uplink PUSCH limit; its downlink limit is higher), through TR 38.901 path loss, with "
+        "the power class, cable and antenna losses. Where the uplink limits, the downlink's loss may cost "
+        "no coverage at all. A warning when one antenna covers less than 70 % of the two-antenna area (1.43 "
+        "times the base stations for the same area); otherwise, or where no band has a valid path-loss "
+        "model, a note. Only for categories or modules that can use two receive antennas."
     ),
     sources=(
-        MODEL_SOURCES["okumura-hata"], MODEL_SOURCES["cost231-hata"], MODEL_SOURCES["free-space"],
-        "3GPP TR 36.888 and TR 45.820 (coverage targets)", MRC,
+        TR_38_901, SINGLE_BRANCH, "3GPP TR 36.888 and TR 45.820 (coverage targets)", MRC,
         "common practice (70 % area share threshold; cell area grows with the square of its range)",
     ),
 )
@@ -75,78 +91,107 @@ def single_antenna_coverage(context: CheckContext) -> Iterator[Flag]:
     analyses = analyse_coverage(context)
     if not analyses:
         return
-    judged = [analysis for analysis in analyses if analysis.empirical]
+    judged = [analysis for analysis in analyses if analysis.modelled]
     worst = min(judged or analyses, key=lambda analysis: analysis.area_share_ratio)
     warn = bool(judged) and worst.area_share_ratio < AREA_SHARE_WARNING_RATIO
     category = design.modem.category
-    gain = worst.gain
+    cost = worst.cost
+    bound = cost.bound
     share_pct = worst.area_share_pct
-    gain_text = (
-        f"A second receive antenna would add {gain.total_db:.1f} dB in {worst.band} "
-        f"({worst.frequency_mhz:g} MHz): {gain.array_gain_db:.1f} dB array gain and "
-        f"{gain.diversity_gain_db:.1f} dB diversity gain at {100 * gain.outage_probability:g} % outage, "
-        f"with envelope correlation {gain.ecc:.2f} ({worst.ecc_source}) and {gain.efficiency_ratio:.2f} "
-        f"times the first antenna's efficiency ({worst.efficiency_source})."
+    limiting = worst.limiting_direction(1)
+    cost_text = (
+        f"Without its second receive branch the downlink of {worst.band} ({worst.frequency_mhz:g} MHz) loses "
+        f"about {cost.headline_db:.1f} dB ({cost.low_db:.1f}-{cost.high_db:.1f} dB in fading channels, "
+        f"{cost.static_db:.1f} dB static: {cost.source}), against the flat-Rayleigh bound of "
+        f"{cost.bound_db:.1f} dB ({bound.array_gain_db:.1f} dB array gain and {bound.diversity_gain_db:.1f} dB "
+        f"diversity gain of MRC at {100 * bound.outage_probability:g} % outage, envelope correlation "
+        f"{bound.ecc:.2f} ({worst.ecc_source}), second antenna {bound.efficiency_ratio:.2f} times as efficient "
+        f"({worst.efficiency_source}))."
     )
+    if worst.modelled:
+        share_text = (f" One antenna then covers about {share_pct:.0f} % of the two-antenna area "
+                      f"({worst.area_share_bound_pct:.0f} % at the fading bound), at "
+                      f"{worst.distance_slope_db_per_decade:.1f} dB per decade of distance.")
+    else:
+        share_text = (f" No band lies where TR 38.901 applies ({worst.model_reason}), so this is only a note; at "
+                      f"the model's slope one antenna would cover about {share_pct:.0f} % of the two-antenna area.")
+    if judged and not warn and limiting == "dl":
+        share_text += f" That is above the {100 * AREA_SHARE_WARNING_RATIO:.0f} % this rule warns below."
     basis = (
-        f"The budget starts from the {worst.target.mcl_db:.1f} dB coverage target of {category.label} "
-        f"({worst.target.source}), adds {worst.base_gain_db:g} dB of base-station antenna gain and takes off "
-        f"{worst.entry_loss_db:g} dB entry loss for {worst.environment} use ({worst.entry_loss_source}). "
-        "These are estimates for comparison, not a coverage prediction: the operator's network and its "
-        "acceptance testing decide what the product gets."
+        f"The budget starts from the {category.label} targets (uplink {worst.target.ul_mcl_db:.1f} dB: "
+        f"{worst.target.ul_source}; downlink {worst.target.dl_mcl_db:.1f} dB: {worst.target.dl_source}), adds "
+        f"{worst.base_gain_db:g} dB of base-station antenna gain, {worst.max_output_dbm - 23.0:+g} dB for power "
+        f"class {worst.power_class} ({worst.max_output_dbm:g} dBm) on the uplink, and takes off "
+        f"{worst.entry_loss_db:g} dB entry loss for {worst.environment} use ({worst.entry_loss_source}), "
+        f"{worst.antenna_loss_db:.1f} dB antenna efficiency and {worst.cable_loss_db:g} dB cable loss. These are "
+        "estimates for comparison, not a coverage prediction: the operator's network and its acceptance "
+        "testing decide what the product gets."
     )
-    if not judged:
-        extra = (f" None of the bands lies where an Okumura-Hata model applies ({worst.model_reason}), so "
-                 "this is only a note.")
-    elif warn:
-        extra = ""
-    else:
-        extra = f" That is above the {100 * AREA_SHARE_WARNING_RATIO:.0f} % this rule warns below."
-    if worst.empirical:
-        slope_db = hata_distance_slope_db_per_decade(worst.base_height_m)
-        slope_note = (f" At {slope_db:.1f} dB per decade of distance the single antenna covers "
-                      f"{share_pct:.0f} % of the two-antenna area.")
-    else:
-        slope_note = f" At that slope the single antenna covers {share_pct:.0f} % of the two-antenna area."
+    redcap = ""
+    if category.single_antenna == "module":
+        redcap = (" With one receive branch in use the device reports itself as a 1Rx RedCap UE, and an "
+                  f"operator can bar such devices from a cell ({REDCAP_1RX}): confirm the operators allow it.")
     yield Flag(
         severity="warning" if warn else "note",
-        title=(f"One receive antenna covers about {share_pct:.0f} % of the two-antenna area "
-               f"({worst.band}, {gain.total_db:.1f} dB less)"),
+        title=(f"One receive antenna: about {cost.headline_db:.1f} dB less downlink in {worst.band}; "
+               + (f"coverage {share_pct:.0f} % of the two-antenna area" if limiting == "dl" or not judged
+                  else "the uplink limits, coverage unchanged")),
         explanation=(
             f"{category.label} can use two receive antennas; the design connects {context.rx_connected}. "
-            f"{gain_text} {_range_text(worst)}{slope_note}{extra} {basis}"
+            f"{cost_text} {_direction_text(worst)}{share_text} {_range_text(worst)} {basis}{redcap}".replace("  ", " ")
         ),
         action=(
             "Fit the second receive antenna (spaced and polarized to keep the envelope correlation low), or "
-            "accept the smaller coverage knowingly: confirm with each operator that it is acceptable, and "
+            "accept the smaller downlink knowingly: confirm with each operator that it is acceptable, and "
             "plan for installations closer to the base station or with external antennas."
         ),
         evidence={
+            "direction": "dl",
+            "limiting_direction": limiting,
+            "limiting_direction_two": worst.limiting_direction(2),
             "band": worst.band,
             "frequency_mhz": worst.frequency_mhz,
+            "ul_frequency_mhz": worst.ul_frequency_mhz,
             "area_share_pct": share_pct,
+            "area_share_bound_pct": worst.area_share_bound_pct,
             "range_one_km": worst.range_one_km,
             "range_two_km": worst.range_two_km,
-            "second_antenna_gain_db": gain.total_db,
-            "array_gain_db": gain.array_gain_db,
-            "diversity_gain_db": gain.diversity_gain_db,
-            "outage_pct": 100 * gain.outage_probability,
-            "ecc": gain.ecc,
+            "single_branch_cost_db": cost.headline_db,
+            "single_branch_cost_range_db": [cost.low_db, cost.high_db],
+            "single_branch_static_db": cost.static_db,
+            "fading_bound_db": cost.bound_db,
+            "coverage_loss_db": worst.coverage_loss_db(cost.headline_db),
+            "second_antenna_gain_db": cost.headline_db,
+            "array_gain_db": bound.array_gain_db,
+            "diversity_gain_db": bound.diversity_gain_db,
+            "outage_pct": 100 * bound.outage_probability,
+            "ecc": bound.ecc,
             "ecc_source": worst.ecc_source,
-            "efficiency_ratio": gain.efficiency_ratio,
-            "model": worst.model,
-            "area": worst.area,
-            "mcl_db": worst.target.mcl_db,
+            "efficiency_ratio": bound.efficiency_ratio,
+            "model": worst.geometry.scenario,
+            "los": worst.geometry.los,
+            "mcl_ul_db": worst.target.ul_mcl_db if worst.allowed_ul_db is not None else None,
+            "mcl_dl_db": worst.target.dl_mcl_db,
+            "mcl_db": worst.target.dl_mcl_db,
+            "power_class": worst.power_class,
+            "max_output_dbm": worst.max_output_dbm,
+            "cable_loss_db": worst.cable_loss_db,
+            "antenna_loss_db": worst.antenna_loss_db,
             "base_gain_db": worst.base_gain_db,
             "entry_loss_db": worst.entry_loss_db,
             "environment": worst.environment,
+            "margin_ul_db": worst.margin_ul_db,
+            "margin_dl_one_db": worst.margin_dl_db(1),
+            "margin_dl_two_db": worst.margin_dl_db(2),
             "margin_one_db": worst.margin_one_db,
             "margin_two_db": worst.margin_two_db,
             "reference_distance_km": worst.reference_distance_km,
             "area_share_threshold_pct": 100 * AREA_SHARE_WARNING_RATIO,
             "bands": [analysis.band for analysis in analyses],
             "area_shares_pct": [analysis.area_share_pct for analysis in analyses],
+            "limiting_directions": [analysis.limiting_direction(1) for analysis in analyses],
         },
-        references=(MODEL_SOURCES[worst.model], worst.target.source, MRC,
-                    "common practice (70 % area share threshold)"),
+        references=(TR_38_901, SINGLE_BRANCH, worst.target.ul_source, worst.target.dl_source, MRC,
+                    "common practice (70 % area share threshold)")
+        + ((REDCAP_1RX,) if redcap else ()),
     )

@@ -365,21 +365,28 @@ def ground_plane_unknown(context: CheckContext) -> Iterator[Flag]:
 
 LOW_BAND_CEILING_MHZ = 1000.0  # bands below this share one low-band match on a typical multiband antenna
 DESIGN_VSWR = 3.0  # the matching threshold of the severity policy
+# Real antennas and matching networks seldom come within a factor of about two of a physical bound, so the
+# rule warns once the need passes half of it (common practice).
+PRACTICAL_SHARE_OF_BOUND = 0.5
 
 
 @rule(
-    id="SIZ-001", topic="device-size", severities=("warning",),
+    id="SIZ-001", changed_in="2.0.0", topic="device-size", severities=("warning",),
     title="Device too small, electrically, for the low-band bandwidth",
     rationale=(
-        "A device radiates from its antenna and ground together, so the sphere enclosing the ground plane "
-        "bounds its radiation Q (McLean 1996). Q limits the fractional bandwidth that can be matched at a "
-        "given VSWR (Yaghjian & Best 2005). If the low bands need more than that, a passive antenna cannot "
-        "cover them at once: expect tuning, lost efficiency, or both."
+        "A device radiates from its antenna and ground together, so the board's size bounds its radiation "
+        "Q: for a flat board the planar bound of Gustafsson, Sohl and Kristensson (2007), Q >= 6 pi / "
+        "(k^3 gamma) with gamma the board's high-contrast polarizability, is far tighter than McLean's "
+        "sphere around it (both are computed; the larger Q holds). Bode-Fano then caps what any matching "
+        "network can do at VSWR 3: bandwidth x efficiency <= pi / (Q ln 2), since a small antenna buys "
+        "bandwidth with loss. A warning when the low bands' bandwidth times the efficiency expected of the "
+        "antenna (entered, else 100 %) passes half of that cap: expect tuning, lost efficiency, or both."
     ),
     sources=(
+        "Gustafsson, Sohl, Kristensson, Proc. R. Soc. A 463, 2007",
         "McLean, IEEE Trans. Antennas Propag. 44(5), 1996",
-        "Yaghjian & Best, IEEE Trans. Antennas Propag. 53(4), 2005",
-        "Chu, J. Appl. Phys. 19, 1948",
+        "Bode 1945; Fano, J. Franklin Inst. 249, 1950",
+        "common practice (designs reach about half of the bound)",
     ),
 )
 def device_too_small_for_bandwidth(context: CheckContext) -> Iterator[Flag]:
@@ -388,40 +395,72 @@ def device_too_small_for_bandwidth(context: CheckContext) -> Iterator[Flag]:
         return
     frequency_mhz = context.lowest_mhz
     if frequency_mhz < LOW_BAND_CEILING_MHZ:
-        spans = [pair for band in design.modem.bands if band.lowest_mhz < LOW_BAND_CEILING_MHZ
-                 for pair in (band.ul_mhz, band.dl_mhz)]
+        in_scope = [band for band in design.modem.bands if band.lowest_mhz < LOW_BAND_CEILING_MHZ]
     else:
-        spans = [context.lowest_band.ul_mhz, context.lowest_band.dl_mhz]
-    span = merge_ranges(spans)
+        in_scope = [context.lowest_band]
+    span = merge_ranges([pair for band in in_scope for pair in band.ranges_mhz])
     low_mhz, high_mhz = span[0][0], span[-1][1]
+    length_mm, width_mm = max(design.ground_plane_mm), min(design.ground_plane_mm)
     radius_mm = physics.enclosing_sphere_radius_mm(design.ground_plane_mm)
     ka = physics.wavenumber_radius(frequency_mhz, radius_mm)
-    q_limit = physics.mclean_q_limit(ka)
-    allowed = physics.bandwidth_from_q(q_limit, DESIGN_VSWR)
+    q_sphere = physics.mclean_q_limit(ka)
+    polarizability_mm3 = physics.rectangle_polarizability_mm3(length_mm, width_mm)
+    q_planar = physics.planar_q_limit(frequency_mhz, polarizability_mm3)
+    q_limit = max(q_sphere, q_planar)
+    limit = physics.bode_fano_bandwidth(q_limit, DESIGN_VSWR)  # of bandwidth x efficiency
+    threshold = PRACTICAL_SHARE_OF_BOUND * limit
     needed = physics.fractional_bandwidth(low_mhz, high_mhz)
-    if needed <= allowed:
+
+    names = {band.name for band in in_scope}
+    entered = [(antenna.efficiency_pct[name], antenna.name, name) for antenna in context.cellular_antennas
+               if antenna.mounting == "internal" for name in names if name in antenna.efficiency_pct]
+    if entered:
+        efficiency_pct, antenna_name, band_name = min(entered)
+        efficiency_source = f"lowest entered efficiency in the low bands: {antenna_name} in {band_name}"
+    else:
+        efficiency_pct, efficiency_source = 100.0, "no efficiency entered: a lossless antenna assumed"
+    product = needed * efficiency_pct / 100.0
+    if product <= threshold:
         return
+    best_efficiency_pct = min(100.0, 100.0 * threshold / needed)
+    bound_name = "planar bound (Gustafsson et al.)" if q_planar >= q_sphere else "McLean's sphere bound"
     yield Flag(
         severity="warning",
-        title=f"{low_mhz:g}–{high_mhz:g} MHz needs {needed:.1%} bandwidth; this size allows about {allowed:.1%}",
+        title=(f"{low_mhz:g}–{high_mhz:g} MHz needs {needed:.1%} bandwidth; a {length_mm:g} × {width_mm:g} mm "
+               f"board allows about {threshold:.1%} at {efficiency_pct:g} % efficiency"),
         explanation=(
-            f"The ground plane fits in a sphere of radius {radius_mm:.1f} mm, ka = {ka:.3f} at "
-            f"{frequency_mhz:g} MHz. McLean's limit gives Q of at least {q_limit:.1f}, which allows about "
-            f"{allowed:.1%} fractional bandwidth at VSWR {DESIGN_VSWR:g}:1 for a single resonance; the low "
-            f"bands span {needed:.1%}."
+            f"At {frequency_mhz:g} MHz the {length_mm:g} × {width_mm:g} mm ground plane has a high-contrast "
+            f"polarizability of {polarizability_mm3 / 1000:.0f} cm³, so its radiation Q is at least "
+            f"{q_planar:.1f} by the planar bound (McLean's sphere of radius {radius_mm:.1f} mm, ka = {ka:.3f}, "
+            f"gives only {q_sphere:.1f}). With Q = {q_limit:.1f} ({bound_name}) Bode-Fano caps bandwidth × "
+            f"efficiency at {limit:.1%} for VSWR {DESIGN_VSWR:g}:1, and designs reach about half of it, "
+            f"{threshold:.1%}. The low bands span {needed:.1%}; at {efficiency_pct:g} % efficiency "
+            f"({efficiency_source}) that is {product:.1%}. Over the whole span the antenna can be expected to "
+            f"reach about {best_efficiency_pct:.0f} % efficiency at best."
         ),
         action=(
-            "Plan for an antenna tuner or switched matching, accept lower efficiency at the band edges, or "
-            "make the ground plane longer."
+            "Plan for an antenna tuner or switched matching, accept lower efficiency at the band edges (and "
+            "check it against the radiated targets), or make the ground plane longer."
         ),
         evidence={
             "frequency_mhz": frequency_mhz,
             "span_mhz": [low_mhz, high_mhz],
+            "length_mm": length_mm,
+            "width_mm": width_mm,
             "sphere_radius_mm": radius_mm,
             "ka": ka,
             "q": q_limit,
-            "max_fractional_bandwidth_pct": allowed * 100,
+            "q_sphere": q_sphere,
+            "q_planar": q_planar,
+            "polarizability_mm3": polarizability_mm3,
+            "bandwidth_efficiency_limit_pct": limit * 100,
+            "warning_threshold_pct": threshold * 100,
             "needed_fractional_bandwidth_pct": needed * 100,
+            "efficiency_pct": efficiency_pct,
+            "efficiency_source": efficiency_source,
+            "best_efficiency_pct": best_efficiency_pct,
+            "max_fractional_bandwidth_pct": min(100.0, threshold / (efficiency_pct / 100.0) * 100)
+            if efficiency_pct > 0 else None,
             "vswr": DESIGN_VSWR,
         },
     )

@@ -3,6 +3,7 @@ efficiency, and the throughput the product needs against the category's peak."""
 
 import math
 from collections.abc import Iterator
+from dataclasses import dataclass
 
 from rules.checks.measured import DIVERSITY_OUTAGE, MRC_MODEL
 from rules.context import CheckContext
@@ -102,24 +103,67 @@ def gain_unknown(context: CheckContext) -> Iterator[Flag]:
         )
 
 
+@dataclass(frozen=True)
+class Peak:
+    """The highest rate a design's modem reaches in one direction, and how it was reached."""
+
+    kbps: float
+    duplex_mode: str  # "FD-FDD", "HD-FDD" or "TDD"
+    band: str | None  # the selected band that reaches it (None when every band gives the same)
+    basis: str
+
+
+def design_peak(context: CheckContext, direction: str) -> Peak:
+    """The category's peak for this design: LTE-M at its half-duplex (HD-FDD) peak unless the module
+    declares full duplex; NR on a TDD band at its share of the symbols under the catalog's TDD pattern. The
+    best selected band sets the peak (a sustained need above it can't be met on any of them)."""
+    modem = context.design.modem
+    category = modem.category
+    if direction == "dl":
+        full_kbps = category.peak_dl_kbps_with(max(1, context.rx_connected))
+        half_kbps, tdd_share = category.half_duplex_dl_kbps, category.tdd_dl_share
+    else:
+        full_kbps = category.peak_ul_kbps
+        half_kbps, tdd_share = category.half_duplex_ul_kbps, category.tdd_ul_share
+    if half_kbps is not None and not modem.full_duplex:
+        return Peak(half_kbps, "HD-FDD", None, "half-duplex (HD-FDD) timeline of Rel-13, as most LTE-M modules "
+                                               "run; set modem.full_duplex for an FD-FDD module")
+    candidates = [band for band in modem.bands if direction == "dl" or band.has_uplink]
+    if tdd_share is not None and candidates and all(band.duplex == "TDD" for band in candidates):
+        band = candidates[0]
+        return Peak(full_kbps * tdd_share, "TDD", band.name,
+                    f"TDD {category.tdd_pattern}: {100 * tdd_share:.1f} % of the symbols carry the "
+                    f"{'downlink' if direction == 'dl' else 'uplink'} (common practice)")
+    fdd = next((band.name for band in candidates if band.duplex != "TDD"), None)
+    if fdd is None:
+        # LTE categories on TDD bands keep their TS 36.306 figure (bits per TTI): no split is assumed here.
+        return Peak(full_kbps, "TDD", None, "the category's figure per TTI, without a TDD split")
+    return Peak(full_kbps, "FD-FDD", fdd, f"full duplex on {fdd}: a transport block every slot")
+
+
 @rule(
-    id="THR-001", topic="throughput", severities=("blocker",),
+    id="THR-001", changed_in="2.0.0", topic="throughput", severities=("blocker",),
     title="Required throughput above the category's peak",
     rationale=(
         "A category's peak rate is the most its transport blocks can carry under ideal radio conditions; "
-        "a sustained need above it can't be met anywhere in the network."
+        "a sustained need above it can't be met anywhere in the network. LTE-M modules are taken as "
+        "half-duplex (HD-FDD, the Rel-13 peaks of a few hundred kbps) unless the design declares full "
+        "duplex; RedCap on a TDD band gets the downlink or uplink share of the TDD pattern."
     ),
-    sources=("3GPP TS 36.306 Tables 4.1-1, 4.1A-1, 4.1C-1", "3GPP TS 38.306 §4.1.2"),
+    sources=("3GPP TS 36.306 Tables 4.1-1, 4.1A-1, 4.1C-1", "3GPP TS 38.306 §4.1.2",
+             "3GPP TS 36.213 (LTE-M HD-FDD timing; peaks from memory)",
+             "common practice (TDD pattern DDDSU, S = 10:2:2)"),
 )
 def throughput_above_peak(context: CheckContext) -> Iterator[Flag]:
     design = context.design
     category = design.modem.category
-    needs = (
-        ("dl", design.deployment.required_dl_kbps, category.peak_dl_kbps_with(max(1, context.rx_connected))),
-        ("ul", design.deployment.required_ul_kbps, category.peak_ul_kbps),
-    )
-    for direction, required_kbps, peak_kbps in needs:
-        if required_kbps is None or required_kbps <= peak_kbps:
+    needs = (("dl", design.deployment.required_dl_kbps), ("ul", design.deployment.required_ul_kbps))
+    for direction, required_kbps in needs:
+        if required_kbps is None:
+            continue
+        peak = design_peak(context, direction)
+        peak_kbps = peak.kbps
+        if required_kbps <= peak_kbps:
             continue
         word = "downlink" if direction == "dl" else "uplink"
         yield Flag(
@@ -127,11 +171,14 @@ def throughput_above_peak(context: CheckContext) -> Iterator[Flag]:
             title=f"{word.capitalize()} need of {required_kbps:g} kbps exceeds {category.label}'s {peak_kbps:g} kbps peak",
             explanation=(
                 f"The product needs {required_kbps:g} kbps sustained on the {word}; {category.label} peaks at "
-                f"{peak_kbps:g} kbps with this antenna count, and real links deliver a fraction of the peak."
+                f"{peak_kbps:g} kbps with this antenna count ({peak.basis}), and real links deliver a fraction "
+                "of the peak."
             ),
             action="Choose a faster category, or reduce what the product sends and receives.",
             subjects=(direction,),
-            evidence={"direction": direction, "required_kbps": required_kbps, "peak_kbps": peak_kbps},
+            evidence={"direction": direction, "required_kbps": required_kbps, "peak_kbps": peak_kbps,
+                      "duplex_mode": peak.duplex_mode, "tdd_pattern": category.tdd_pattern
+                      if peak.duplex_mode == "TDD" else None},
             references=(category.reference,),
         )
 

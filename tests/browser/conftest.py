@@ -13,6 +13,7 @@ from pathlib import Path
 import pytest
 
 from projectapp.teams.models import Team
+from tests.django_isolation import empty_cache, fast_password_hashing, media_in_tmp  # noqa: F401 (autouse)
 
 # Playwright's sync API runs an asyncio event loop in the test's own thread (it switches to it with
 # greenlets). Django sees that running loop and refuses ORM calls from the thread

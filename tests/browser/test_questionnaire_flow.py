@@ -298,3 +298,95 @@ def test_a_reviewer_opening_the_draft_lands_on_the_read_only_revision(page, live
     expect(page.locator("main").locator("input:not([type=hidden]), select, textarea")).to_have_count(0)
     expect(page.get_by_role("link", name="Edit the draft")).to_have_count(0)
     expect(page.get_by_role("button", name="Submit for review")).to_have_count(0)
+
+
+@pytest.fixture
+def slow_saves(monkeypatch):
+    """Every questionnaire save takes at least 0.6 s on the server, as on a busy machine: typing goes on while
+    the answer is on its way (the live server answers from its own thread, so the sleep holds only it)."""
+    import time
+
+    from projectapp.designs import views
+
+    original = views.checklist_for
+
+    def slow(revision):
+        time.sleep(0.6)
+        return original(revision)
+
+    monkeypatch.setattr(views, "checklist_for", slow)
+
+
+# Counts htmx requests sent and answered. A queued request is sent in the same task that ends the one before
+# it, so "as many answered as sent" seen between tasks means nothing is in flight and nothing is queued.
+COUNT_REQUESTS = """() => {
+  window.earshotRequests = {sent: 0, answered: 0};
+  document.body.addEventListener('htmx:beforeRequest', () => { window.earshotRequests.sent += 1; });
+  document.body.addEventListener('htmx:afterRequest', () => { window.earshotRequests.answered += 1; });
+}"""
+ALL_ANSWERED = """() => window.earshotRequests.sent > 0
+    && window.earshotRequests.sent === window.earshotRequests.answered"""
+
+
+def test_typing_on_while_a_save_comes_back_keeps_every_keystroke(page, live_server, author, hive_gateway,
+                                                                  slow_saves):
+    log_in(page, live_server, author)
+    page.goto(live_server.url + reverse("draft_edit", args=[hive_gateway.pk]))
+    page.evaluate(COUNT_REQUESTS)
+    downlink = answer(page, "deployment.required_dl_kbps")
+    downlink.click()
+    page.keyboard.press("Control+A")
+    # 150 ms a key, Tab to the next field (which selects its text, so typing replaces it), as a person types.
+    for text in ("100", "20", "300"):
+        page.keyboard.type(text, delay=150)
+        page.keyboard.press("Tab")
+    expect(page.locator("#q-deployment-body-distance-mm")).not_to_be_focused()
+    assert page.evaluate("() => document.activeElement.name") not in (
+        "deployment.required_dl_kbps", "deployment.required_ul_kbps", "deployment.body_distance_mm")
+    page.wait_for_function(ALL_ANSWERED, timeout=15_000)
+    typed = {"deployment.required_dl_kbps": "100", "deployment.required_ul_kbps": "20",
+             "deployment.body_distance_mm": "300"}
+    for name, value in typed.items():
+        expect(answer(page, name)).to_have_value(value)
+    stored = Product.objects.get(pk=hive_gateway.pk).draft.document["deployment"]
+    assert (stored["required_dl_kbps"], stored["required_ul_kbps"], stored["body_distance_mm"]) == (100, 20, 300)
+    page.reload()
+    for name, value in typed.items():
+        expect(answer(page, name)).to_have_value(value)
+
+
+def test_a_stale_page_shows_the_other_change_and_keeps_what_was_typed(browser, page, live_server, author,
+                                                                       hive_gateway, team):
+    from tests.browser.conftest import DESKTOP
+    from tests.web.conftest import make_user
+
+    other_author = make_user("tobias", team, "author")
+    log_in(page, live_server, author)
+    draft_url = live_server.url + reverse("draft_edit", args=[hive_gateway.pk])
+    page.goto(draft_url)
+
+    other_context = browser.new_context(viewport=DESKTOP)
+    try:
+        other = other_context.new_page()
+        log_in(other, live_server, other_author)
+        other.goto(draft_url)
+        click_button(other, "Add an antenna")
+        expect(other.locator("#section-antennas fieldset.antenna-row")).to_have_count(3)
+    finally:
+        other_context.close()
+
+    # My page still shows two antennas; I move DIV and leave the field.
+    field = answer(page, "antennas[1].position_mm[0]")
+    field.fill("99")
+    field.press("Tab")
+    conflict = page.locator("#section-antennas-conflict [role=alert]")
+    expect(conflict).to_contain_text("Conflict. Antennas changed after you opened this page")
+    expect(conflict).to_contain_text("tobias")
+    expect(conflict).to_contain_text('antennas[2]: — → {"name": "ANT1"')
+    expect(field).to_have_value("99")
+    stored = Product.objects.get(pk=hive_gateway.pk).draft.document["antennas"]
+    assert [antenna["name"] for antenna in stored] == ["MAIN", "DIV", "ANT1"] and stored[1]["position_mm"][0] == 60
+
+    page.get_by_role("link", name="load theirs").click()
+    expect(page.locator("#section-antennas fieldset.antenna-row")).to_have_count(3)
+    expect(page.locator("#section-antennas-conflict [role=alert]")).to_have_count(0)

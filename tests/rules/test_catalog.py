@@ -16,11 +16,18 @@ from nrarfcn.api.lte import get_lte_duplex_mode, get_lte_frequency_range
 from rules import catalog
 from rules.catalog import CatalogError, bands, categories
 
-ALL_BANDS = list(bands().values())
+# Satellite (NTN) bands come from TS 36.102 / TS 38.101-5, which nrarfcn does not carry; they are checked
+# against the tables' values (from memory) further down.
+# n105, n106 and n109 are newer than nrarfcn 2.6's tables: checked against the TS 38.101-1 values below.
+NOT_IN_NRARFCN = {"n105", "n106", "n109"}
+ALL_BANDS = [band for band in bands().values() if not band.satellite and band.name not in NOT_IN_NRARFCN]
+SATELLITE_BANDS = [band for band in bands().values() if band.satellite]
 
 
-def reference_band(name: str) -> tuple[tuple[float, float], tuple[float, float], str]:
-    """UL range, DL range and duplex mode of a band as nrarfcn's 3GPP tables give them."""
+def reference_band(name: str) -> tuple[tuple[float, float] | None, tuple[float, float], str]:
+    """UL range (None for a supplemental-downlink band), DL range and duplex mode of a band as nrarfcn's
+    3GPP tables give them. nrarfcn marks the uplink of an SDL band "N/A"; for LTE it calls such a band
+    FDD, as TS 36.101 Table 5.5-1 does (with a note restricting it to carrier aggregation), for NR SDL."""
     if name.startswith("B"):
         ul = get_lte_frequency_range(name, "ul")
         dl = get_lte_frequency_range(name, "dl")
@@ -29,6 +36,8 @@ def reference_band(name: str) -> tuple[tuple[float, float], tuple[float, float],
         ul = nrarfcn.get_frequency_range(name, "ul")
         dl = nrarfcn.get_frequency_range(name, "dl")
         duplex = nrarfcn.get_duplex_mode(name)
+    if ul[0] == "N/A":
+        return None, (float(dl[0]), float(dl[1])), "SDL"
     return (float(ul[0]), float(ul[1])), (float(dl[0]), float(dl[1])), duplex
 
 
@@ -39,7 +48,10 @@ def reference_band(name: str) -> tuple[tuple[float, float], tuple[float, float],
 def test_it_matches_the_3gpp_table_for_every_band(band):
     # 3GPP TS 36.101 Table 5.5-1 / TS 38.101-1 Table 5.2-1, as carried by nrarfcn
     ul_mhz, dl_mhz, duplex = reference_band(band.name)
-    assert band.ul_mhz == pytest.approx(ul_mhz, abs=1e-9)
+    if ul_mhz is None:
+        assert band.ul_mhz is None
+    else:
+        assert band.ul_mhz == pytest.approx(ul_mhz, abs=1e-9)
     assert band.dl_mhz == pytest.approx(dl_mhz, abs=1e-9)
     assert band.duplex == duplex
 
@@ -48,8 +60,9 @@ def test_it_matches_the_3gpp_table_for_every_band(band):
 def test_it_derives_lowest_and_highest_edges_and_number_from_the_table(band):
     # 3GPP TS 36.101 Table 5.5-1 / TS 38.101-1 Table 5.2-1, as carried by nrarfcn
     ul_mhz, dl_mhz, _ = reference_band(band.name)
-    assert band.lowest_mhz == pytest.approx(min(ul_mhz[0], dl_mhz[0]), abs=1e-9)
-    assert band.highest_mhz == pytest.approx(max(ul_mhz[1], dl_mhz[1]), abs=1e-9)
+    ranges = [dl_mhz] if ul_mhz is None else [ul_mhz, dl_mhz]
+    assert band.lowest_mhz == pytest.approx(min(low for low, _ in ranges), abs=1e-9)
+    assert band.highest_mhz == pytest.approx(max(high for _, high in ranges), abs=1e-9)
     assert band.number == int(band.name[1:])
     assert band.technology == ("LTE" if band.name.startswith("B") else "NR")
 
@@ -77,7 +90,9 @@ def test_it_lists_lte_bands_first_each_technology_in_numeric_order():
 
 def test_it_names_the_3gpp_table_each_band_comes_from():
     for band in bands().values():
-        expected = "3GPP TS 36.101 Table 5.5-1" if band.technology == "LTE" else "3GPP TS 38.101-1 Table 5.2-1"
+        expected = {("LTE", False): "3GPP TS 36.101 Table 5.5-1", ("NR", False): "3GPP TS 38.101-1 Table 5.2-1",
+                    ("LTE", True): "3GPP TS 36.102 Table 5.2-1",
+                    ("NR", True): "3GPP TS 38.101-5 Table 5.2-1"}[(band.technology, band.satellite)]
         assert band.reference == expected
 
 
@@ -99,6 +114,82 @@ def test_it_holds_the_published_edges_of_well_known_bands(name, ul_mhz, dl_mhz, 
     assert band.ul_mhz == ul_mhz
     assert band.dl_mhz == dl_mhz
     assert band.duplex == duplex
+
+
+# Rule set 2 additions (issue 12), each compared with nrarfcn above as well.
+RS2_LTE = ["B27", "B44", "B68", "B73", "B103", "B106"]
+RS2_SDL = ["B29", "B32", "B67", "B75", "B76", "n75", "n76"]
+RS2_NR = ["n100", "n101", "n105", "n106", "n109"]
+
+
+@pytest.mark.parametrize("name", RS2_LTE + RS2_SDL + RS2_NR)
+def test_it_carries_the_bands_added_for_rule_set_2(name):
+    assert name in bands()
+
+
+@pytest.mark.parametrize("name", ["B27", "B44", "B68", "B73", "B103", "B106", "n100", "n101"])
+def test_the_added_bands_nrarfcn_carries_match_it(name):
+    # 3GPP TS 36.101 Table 5.5-1 / TS 38.101-1 Table 5.2-1, as carried by nrarfcn 2.6
+    ul_mhz, dl_mhz, duplex = reference_band(name)
+    assert (bands()[name].ul_mhz, bands()[name].dl_mhz, bands()[name].duplex) == (ul_mhz, dl_mhz, duplex)
+
+
+@pytest.mark.parametrize(
+    ("name", "ul_mhz", "dl_mhz"),
+    [
+        ("n105", (663, 703), (612, 652)),  # 3GPP TS 38.101-1 Table 5.2-1 (Rel-17; from memory, not in nrarfcn)
+        ("n106", (896, 901), (935, 940)),  # 3GPP TS 38.101-1 Table 5.2-1 (Rel-17; from memory, not in nrarfcn)
+        ("n109", (703, 733), (1432, 1517)),  # 3GPP TS 38.101-1 Table 5.2-1 (Rel-18; from memory, not in nrarfcn)
+    ],
+)
+def test_it_holds_the_nr_bands_nrarfcn_lacks(name, ul_mhz, dl_mhz):
+    band = bands()[name]
+    assert (band.ul_mhz, band.dl_mhz, band.duplex) == (ul_mhz, dl_mhz, "FDD")
+
+
+def test_b106_and_n106_are_the_same_900_mhz_broadband_band():
+    # 3GPP TS 36.101 Table 5.5-1 (B106, as in nrarfcn) and TS 38.101-1 Table 5.2-1 (n106, from memory)
+    assert bands()["B106"].ul_mhz == bands()["n106"].ul_mhz == (896, 901)
+    assert bands()["B106"].dl_mhz == bands()["n106"].dl_mhz == (935, 940)
+
+
+@pytest.mark.parametrize("name", RS2_SDL)
+def test_a_supplemental_downlink_band_has_no_uplink(name):
+    # 3GPP TS 36.101 Table 5.5-1 / TS 38.101-1 Table 5.2-1: uplink "N/A" (nrarfcn agrees)
+    band = bands()[name]
+    assert band.ul_mhz is None and not band.has_uplink and band.duplex == "SDL"
+    assert band.ranges_mhz == (band.dl_mhz,)
+    assert band.lowest_mhz == band.dl_mhz[0] and band.highest_mhz == band.dl_mhz[1]
+
+
+@pytest.mark.parametrize(
+    ("name", "ul_mhz", "dl_mhz", "reference"),
+    [
+        # 3GPP TS 36.102 Table 5.2-1 (IoT over satellite, Rel-17; from memory): L band and S band
+        ("B255", (1626.5, 1660.5), (1525, 1559), "3GPP TS 36.102 Table 5.2-1"),
+        ("B256", (1980, 2010), (2170, 2200), "3GPP TS 36.102 Table 5.2-1"),
+        # 3GPP TS 38.101-5 Table 5.2-1 (NR NTN; from memory)
+        ("n254", (1610, 1626.5), (2483.5, 2500), "3GPP TS 38.101-5 Table 5.2-1"),
+        ("n255", (1626.5, 1660.5), (1525, 1559), "3GPP TS 38.101-5 Table 5.2-1"),
+        ("n256", (1980, 2010), (2170, 2200), "3GPP TS 38.101-5 Table 5.2-1"),
+    ],
+)
+def test_it_holds_the_satellite_bands_and_marks_them(name, ul_mhz, dl_mhz, reference):
+    band = bands()[name]
+    assert (band.ul_mhz, band.dl_mhz, band.duplex, band.reference) == (ul_mhz, dl_mhz, "FDD", reference)
+    assert band.satellite
+
+
+def test_only_the_satellite_files_hold_satellite_bands():
+    assert {band.name for band in SATELLITE_BANDS} == {"B255", "B256", "n254", "n255", "n256"}
+
+
+def test_it_holds_the_power_classes_of_ts_36_101_and_ts_38_101_1():
+    # 3GPP TS 36.101 Table 6.2.2-1 and TS 38.101-1 Table 6.2.1-1 (classes 1-3); classes 5 and 6 from
+    # TS 36.101 Tables 6.2.2F-1 / 6.2.2G-1 (from memory)
+    assert {number: power.max_output_dbm for number, power in catalog.power_classes().items()} == {
+        1: 31.0, 2: 26.0, 3: 23.0, 5: 20.0, 6: 14.0}
+    assert all(power.source for power in catalog.power_classes().values())
 
 
 def test_it_takes_the_lowest_edge_of_a_reverse_duplex_band_from_its_downlink():
@@ -336,7 +427,8 @@ def test_it_loads_an_untouched_copy_like_the_real_catalog(data_copy):
         ("NR", "nr_bands.csv", "n71,", "n71,663,698,652,617,FDD", "0 < low < high"),
         ("LTE", "lte_bands.csv", "B12,", "B12,-699,716,729,746,FDD", "0 < low < high"),
         ("LTE", "lte_bands.csv", "B12,", "B12,699,716,729,746,HDX", "duplex 'HDX'"),
-        ("NR", "nr_bands.csv", "n77,", "n77,3300,4200,3300,4200,SDL", "duplex 'SDL'"),
+        ("NR", "nr_bands.csv", "n77,", "n77,3300,4200,3300,4200,SDL", "SDL) band has no uplink"),
+        ("NR", "nr_bands.csv", "n75,", "n75,,,1517,1432,SDL", "0 < low < high"),
         ("LTE", "lte_bands.csv", "B12,", "B12,699,716,729,seven,FDD", "band edges must be numbers"),
         ("LTE", "lte_bands.csv", "B12,", "n12,699,716,729,746,FDD", "should be B<number>"),
         ("NR", "nr_bands.csv", "n71,", "B71,663,698,617,652,FDD", "should be n<number>"),

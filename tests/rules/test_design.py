@@ -198,8 +198,7 @@ def test_it_reads_the_rule_set_2_fields():
         antenna("G", "gnss", ranges_mhz=[[1559, 1610]]), antenna("W", "wlan")],
         measurements=[{"kind": "far-field", "file": "a.csv", "antenna": "A", "absolute": True,
                        "environment": {"model": "taga", "mean_elevation_deg": 20, "spread_deg": 15, "xpr_db": 6}},
-                      {"file": "pair.s2p", "ports": ["A", "G"], "kind": "s-parameters"}],
-        modem={"power_class": 3})
+                      {"file": "pair.s2p", "ports": ["A", "G"], "kind": "s-parameters"}])
     parsed = parse_design(document)
     main, gnss, wlan = parsed.antennas
     assert main.peak_gain_dbi is None and dict(main.peak_gain_dbi_per_band) == {"B3": 3.5, "B8": 1.0}
@@ -211,7 +210,7 @@ def test_it_reads_the_rule_set_2_fields():
     assert (pattern.environment.model, pattern.environment.mean_elevation_deg, pattern.environment.spread_deg,
             pattern.environment.xpr_db) == ("taga", 20.0, 15.0, 6.0)
     assert touchstone.kind == "s-parameters" and touchstone.ports == ("A", "G")
-    assert parsed.ignored_paths == ("modem.power_class",)  # not part of this rule set's engine yet: kept, listed
+    assert parsed.ignored_paths == ()
 
 
 def test_a_far_field_entry_defaults_to_the_isotropic_environment():
@@ -259,3 +258,60 @@ def test_it_explains_bad_rule_set_2_antenna_fields(field, value, expected):
     document["antennas"][0][field] = value
     found = problems(document)
     assert any(problem.startswith(expected) for problem in found), found
+
+
+# -- rule set 2: modem fields (design-file.md, "Additions for rule set 2") --------------------------------
+
+def problems_of(document) -> list[str]:
+    with pytest.raises(DesignError) as raised:
+        parse_design(document)
+    return [str(problem) for problem in raised.value.problems]
+
+
+def test_it_reads_power_class_sensitivity_duplex_and_satellite_access():
+    modem = parse_design(design("cat-m1", bands=["B8", "B255"], modem={
+        "power_class": 5, "conducted_sensitivity_dbm": {"B8": -107.5}, "full_duplex": True, "ntn": True,
+    })).modem
+    assert (modem.power_class, modem.max_output_dbm) == (5, 20.0)  # TS 36.101 power class 5: 20 dBm
+    assert modem.conducted_sensitivity_dbm == {"B8": -107.5}
+    assert modem.full_duplex and modem.ntn
+
+
+def test_power_class_defaults_to_class_3_of_23_dbm():
+    modem = parse_design(design("cat-m1")).modem
+    assert (modem.power_class, modem.max_output_dbm) == (3, 23.0)  # TS 36.101 Table 6.2.2-1
+    assert not modem.full_duplex and not modem.ntn
+
+
+@pytest.mark.parametrize("value", [4, 3.5, "3", True, 0])
+def test_an_unknown_power_class_names_the_accepted_ones(value):
+    assert any(problem.startswith("modem.power_class: expected a UE power class (1, 2, 3, 5, 6)")
+               for problem in problems_of(design("cat-m1", modem={"power_class": value})))
+
+
+def test_a_sensitivity_outside_a_plausible_range_is_named_with_its_band():
+    problems = problems_of(design("cat-m1", modem={"conducted_sensitivity_dbm": {"B8": -20}}))
+    assert any(problem.startswith("modem.conducted_sensitivity_dbm.B8: expected a number at least -150")
+               for problem in problems)
+
+
+def test_nb_iot_cannot_be_full_duplex():
+    assert any(problem.startswith("modem.full_duplex: NB-IoT is half-duplex only")
+               for problem in problems_of(design("cat-nb1", modem={"full_duplex": True})))
+
+
+def test_a_design_of_only_supplemental_downlink_bands_is_refused_naming_the_field():
+    problems = problems_of(design("cat-6", bands=["B29", "B32"]))
+    assert any(problem.startswith("modem.bands: B29, B32: supplemental-downlink (SDL) bands have no uplink")
+               for problem in problems)
+
+
+def test_a_supplemental_downlink_band_beside_one_with_an_uplink_is_accepted():
+    modem = parse_design(design("cat-6", bands=["B2", "B29"])).modem
+    assert [band.name for band in modem.bands] == ["B2", "B29"]
+
+
+def test_a_satellite_band_needs_a_module_that_declares_satellite_access():
+    problems = problems_of(design("cat-nb1", bands=["B8", "B256"]))
+    assert any(problem.startswith("modem.bands[1]: B256 is a satellite (NTN) band; set modem.ntn")
+               for problem in problems)

@@ -286,3 +286,69 @@ def test_it_keeps_fractional_bandwidth_below_two(low_mhz, width_mhz):
 )
 def test_it_converts_a_power_ratio_to_decibels(ratio, decibels):
     assert db_from_ratio(ratio) == pytest.approx(decibels, abs=1e-4)
+
+
+# -- rule set 2: planar bound and Bode-Fano (SIZ-001) ------------------------------------------------------
+
+def _ellipse_polarizability(semi_major: float, semi_minor: float) -> float:
+    """A thin perfectly conducting elliptic disk along its major axis: V / L with the thin-ellipsoid
+    depolarization factor L = (c b / a^2) (K(e) - E(e)) / e^2 (Landau & Lifshitz, Electrodynamics of
+    Continuous Media, §4; from memory), i.e. (4 pi / 3) a^3 e^2 / (K - E); scipy's complete elliptic integrals."""
+    from scipy.special import ellipe, ellipk
+
+    m = 1 - (semi_minor / semi_major) ** 2
+    return 4 * math.pi / 3 * semi_major**3 * m / (ellipk(m) - ellipe(m))
+
+
+def test_the_moment_method_gives_the_disks_16_a3_over_3():
+    # Conducting disk of radius a: polarizability 16 a^3 / 3 (Landau & Lifshitz §4 / Jackson, from memory)
+    import numpy as np
+
+    from rules.physics import _polarizability_of_cells
+
+    cells = 60
+    step = 2.0 / cells
+    centres = (np.arange(cells) + 0.5) * step - 1.0
+    grid_x, grid_y = np.meshgrid(centres, centres, indexing="ij")
+    inside = grid_x**2 + grid_y**2 <= 1.0
+    value = _polarizability_of_cells(grid_x[inside], grid_y[inside], step, step)
+    assert value == pytest.approx(16 / 3, rel=0.01)
+
+
+@pytest.mark.parametrize("aspect", [0.1, 0.3, 0.5, 0.8, 1.0])
+def test_a_rectangles_polarizability_lies_between_its_inscribed_and_circumscribed_ellipses(aspect):
+    # High-contrast polarizability grows with the shape (Gustafsson, Sohl, Kristensson 2007: monotone in the
+    # domain), so the rectangle l x w sits between the ellipses of semi-axes (l/2, w/2) and (l/sqrt2, w/sqrt2).
+    from rules.physics import rectangle_polarizability_mm3
+
+    length_mm = 100.0
+    value = rectangle_polarizability_mm3(length_mm, aspect * length_mm)
+    inner = _ellipse_polarizability(length_mm / 2, aspect * length_mm / 2) if aspect < 1 else 16 / 3 * 50**3
+    outer = (_ellipse_polarizability(length_mm / math.sqrt(2), aspect * length_mm / math.sqrt(2)) if aspect < 1
+             else 16 / 3 * (50 * math.sqrt(2)) ** 3)
+    assert inner < value < outer
+
+
+def test_the_polarizability_scales_with_the_cube_of_size_and_ignores_orientation():
+    from rules.physics import rectangle_polarizability_mm3
+
+    assert rectangle_polarizability_mm3(200, 100) == pytest.approx(8 * rectangle_polarizability_mm3(100, 50))
+    assert rectangle_polarizability_mm3(50, 100) == rectangle_polarizability_mm3(100, 50)
+
+
+def test_the_planar_bound_of_a_sphere_is_1_5_over_ka_cubed():
+    # Gustafsson et al. 2007 with D = 1.5, eta = 1/2, gamma = 4 pi a^3: Q >= 1.5 / (ka)^3 (Thal 2006's
+    # electric-dipole bound for a sphere; from memory)
+    from rules.physics import planar_q_limit, wavenumber_radius
+
+    radius_mm = 40.0
+    ka = wavenumber_radius(800.0, radius_mm)
+    assert planar_q_limit(800.0, 4 * math.pi * radius_mm**3) == pytest.approx(1.5 / ka**3, rel=1e-12)
+
+
+def test_bode_fano_at_vswr_3_is_pi_over_q_ln_2():
+    # Fano 1950: B <= pi / (Q ln(1/|Gamma|)); VSWR 3 is |Gamma| = 0.5
+    from rules.physics import bode_fano_bandwidth
+
+    assert bode_fano_bandwidth(10.0, 3.0) == pytest.approx(math.pi / (10 * math.log(2)), rel=1e-12)
+    assert bode_fano_bandwidth(10.0, 3.0) / bandwidth_from_q(10.0, 3.0) == pytest.approx(3.92, abs=0.01)

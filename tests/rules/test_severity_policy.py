@@ -189,6 +189,35 @@ def test_it_warns_when_the_device_is_electrically_too_small_for_the_low_bands():
     assert finding.evidence["ka"] == pytest.approx(2 * math.pi * 25 / (C_M_PER_S / 699e6 * 1000), abs=1e-3)
 
 
+def test_it_warns_for_a_100_by_50_mm_board_covering_698_to_960_mhz():
+    # The case McLean's sphere alone missed: a = 55.9 mm, ka = 0.818 at 698 MHz, McLean Q = 3.05, single-tuned
+    # FBW 37.9 % > 31.6 % needed. The planar bound (Gustafsson et al. 2007): gamma of a 2:1 plate ~ 0.63 l^3
+    # (moment method, between the inscribed and circumscribed ellipses' 0.35 and 1.17 l^3), Q >= 6 pi /
+    # (k^3 gamma) = 9.5; Bode-Fano at VSWR 3: B x efficiency <= pi / (9.5 ln 2) = 47 %, half of it 24 %.
+    # B85 (698-746) with B20, B8: 698-960 MHz (3GPP TS 36.101 Table 5.5-1).
+    evaluation = run(design("cat-m1", bands=["B85", "B20", "B8"], ground_plane_mm=[100, 50]))
+    [finding] = findings_of(evaluation, "device-size")
+    evidence = finding.evidence
+    assert evidence["needed_fractional_bandwidth_pct"] == pytest.approx(100 * 262 / 829, abs=0.05)
+    assert evidence["q_sphere"] == pytest.approx(3.05, abs=0.01)
+    assert evidence["q_planar"] == pytest.approx(9.5, abs=0.15)
+    assert evidence["bandwidth_efficiency_limit_pct"] == pytest.approx(47.5, abs=0.8)
+    assert evidence["warning_threshold_pct"] == pytest.approx(evidence["bandwidth_efficiency_limit_pct"] / 2)
+    assert evidence["efficiency_pct"] == 100.0
+
+
+def test_it_accepts_the_same_board_when_the_entered_efficiency_pays_for_the_bandwidth():
+    # Bandwidth x efficiency: 31.6 % x 0.5 = 15.8 %, under half the 47 % Bode-Fano cap.
+    wide = antenna("A", efficiency_pct={"B85": 50, "B20": 55, "B8": 60})
+    evaluation = run(design("cat-m1", bands=["B85", "B20", "B8"], ground_plane_mm=[100, 50], antennas=[wide]))
+    assert severities_of(evaluation, "device-size") == []
+
+
+def test_it_accepts_a_board_of_a_quarter_wave_for_the_eu_low_bands():
+    # 130 x 80 mm at 791 MHz (B20 + B8: 791-960 MHz, 19.3 %): Q >= 2.6, Bode-Fano cap above 100 %.
+    assert severities_of(run(design("cat-m1")), "device-size") == []
+
+
 # -- gain limits, throughput ---------------------------------------------------------------------------
 
 def test_it_blocks_antenna_gain_minus_cable_loss_above_the_approval_limit():
@@ -205,11 +234,38 @@ def test_it_accepts_gain_brought_under_the_limit_by_cable_loss():
     assert severities_of(run(document), "gain-limit") == []
 
 
-def test_it_blocks_downlink_need_above_the_categorys_peak():
-    # TS 36.306 Table 4.1A-1: Cat M1 carries at most 1 000 bits per 1 ms TTI on the downlink.
-    [finding] = findings_of(run(design("cat-m1", deployment={"required_dl_kbps": 1500})), "throughput")
+def test_it_blocks_downlink_need_above_a_full_duplex_lte_m_modules_peak():
+    # TS 36.306 Table 4.1A-1: Cat M1 carries at most 1 000 bits per 1 ms TTI on the downlink (FD-FDD).
+    document = design("cat-m1", modem={"full_duplex": True}, deployment={"required_dl_kbps": 1500})
+    [finding] = findings_of(run(document), "throughput")
     assert finding.severity == "blocker"
-    assert finding.evidence == {"direction": "dl", "required_kbps": 1500.0, "peak_kbps": 1000.0}
+    assert finding.evidence == {"direction": "dl", "required_kbps": 1500.0, "peak_kbps": 1000.0,
+                                "duplex_mode": "FD-FDD", "tdd_pattern": None}
+
+
+def test_it_judges_an_lte_m_module_at_its_half_duplex_peak_unless_it_declares_full_duplex():
+    # Rel-13 Cat M1 HD-FDD peaks: 300 kbps DL (3 blocks of 1 000 bits per 10 ms), 375 kbps UL (3 per 8 ms)
+    # (from memory; block size from TS 36.306 Table 4.1A-1). 500 kbps passes full duplex, not half duplex.
+    half = run(design("cat-m1", deployment={"required_dl_kbps": 500, "required_ul_kbps": 500}))
+    assert {(f.evidence["direction"], f.evidence["peak_kbps"], f.evidence["duplex_mode"])
+            for f in findings_of(half, "throughput")} == {("dl", 300.0, "HD-FDD"), ("ul", 375.0, "HD-FDD")}
+    full = run(design("cat-m1", modem={"full_duplex": True},
+                      deployment={"required_dl_kbps": 500, "required_ul_kbps": 500}))
+    assert findings_of(full, "throughput") == []
+
+
+def test_it_gives_redcap_on_a_tdd_band_its_share_of_the_tdd_pattern():
+    # TS 38.306 §4.1.2 with 51 PRB at 30 kHz: 1 layer 256QAM DL 109.1 Mbps, 64QAM UL 87.6 Mbps; TDD DDDSU with
+    # S = 10:2:2 (common practice, from memory): DL share (3 + 10/14) / 5 = 0.743, UL (1 + 2/14) / 5 = 0.229.
+    document = design("nr-redcap", bands=["n78"], modem={"rx_ports": 1},
+                      deployment={"required_dl_kbps": 100_000, "required_ul_kbps": 50_000})
+    flagged = {f.evidence["direction"]: f for f in findings_of(run(document), "throughput")}
+    assert set(flagged) == {"dl", "ul"}  # 100 Mbps DL fits FDD's 109 Mbps but not TDD's 81 Mbps
+    assert flagged["dl"].evidence["peak_kbps"] == pytest.approx(109_145.6 * 0.742857, rel=1e-3)
+    assert flagged["ul"].evidence["peak_kbps"] == pytest.approx(87_560 * 0.228571, rel=1e-3)
+    assert flagged["ul"].evidence["tdd_pattern"] == "DDDSU with S = 10:2:2"
+    fdd = run(design("nr-redcap", bands=["n8"], modem={"rx_ports": 1}, deployment={"required_dl_kbps": 100_000}))
+    assert findings_of(fdd, "throughput") == []
 
 
 def test_it_blocks_uplink_need_above_the_categorys_peak():

@@ -9,6 +9,7 @@ from django.contrib.auth import get_user_model
 
 from projectapp.designs import services
 from projectapp.teams.models import Membership, Role, Team
+from tests.django_isolation import empty_cache, fast_password_hashing, media_in_tmp  # noqa: F401 (autouse)
 
 EXAMPLES = Path(__file__).parents[2] / "rules" / "examples"
 PASSWORD = "test-pass-7Qx!"
@@ -19,6 +20,13 @@ def make_user(username: str, team: Team, *roles: str):
     for role in roles:
         Membership.objects.create(team=team, user=user, role=role)
     return user
+
+
+def signing_request():
+    """A request for a password check made outside a view (the throttle counts per user name and address)."""
+    from django.test import RequestFactory
+
+    return RequestFactory().post("/", REMOTE_ADDR="127.0.0.1")
 
 
 @pytest.fixture

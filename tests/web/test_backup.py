@@ -39,6 +39,7 @@ def digest(data):
     return hashlib.sha256(data if isinstance(data, bytes) else json.dumps(data, sort_keys=True).encode()).hexdigest()
 
 def sign_a_ready_revision(password):
+    from django.test import RequestFactory
     from projectapp.signoff import services
     for revision in Revision.objects.exclude(status=Revision.Status.DRAFT).order_by("pk"):
         if not services.readiness(revision).ready:
@@ -47,7 +48,8 @@ def sign_a_ready_revision(password):
         for role in team.signoff_roles:
             signer = (get_user_model().objects.filter(memberships__team=team, memberships__role=role)
                       .exclude(pk__in=revision.signatures.values("signer")).first())
-            services.revision_sign(revision=revision, user=signer, role=role, password=password)
+            services.revision_sign(revision=revision, user=signer, role=role, password=password,
+                                   request=RequestFactory().post("/"))
         return
     raise SystemExit("no demo revision is ready to sign")
 

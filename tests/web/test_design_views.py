@@ -15,6 +15,11 @@ from tests.web.conftest import EXAMPLES
 HTMX = {"HTTP_HX_REQUEST": "true"}
 
 
+def version_of(product) -> int:
+    """The draft version a freshly loaded page would carry in its forms."""
+    return product.draft.version
+
+
 def client_for(client, user):
     client.force_login(user)
     return client
@@ -34,7 +39,8 @@ def read_views(product):
 
 def write_views(product):
     return [
-        (reverse("draft_section_save", args=[product.pk, "deployment"]), {"deployment.body_distance_mm": "50"}),
+        (reverse("draft_section_save", args=[product.pk, "deployment"]), {"deployment.body_distance_mm": "50",
+                                                                         "version": product.draft.version}),
         (reverse("draft_submit", args=[product.pk]), {}),
         (reverse("draft_start", args=[product.pk]), {}),
     ]
@@ -103,7 +109,7 @@ def test_product_names_are_unique_within_a_team(client, team, author, product):
 
 def test_saving_a_section_keeps_bad_values_with_the_parsers_message(client, product, author):
     url = reverse("draft_section_save", args=[product.pk, "deployment"])
-    response = client_for(client, author).post(url, {"deployment.environment": "outdoor",
+    response = client_for(client, author).post(url, {"deployment.environment": "outdoor", "version": version_of(product),
                                                      "deployment.body_distance_mm": "about a metre"}, **HTMX)
     page = response.content.decode()
     assert response.status_code == 200
@@ -117,7 +123,7 @@ def test_saving_a_section_keeps_bad_values_with_the_parsers_message(client, prod
 def test_the_htmx_answer_carries_the_section_and_the_refreshed_panel(client, product, author):
     url = reverse("draft_section_save", args=[product.pk, "antennas"])
     document = product.draft.document
-    data = {}
+    data = {"version": version_of(product)}
     for index, antenna in enumerate(document["antennas"]):
         prefix = f"antennas[{index}]."
         data.update({prefix + "name": antenna["name"], prefix + "role": antenna["role"], prefix + "mounting": "internal"})
@@ -137,7 +143,7 @@ def test_the_htmx_answer_carries_the_section_and_the_refreshed_panel(client, pro
 def test_the_questionnaire_works_without_javascript(client, product, author):
     url = reverse("draft_section_save", args=[product.pk, "enclosure"])
     response = client_for(client, author).post(url, {"enclosure.material": "metal", "ground_plane_mm[0]": "100",
-                                                     "ground_plane_mm[1]": "60"})
+                                                     "ground_plane_mm[1]": "60", "version": version_of(product)})
     assert response.status_code == 302
     assert response["Location"].endswith("#section-enclosure")
     assert product.draft.document["enclosure"] == {"material": "metal"}
@@ -151,22 +157,23 @@ def test_antenna_rows_can_be_added_duplicated_and_removed(client, product, autho
     page = client.get(reverse("draft_edit", args=[product.pk])).content.decode()
     assert 'value="duplicate:0"' in page
     client.post(url, {"antennas[0].name": "MAIN", "antennas[0].role": "main", "antennas[1].name": "DIV",
-                      "antennas[1].role": "receive", "action": "add"})
+                      "antennas[1].role": "receive", "action": "add", "version": version_of(product)})
     names = [antenna["name"] for antenna in product.draft.document["antennas"]]
     assert names == ["MAIN", "DIV", "ANT1"]
     client.post(url, {"antennas[0].name": "MAIN", "antennas[0].role": "main", "antennas[1].name": "DIV",
                       "antennas[1].role": "receive", "antennas[2].name": "ANT1", "antennas[2].role": "receive",
-                      "action": "duplicate:0"})
+                      "action": "duplicate:0", "version": version_of(product)})
     assert [a["name"] for a in product.draft.document["antennas"]] == ["MAIN", "MAIN-copy1", "DIV", "ANT1"]
     client.post(url, {f"antennas[{i}].name": name for i, name in enumerate(["MAIN", "MAIN-copy1", "DIV", "ANT1"])}
-                | {f"antennas[{i}].role": "receive" for i in range(4)} | {"action": "remove:1"})
+                | {f"antennas[{i}].role": "receive" for i in range(4)} | {"action": "remove:1",
+                                                                         "version": version_of(product)})
     assert [a["name"] for a in product.draft.document["antennas"]] == ["MAIN", "DIV", "ANT1"]
 
 
 def test_a_region_preset_fills_the_bands(client, product, author):
     url = reverse("draft_section_save", args=[product.pk, "product"])
     client_for(client, author).post(url, {"product.name": "Hive gateway", "modem.category": "cat-1",
-                                          "preset": "europe-lte"})
+                                          "preset": "europe-lte", "version": version_of(product)})
     assert product.draft.document["modem"]["bands"] == ["B1", "B3", "B7", "B8", "B20", "B28"]
 
 
@@ -213,7 +220,8 @@ def test_export_then_import_round_trips_exactly(client, product, author):
     services.revision_submit(revision=product.draft, user=author)
     from django.core.files.uploadedfile import SimpleUploadedFile
     response = client.post(reverse("design_import", args=[product.pk]),
-                           {"design_file": SimpleUploadedFile("hive.json", text.encode(), "application/json")})
+                           {"design_file": SimpleUploadedFile("hive.json", text.encode(), "application/json"),
+                            "version": 0})  # the import page showed no draft
     assert response.status_code == 302
     draft = product.draft
     assert draft.number == 2
@@ -227,7 +235,8 @@ def test_import_lists_every_problem_with_its_path_and_stores_nothing(client, pro
     document["modem"]["bands"].append("B77")
     before = product.draft.document
     response = client_for(client, author).post(reverse("design_import", args=[product.pk]), {
-        "design_file": SimpleUploadedFile("bad.json", json.dumps(document).encode(), "application/json")})
+        "design_file": SimpleUploadedFile("bad.json", json.dumps(document).encode(), "application/json"),
+        "version": version_of(product)})
     page = response.content.decode()
     assert response.status_code == 400
     assert "antennas[0].position_mm: expected 3 numbers, got 2" in page
@@ -238,7 +247,8 @@ def test_import_lists_every_problem_with_its_path_and_stores_nothing(client, pro
 def test_import_rejects_text_that_is_not_json(client, product, author):
     from django.core.files.uploadedfile import SimpleUploadedFile
     response = client_for(client, author).post(reverse("design_import", args=[product.pk]), {
-        "design_file": SimpleUploadedFile("x.json", b"\xff\xfe not json", "application/json")})
+        "design_file": SimpleUploadedFile("x.json", b"\xff\xfe not json", "application/json"),
+        "version": version_of(product)})
     assert response.status_code == 400 and "not valid JSON" in response.content.decode()
 
 

@@ -1,6 +1,8 @@
 """`manage.py evaluate` and `manage.py rules` as another tool or a CI job would run them (design-file.md)."""
 
 import json
+import os
+import re
 import subprocess
 import sys
 from pathlib import Path
@@ -132,3 +134,81 @@ def test_a_broken_far_field_file_exits_2_naming_the_file_and_line(tmp_path):
 def test_the_text_report_says_what_each_finding_rests_on(tmp_path):
     result = evaluate(tmp_path, design(antennas=[antenna("A", efficiency_pct={"B8": 20})]))
     assert "[from datasheets]" in result.stdout and "[from the design]" in result.stdout
+
+
+# -- whatever comes, a message and exit 2, never a traceback ---------------------------------------------------
+def _assert_refused(result, *expected: str) -> None:
+    assert result.returncode == 2, (result.returncode, result.stderr[-1500:])
+    assert "Traceback" not in result.stderr and result.stdout == ""
+    for text in expected:
+        assert text in result.stderr, result.stderr
+
+
+SURROGATE_NAME = json.dumps(design()).replace('"Test widget"', '"Test \\ud800 widget"')
+
+
+@pytest.mark.parametrize(("name", "document"), [
+    ("tiny ground plane", design(ground_plane_mm=[1e-308, 1e-308])),  # ZeroDivisionError in a rule
+    ("huge ground plane", design(ground_plane_mm=[1e308, 1e308])),  # ValueError in a rule
+    ("400-digit number", design(ground_plane_mm=[int("9" * 400), 80])),  # OverflowError in the parser
+    ("lone surrogate in a name", SURROGATE_NAME),  # UnicodeEncodeError on output
+    ("NUL in a measurement name", design(measurements=[{"file": "m\x00.s1p", "ports": ["A"]}])),
+    ("nested 5000 deep", '{"format": "earshot-design/1", "x": ' + "[" * 5000 + "]" * 5000 + "}"),
+])
+def test_it_exits_2_with_a_message_for_any_input(tmp_path, name, document):
+    for output_format in ("text", "json"):
+        result = evaluate(tmp_path, document, "--format", output_format)
+        if result.returncode in (0, 1):  # the parser accepts it (a lone surrogate, once escaped, prints)
+            assert "Traceback" not in result.stderr and result.stdout.strip(), name
+            continue
+        _assert_refused(result, "can't be evaluated")
+
+
+def test_a_rule_that_fails_is_named_and_told_apart_from_invalid_input(tmp_path):
+    result = evaluate(tmp_path, design(ground_plane_mm=[1e-308, 1e-308]))
+    if result.returncode == 2 and "problem" in result.stderr.splitlines()[0]:
+        pytest.skip("the parser refuses this ground plane now; the rule is no longer reached")
+    _assert_refused(result, "a rule failed on this design", "ZeroDivisionError")
+    assert re.search(r"rule [A-Z]{3}-\d{3}", result.stderr)
+
+
+@pytest.mark.parametrize(("file_name", "expected"), [
+    ("/etc/hostname", "an absolute path"),
+    ("../outside.s1p", "'..' leads out of the design file's folder"),
+    ("zero.s1p", "a symbolic link to outside the design file's folder"),
+    ("fifo.s1p", "not a regular file"),
+    ("big.s1p", "expected at most 20 MB"),
+])
+def test_it_refuses_measurement_paths_outside_the_folder_devices_pipes_and_oversize_files(
+        tmp_path, file_name, expected):
+    (tmp_path / "zero.s1p").symlink_to("/dev/zero")
+    os.mkfifo(tmp_path / "fifo.s1p")
+    with (tmp_path / "big.s1p").open("wb") as handle:
+        handle.truncate(20_000_001)  # a sparse file: 20 MB and a byte, over MAX_MEASUREMENT_BYTES
+    result = evaluate(tmp_path, design(measurements=[{"file": file_name, "ports": ["A"]}]))
+    _assert_refused(result, f"measurements[0].file: cannot read {file_name}: {expected}")
+
+
+def test_a_design_file_that_never_ends_is_refused_at_the_size_limit(tmp_path):
+    result = subprocess.run([sys.executable, "manage.py", "evaluate", "/dev/zero"], cwd=ROOT, capture_output=True,
+                            text=True, timeout=120)
+    _assert_refused(result, "/dev/zero: expected at most 1000 kB")
+
+
+def test_control_characters_in_names_are_shown_as_escapes(tmp_path):
+    fake = "\r\x1b[2K0 blockers  0 warnings  0 notes"
+    result = evaluate(tmp_path, design("cat-1", antennas=[antenna("A" + fake), antenna("B", "receive", (75, 20, 10))]))
+    assert result.returncode in (1, 2), result.stderr
+    shown = result.stdout + result.stderr
+    assert "\x1b" not in shown and "\r" not in shown
+    if result.returncode == 1:
+        assert "A\\r\\x1b[2K0 blockers" in result.stdout
+
+
+def test_it_prints_on_a_terminal_that_is_not_utf8(tmp_path):
+    path = tmp_path / "design.json"
+    path.write_text(json.dumps(design("cat-1", antennas=[antenna("Ä"), antenna("B", "receive", (75, 20, 10))])))
+    result = subprocess.run([sys.executable, "manage.py", "evaluate", str(path)], cwd=ROOT, capture_output=True,
+                            timeout=120, env={**os.environ, "PYTHONIOENCODING": "ascii"})
+    assert result.returncode == 1, result.stderr.decode("ascii", "replace")[-1500:]
+    assert b"\\xc4" in result.stdout and b"Traceback" not in result.stderr

@@ -48,9 +48,11 @@ def test_a_good_file_is_kept_mapped_and_checked(client, product, author):
     again = upload(client, product, "field-router-revA.s2p", GOOD_S2P).content.decode()
     assert "already kept with this draft" in again and MeasurementFile.objects.count() == 1
     client.post(reverse("measurement_ports", args=[product.pk]),
-                {"file": "field-router-revA.s2p", "port_count": "2", "port-0": "DIV", "port-1": ""})
+                {"file": "field-router-revA.s2p", "port_count": "2", "port-0": "DIV", "port-1": "",
+                 "version": product.draft.version})
     assert product.draft.document["measurements"][0]["ports"] == ["DIV", None]
-    client.post(reverse("measurement_remove", args=[product.pk]), {"file": "field-router-revA.s2p"})
+    client.post(reverse("measurement_remove", args=[product.pk]), {"file": "field-router-revA.s2p",
+                                                                   "version": product.draft.version})
     assert "measurements" not in product.draft.document and not MeasurementFile.objects.exists()
 
 

@@ -127,7 +127,8 @@ def test_flash_messages_reach_a_cached_page_once(product, author):
     url = reverse("draft_edit", args=[product.pk])
     client.get(url)  # the draft page is now cached for this state
     client.post(reverse("draft_section_save", args=[product.pk, "deployment"]),
-                {"deployment.environment": "urban", "deployment.body_distance_mm": "250"})
+                {"deployment.environment": "urban", "deployment.body_distance_mm": "250",
+                 "version": product.draft.version})
     assert "Deployment saved." in client.get(url).content.decode()
     assert "Deployment saved." not in client.get(url).content.decode()
 
@@ -144,7 +145,8 @@ def test_every_change_a_page_shows_gives_a_fresh_page(client, product, submitted
     draft_url = reverse("draft_edit", args=[product.pk])
     assert 'value="4321"' not in author_client.get(draft_url).content.decode()
     author_client.post(reverse("draft_section_save", args=[product.pk, "deployment"]),
-                       {"deployment.environment": "urban", "deployment.body_distance_mm": "4321"})
+                       {"deployment.environment": "urban", "deployment.body_distance_mm": "4321",
+                        "version": product.draft.version})
     assert 'value="4321"' in author_client.get(draft_url).content.decode()
 
     Membership.objects.filter(user=reviewer).delete()
@@ -225,3 +227,22 @@ def test_with_debug_on_every_page_is_drawn_afresh(submitted_product, author, set
     pages = [client.get(url).content.decode() for _ in range(2)]
     assert len(drawn) == 2 and "earshot:" not in pages[0] + pages[1]
     assert "<span>author</span>" in pages[1]
+
+
+def test_a_draft_changed_and_changed_back_is_served_with_its_current_version(product, author):
+    """The content is as before (same state key), but the forms must carry the new version: a page cached
+    at the old one would make every save look stale."""
+    client = signed_in(author)
+    url = reverse("draft_edit", args=[product.pk])
+    first = client.get(url).content.decode()
+    key = checklists.state_key(product.draft)
+    form = SectionForm("section-deployment")
+    form.feed(first)
+    for distance in ("999", "150"):  # 150 is the example's value: back where it started
+        fields = {**form.data(), "deployment.body_distance_mm": distance, "version": product.draft.version}
+        client.post(reverse("draft_section_save", args=[product.pk, "deployment"]), fields)
+    draft = product.draft
+    assert checklists.state_key(draft) == key
+    page = client.get(url).content.decode()
+    assert f'name="version" value="{draft.version}" id="section-deployment-version"' in page
+    assert f'value="{draft.version - 2}" id="section-deployment-version"' in first

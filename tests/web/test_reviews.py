@@ -228,3 +228,120 @@ def test_the_dashboard_filters_and_shows_my_queue(client, reviewed, reviewer):
     assert item.title not in page
     partial = client.get(reverse("review_dashboard") + "?topic=separation", **HTMX).content.decode()
     assert partial.startswith('<div id="dashboard-items">') and item.title in partial
+
+
+# -- a decision never gains weight by being carried ------------------------------------------------------------
+
+def cross_polarized(document: dict) -> None:
+    # DIV turned 90 degrees from MAIN, 45 mm away: inside lambda/2pi (60.3 mm at 791 MHz, Wheeler 1959) but
+    # cross-polarized, so SEP-001 is a warning (design.md severity policy)
+    document["antennas"][1]["polarization"] = [0, 1, 0]
+
+
+def co_polarized(document: dict) -> None:
+    document["antennas"][1]["polarization"] = [-1, 0, 0]  # back in line with MAIN: SEP-001 is a blocker
+
+
+def test_a_warning_waiver_is_not_carried_to_a_revision_where_the_finding_is_a_blocker(
+        client, product, author, reviewer):
+    from projectapp.signoff.services import readiness
+
+    submit_with(product, author, cross_polarized)
+    sep = item_of(product, "SEP-001")
+    assert sep.severity == "warning"
+    review_item_decide(item=sep, user=reviewer, disposition="waived", justification="Chamber test showed 14 dB",
+                       expected_version=sep.version)
+    submit_with(product, author, co_polarized)
+    sep2 = item_of(product, "SEP-001", 2)
+    assert sep2.severity == "blocker"
+    assert (sep2.disposition, sep2.justification, sep2.decided_by, sep2.carried_from) == ("open", "", None, None)
+    # what revision 1 decided is kept beside the item, marked as not carried
+    assert sep2.previous_decision["carried"] is False
+    assert (sep2.previous_decision["revision"], sep2.previous_decision["disposition"],
+            sep2.previous_decision["decided_by"], sep2.previous_decision["decided_severity"]) == (
+        1, "waived", "reviewer", "warning")
+    client.force_login(reviewer)
+    page = client.get(reverse("revision_review", args=[product.pk, 2])).content.decode()
+    assert "not carried: it is a blocker now" in page
+    # nothing to confirm, and the gate still wants an approver's waiver
+    response = client.post(reverse("review_item_confirm", args=[sep2.pk]), {"version": sep2.version}, **HTMX)
+    assert ReviewItem.objects.get(pk=sep2.pk).disposition == "open"
+    assert response.status_code == 200
+    revision2 = product.revisions.get(number=2)
+    assert any(o.startswith("SEP-001") and "waived by an approver" in o for o in readiness(revision2).obstacles)
+
+
+def test_only_an_approver_confirms_a_carried_blocker_waiver(client, reviewed, author, reviewer, approver):
+    from projectapp.signoff.services import readiness
+
+    sep = item_of(reviewed, "SEP-001")
+    review_item_decide(item=sep, user=approver, disposition="waived", justification="Pilot of 20 units",
+                       expected_version=sep.version)
+    submit_with(reviewed, author, lambda d: d["product"].update(revision="B"))
+    sep2 = item_of(reviewed, "SEP-001", 2)
+    assert sep2.severity == "blocker" and sep2.disposition == "waived" and sep2.is_carried_unconfirmed
+    response = post(client, reviewer, "review_item_confirm", sep2, {"version": sep2.version}, **HTMX)
+    assert response.status_code == 403 and "Only an approver" in response.content.decode()
+    assert ReviewItem.objects.get(pk=sep2.pk).is_carried_unconfirmed
+    response = post(client, approver, "review_item_confirm", sep2, {"version": sep2.version}, **HTMX)
+    assert response.status_code == 200
+    confirmed = ReviewItem.objects.get(pk=sep2.pk)
+    assert (confirmed.confirmed_by, confirmed.decided_by, confirmed.decided_in.number) == (approver, approver, 1)
+    assert not any(o.startswith("SEP-001") for o in readiness(confirmed.revision).obstacles)
+
+
+def test_the_gate_counts_a_blocker_waived_only_when_an_approver_granted_or_confirmed_it(client, reviewed, reviewer,
+                                                                                        approver):
+    """Rows that older code could leave behind: a reviewer's waiver carried onto a blocker and confirmed."""
+    from projectapp.signoff.services import readiness
+
+    sep = item_of(reviewed, "SEP-001")
+    revision = sep.revision
+    ReviewItem.objects.filter(pk=sep.pk).update(
+        disposition="waived", justification="Carried from a warning", decided_by=reviewer, decided_severity="warning",
+        carried_from=revision, carried_confirmed=True, confirmed_by=reviewer)
+    [obstacle] = [o for o in readiness(revision).obstacles if o.startswith("SEP-001")]
+    assert "waived by an approver" in obstacle and "reviewer" in obstacle
+    client.force_login(reviewer)  # the card says so too
+    page = client.get(reverse("revision_review", args=[reviewed.pk, 1])).content.decode()
+    assert "Not an approver&#x27;s waiver: an approver must grant or confirm it before sign-off." in page
+    ReviewItem.objects.filter(pk=sep.pk).update(confirmed_by=approver)
+    assert not any(o.startswith("SEP-001") for o in readiness(revision).obstacles)
+    # a waiver an approver granted on this finding as a blocker counts; the same person's waiver of it as a
+    # warning does not
+    ReviewItem.objects.filter(pk=sep.pk).update(decided_by=approver, confirmed_by=None, carried_from=None,
+                                                decided_severity="blocker")
+    assert not any(o.startswith("SEP-001") for o in readiness(revision).obstacles)
+    ReviewItem.objects.filter(pk=sep.pk).update(decided_severity="warning")
+    assert any(o.startswith("SEP-001") for o in readiness(revision).obstacles)
+
+
+# -- who decided what: the card keeps carried, confirmed and re-decided apart --------------------------------------
+
+def test_a_decision_made_on_a_carried_item_shows_who_made_it_and_what_was_carried(client, reviewed, author,
+                                                                                reviewer, approver):
+    eff, sep = item_of(reviewed, "EFF-001"), item_of(reviewed, "SEP-001")
+    review_item_decide(item=eff, user=reviewer, disposition="discussion", justification="",
+                       expected_version=eff.version)
+    review_item_decide(item=sep, user=approver, disposition="waived", justification="Pilot of 20 units",
+                       expected_version=sep.version)
+    submit_with(reviewed, author, lambda d: d["product"].update(revision="B"))
+    eff2, sep2 = item_of(reviewed, "EFF-001", 2), item_of(reviewed, "SEP-001", 2)
+    assert eff2.disposition == "discussion" and eff2.is_carried_unconfirmed
+
+    # the approver decides on the item carried as "needs discussion": the decision is theirs, made here
+    response = post(client, approver, "review_item_decide", eff2,
+                    {"disposition": "waived", "justification": "Indoor use only", "version": eff2.version}, **HTMX)
+    card = " ".join(response.content.decode().split())
+    assert response.status_code == 200
+    assert "carried from revision 1, confirmed" not in card
+    assert "Decided by approver" in card and "in this revision" in card
+    assert "Revision 1 carried in: Needs discussion, decided by reviewer" in card
+    stored = ReviewItem.objects.get(pk=eff2.pk)
+    assert (stored.decided_by, stored.decided_in, stored.confirmed_by) == (approver, stored.revision, None)
+
+    # confirming instead keeps the first decider and names the one who confirmed
+    response = post(client, approver, "review_item_confirm", sep2, {"version": sep2.version}, **HTMX)
+    card = " ".join(response.content.decode().split())
+    assert "Decided by approver" in card and "in revision 1" in card
+    assert "Carried from revision 1; confirmed here by approver" in card

@@ -6,7 +6,7 @@
   work for a member of the team, so the 404s come from access control, not from ids that don't exist.
 - CSRF is enforced on form posts, htmx posts and the log-in form.
 - Uploads over the size limit, or of the wrong type, are refused with a message and nothing is stored.
-- Log-in throttling: 5 failures per user name and address in 15 minutes, then 429 until the window ends.
+- Password checks (log-in, admin, signing, password change) are throttled: tests/web/test_password_checks.py.
 - With DEBUG off, errors show Earshot's own 404/403/500 pages, never a traceback.
 - Pages keep to the content security policy: no inline scripts, event-handler attributes or <style>
   elements; a style attribute only inside the placement drawing's SVG.
@@ -27,7 +27,6 @@ from projectapp.designs import questionnaire, services
 from projectapp.designs.forms import MAX_DESIGN_FILE_BYTES
 from projectapp.designs.models import Product, Revision
 from projectapp.reviews.models import ReviewItem
-from projectapp.teams import throttle
 from projectapp.teams.models import Role, Team
 from tests.web.conftest import EXAMPLES, PASSWORD, make_user
 
@@ -54,7 +53,7 @@ urlpatterns = _urlpatterns()
 # -- walking the URL patterns --------------------------------------------------------------------------------
 SKIPPED = {
     "admin": "Django's admin has its own staff-only log-in; test_admin_refuses_people_who_are_not_staff covers it",
-    "login": "the log-in page is public by design; the throttling and CSRF tests below cover it",
+    "login": "the log-in page is public by design; test_password_checks.py and the CSRF test below cover it",
 }
 PUBLIC = {
     "healthz": "a load balancer polls it without logging in; it answers 'ok' and nothing else",
@@ -329,65 +328,6 @@ def test_a_design_file_that_is_not_json_is_refused_and_nothing_is_stored(client,
     assert response.status_code == 400
     assert "photo.json: not valid JSON" in response.content.decode()
     assert list(Revision.objects.filter(product=product).values_list("pk", "document")) == before
-
-
-# -- log-in throttling ---------------------------------------------------------------------------------------------
-@pytest.fixture
-def fresh_cache():
-    from django.core.cache import cache
-
-    cache.clear()
-    yield
-    cache.clear()
-
-
-def _log_in(client, username: str, password: str, address: str = "127.0.0.1"):
-    return client.post(reverse("login"), {"username": username, "password": password}, REMOTE_ADDR=address)
-
-
-def test_five_failed_log_ins_lock_the_user_name_for_fifteen_minutes(client, site, fresh_cache, monkeypatch):
-    now = [1_000_000.0]
-    monkeypatch.setattr(throttle.time, "time", lambda: now[0])
-    for _ in range(5):
-        response = _log_in(client, "author", "wrong password")
-        assert response.status_code == 200
-        assert "correct username and password" in response.content.decode()
-    locked = _log_in(client, "author", PASSWORD)  # even the right password, while locked
-    assert locked.status_code == 429
-    assert "Too many failed log-ins; wait 15 minutes" in locked.content.decode()
-    assert "_auth_user_id" not in client.session
-
-    now[0] += 14 * 60 + 1
-    assert "wait 1 minute " in _log_in(client, "author", PASSWORD).content.decode()
-    now[0] += 60  # the window has ended
-    response = _log_in(client, "author", PASSWORD)
-    assert response.status_code == 302
-    assert client.session["_auth_user_id"] == str(site.author.pk)
-
-
-def test_the_lock_is_per_user_name_and_address(client, site, fresh_cache):
-    for _ in range(5):
-        _log_in(client, "author", "wrong password", address="192.0.2.10")
-    assert _log_in(client, "author", PASSWORD, address="192.0.2.10").status_code == 429
-    assert _log_in(client, "AUTHOR", PASSWORD, address="192.0.2.10").status_code == 429  # case folded
-    assert _log_in(Client(), "reviewer", PASSWORD, address="192.0.2.10").status_code == 302
-    assert _log_in(Client(), "author", PASSWORD, address="198.51.100.7").status_code == 302
-
-
-def test_a_successful_log_in_clears_the_count(client, site, fresh_cache):
-    for _ in range(4):
-        _log_in(client, "author", "wrong password")
-    assert _log_in(client, "author", PASSWORD).status_code == 302
-    client.logout()
-    for _ in range(4):
-        assert _log_in(client, "author", "wrong password").status_code == 200
-    assert _log_in(client, "author", PASSWORD).status_code == 302
-
-
-def test_an_incomplete_form_is_not_counted(client, site, fresh_cache):
-    for _ in range(8):
-        assert client.post(reverse("login"), {"username": "author"}).status_code == 200
-    assert _log_in(client, "author", PASSWORD).status_code == 302
 
 
 # -- error pages with DEBUG off -------------------------------------------------------------------------------------

@@ -17,11 +17,11 @@ from pypdf import PdfReader
 
 from projectapp.designs import services as design_services
 from projectapp.reviews.models import ReviewItem, SignedRevisionError
-from projectapp.reviews.services import review_item_decide
+from projectapp.reviews.services import review_item_confirm, review_item_decide
 from projectapp.signoff import services
 from projectapp.signoff.archive_files import export_archive, verify_archive
 from projectapp.signoff.models import ImmutableRecordError, SignedRecord, Supersession
-from tests.web.conftest import PASSWORD
+from tests.web.conftest import PASSWORD, signing_request
 
 ROOT = Path(__file__).parents[2]
 
@@ -45,7 +45,7 @@ def settle(revision, reviewer, approver) -> None:
 
 def sign_all(revision, author, reviewer, approver) -> SignedRecord:
     for user, role in ((author, "author"), (reviewer, "reviewer"), (approver, "approver")):
-        services.revision_sign(revision=revision, user=user, role=role, password=PASSWORD)
+        services.revision_sign(revision=revision, user=user, role=role, password=PASSWORD, request=signing_request())
     return SignedRecord.objects.get(revision=revision)
 
 
@@ -77,23 +77,23 @@ def test_signing_needs_the_password_the_role_and_distinct_people(submitted, auth
     settle(submitted, reviewer, approver)
     assert services.readiness(submitted).ready
     with pytest.raises(services.SigningError, match="password: that is not your password"):
-        services.revision_sign(revision=submitted, user=author, role="author", password="wrong")
+        services.revision_sign(revision=submitted, user=author, role="author", password="wrong", request=signing_request())
     with pytest.raises(PermissionDenied):
-        services.revision_sign(revision=submitted, user=author, role="approver", password=PASSWORD)
-    services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD)
+        services.revision_sign(revision=submitted, user=author, role="approver", password=PASSWORD, request=signing_request())
+    services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD, request=signing_request())
     with pytest.raises(services.SigningError, match="already recorded"):
-        services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD)
+        services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD, request=signing_request())
     # the author also holds the reviewer role here; the team does not allow one person for two roles
     from projectapp.teams.models import Membership
     Membership.objects.create(team=submitted.product.team, user=author, role="reviewer")
     with pytest.raises(services.SigningError, match="different person for each role"):
-        services.revision_sign(revision=submitted, user=author, role="reviewer", password=PASSWORD)
+        services.revision_sign(revision=submitted, user=author, role="reviewer", password=PASSWORD, request=signing_request())
     assert submitted.signatures.count() == 1
 
 
 def test_signing_starts_the_freeze_of_the_review(client, submitted, author, reviewer, approver):
     settle(submitted, reviewer, approver)
-    services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD)
+    services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD, request=signing_request())
     item = submitted.review_items.get(rule_id="EFF-001", kind="raised")
     with pytest.raises(PermissionDenied):
         review_item_decide(item=item, user=reviewer, disposition="waived", justification="x",
@@ -240,3 +240,79 @@ def test_frozen_records_reject_changes_through_the_admin(client, submitted, auth
     assert client.post(reverse("admin:designs_revision_change", args=[submitted.pk]), {}).status_code == 403
     assert client.post(reverse("admin:designs_revision_delete", args=[submitted.pk]), {"post": "yes"}).status_code == 403
     assert SignedRecord.objects.filter(pk=record.pk).exists()
+
+
+def test_the_record_says_who_decided_what_and_what_was_carried(submitted, author, reviewer, approver):
+    product = submitted.product
+    eff = submitted.review_items.get(rule_id="EFF-001", kind="raised")
+    sep = submitted.review_items.get(rule_id="SEP-001", kind="raised")
+    review_item_decide(item=eff, user=reviewer, disposition="discussion", justification="",
+                       expected_version=eff.version)
+    review_item_decide(item=sep, user=approver, disposition="waived", justification="Pilot of 20 units",
+                       expected_version=sep.version)
+    draft = design_services.draft_get_or_start(product=product, user=author)
+    second = design_services.revision_submit(revision=draft, user=author)
+    eff2 = second.review_items.get(rule_id="EFF-001", kind="raised")
+    sep2 = second.review_items.get(rule_id="SEP-001", kind="raised")
+    review_item_decide(item=eff2, user=approver, disposition="waived", justification="Indoor use only",
+                       expected_version=eff2.version)
+    review_item_confirm(item=sep2, user=approver, expected_version=sep2.version)
+    for item in second.review_items.filter(kind="raised", severity="warning").exclude(pk=eff2.pk):
+        review_item_decide(item=item, user=reviewer, disposition="change", justification="",
+                           expected_version=item.version)
+    record = sign_all(second, author, reviewer, approver)
+    with record.pdf.open("rb") as handle:
+        text = pdf_text(handle.read())
+    assert "carried from revision 1, confirmed" not in text
+    assert "Revision 1 carried in: Needs discussion, decided by reviewer" in text  # EFF-001, decided anew
+    assert "Carried from revision 1; confirmed here by approver" in text  # SEP-001
+    assert text.count("in this revision") >= 1 and "in revision 1" in text
+
+
+def test_an_older_revision_cannot_be_signed_once_a_newer_one_is_archived(client, submitted, author, reviewer,
+                                                                        approver):
+    settle(submitted, reviewer, approver)
+    services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD, request=signing_request())  # signing started
+    draft = design_services.draft_get_or_start(product=submitted.product, user=author)
+    newer = design_services.revision_submit(revision=draft, user=author)
+    for item in newer.review_items.filter(kind="raised", severity__in=["blocker", "warning"]):
+        review_item_confirm(item=item, user=approver, expected_version=item.version)
+    newer_record = sign_all(newer, author, reviewer, approver)
+    url = reverse("signoff_sign", args=[submitted.product_id, 1])
+    client.force_login(reviewer)
+    response = client.post(url, {"role": "reviewer", "password": PASSWORD}, follow=True)
+    page = response.content.decode()
+    assert "Revision 2 of Hive gateway is already signed and archived, so revision 1 can no longer be signed" in page
+    assert submitted.signatures.count() == 1 and not SignedRecord.objects.filter(revision=submitted).exists()
+    assert any(o.startswith("Revision 2 of Hive gateway") for o in services.readiness(submitted).obstacles)
+    assert [record.pk for record in SignedRecord.objects.all() if record.is_current] == [newer_record.pk]
+
+
+def test_the_record_is_built_before_the_first_signature_and_a_failure_is_a_message(
+        client, submitted, author, reviewer, approver, monkeypatch, caplog):
+    from reportlab.platypus.doctemplate import LayoutError
+
+    from projectapp.signoff import pdf
+
+    settle(submitted, reviewer, approver)
+    built = []
+
+    def failing_build(revision, *, fingerprint):
+        built.append(revision.signatures.count())
+        raise LayoutError("Flowable too large on page 5")
+
+    monkeypatch.setattr(pdf, "build_record_pdf", failing_build)
+    client.force_login(author)
+    url = reverse("signoff_sign", args=[submitted.product_id, 1])
+    response = client.post(url, {"role": "author", "password": PASSWORD}, follow=True)
+    page = response.content.decode()
+    assert response.status_code == 200 and built == [1]  # built with the signature being given, at the first
+    assert "could not be built (LayoutError), so your signature was not recorded" in page
+    assert "the review is still open" in page
+    assert submitted.signatures.count() == 0 and "could not be built" in caplog.text
+    item = submitted.review_items.get(rule_id="EFF-001", kind="raised")  # the review can still change
+    review_item_decide(item=item, user=reviewer, disposition="waived", justification="Chamber-tested",
+                       expected_version=item.version)
+    monkeypatch.undo()
+    record = sign_all(submitted, author, reviewer, approver)
+    assert record.size_bytes > 0
