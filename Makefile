@@ -12,5 +12,6 @@ test:
 bench:
 	scripts/bootstrap.sh test
 	.venv/bin/python benchmarks/engine.py
+	.venv/bin/python benchmarks/far_field.py
 	.venv/bin/python benchmarks/pdf_record.py
 	.venv/bin/python benchmarks/placement.py

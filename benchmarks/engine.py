@@ -7,7 +7,9 @@ Two comparisons:
 - reading the Touchstone file with rules.touchstone against scikit-rf's `skrf.Network(path)`
   (target: ours takes at most half of scikit-rf's time), with the peak memory of our read;
 - the whole-process wall time of `manage.py evaluate DESIGN --format json` against
-  `manage.py check` (target: evaluate adds less than 50 % to Django's own start-up).
+  `manage.py check` (target: evaluate adds less than 50 % to Django's own start-up); the same design with
+  the eight antennas' far-field patterns of benchmarks/far_field.py (81,900 rows each) is timed beside it,
+  without a target, to show what reading them adds.
 
 Run from the repository root: `.venv/bin/python benchmarks/engine.py [--repeats N]`.
 Needs scikit-rf, a test dependency. This script prints figures; it asserts nothing.
@@ -181,6 +183,14 @@ def main() -> int:
         write_four_port_file(touchstone_path, points=POINTS)
         design_path = directory / "tallow-creek-router.json"
         design_path.write_text(json.dumps(design_document(), indent=2), encoding="utf-8")
+        from benchmarks.far_field import write_files  # imports this module: here, not at the top
+
+        patterns = write_files(directory)
+        with_patterns = design_document()
+        with_patterns["measurements"] += [{"kind": "far-field", "file": path.name, "antenna": name}
+                                          for path, (name, *_rest) in zip(patterns, ANTENNA_PLACES, strict=True)]
+        patterns_path = directory / "tallow-creek-router-patterns.json"
+        patterns_path.write_text(json.dumps(with_patterns, indent=2), encoding="utf-8")
 
         ours = read_touchstone(touchstone_path)
         theirs = skrf.Network(str(touchstone_path))
@@ -214,6 +224,8 @@ def main() -> int:
             evaluate_times, evaluated_run = process_times(repeats, evaluate_arguments, evaluate_succeeded)
             small_times, _ = process_times(repeats, ["evaluate", str(SMALL_DESIGN), "--format", "json"],
                                            evaluate_succeeded)
+            pattern_times, _ = process_times(repeats, ["evaluate", str(patterns_path), "--format", "json"],
+                                             evaluate_succeeded)
         except RuntimeError as error:
             print(f"process timing skipped: {error}")
             return 1
@@ -233,6 +245,8 @@ def main() -> int:
             ("manage.py evaluate --format json", f"{evaluate_median:.3f}", f"{min(evaluate_times):.3f}",
              f"{process_ratio:.2f}", f"< {EVALUATE_TARGET_RATIO:.2f}",
              verdict(process_ratio, EVALUATE_TARGET_RATIO, strictly_below=True)),
+            ("  the same with 8 far-field patterns", f"{statistics.median(pattern_times):.3f}",
+             f"{min(pattern_times):.3f}", f"{statistics.median(pattern_times) / check_median:.2f}", "", ""),
         ])
     return 0
 

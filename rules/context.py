@@ -1,12 +1,16 @@
 """What every check sees: the parsed design, its measurements, and the quantities derived from both once."""
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from functools import cached_property
+from typing import Any
 
+import numpy as np
+
+from rules import farfield
 from rules.catalog import Band
 from rules.design import Antenna, Design
-from rules.measurements import LoadedMeasurement
+from rules.measurements import LoadedMeasurement, LoadedPattern
 
 
 def merge_ranges(ranges: Sequence[tuple[float, float]]) -> list[tuple[float, float]]:
@@ -50,7 +54,31 @@ def ranges_to_serve(antenna: Antenna, band: Band) -> list[tuple[float, float]]:
 @dataclass(frozen=True)
 class CheckContext:
     design: Design
-    measurements: tuple[LoadedMeasurement, ...] = ()
+    measurements: tuple[LoadedMeasurement, ...] = ()  # Touchstone files
+    far_fields: tuple[LoadedPattern, ...] = ()
+    # Figures several rules ask for (a pair's measured correlation in a band), computed once per evaluation.
+    memo: dict[Any, Any] = field(default_factory=dict, compare=False, repr=False)
+
+    @cached_property
+    def cellular_antennas(self) -> tuple[Antenna, ...]:
+        """The cellular receive branches (main and receive antennas); GNSS and WLAN antennas serve other
+        radios and count for none of the cellular rules."""
+        return tuple(antenna for antenna in self.design.antennas if antenna.is_cellular)
+
+    def pattern_of(self, antenna_name: str) -> LoadedPattern | None:
+        return next((item for item in self.far_fields if item.antenna == antenna_name), None)
+
+    @cached_property
+    def pattern_correlations(self) -> dict[tuple[str, str], np.ndarray]:
+        """Far-field ECC per frequency for every ordered pair of cellular antennas with patterns, computed
+        for all pairs at once (one Gram matrix per frequency). attach_measurements() has checked that these
+        patterns share frequencies, grid and environment."""
+        cellular = [item for item in self.far_fields if self.design.antenna(item.antenna).is_cellular]
+        if len(cellular) < 2:
+            return {}
+        matrix = farfield.correlation_matrix([item.pattern for item in cellular], cellular[0].environment)
+        return {(first.antenna, second.antenna): matrix[:, i, j]
+                for i, first in enumerate(cellular) for j, second in enumerate(cellular) if i != j}
 
     @cached_property
     def lowest_mhz(self) -> float:
@@ -78,5 +106,5 @@ class CheckContext:
 
     @cached_property
     def rx_connected(self) -> int:
-        """Antennas that actually reach a receive port."""
-        return min(len(self.design.antennas), self.rx_usable)
+        """Cellular antennas that actually reach a receive port."""
+        return min(len(self.cellular_antennas), self.rx_usable)

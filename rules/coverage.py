@@ -754,11 +754,12 @@ TABLE_COLUMNS: tuple[tuple[str, str, str], ...] = (
 
 def _main_and_second(design: Design) -> tuple[Antenna | None, Antenna | None]:
     """The antenna on the main port and the one a second receive path would use (the first other one,
-    receive antennas before other main ones)."""
-    if not design.antennas:
+    receive antennas before other main ones). GNSS and WLAN antennas are not receive branches."""
+    cellular = [antenna for antenna in design.antennas if antenna.is_cellular]
+    if not cellular:
         return None, None
-    main = next((antenna for antenna in design.antennas if antenna.transmits), design.antennas[0])
-    others = sorted((antenna for antenna in design.antennas if antenna is not main),
+    main = next((antenna for antenna in cellular if antenna.transmits), cellular[0])
+    others = sorted((antenna for antenna in cellular if antenna is not main),
                     key=lambda antenna: antenna.transmits)
     return main, (others[0] if others else None)
 

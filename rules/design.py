@@ -17,7 +17,11 @@ from typing import Any
 from rules.catalog import DEFAULT_POWER_CLASS, Band, Category, bands, categories, power_classes
 
 FORMAT = "earshot-design/1"
-ROLES = ("main", "receive")
+ROLES = ("main", "receive", "gnss", "wlan")
+CELLULAR_ROLES = ("main", "receive")  # the cellular receive branches; gnss and wlan antennas serve other radios
+EFFICIENCY_SOURCES = ("datasheet", "measured")
+MEASUREMENT_KINDS = ("s-parameters", "far-field")
+FIELD_ENVIRONMENTS = ("isotropic", "taga")
 MOUNTINGS = ("internal", "external")
 MATERIALS = ("plastic", "metal", "mixed")
 ENVIRONMENTS = ("outdoor", "indoor", "deep-indoor", "underground", "vehicle")
@@ -136,15 +140,32 @@ class Antenna:
     position_mm: tuple[float, float, float] | None = None
     polarization: tuple[float, float, float] | None = None
     ranges_mhz: tuple[tuple[float, float], ...] | None = None
-    peak_gain_dbi: float | None = None
+    peak_gain_dbi: float | None = None  # one figure for every band
     efficiency_pct: Mapping[str, float] = field(default_factory=dict)
     size_mm: tuple[float, float, float] | None = None
     cable_loss_db: float = 0.0
+    peak_gain_dbi_per_band: Mapping[str, float] = field(default_factory=dict)  # when given band by band
+    efficiency_source: str = "datasheet"
     library: LibraryRef | None = None
 
     @property
     def transmits(self) -> bool:
         return self.role == "main"
+
+    @property
+    def is_cellular(self) -> bool:
+        """A cellular antenna (main or receive); GNSS and WLAN antennas serve other radios."""
+        return self.role in CELLULAR_ROLES
+
+    @property
+    def gain_given(self) -> bool:
+        return self.peak_gain_dbi is not None or bool(self.peak_gain_dbi_per_band)
+
+    def peak_gain_in(self, band_name: str) -> float | None:
+        """The datasheet peak gain in a band: the one figure, or the band's entry (None when missing)."""
+        if self.peak_gain_dbi is not None:
+            return self.peak_gain_dbi
+        return self.peak_gain_dbi_per_band.get(band_name)
 
 
 @dataclass(frozen=True)
@@ -174,9 +195,24 @@ class Deployment:
 
 
 @dataclass(frozen=True)
+class FieldEnvironment:
+    """The multipath a far-field ECC and mean effective gain are computed in: uniform 3-D ("isotropic"),
+    or Taga's model (uniform azimuth, Gaussian elevation about a mean with a spread, cross-polar ratio)."""
+
+    model: str = "isotropic"
+    mean_elevation_deg: float = 0.0
+    spread_deg: float = 0.0
+    xpr_db: float = 0.0
+
+
+@dataclass(frozen=True)
 class MeasurementRef:
     file: str
-    ports: tuple[str | None, ...]
+    ports: tuple[str | None, ...]  # far-field: the one antenna the pattern belongs to
+    kind: str = "s-parameters"
+    antenna: str | None = None  # far-field only
+    environment: FieldEnvironment = field(default_factory=FieldEnvironment)  # far-field only
+    absolute: bool = False  # far-field only: |E_theta|^2 + |E_phi|^2 is the realized gain (linear)
 
 
 @dataclass(frozen=True)
@@ -652,7 +688,7 @@ def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:
         path = f"antennas[{index}]"
         raw = reader.object(item, path, ("name", "role", "mounting", "position_mm", "polarization", "ranges_mhz",
                                          "peak_gain_dbi", "efficiency_pct", "size_mm", "cable_loss_db",
-                                         "library"))
+                                         "efficiency_source", "library"))
         if raw is None:
             complete = False
             continue
@@ -673,8 +709,7 @@ def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:
         if polarization is not None and not any(polarization):
             reader.problem(f"{path}.polarization", "expected a direction; [0, 0, 0] has none")
         ranges = _parse_ranges(reader, raw.get("ranges_mhz"), f"{path}.ranges_mhz")
-        gain = reader.number(raw.get("peak_gain_dbi"), f"{path}.peak_gain_dbi", minimum=-30, maximum=30,
-                             unit="dBi")
+        gain, gain_per_band = _parse_gain(reader, raw.get("peak_gain_dbi"), f"{path}.peak_gain_dbi")
         efficiency = reader.band_map(
             raw.get("efficiency_pct"), f"{path}.efficiency_pct",
             lambda item, item_path: reader.number(item, item_path, minimum=0, maximum=100, unit="%"),
@@ -682,6 +717,8 @@ def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:
         size = reader.vector(raw.get("size_mm"), f"{path}.size_mm", 3, positive=True)
         cable_loss = reader.number(raw.get("cable_loss_db"), f"{path}.cable_loss_db", minimum=0, maximum=40,
                                    unit="dB")
+        efficiency_source = reader.choice(raw.get("efficiency_source"), f"{path}.efficiency_source",
+                                          EFFICIENCY_SOURCES, "datasheet")
         library = _parse_library_ref(reader, raw.get("library"), f"{path}.library")
         if len(reader.problems) > before or name is None or role is None:
             complete = False
@@ -691,9 +728,21 @@ def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:
             position_mm=position, polarization=polarization,  # type: ignore[arg-type]
             ranges_mhz=ranges, peak_gain_dbi=gain, efficiency_pct=efficiency,
             size_mm=size, cable_loss_db=cable_loss or 0.0,  # type: ignore[arg-type]
+            peak_gain_dbi_per_band=gain_per_band, efficiency_source=efficiency_source or "datasheet",
             library=library,
         ))
     return antennas if complete else None
+
+
+def _parse_gain(reader: _Reader, value: Any, path: str) -> tuple[float | None, dict[str, float]]:
+    """Peak gain as one number for every band, or an object of band to dBi."""
+    if isinstance(value, dict):
+        return None, reader.band_map(
+            value, path, lambda item, item_path: reader.number(item, item_path, minimum=-30, maximum=30, unit="dBi"))
+    if value is not None and not _is_number(value):
+        reader.problem(path, f"expected a number in dBi, got {_show(value)}; or an object of band to dBi")
+        return None, {}
+    return reader.number(value, path, minimum=-30, maximum=30, unit="dBi"), {}
 
 
 LIBRARY_VERSION_MAX = 2**31 - 1
@@ -742,9 +791,18 @@ def _parse_measurements(reader: _Reader, value: Any, antenna_names: set[str]) ->
         reader.problem("measurements", f"expected a list of measurement files, got {_kind(value)}")
         return ()
     result = []
+    patterns: dict[str, int] = {}
     for index, item in enumerate(value):
         path = f"measurements[{index}]"
-        raw = reader.object(item, path, ("file", "ports"))
+        kind = reader.choice(item.get("kind") if isinstance(item, dict) else None, f"{path}.kind",
+                             MEASUREMENT_KINDS, "s-parameters")
+        if kind == "far-field":
+            reference = _parse_far_field_ref(reader, item, path, antenna_names, patterns)
+            if reference is not None:
+                patterns[reference.antenna or ""] = index
+                result.append(reference)
+            continue
+        raw = reader.object(item, path, ("file", "ports", "kind"))
         if raw is None:
             continue
         file_name = reader.text(raw.get("file"), f"{path}.file", required=True)
@@ -768,6 +826,62 @@ def _parse_measurements(reader: _Reader, value: Any, antenna_names: set[str]) ->
         if file_name is not None and len(mapped) == len(ports):
             result.append(MeasurementRef(file_name, tuple(mapped)))
     return tuple(result)
+
+
+def _parse_far_field_ref(
+    reader: _Reader, item: Any, path: str, antenna_names: set[str], patterns: dict[str, int],
+) -> MeasurementRef | None:
+    raw = reader.object(item, path, ("file", "kind", "antenna", "environment", "absolute"))
+    if raw is None:
+        return None
+    file_name = reader.text(raw.get("file"), f"{path}.file", required=True)
+    name = raw.get("antenna")
+    if not isinstance(name, str) or name not in antenna_names:
+        accepted = ", ".join(sorted(antenna_names)) or "no antennas are defined"
+        reader.problem(f"{path}.antenna", f"expected the name of the antenna this pattern belongs to "
+                                          f"({accepted}), got {'nothing' if name is None else _show(name)}")
+        name = None
+    elif name in patterns:
+        reader.problem(f"{path}.antenna", f"antenna {name} already has a far-field pattern "
+                                          f"(measurements[{patterns[name]}]); give one file per antenna")
+        name = None
+    if raw.get("ports") is not None:
+        reader.problem(f"{path}.ports", "a far-field pattern belongs to one antenna: name it in `antenna`")
+    environment = _parse_field_environment(reader, raw.get("environment"), f"{path}.environment")
+    absolute = reader.boolean(raw.get("absolute"), f"{path}.absolute", False)
+    if file_name is None or name is None or environment is None:
+        return None
+    return MeasurementRef(file_name, (name,), kind="far-field", antenna=name, environment=environment,
+                          absolute=absolute)
+
+
+def _parse_field_environment(reader: _Reader, value: Any, path: str) -> FieldEnvironment | None:
+    """`{"model": "isotropic"}` (the default) or `{"model": "taga", "mean_elevation_deg": .., "spread_deg": ..,
+    "xpr_db": ..}`; Taga's three parameters are required, since no one set suits every deployment."""
+    if value is None:
+        return FieldEnvironment()
+    model = value.get("model") if isinstance(value, dict) else None
+    known = ("model", "mean_elevation_deg", "spread_deg", "xpr_db") if model == "taga" else ("model",)
+    raw = reader.object(value, path, known)
+    if raw is None:
+        return None
+    if model not in FIELD_ENVIRONMENTS:
+        reader.problem(f"{path}.model", f"expected one of {', '.join(FIELD_ENVIRONMENTS)}; got "
+                                        f"{'nothing' if model is None else _show(model)}")
+        return None
+    if model == "isotropic":
+        return FieldEnvironment()
+    before = len(reader.problems)
+    numbers = {}
+    for key, low, high, unit in (("mean_elevation_deg", -90, 90, "degrees above the horizon"),
+                                 ("spread_deg", 1, 90, "degrees"), ("xpr_db", -30, 30, "dB")):
+        if raw.get(key) is None:
+            reader.problem(f"{path}.{key}", f"required for the taga model: expected a number in {unit}")
+            continue
+        numbers[key] = reader.number(raw.get(key), f"{path}.{key}", minimum=low, maximum=high, unit=unit)
+    if len(reader.problems) > before:
+        return None
+    return FieldEnvironment("taga", **numbers)  # type: ignore[arg-type]
 
 
 def _reject_constant(name: str) -> None:

@@ -16,7 +16,7 @@ from rules.catalog import Band
 from rules.context import CheckContext
 from rules.design import Design
 from rules.findings import SEVERITIES, Finding
-from rules.measurements import LoadedMeasurement
+from rules.measurements import AttachedMeasurements, LoadedMeasurement, LoadedPattern
 from rules.registry import RULESET_VERSION, registered_rules
 
 CHECKLIST_FORMAT = "earshot-checklist/1"
@@ -111,8 +111,15 @@ class Evaluation:
         }
 
 
-def evaluate(design: Design, measurements: Sequence[LoadedMeasurement] = ()) -> Evaluation:
-    context = CheckContext(design, tuple(measurements))
+def evaluate(
+    design: Design, measurements: Sequence[LoadedMeasurement] = (), far_fields: Sequence[LoadedPattern] | None = None,
+) -> Evaluation:
+    """The checklist. `measurements` as attach_measurements() returns them carry their far-field patterns;
+    `far_fields` gives patterns alongside a plain sequence of Touchstone measurements. A rule that raises is
+    contained: it is listed in `rule_failures` and the other rules still judge."""
+    if far_fields is None:
+        far_fields = measurements.far_fields if isinstance(measurements, AttachedMeasurements) else ()
+    context = CheckContext(design, tuple(measurements), tuple(far_fields))
     findings: list[Finding] = []
     failures: list[RuleFailure] = []
     for rule in registered_rules():

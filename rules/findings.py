@@ -6,11 +6,15 @@ from typing import Any
 
 SEVERITIES = ("blocker", "warning", "note")
 
+# What a finding rests on, lowest rank first (design.md, rule set 2): the design's geometry and choices,
+# a component's datasheet figures, or a measurement of this product. A measurement outranks the others.
+BASES = ("design", "datasheet", "measured")
+
 # Fixed vocabulary of the contract (design-file.md); the order is the order a checklist lists them in.
 TOPICS = (
     "antenna-count", "band-coverage", "separation", "ground-plane", "enclosure", "device-size", "gain-limit",
-    "throughput", "matching", "isolation", "correlation", "efficiency", "coverage", "rf-exposure",
-    "certification",
+    "throughput", "measurement", "matching", "isolation", "correlation", "efficiency", "coverage", "coexistence",
+    "ota", "rf-exposure", "certification",
 )
 
 # Evidence keys the contract promises for a topic; a finding of that topic must carry all of them.
@@ -23,14 +27,17 @@ EVIDENCE_KEYS: Mapping[str, tuple[str, ...]] = {
     "throughput": ("direction", "required_kbps", "peak_kbps"),
     "matching": ("band", "port", "return_loss_db", "vswr"),
     "isolation": ("band", "ports", "isolation_db"),
-    "correlation": ("band", "ports", "ecc"),
+    "correlation": ("band", "ports", "ecc", "method"),
     "efficiency": ("band", "efficiency_pct"),
+    "coexistence": ("band", "victim", "mechanism", "aggressor_mhz", "victim_mhz"),
+    "ota": ("band", "quantity", "estimate_dbm", "target_dbm"),
+    "measurement": ("file", "problem", "frequency_mhz"),
 }
 
 # How finely each evidence value is shown, by the unit its key ends in (contract: 0.1 for MHz and mm).
 _DECIMALS_BY_SUFFIX = (
     ("_mhz", 1), ("_mm", 1), ("_deg", 1), ("_kbps", 1), ("_pct", 1), ("_db", 2), ("_dbi", 2),
-    ("vswr", 2), ("ecc", 3), ("_ratio", 3), ("ka", 3), ("q", 2),
+    ("_dbm", 2), ("vswr", 2), ("ecc", 3), ("_ratio", 3), ("ka", 3), ("q", 2),
 )
 
 
@@ -61,6 +68,7 @@ class Flag:
     subjects: tuple[str, ...] = ()
     evidence: Mapping[str, Any] = field(default_factory=dict)
     references: tuple[str, ...] = ()
+    basis: str = "design"
 
 
 @dataclass(frozen=True)
@@ -74,6 +82,7 @@ class Finding:
     subjects: tuple[str, ...]
     evidence: Mapping[str, Any]
     references: tuple[str, ...]
+    basis: str = "design"
 
     @property
     def key(self) -> tuple[str, tuple[str, ...]]:
@@ -94,4 +103,5 @@ class Finding:
             "subjects": list(self.subjects),
             "evidence": dict(self.evidence),
             "references": list(self.references),
+            "basis": self.basis,
         }

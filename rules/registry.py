@@ -2,7 +2,8 @@
 
 Modelled on Django's system checks: a check takes the evaluation context and yields Flags; the
 registry turns each into a Finding carrying the rule's stable id and topic, and refuses a flag whose
-severity the rule did not declare or whose evidence lacks a key the contract promises for its topic.
+severity the rule did not declare, whose basis is not one of findings.BASES, or whose evidence lacks a
+key the contract promises for its topic.
 Ids are never reused: a retired rule stays in RETIRED with the reason.
 """
 
@@ -12,12 +13,17 @@ from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-from rules.findings import EVIDENCE_KEYS, SEVERITIES, TOPICS, Finding, Flag, round_evidence
+from rules.findings import BASES, EVIDENCE_KEYS, SEVERITIES, TOPICS, Finding, Flag, round_evidence
 
 if TYPE_CHECKING:
     from rules.context import CheckContext
 
-RULESET_VERSION = "1.1.0"  # 1.1.0: COV-001 (coverage cost of a missing second receive antenna)
+# 1.1.0: COV-001 (coverage cost of a missing second receive antenna).
+# 2.0.0: every finding has a basis; measurement outranks geometry (SEP-001, GND-001 cleared by measurement);
+# correlation over the downlink, far-field patterns (ECC-003, ECC-004, EFF-004), passivity (MEA-001),
+# optimistic S-parameter ECC (ECC-002), efficiency imbalance (EFF-003), feed outside the enclosure (ENC-002,
+# SEP-003), per-band peak gain (GAI-001), GNSS and WLAN antennas kept out of the cellular rules.
+RULESET_VERSION = "2.0.0"
 RULE_ID_PATTERN = re.compile(r"^[A-Z]{3}-\d{3}$")
 
 CheckFunction = Callable[["CheckContext"], Iterable[Flag]]
@@ -40,6 +46,8 @@ class Rule:
     rationale: str
     sources: tuple[str, ...]
     check: CheckFunction
+    added_in: str | None = None  # the rule set that introduced it (None: before rule set 2)
+    changed_in: str | None = None  # the last rule set that changed what it says
 
     def run(self, context: "CheckContext") -> Iterator[Finding]:
         for flag in self.check(context):
@@ -47,6 +55,8 @@ class Rule:
                 raise RuleOutputError(f"{self.id} yielded {flag!r}, expected a Flag")
             if flag.severity not in self.severities:
                 raise RuleOutputError(f"{self.id} yielded a {flag.severity}; it declares {self.severities}")
+            if flag.basis not in BASES:
+                raise RuleOutputError(f"{self.id} yielded basis {flag.basis!r}; expected one of {BASES}")
             missing = [key for key in EVIDENCE_KEYS.get(self.topic, ()) if key not in flag.evidence]
             if missing:
                 raise RuleOutputError(f"{self.id} evidence lacks {missing}")
@@ -60,6 +70,7 @@ class Rule:
                 subjects=tuple(flag.subjects),
                 evidence={key: round_evidence(key, value) for key, value in flag.evidence.items()},
                 references=tuple(flag.references) or self.sources,
+                basis=flag.basis,
             )
 
 
@@ -79,8 +90,10 @@ RETIRED: tuple[RetiredRule, ...] = ()
 
 def rule(
     *, id: str, topic: str, severities: Iterable[str], title: str, rationale: str, sources: Iterable[str],
+    added_in: str | None = None, changed_in: str | None = None,
 ) -> Callable[[CheckFunction], CheckFunction]:
-    """Registers a check function under a stable id. The function takes one argument, `context`."""
+    """Registers a check function under a stable id. The function takes one argument, `context`.
+    `added_in` and `changed_in` name the rule set that introduced the rule or last changed its meaning."""
     severities = tuple(severities)
     sources = tuple(sources)
 
@@ -99,7 +112,7 @@ def rule(
         parameters = list(inspect.signature(function).parameters.values())
         if [parameter.name for parameter in parameters] != ["context"]:
             raise RuleDefinitionError(f"{where}: a check takes exactly one parameter, 'context'")
-        _RULES[id] = Rule(id, topic, severities, title, rationale, sources, function)
+        _RULES[id] = Rule(id, topic, severities, title, rationale, sources, function, added_in, changed_in)
         return function
 
     return register

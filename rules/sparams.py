@@ -123,6 +123,27 @@ def efficiency_upper_bound(network: Network, i: int) -> np.ndarray:
     return np.clip(remaining, 0.0, 1.0)
 
 
+def largest_singular_value(network: Network) -> np.ndarray:
+    """(F,): the largest singular value of S at each frequency.
+
+    A passive network can't deliver more power than it is fed, for any combination of incident waves, which
+    is the condition that no singular value of S exceeds 1. Testing each column (|S11|^2 + |S21|^2 <= 1) is
+    not enough: S11 = S22 = 0.6, S21 = S12 = 0.5 passes it (0.61) and still has a singular value of 1.1
+    (0.6 + 0.5). Frequencies with data too large or not finite get inf.
+    """
+    s = network.s
+    result = np.full(s.shape[0], np.inf)
+    with np.errstate(over="ignore", invalid="ignore"):
+        finite = np.isfinite(s).all(axis=(1, 2)) & (np.abs(s) < 1e150).all(axis=(1, 2))
+    if finite.any():
+        # The squared singular values are the eigenvalues of the Hermitian S^H S; eigvalsh on that is about
+        # twice as fast as an SVD for the small matrices of antenna measurements, and as accurate here.
+        chosen = s[finite]
+        gram = np.conj(np.swapaxes(chosen, 1, 2)) @ chosen
+        result[finite] = np.sqrt(np.maximum(np.linalg.eigvalsh(gram)[:, -1], 0.0))
+    return result
+
+
 @dataclass(frozen=True, eq=False)
 class BandWindow:
     covered: bool

@@ -23,6 +23,7 @@ def wrap(text: str, width: int, *, initial_indent: str = "", subsequent_indent: 
 
 
 HEADINGS = {"blocker": "BLOCKERS", "warning": "WARNINGS", "note": "NOTES"}
+BASIS_WORDS = {"design": "from the design", "datasheet": "from datasheets", "measured": "measured"}
 
 
 def table(headers: Sequence[str], rows: Sequence[Sequence[str]], right: Sequence[bool]) -> list[str]:
@@ -52,7 +53,8 @@ def _evidence_value(value: Any) -> str:
 
 def _finding_lines(finding: Finding) -> list[str]:
     subjects = f" ({', '.join(finding.subjects)})" if finding.subjects else ""
-    lines = [f"  {finding.id}  {finding.topic}{subjects}", f"    {finding.title}"]
+    lines = [f"  {finding.id}  {finding.topic}{subjects}  [{BASIS_WORDS.get(finding.basis, finding.basis)}]",
+             f"    {finding.title}"]
     indent = " " * 6
     lines += wrap(finding.explanation, WIDTH, initial_indent=indent, subsequent_indent=indent)
     lines += wrap("Action: " + finding.action, WIDTH, initial_indent=indent, subsequent_indent=indent)

@@ -15,10 +15,11 @@ import os
 import re
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from functools import partial
 from pathlib import Path
 
 import numpy as np
+
+from rules.file_error import FileError
 
 _FREQUENCY_UNITS_HZ = {"HZ": 1.0, "KHZ": 1e3, "MHZ": 1e6, "GHZ": 1e9}
 _PARAMETERS = ("S", "Y", "Z", "H", "G")
@@ -49,26 +50,11 @@ _COMMENT = re.compile(r"!(.*)")
 _BLANK_LINE = re.compile(r"\n[ \t]*\n")
 
 
-class TouchstoneError(ValueError):
+class TouchstoneError(FileError):
     """A file that can't be read as Touchstone.
 
     str() gives 'NAME:LINE: message', or 'NAME: message' when no single line is to blame.
     """
-
-    def __init__(self, message: str, *, source: str, line: int | None = None) -> None:
-        super().__init__(message)
-        self.message = message
-        self.source = source
-        self.line = line
-
-    def __str__(self) -> str:
-        if self.line is None:
-            return f"{self.source}: {self.message}"
-        return f"{self.source}:{self.line}: {self.message}"
-
-    def __reduce__(self) -> tuple[Callable[[str], "TouchstoneError"], tuple[str]]:
-        # Keyword-only arguments need help to survive pickling (Django's cache, multiprocessing).
-        return (partial(TouchstoneError, source=self.source, line=self.line), (self.message,))
 
 
 @dataclass(frozen=True, eq=False)

@@ -99,7 +99,8 @@ ANTENNA_QUESTIONS = (
     Question("name", "Name", "text", "A short label, unique in the design (as on the schematic: ANT1, DIV)."),
     Question("role", "Role", "choice",
              "'main' transmits and receives (the module's main port); 'receive' is an extra receive path "
-             "for diversity or MIMO.", choices=tuple((role, role) for role in ROLES)),
+             "for diversity or MIMO; 'gnss' (satellite navigation) and 'wlan' (Wi-Fi, Bluetooth) serve other "
+             "radios and are not counted as cellular antennas.", choices=tuple((role, role) for role in ROLES)),
     Question("mounting", "Mounting", "choice",
              "'internal' sits inside the enclosure (chip, flex, PCB trace); 'external' is outside on a "
              "connector or cable.", choices=tuple((mounting, mounting) for mounting in MOUNTINGS),

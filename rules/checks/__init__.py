@@ -1,5 +1,16 @@
 """The checks. Importing this package registers every rule with rules.registry."""
 
-from rules.checks import antenna_count, band_coverage, certification, coverage, layout, measured, radio, usage
+from rules.checks import (
+    antenna_count,
+    band_coverage,
+    certification,
+    coverage,
+    layout,
+    measured,
+    patterns,
+    radio,
+    usage,
+)
 
-__all__ = ["antenna_count", "band_coverage", "certification", "coverage", "layout", "measured", "radio", "usage"]
+__all__ = ["antenna_count", "band_coverage", "certification", "coverage", "layout", "measured", "patterns", "radio",
+           "usage"]

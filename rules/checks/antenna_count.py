@@ -11,7 +11,7 @@ TS_38_300 = "3GPP TS 38.300 §16.13"
 
 
 @rule(
-    id="CNT-001", topic="antenna-count", severities=("blocker", "warning"),
+    id="CNT-001", changed_in="2.0.0", topic="antenna-count", severities=("blocker", "warning"),
     title="Fewer receive antennas than the category requires",
     rationale=(
         "Cat 1 is specified with two receive antennas (receive diversity) and Cat 4 and up with two for "
@@ -30,7 +30,7 @@ def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
         return
     approved = design.modem.operator_single_antenna_approval
     ports_note = ""
-    if design.modem.rx_ports is not None and len(design.antennas) > fitted:
+    if design.modem.rx_ports is not None and len(context.cellular_antennas) > fitted:
         ports_note = f" The module has {design.modem.rx_ports} receive port(s), so only {fitted} antenna(s) connect."
     evidence = {"required": required, "fitted": fitted, "operator_approval": approved}
     references = (category.reference,)
@@ -60,36 +60,46 @@ def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
         reason = ("No operator approval for single-antenna operation is recorded, and without one "
                   "carriers reject the device in acceptance testing.")
     elif category.single_antenna == "module":
-        reason = f"The module declares {required} receive branch(es), and each needs an antenna."
+        reason = "Each declared branch needs its own antenna."
     else:
         reason = "Every cellular device needs at least one antenna for transmit and receive."
+    other_radios = [antenna.name for antenna in design.antennas if not antenna.is_cellular]
+    if other_radios:
+        reason += (f" {', '.join(other_radios)} serve{'s' if len(other_radios) == 1 else ''} another radio "
+                   "(GNSS or WLAN) and count for none of them.")
+    if category.single_antenna == "module":
+        specified = f"The {category.label} module declares {required} receive branch(es); the design fits {fitted}."
+        remedy = (f"Add receive antenna(s) until {required} reach the module's receive ports, or configure the "
+                  "module for one receive branch (RedCap with 1 Rx) if its coverage and throughput suffice; "
+                  "operators may bar one-branch RedCap devices from a cell, so check with each.")
+    else:
+        specified = f"{category.label} is specified with {required} receive antenna(s)."
+        remedy = (f"Add receive antenna(s) until {required} reach the module's receive ports, or choose a "
+                  "single-receive category (Cat 1bis, LTE-M, NB-IoT) if the throughput allows it.")
     yield Flag(
         severity="blocker",
         title=f"{category.label} needs {required} receive antenna(s); {fitted} fitted",
-        explanation=f"{category.label} is specified with {required} receive antenna(s). {reason}{ports_note}",
-        action=(
-            f"Add receive antenna(s) until {required} reach the module's receive ports, or choose a "
-            "single-receive category (Cat 1bis, LTE-M, NB-IoT) if the throughput allows it."
-        ),
+        explanation=f"{specified} {reason}{ports_note}",
+        action=remedy,
         evidence=evidence,
         references=references,
     )
 
 
 @rule(
-    id="CNT-002", topic="antenna-count", severities=("blocker",),
+    id="CNT-002", changed_in="2.0.0", topic="antenna-count", severities=("blocker",),
     title="No main (transmit and receive) antenna",
     rationale="The module transmits through its main port; a design of only receive antennas cannot attach.",
     sources=(TS_36_306,),
 )
 def no_main_antenna(context: CheckContext) -> Iterator[Flag]:
-    antennas = context.design.antennas
+    antennas = context.cellular_antennas
     if antennas and not any(antenna.transmits for antenna in antennas):
         yield Flag(
             severity="blocker",
             title="No antenna has the main (transmit and receive) role",
             explanation=(
-                "Every antenna in the design is receive-only, so nothing is connected to the module's main "
+                "Every cellular antenna in the design is receive-only, so nothing is connected to the module's main "
                 "port, which carries the uplink."
             ),
             action="Set the role of the antenna on the module's main port to 'main'.",
@@ -99,16 +109,17 @@ def no_main_antenna(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="CNT-003", topic="antenna-count", severities=("note",),
+    id="CNT-003", changed_in="2.0.0", topic="antenna-count", severities=("note",),
     title="Antennas the modem won't use",
     rationale=(
         "A single-receive category (NB-IoT, LTE-M, Cat 1bis) uses one antenna; a module uses as many as it "
-        "has receive ports. Extra antennas cost space and money without improving the link."
+        "has receive ports. Extra antennas cost space and money without improving the link. GNSS and WLAN "
+        "antennas serve other radios and are not counted."
     ),
     sources=(TS_36_306,),
 )
 def unused_antennas(context: CheckContext) -> Iterator[Flag]:
-    antennas = context.design.antennas
+    antennas = context.cellular_antennas
     usable = context.rx_usable
     if len(antennas) <= usable:
         return
@@ -116,10 +127,10 @@ def unused_antennas(context: CheckContext) -> Iterator[Flag]:
     category = context.design.modem.category
     yield Flag(
         severity="note",
-        title=f"{len(antennas)} antennas fitted; the modem uses {usable}",
+        title=f"{len(antennas)} cellular antennas fitted; the modem uses {usable}",
         explanation=(
             f"{category.label} with this module uses {usable} receive path(s); the design fits "
-            f"{len(antennas)} antennas, so {', '.join(extras) or 'some of them'} will not be connected to a "
+            f"{len(antennas)} cellular antennas, so {', '.join(extras) or 'some of them'} will not be connected to a "
             "receive port."
         ),
         action="Remove the extra antenna(s), or record what else they serve (another radio, a future module).",

@@ -8,17 +8,17 @@ from rules.registry import rule
 
 
 @rule(
-    id="BND-001", topic="band-coverage", severities=("blocker",),
+    id="BND-001", changed_in="2.0.0", topic="band-coverage", severities=("blocker",),
     title="A selected band is outside an antenna's rated ranges",
     rationale=(
         "A main antenna transmits and receives, so it must cover a band's uplink and downlink; a receive "
-        "antenna must cover the downlink. Outside its rated range an antenna's match and efficiency are "
+        "antenna must cover the downlink (GNSS and WLAN antennas serve other radios). Outside its rated range an antenna's match and efficiency are "
         "unspecified and usually poor."
     ),
     sources=("3GPP TS 36.101 Table 5.5-1", "3GPP TS 38.101-1 Table 5.2-1"),
 )
 def band_outside_rated_range(context: CheckContext) -> Iterator[Flag]:
-    for antenna in context.design.antennas:
+    for antenna in context.cellular_antennas:
         if antenna.ranges_mhz is None:
             continue
         for band in context.design.modem.bands:
@@ -42,17 +42,18 @@ def band_outside_rated_range(context: CheckContext) -> Iterator[Flag]:
                 evidence={"band": band.name, "missing_mhz": [list(pair) for pair in missing],
                           "role": antenna.role},
                 references=(band.reference,),
+                basis="datasheet",
             )
 
 
 @rule(
-    id="BND-002", topic="band-coverage", severities=("note",),
+    id="BND-002", changed_in="2.0.0", topic="band-coverage", severities=("note",),
     title="Band coverage can't be checked: rated ranges not given",
     rationale="Without the antenna's rated frequency ranges the engine cannot tell whether it serves the bands.",
     sources=("common practice",),
 )
 def rated_ranges_unknown(context: CheckContext) -> Iterator[Flag]:
-    for antenna in context.design.antennas:
+    for antenna in context.cellular_antennas:
         if antenna.ranges_mhz is None:
             yield Flag(
                 severity="note",

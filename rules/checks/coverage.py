@@ -65,7 +65,7 @@ def _direction_text(analysis: CoverageAnalysis) -> str:
 
 
 @rule(
-    id="COV-001", topic="coverage", severities=("warning", "note"),
+    id="COV-001", changed_in="2.0.0", topic="coverage", severities=("warning", "note"),
     title="One receive antenna where the modem can use two: the coverage it costs",
     rationale=(
         "A second receive antenna helps only the downlink. 3GPP's single-receive-branch evaluations (TR "

@@ -2,28 +2,50 @@
 work against, the enclosure around them, and the size-bandwidth limit of the whole device."""
 
 from collections.abc import Iterator
+from dataclasses import dataclass
 from itertools import combinations
+from typing import Any
 
 from rules import physics
 from rules.context import CheckContext, merge_ranges
+from rules.correlation import BLANCH, VAUGHAN_ANDERSEN, pair_correlations, pair_isolations
+from rules.design import Antenna
 from rules.findings import Flag
 from rules.registry import rule
 
 WHEELER = "Wheeler, Proc. IRE 47(8), 1959 (radiansphere, lambda/2pi)"
 CROSS_POLARIZED_DEG = 45.0  # axes at least this far apart count as cross-polarized (design.md policy)
+ECC_LIMIT = 0.5  # design.md rule set 2: a measurement clears the spacing rule at ECC <= 0.5 ...
+ISOLATION_LIMIT_DB = 10.0  # ... and, where S-parameters of the pair exist, isolation >= 10 dB
+MIN_EFFICIENCY_PCT = 25.0  # ... and the ground-length rule at measured efficiency >= 25 %
+ENCLOSURE_TOLERANCE_MM = 1.0  # a feed more than this outside the enclosure box is flagged (design.md)
+
+
+def outside_enclosure_mm(context: CheckContext, antenna: Antenna) -> float:
+    """How far an internal antenna's feed lies outside the enclosure box [0, size] (origin at a corner), beyond
+    the 1 mm tolerance; 0 when inside, external, or when the position or the enclosure size is not given."""
+    size = context.design.enclosure_size_mm
+    if antenna.mounting != "internal" or antenna.position_mm is None or size is None:
+        return 0.0
+    excess = max(max(-coordinate, coordinate - extent) for coordinate, extent in zip(antenna.position_mm, size,
+                                                                                      strict=True))
+    return excess if excess > ENCLOSURE_TOLERANCE_MM else 0.0
 
 
 @rule(
-    id="SEP-001", topic="separation", severities=("blocker", "warning", "note"),
+    id="SEP-001", changed_in="2.0.0", topic="separation", severities=("blocker", "warning", "note"),
     title="Receive antennas too close for the lowest frequency",
     rationale=(
         "Inside the reactive near field (lambda/2pi) of one antenna a second one is coupled through the "
         "stored field: isolation and correlation suffer and transmit power is lost into the other port. A "
         "quarter wave apart is the usual minimum. Orthogonal polarization decouples the pair, but that help "
         "fades when they are very close. Judged at the lowest frequency of operation, where the wavelength "
-        "is longest."
+        "is longest. Geometry is a prediction: where a trustworthy measurement of the pair in the band that sets "
+        "that frequency shows ECC of at most 0.5 over its downlink (and, where S-parameters of the pair exist, "
+        "isolation of at least 10 dB), the measurement decides and the finding is a note."
     ),
-    sources=(WHEELER, "common practice (quarter-wave minimum spacing)", "3GPP TS 36.101 Table 5.5-1"),
+    sources=(WHEELER, "common practice (quarter-wave minimum spacing)", "3GPP TS 36.101 Table 5.5-1",
+             "design.md rule set 2 (measurement outranks geometry)"),
 )
 def receive_antennas_too_close(context: CheckContext) -> Iterator[Flag]:
     if context.rx_usable < 2:
@@ -31,12 +53,7 @@ def receive_antennas_too_close(context: CheckContext) -> Iterator[Flag]:
     frequency_mhz = context.lowest_mhz
     near_field_mm = physics.near_field_radius_mm(frequency_mhz)
     quarter_wave_mm = physics.quarter_wave_mm(frequency_mhz)
-    placed = [antenna for antenna in context.design.antennas if antenna.position_mm is not None]
-    for first, second in combinations(placed, 2):
-        distance_mm = physics.distance_mm(first.position_mm, second.position_mm)  # type: ignore[arg-type]
-        known = first.polarization is not None and second.polarization is not None
-        angle_deg = (physics.polarization_angle_deg(first.polarization, second.polarization)  # type: ignore[arg-type]
-                     if known else 0.0)
+    for first, second, distance_mm, angle_deg, known in _placed_pairs(context):
         cross = angle_deg >= CROSS_POLARIZED_DEG
         if distance_mm < near_field_mm:
             severity = "warning" if cross else "blocker"
@@ -48,42 +65,143 @@ def receive_antennas_too_close(context: CheckContext) -> Iterator[Flag]:
             continue
         polarization = (f"{angle_deg:.0f} degrees apart ({'cross' if cross else 'co'}-polarized)" if known
                         else "of unknown polarization, so taken as co-polarized")
+        geometry = (
+            f"At {frequency_mhz:g} MHz (lowest edge of {context.lowest_band.name}) the wavelength is "
+            f"{physics.wavelength_mm(frequency_mhz):.1f} mm. The feed points are {distance_mm:.1f} mm apart, "
+            f"{zone}, and the antennas are {polarization}."
+        )
+        outside = [antenna.name for antenna in (first, second) if outside_enclosure_mm(context, antenna) > 0]
+        if outside:
+            geometry += (f" {' and '.join(outside)}'s feed point lies outside the enclosure (see ENC-002), so the "
+                         "distance itself is in doubt.")
+        evidence = {
+            "frequency_mhz": frequency_mhz,
+            "distance_mm": distance_mm,
+            "quarter_wave_mm": quarter_wave_mm,
+            "near_field_mm": near_field_mm,
+            "polarization_angle_deg": angle_deg,
+            "polarization_known": known,
+            "distance_wavelengths": distance_mm / physics.wavelength_mm(frequency_mhz),
+        }
+        verdict = _measured_verdict(context, first.name, second.name)
+        if verdict.cleared:
+            yield Flag(
+                severity="note",
+                title=(f"{first.name} and {second.name} are {distance_mm:.0f} mm apart at {frequency_mhz:g} MHz; "
+                       "measured decorrelated"),
+                explanation=(
+                    f"{geometry} On geometry alone the spacing rule makes this a {severity}. {verdict.text} The "
+                    "measurement outranks the spacing rule: measured in this product beats the geometry's "
+                    "prediction."
+                ),
+                action=("Keep the measured layout: a change of antenna, position or enclosure needs a new "
+                        "measurement."),
+                subjects=(first.name, second.name),
+                evidence={**evidence, "design_severity": severity, **verdict.evidence},
+                references=(WHEELER, "common practice (quarter-wave minimum spacing)", *verdict.references),
+                basis="measured",
+            )
+            continue
         yield Flag(
             severity=severity,
             title=f"{first.name} and {second.name} are {distance_mm:.0f} mm apart at {frequency_mhz:g} MHz",
-            explanation=(
-                f"At {frequency_mhz:g} MHz (lowest edge of {context.lowest_band.name}) the wavelength is "
-                f"{physics.wavelength_mm(frequency_mhz):.1f} mm. The feed points are {distance_mm:.1f} mm apart, "
-                f"{zone}, and the antennas are {polarization}."
-            ),
-            action=(
-                f"Move the antennas at least {quarter_wave_mm:.0f} mm apart (a quarter wave at "
-                f"{frequency_mhz:g} MHz), or turn one so their polarization axes are 90 degrees apart, and "
-                "confirm isolation and envelope correlation by measurement."
-            ),
+            explanation=geometry + (f" {verdict.text}" if verdict.text else ""),
+            action=_spacing_action(quarter_wave_mm, frequency_mhz, angle_deg, known),
             subjects=(first.name, second.name),
-            evidence={
-                "frequency_mhz": frequency_mhz,
-                "distance_mm": distance_mm,
-                "quarter_wave_mm": quarter_wave_mm,
-                "near_field_mm": near_field_mm,
-                "polarization_angle_deg": angle_deg,
-                "polarization_known": known,
-                "distance_wavelengths": distance_mm / physics.wavelength_mm(frequency_mhz),
-            },
+            evidence=evidence,
         )
 
 
+def _spacing_action(quarter_wave_mm: float, frequency_mhz: float, angle_deg: float, known: bool) -> str:
+    move = f"Move the antennas at least {quarter_wave_mm:.0f} mm apart (a quarter wave at {frequency_mhz:g} MHz)"
+    prove = ("show by measurement that the pair is decorrelated (isolation of at least 10 dB and ECC of at most "
+             "0.5 from S-parameters with both antennas at least 50 % efficient, or from far-field patterns)")
+    if not known:
+        return (f"{move}, or enter both antennas' polarization axes (an unknown pair is judged as co-polarized); "
+                f"or {prove}.")
+    if round(angle_deg) >= 90:
+        return f"{move}: their polarization axes are already 90 degrees apart, so turning them gains nothing; or {prove}."
+    return f"{move}, or turn one so their polarization axes are 90 degrees apart (now {angle_deg:.0f}); or {prove}."
+
+
+def _placed_pairs(context: CheckContext) -> Iterator[tuple[Antenna, Antenna, float, float, bool]]:
+    """Every pair of placed cellular antennas with its distance, polarization angle and whether both axes are known."""
+    placed = [antenna for antenna in context.cellular_antennas if antenna.position_mm is not None]
+    for first, second in combinations(placed, 2):
+        distance_mm = physics.distance_mm(first.position_mm, second.position_mm)  # type: ignore[arg-type]
+        known = first.polarization is not None and second.polarization is not None
+        angle_deg = (physics.polarization_angle_deg(first.polarization, second.polarization)  # type: ignore[arg-type]
+                     if known else 0.0)
+        yield first, second, distance_mm, angle_deg, known
+
+
+@dataclass(frozen=True)
+class _Verdict:
+    cleared: bool
+    text: str
+    evidence: dict[str, Any]
+    references: tuple[str, ...] = ()
+
+
+def _measured_verdict(context: CheckContext, first: str, second: str) -> _Verdict:
+    """Whether measurements of the pair in the band that sets the judging frequency clear the spacing rule
+    (design.md, rule set 2), with the words that say why or why not."""
+    band = context.lowest_band
+    correlations = [result for result in pair_correlations(context, first, second, band) if result.usable]
+    isolations = list(pair_isolations(context, first, second, band))
+    if not correlations and not isolations:
+        return _Verdict(False, "", {})
+    trusted = [result for result in correlations if result.can_clear]
+    downlink = f"the downlink of {band.name} ({band.dl_mhz[0]:g}–{band.dl_mhz[1]:g} MHz)"
+    reasons = []
+    if not trusted:
+        untrusted = [result for result in correlations if not result.can_clear]
+        if untrusted:
+            reasons.append(f"{untrusted[0].reason[0].upper()}{untrusted[0].reason[1:]}")
+        else:
+            reasons.append(f"No measurement of the pair gives its envelope correlation over {downlink}")
+    worst = max(trusted, key=lambda result: result.ecc or 0.0) if trusted else None
+    if worst is not None and (worst.ecc or 0.0) > ECC_LIMIT:
+        reasons.append(f"{' and '.join(worst.files)} ({worst.method}) show ECC {worst.ecc:.2f} over {downlink}, "
+                       f"above {ECC_LIMIT:g}")
+    weakest = min(isolations, key=lambda item: item.isolation_db if item.isolation_db is not None else -1.0,
+                  default=None)
+    for item in isolations:
+        if not item.covered or item.isolation_db is None:
+            reasons.append(f"{item.file} does not cover all of {band.name}, so the pair's isolation there is unknown")
+        elif not item.passive:
+            reasons.append(f"{item.file} is not passive in {band.name}")
+        elif item.isolation_db < ISOLATION_LIMIT_DB:
+            reasons.append(f"{item.file} shows {item.isolation_db:.1f} dB isolation in {band.name}, below "
+                           f"{ISOLATION_LIMIT_DB:g} dB")
+    if reasons:
+        return _Verdict(False, "The measurements do not clear it: " + "; ".join(reasons) + ".", {})
+    assert worst is not None and worst.ecc is not None
+    isolation_text = ""
+    if weakest is not None and weakest.isolation_db is not None:
+        isolation_text = f", and {weakest.file} shows at least {weakest.isolation_db:.1f} dB isolation in {band.name}"
+    files = sorted({file for result in trusted for file in result.files}
+                   | {item.file for item in isolations})
+    text = (f"Measured in this product, {' and '.join(worst.files)} ({worst.method}: {worst.reason}) show an envelope "
+            f"correlation of at most {worst.ecc:.2f} over {downlink}{isolation_text}.")
+    references = (VAUGHAN_ANDERSEN,) if worst.method == "far-field" else (BLANCH,)
+    return _Verdict(True, text, {
+        "outranked_by": files, "measured_band": band.name, "measured_ecc": worst.ecc,
+        "measured_method": worst.method,
+        "measured_isolation_db": None if weakest is None else weakest.isolation_db,
+    }, references)
+
+
 @rule(
-    id="SEP-002", topic="separation", severities=("note",),
+    id="SEP-002", changed_in="2.0.0", topic="separation", severities=("note",),
     title="Spacing can't be judged: feed position not given",
     rationale="Spacing rules need every receive antenna's feed point.",
     sources=("common practice",),
 )
 def position_unknown(context: CheckContext) -> Iterator[Flag]:
-    if context.rx_usable < 2 or len(context.design.antennas) < 2:
+    if context.rx_usable < 2 or len(context.cellular_antennas) < 2:
         return
-    for antenna in context.design.antennas:
+    for antenna in context.cellular_antennas:
         if antenna.position_mm is None:
             frequency_mhz = context.lowest_mhz
             yield Flag(
@@ -103,20 +221,64 @@ def position_unknown(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="GND-001", topic="ground-plane", severities=("blocker", "warning"),
+    id="SEP-003", added_in="2.0.0", topic="separation", severities=("note",),
+    title="Spacing passes only on a feed position outside the enclosure",
+    rationale=(
+        "An internal antenna whose feed point lies outside the enclosure box was probably entered from the wrong "
+        "origin, so a spacing that passes on it proves nothing. The pair is listed instead of passing silently."
+    ),
+    sources=("common practice",),
+)
+def spacing_rests_on_outside_position(context: CheckContext) -> Iterator[Flag]:
+    if context.rx_usable < 2:
+        return
+    frequency_mhz = context.lowest_mhz
+    quarter_wave_mm = physics.quarter_wave_mm(frequency_mhz)
+    for first, second, distance_mm, angle_deg, known in _placed_pairs(context):
+        outside = [antenna.name for antenna in (first, second) if outside_enclosure_mm(context, antenna) > 0]
+        if distance_mm < quarter_wave_mm or not outside:
+            continue
+        yield Flag(
+            severity="note",
+            title=f"Spacing of {first.name} and {second.name} not confirmed: a feed point lies outside the enclosure",
+            explanation=(
+                f"{first.name} and {second.name} are {distance_mm:.1f} mm apart, more than a quarter wave "
+                f"({quarter_wave_mm:.1f} mm) at {frequency_mhz:g} MHz, but {' and '.join(outside)} is internal and its "
+                "feed point lies outside the enclosure box (see ENC-002). Until the position is corrected the spacing "
+                "is not taken as passing."
+            ),
+            action="Correct the feed position from the mechanical drawing (measured from the enclosure's corner).",
+            subjects=(first.name, second.name),
+            evidence={"frequency_mhz": frequency_mhz, "distance_mm": distance_mm, "quarter_wave_mm": quarter_wave_mm,
+                      "near_field_mm": physics.near_field_radius_mm(frequency_mhz),
+                      "polarization_angle_deg": angle_deg, "polarization_known": known,
+                      "outside_enclosure": outside},
+        )
+
+
+def _internal_cellular(context: CheckContext) -> list[Antenna]:
+    return [antenna for antenna in context.cellular_antennas if antenna.mounting == "internal"]
+
+
+@rule(
+    id="GND-001", changed_in="2.0.0", topic="ground-plane", severities=("blocker", "warning", "note"),
     title="Ground plane short for the lowest frequency",
     rationale=(
         "An embedded antenna uses the board's ground as its counterpoise; the board then radiates too. "
         "Shorter than a quarter wave at the lowest frequency, efficiency and bandwidth fall quickly; "
-        "shorter than an eighth wave, the low bands rarely work at all."
+        "shorter than an eighth wave, the low bands rarely work at all. That is a prediction from geometry: when "
+        "every internal cellular antenna's efficiency in the band that sets the judging frequency is measured in "
+        "this product (efficiency_source: measured) at 25 % or more, the measurement decides and the finding is a "
+        "note."
     ),
-    sources=("common practice (quarter-wave ground length)",),
+    sources=("common practice (quarter-wave ground length)", "design.md rule set 2 (measurement outranks geometry)"),
 )
 def ground_plane_short(context: CheckContext) -> Iterator[Flag]:
     design = context.design
-    internal = [antenna.name for antenna in design.antennas if antenna.mounting == "internal"]
+    internal = _internal_cellular(context)
     if design.ground_plane_mm is None or not internal:
         return
+    names = [antenna.name for antenna in internal]
     frequency_mhz = context.lowest_mhz
     length_mm = max(design.ground_plane_mm)
     quarter_wave_mm = physics.quarter_wave_mm(frequency_mhz)
@@ -124,39 +286,70 @@ def ground_plane_short(context: CheckContext) -> Iterator[Flag]:
     if length_mm >= quarter_wave_mm:
         return
     severity = "blocker" if length_mm < eighth_wave_mm else "warning"
+    geometry = (
+        f"The longest ground dimension is {length_mm:.1f} mm, "
+        + (f"below an eighth wave ({eighth_wave_mm:.1f} mm)" if severity == "blocker"
+           else f"between an eighth ({eighth_wave_mm:.1f} mm) and a quarter wave ({quarter_wave_mm:.1f} mm)")
+        + f" at {frequency_mhz:g} MHz. Internal antennas ({', '.join(names)}) rely on it as counterpoise."
+    )
+    evidence = {
+        "frequency_mhz": frequency_mhz,
+        "length_mm": length_mm,
+        "quarter_wave_mm": quarter_wave_mm,
+        "eighth_wave_mm": eighth_wave_mm,
+    }
+    band = context.lowest_band
+    measured = [(antenna.name, antenna.efficiency_pct.get(band.name)) for antenna in internal
+                if antenna.efficiency_source == "measured"]
+    if len(measured) == len(internal) and all(value is not None and value >= MIN_EFFICIENCY_PCT
+                                               for _, value in measured):
+        shown = ", ".join(f"{name} {value:g} %" for name, value in measured)
+        lowest = min(value for _, value in measured if value is not None)
+        yield Flag(
+            severity="note",
+            title=(f"Ground plane {length_mm:.0f} mm long, short for {frequency_mhz:g} MHz; measured efficiency "
+                   f"{lowest:g} % or more in {band.name}"),
+            explanation=(
+                f"{geometry} On geometry alone the ground-length rule makes this a {severity}. Efficiency measured "
+                f"in this product in {band.name}, the band that sets the judging frequency, is {shown}: at least "
+                f"{MIN_EFFICIENCY_PCT:g} %. The measurement outranks the ground-length rule."
+            ),
+            action="Keep the measured board and antenna: a change to either needs a new efficiency measurement.",
+            subjects=tuple(names),
+            evidence={**evidence, "design_severity": severity, "measured_band": band.name,
+                      "measured_efficiency_pct": lowest,
+                      "outranked_by": [f"{name}.efficiency_pct (measured)" for name, _ in measured]},
+            basis="measured",
+        )
+        return
+    explanation = geometry
+    if measured or any(antenna.efficiency_pct.get(band.name) is not None for antenna in internal):
+        explanation += (f" Only efficiency measured in this product (efficiency_source: measured) of at least "
+                        f"{MIN_EFFICIENCY_PCT:g} % in {band.name} for every internal antenna outranks this rule; the "
+                        "entered figures do not meet that.")
     yield Flag(
         severity=severity,
         title=f"Ground plane {length_mm:.0f} mm long; a quarter wave at {frequency_mhz:g} MHz is {quarter_wave_mm:.0f} mm",
-        explanation=(
-            f"The longest ground dimension is {length_mm:.1f} mm, "
-            + (f"below an eighth wave ({eighth_wave_mm:.1f} mm)" if severity == "blocker"
-               else f"between an eighth ({eighth_wave_mm:.1f} mm) and a quarter wave ({quarter_wave_mm:.1f} mm)")
-            + f" at {frequency_mhz:g} MHz. Internal antennas ({', '.join(internal)}) rely on it as counterpoise."
-        ),
+        explanation=explanation,
         action=(
             "Lengthen the ground (board, a ground extension or a metal part bonded to it), drop the lowest "
             "bands, or use an external antenna that does not need the board; ask the antenna maker for "
-            "their minimum ground length."
+            "their minimum ground length, or measure the efficiency in the product."
         ),
-        subjects=tuple(internal),
-        evidence={
-            "frequency_mhz": frequency_mhz,
-            "length_mm": length_mm,
-            "quarter_wave_mm": quarter_wave_mm,
-            "eighth_wave_mm": eighth_wave_mm,
-        },
+        subjects=tuple(names),
+        evidence=evidence,
     )
 
 
 @rule(
-    id="GND-002", topic="ground-plane", severities=("note",),
+    id="GND-002", changed_in="2.0.0", topic="ground-plane", severities=("note",),
     title="Ground plane size not given",
     rationale="The ground length decides how well an embedded antenna works at low frequencies.",
     sources=("common practice",),
 )
 def ground_plane_unknown(context: CheckContext) -> Iterator[Flag]:
     design = context.design
-    internal = [antenna.name for antenna in design.antennas if antenna.mounting == "internal"]
+    internal = [antenna.name for antenna in _internal_cellular(context)]
     if design.ground_plane_mm is None and internal:
         frequency_mhz = context.lowest_mhz
         yield Flag(
@@ -178,7 +371,7 @@ PRACTICAL_SHARE_OF_BOUND = 0.5
 
 
 @rule(
-    id="SIZ-001", topic="device-size", severities=("warning",),
+    id="SIZ-001", changed_in="2.0.0", topic="device-size", severities=("warning",),
     title="Device too small, electrically, for the low-band bandwidth",
     rationale=(
         "A device radiates from its antenna and ground together, so the board's size bounds its radiation "
@@ -219,7 +412,7 @@ def device_too_small_for_bandwidth(context: CheckContext) -> Iterator[Flag]:
     needed = physics.fractional_bandwidth(low_mhz, high_mhz)
 
     names = {band.name for band in in_scope}
-    entered = [(antenna.efficiency_pct[name], antenna.name, name) for antenna in design.antennas
+    entered = [(antenna.efficiency_pct[name], antenna.name, name) for antenna in context.cellular_antennas
                if antenna.mounting == "internal" for name in names if name in antenna.efficiency_pct]
     if entered:
         efficiency_pct, antenna_name, band_name = min(entered)
@@ -303,3 +496,39 @@ def internal_antenna_in_metal(context: CheckContext) -> Iterator[Flag]:
         subjects=internal,
         evidence={"material": design.enclosure_material},
     )
+
+
+@rule(
+    id="ENC-002", added_in="2.0.0", topic="enclosure", severities=("warning",),
+    title="An internal antenna's feed lies outside the enclosure",
+    rationale=(
+        "Feed points are given in the enclosure's frame, from one corner along its edges. An internal antenna "
+        "whose feed lies more than 1 mm outside that box was most likely entered from another origin (the board's, "
+        "say); every spacing judged from it is then wrong too, so it is flagged rather than accepted."
+    ),
+    sources=("common practice",),
+)
+def feed_outside_enclosure(context: CheckContext) -> Iterator[Flag]:
+    size = context.design.enclosure_size_mm
+    if size is None:
+        return
+    for antenna in context.design.antennas:
+        outside_mm = outside_enclosure_mm(context, antenna)
+        if outside_mm <= 0 or antenna.position_mm is None:
+            continue
+        x, y, z = antenna.position_mm
+        yield Flag(
+            severity="warning",
+            title=f"{antenna.name}'s feed lies {outside_mm:.0f} mm outside the enclosure",
+            explanation=(
+                f"{antenna.name} is mounted internal, but its feed point ({x:g}, {y:g}, {z:g}) mm lies {outside_mm:.1f} "
+                f"mm outside the {size[0]:g} x {size[1]:g} x {size[2]:g} mm enclosure box (x 0–{size[0]:g}, "
+                f"y 0–{size[1]:g}, z 0–{size[2]:g}). The position was probably measured from another origin; its "
+                "spacing to the other antennas is not taken as passing until it is corrected (SEP-003)."
+            ),
+            action=("Measure the feed point from the enclosure's corner on the mechanical drawing, or set the "
+                    "mounting to external if the antenna sits outside."),
+            subjects=(antenna.name,),
+            evidence={"position_mm": list(antenna.position_mm), "enclosure_size_mm": list(size),
+                      "outside_by_mm": outside_mm, "tolerance_mm": ENCLOSURE_TOLERANCE_MM},
+        )

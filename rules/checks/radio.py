@@ -1,41 +1,58 @@
 """What the antennas and the category promise on paper: gain against the module's approval, entered
 efficiency, and the throughput the product needs against the category's peak."""
 
+import math
 from collections.abc import Iterator
 from dataclasses import dataclass
 
+from rules.checks.measured import DIVERSITY_OUTAGE, MRC_MODEL
 from rules.context import CheckContext
+from rules.correlation import pair_correlations
+from rules.coverage import coverage_data, second_antenna_gain
+from rules.design import Antenna
 from rules.findings import Flag
 from rules.registry import rule
 
 MIN_EFFICIENCY_PCT = 25.0  # design.md severity policy: a warning below a quarter of the power radiated
+IMBALANCE_LIMIT_DB = 3.0  # common practice: diversity branches within 3 dB of each other
+
+
+def efficiency_basis(antennas: list[Antenna]) -> str:
+    """`measured` when every efficiency a finding rests on was measured in this product, else `datasheet`."""
+    return "measured" if all(antenna.efficiency_source == "measured" for antenna in antennas) else "datasheet"
 
 
 @rule(
-    id="GAI-001", topic="gain-limit", severities=("blocker",),
+    id="GAI-001", changed_in="2.0.0", topic="gain-limit", severities=("blocker",),
     title="Antenna gain above the module approval's limit",
     rationale=(
         "A module's radio approval is granted with a maximum antenna gain per band (it bounds the radiated "
-        "power). A transmitting antenna whose peak gain, less its cable loss, exceeds that limit is outside "
-        "the approval and needs a new one. Receive-only antennas do not transmit and are not limited."
+        "power). A transmitting antenna whose peak gain in a band, less its cable loss, exceeds that band's "
+        "limit is outside the approval and needs a new one; only the bands over are flagged. A gain given band by "
+        "band is judged band by band, and a band missing from it is not judged. Receive-only antennas do not "
+        "transmit and are not limited."
     ),
     sources=("the module's regulatory approval (grant or declaration of conformity)",),
 )
 def gain_above_approval(context: CheckContext) -> Iterator[Flag]:
     modem = context.design.modem
     for antenna in context.design.antennas:
-        if not antenna.transmits or antenna.peak_gain_dbi is None:
+        if not antenna.transmits:
             continue
-        net_gain_dbi = antenna.peak_gain_dbi - antenna.cable_loss_db
         for band in modem.bands:
+            peak_dbi = antenna.peak_gain_in(band.name)
             limit_dbi = modem.gain_limits_dbi.get(band.name)
-            if limit_dbi is None or net_gain_dbi <= limit_dbi:
+            if peak_dbi is None or limit_dbi is None:
                 continue
+            net_gain_dbi = peak_dbi - antenna.cable_loss_db
+            if net_gain_dbi <= limit_dbi:
+                continue
+            where = "" if antenna.peak_gain_dbi is not None else f" in {band.name}"
             yield Flag(
                 severity="blocker",
                 title=f"{antenna.name} in {band.name}: {net_gain_dbi:.1f} dBi against a {limit_dbi:.1f} dBi limit",
                 explanation=(
-                    f"{antenna.name} has {antenna.peak_gain_dbi:.1f} dBi peak gain and {antenna.cable_loss_db:.1f} dB "
+                    f"{antenna.name} has {peak_dbi:.1f} dBi peak gain{where} and {antenna.cable_loss_db:.1f} dB "
                     f"cable loss, {net_gain_dbi:.1f} dBi at the module. The module's approval allows "
                     f"{limit_dbi:.1f} dBi in {band.name}, so the product would radiate more than was approved."
                 ),
@@ -45,14 +62,16 @@ def gain_above_approval(context: CheckContext) -> Iterator[Flag]:
                 ),
                 subjects=(antenna.name, band.name),
                 evidence={"band": band.name, "gain_dbi": net_gain_dbi, "limit_dbi": limit_dbi,
-                          "peak_gain_dbi": antenna.peak_gain_dbi, "cable_loss_db": antenna.cable_loss_db},
+                          "peak_gain_dbi": peak_dbi, "cable_loss_db": antenna.cable_loss_db},
+                basis="datasheet",
             )
 
 
 @rule(
-    id="GAI-002", topic="gain-limit", severities=("note",),
+    id="GAI-002", changed_in="2.0.0", topic="gain-limit", severities=("note",),
     title="Gain limits given but an antenna's gain is not",
-    rationale="Without the transmitting antenna's peak gain the approval limit can't be checked.",
+    rationale=("Without the transmitting antenna's peak gain in a band the approval limit there can't be checked; "
+               "a per-band gain that leaves out a limited band leaves that band unjudged."),
     sources=("common practice",),
 )
 def gain_unknown(context: CheckContext) -> Iterator[Flag]:
@@ -61,15 +80,27 @@ def gain_unknown(context: CheckContext) -> Iterator[Flag]:
     if not limited:
         return
     for antenna in context.design.antennas:
-        if antenna.transmits and antenna.peak_gain_dbi is None:
-            yield Flag(
-                severity="note",
-                title=f"Peak gain of {antenna.name} not given: approval limits not checked",
-                explanation=f"The module's approval limits gain in {', '.join(limited)}; {antenna.name} has no peak gain.",
-                action="Enter the peak gain from the antenna's datasheet (the highest over the bands used).",
-                subjects=(antenna.name,),
-                evidence={"band": limited[0], "gain_dbi": None, "limit_dbi": modem.gain_limits_dbi[limited[0]]},
-            )
+        if not antenna.transmits:
+            continue
+        unknown = [name for name in limited if antenna.peak_gain_in(name) is None]
+        if not unknown:
+            continue
+        if antenna.gain_given:
+            title = f"Peak gain of {antenna.name} not given for {', '.join(unknown)}: approval limit not checked there"
+            explanation = (f"The module's approval limits gain in {', '.join(limited)}; {antenna.name}'s per-band "
+                           f"peak gain leaves out {', '.join(unknown)}, so those bands are not judged.")
+        else:
+            title = f"Peak gain of {antenna.name} not given: approval limits not checked"
+            explanation = f"The module's approval limits gain in {', '.join(limited)}; {antenna.name} has no peak gain."
+        yield Flag(
+            severity="note",
+            title=title,
+            explanation=explanation,
+            action="Enter the peak gain from the antenna's datasheet, for every band or band by band.",
+            subjects=(antenna.name,),
+            evidence={"band": unknown[0], "gain_dbi": None, "limit_dbi": modem.gain_limits_dbi[unknown[0]],
+                      "bands": unknown},
+        )
 
 
 @dataclass(frozen=True)
@@ -111,7 +142,7 @@ def design_peak(context: CheckContext, direction: str) -> Peak:
 
 
 @rule(
-    id="THR-001", topic="throughput", severities=("blocker",),
+    id="THR-001", changed_in="2.0.0", topic="throughput", severities=("blocker",),
     title="Required throughput above the category's peak",
     rationale=(
         "A category's peak rate is the most its transport blocks can carry under ideal radio conditions; "
@@ -153,27 +184,103 @@ def throughput_above_peak(context: CheckContext) -> Iterator[Flag]:
 
 
 @rule(
-    id="EFF-001", topic="efficiency", severities=("warning",),
+    id="EFF-001", changed_in="2.0.0", topic="efficiency", severities=("warning",),
     title="Entered antenna efficiency below 25 % in a band",
     rationale=(
-        "Below 25 % total efficiency (-6 dB) an antenna gives away a quarter of the link budget in both "
-        "directions; carriers' radiated tests (TRP/TIS) usually fail before that."
+        "Below 25 % total efficiency an antenna loses more than 6 dB: three quarters of the power. A main "
+        "antenna pays it twice, in radiated power on the uplink and in sensitivity on the downlink; a "
+        "receive-only antenna pays it on the downlink only. Carriers' radiated tests (TRP/TIS) are often failed "
+        "near there."
     ),
-    sources=("common practice",),
+    sources=("common practice", "loss = -10 log10(efficiency)"),
 )
 def low_entered_efficiency(context: CheckContext) -> Iterator[Flag]:
     selected = {band.name for band in context.design.modem.bands}
-    for antenna in context.design.antennas:
+    for antenna in context.cellular_antennas:
         for band_name, efficiency_pct in antenna.efficiency_pct.items():
             if band_name in selected and efficiency_pct < MIN_EFFICIENCY_PCT:
+                loss_db = -10.0 * math.log10(efficiency_pct / 100.0) if efficiency_pct > 0 else math.inf
+                loss = f"{loss_db:.1f} dB" if math.isfinite(loss_db) else "everything"
+                duty = ("on both the uplink (radiated power) and the downlink (sensitivity)" if antenna.transmits
+                        else "on the downlink (it only receives)")
+                source = ("measured in this product" if antenna.efficiency_source == "measured"
+                          else "from the datasheet")
                 yield Flag(
                     severity="warning",
                     title=f"{antenna.name} is {efficiency_pct:g} % efficient in {band_name}",
                     explanation=(
-                        f"{antenna.name}'s total efficiency in {band_name} is {efficiency_pct:g} %, below "
-                        f"{MIN_EFFICIENCY_PCT:g} %: most of the power is lost as heat or mismatch."
+                        f"{antenna.name}'s total efficiency in {band_name} is {efficiency_pct:g} % ({source}), below "
+                        f"{MIN_EFFICIENCY_PCT:g} %: it loses {loss} {duty}, as heat or mismatch."
                     ),
                     action="Improve the antenna's placement, ground or matching, or choose a more efficient antenna.",
                     subjects=(antenna.name, band_name),
-                    evidence={"band": band_name, "efficiency_pct": efficiency_pct, "basis": "entered"},
+                    evidence={"band": band_name, "efficiency_pct": efficiency_pct,
+                              "source": antenna.efficiency_source,
+                              "loss_db": loss_db if math.isfinite(loss_db) else None},
+                    basis=efficiency_basis([antenna]),
                 )
+
+
+@rule(
+    id="EFF-003", added_in="2.0.0", topic="efficiency", severities=("warning",),
+    title="Main and receive antenna efficiencies more than 3 dB apart in a band",
+    rationale=(
+        "Diversity gain is largest when both branches bring the same signal power. With maximal-ratio combining "
+        "the weaker branch adds less array gain (10 log10(1 + eta2/eta1)) and less protection against fading, so "
+        "branches more than 3 dB apart (common practice) give away part of what the second antenna is for. The "
+        f"finding says how much, by the engine's diversity model ({MRC_MODEL}), at the pair's measured envelope "
+        "correlation where a trustworthy measurement gives one, else the coverage analysis's assumed value."
+    ),
+    sources=("common practice (diversity branches within 3 dB)", MRC_MODEL),
+)
+def efficiency_imbalance(context: CheckContext) -> Iterator[Flag]:
+    if context.rx_connected < 2:
+        return
+    main = next((antenna for antenna in context.cellular_antennas if antenna.transmits), None)
+    if main is None:
+        return
+    receivers = [antenna for antenna in context.cellular_antennas if not antenna.transmits][: context.rx_connected - 1]
+    assumed = coverage_data().assumptions
+    for receiver in receivers:
+        for band in context.design.modem.bands:
+            main_pct, receive_pct = main.efficiency_pct.get(band.name), receiver.efficiency_pct.get(band.name)
+            if not main_pct or not receive_pct:
+                continue
+            imbalance_db = 10.0 * math.log10(main_pct / receive_pct)
+            if abs(imbalance_db) <= IMBALANCE_LIMIT_DB:
+                continue
+            trusted = [result for result in pair_correlations(context, main.name, receiver.name, band)
+                       if result.can_clear and result.ecc is not None]
+            if trusted:
+                worst = max(trusted, key=lambda result: result.ecc or 0.0)
+                ecc, ecc_source = worst.ecc or 0.0, f"measured ({worst.method}, {' and '.join(worst.files)})"
+            else:
+                ecc, ecc_source = assumed.assumed_ecc, f"assumed ({assumed.sources['assumed_ecc']})"
+            ratio = min(main_pct, receive_pct) / max(main_pct, receive_pct)
+            actual = second_antenna_gain(DIVERSITY_OUTAGE, ecc, ratio)
+            balanced = second_antenna_gain(DIVERSITY_OUTAGE, ecc, 1.0)
+            cost_db = balanced.total_db - actual.total_db
+            weaker, stronger = (receiver, main) if imbalance_db > 0 else (main, receiver)
+            yield Flag(
+                severity="warning",
+                title=(f"{weaker.name} is {abs(imbalance_db):.1f} dB less efficient than {stronger.name} in "
+                       f"{band.name}: {cost_db:.1f} dB less gain from combining"),
+                explanation=(
+                    f"In {band.name} {main.name} is {main_pct:g} % and {receiver.name} {receive_pct:g} % efficient, "
+                    f"{abs(imbalance_db):.1f} dB apart (more than {IMBALANCE_LIMIT_DB:g} dB). By {MRC_MODEL}, with "
+                    f"envelope correlation {ecc:.2f} ({ecc_source}), the pair gains {actual.total_db:.1f} dB over "
+                    f"{stronger.name} alone ({actual.array_gain_db:.1f} dB array gain, {actual.diversity_gain_db:.1f} "
+                    f"dB diversity gain), where two antennas as efficient as {stronger.name} would gain "
+                    f"{balanced.total_db:.1f} dB: the imbalance costs {cost_db:.1f} dB."
+                ),
+                action=(f"Improve {weaker.name}'s placement, ground clearance or matching in {band.name}, or choose "
+                        "a more efficient antenna for that branch."),
+                subjects=(main.name, receiver.name, band.name),
+                evidence={"band": band.name, "efficiency_pct": min(main_pct, receive_pct),
+                          "efficiencies_pct": [main_pct, receive_pct], "imbalance_db": imbalance_db,
+                          "ecc": ecc, "ecc_source": ecc_source, "outage_pct": 100 * DIVERSITY_OUTAGE,
+                          "second_antenna_gain_db": actual.total_db, "balanced_gain_db": balanced.total_db,
+                          "diversity_gain_db": actual.diversity_gain_db,
+                          "balanced_diversity_gain_db": balanced.diversity_gain_db, "cost_db": cost_db},
+                basis=efficiency_basis([main, receiver]),
+            )

@@ -109,7 +109,7 @@ def test_it_names_the_accepted_categories_for_an_unknown_one():
     (lambda d: d.update(ground_plane_mm=[100]), "ground_plane_mm: expected 2 numbers, got 1"),
     (lambda d: d.update(antennas=None), "antennas: expected a list of antennas (it may be empty), got nothing"),
     (lambda d: d["antennas"].append(antenna("A")), "antennas[1].name: expected a unique name; 'A' is also antennas[0]"),
-    (lambda d: d["antennas"][0].update(role="tx"), 'antennas[0].role: expected one of main, receive; got "tx"'),
+    (lambda d: d["antennas"][0].update(role="tx"), 'antennas[0].role: expected one of main, receive, gnss, wlan; got "tx"'),
     (lambda d: d["antennas"][0].pop("role"), "antennas[0].role: required: expected one of main, receive"),
     (lambda d: d["antennas"][0].update(mounting="glued"), "antennas[0].mounting: expected one of internal, external"),
     (lambda d: d["antennas"][0].update(polarization=[0, 0, 0]), "antennas[0].polarization: expected a direction"),
@@ -244,6 +244,76 @@ def test_positions_may_be_negative_but_must_be_finite():
     assert parse_design(document).antennas[0].position_mm == (-5, 0, 2)
     document["antennas"][0]["position_mm"] = [math.inf, 0, 0]
     assert problems(document) == ["antennas[0].position_mm: expected 3 numbers in mm; item 0 is Infinity"]
+
+
+# -- additions for rule set 2 (design-file.md) ---------------------------------------------------------------
+
+def test_it_reads_the_rule_set_2_fields():
+    document = design("cat-1", antennas=[
+        antenna("A", peak_gain_dbi={"B3": 3.5, "b8": 1.0}, efficiency_pct={"B3": 40}, efficiency_source="measured"),
+        antenna("G", "gnss", ranges_mhz=[[1559, 1610]]), antenna("W", "wlan")],
+        measurements=[{"kind": "far-field", "file": "a.csv", "antenna": "A", "absolute": True,
+                       "environment": {"model": "taga", "mean_elevation_deg": 20, "spread_deg": 15, "xpr_db": 6}},
+                      {"file": "pair.s2p", "ports": ["A", "G"], "kind": "s-parameters"}])
+    parsed = parse_design(document)
+    main, gnss, wlan = parsed.antennas
+    assert main.peak_gain_dbi is None and dict(main.peak_gain_dbi_per_band) == {"B3": 3.5, "B8": 1.0}
+    assert main.peak_gain_in("B3") == 3.5 and main.peak_gain_in("B20") is None
+    assert main.efficiency_source == "measured" and gnss.efficiency_source == "datasheet"
+    assert (main.is_cellular, gnss.is_cellular, wlan.is_cellular) == (True, False, False)
+    pattern, touchstone = parsed.measurements
+    assert (pattern.kind, pattern.antenna, pattern.absolute) == ("far-field", "A", True)
+    assert (pattern.environment.model, pattern.environment.mean_elevation_deg, pattern.environment.spread_deg,
+            pattern.environment.xpr_db) == ("taga", 20.0, 15.0, 6.0)
+    assert touchstone.kind == "s-parameters" and touchstone.ports == ("A", "G")
+    assert parsed.ignored_paths == ()
+
+
+def test_a_far_field_entry_defaults_to_the_isotropic_environment():
+    parsed = parse_design(design(measurements=[{"kind": "far-field", "file": "a.csv", "antenna": "A"}]))
+    assert parsed.measurements[0].environment.model == "isotropic" and parsed.measurements[0].absolute is False
+
+
+@pytest.mark.parametrize(("entry", "expected"), [
+    ({"kind": "far-field", "file": "a.csv"}, "measurements[0].antenna: expected the name of the antenna"),
+    ({"kind": "far-field", "file": "a.csv", "antenna": "Z"}, "measurements[0].antenna: expected the name"),
+    ({"kind": "far-field", "file": "a.csv", "antenna": "A", "ports": ["A"]}, "measurements[0].ports: a far-field"),
+    ({"kind": "near-field", "file": "a.csv", "ports": ["A"]},
+     "measurements[0].kind: expected one of s-parameters, far-field"),
+    ({"kind": "far-field", "file": "a.csv", "antenna": "A", "environment": {"model": "urban"}},
+     "measurements[0].environment.model: expected one of isotropic, taga"),
+    ({"kind": "far-field", "file": "a.csv", "antenna": "A", "environment": {"model": "taga", "spread_deg": 10,
+                                                                           "xpr_db": 6}},
+     "measurements[0].environment.mean_elevation_deg: required for the taga model"),
+    ({"kind": "far-field", "file": "a.csv", "antenna": "A",
+      "environment": {"model": "taga", "mean_elevation_deg": 100, "spread_deg": 10, "xpr_db": 6}},
+     "measurements[0].environment.mean_elevation_deg: expected a number at least -90 and at most 90"),
+    ({"kind": "far-field", "file": "a.csv", "antenna": "A", "absolute": "yes"},
+     "measurements[0].absolute: expected true or false"),
+])
+def test_it_explains_each_bad_far_field_entry(entry, expected):
+    found = problems(design(measurements=[entry]))
+    assert any(problem.startswith(expected) for problem in found), found
+
+
+def test_it_refuses_two_patterns_for_one_antenna():
+    entries = [{"kind": "far-field", "file": f"{name}.csv", "antenna": "A"} for name in ("a", "b")]
+    assert problems(design(measurements=entries)) == [
+        "measurements[1].antenna: antenna A already has a far-field pattern (measurements[0]); give one file per "
+        "antenna"]
+
+
+@pytest.mark.parametrize(("field", "value", "expected"), [
+    ("peak_gain_dbi", {"B3": "high"}, "antennas[0].peak_gain_dbi.B3: expected a number in dBi"),
+    ("peak_gain_dbi", {"B99x": 2}, "antennas[0].peak_gain_dbi.B99x: unknown band"),
+    ("peak_gain_dbi", [2, 3], "antennas[0].peak_gain_dbi: expected a number in dBi"),
+    ("efficiency_source", "guessed", "antennas[0].efficiency_source: expected one of datasheet, measured"),
+])
+def test_it_explains_bad_rule_set_2_antenna_fields(field, value, expected):
+    document = design()
+    document["antennas"][0][field] = value
+    found = problems(document)
+    assert any(problem.startswith(expected) for problem in found), found
 
 
 # -- rule set 2: modem fields (design-file.md, "Additions for rule set 2") --------------------------------

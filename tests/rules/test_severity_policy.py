@@ -343,16 +343,22 @@ def test_it_says_when_a_measurement_does_not_cover_a_band():
 def test_it_warns_on_entered_efficiency_below_25_percent():
     evaluation = run(design("cat-m1", antennas=[antenna("A", efficiency_pct={"B20": 22, "B8": 30})]))
     [finding] = findings_of(evaluation, "efficiency")
-    assert finding.severity == "warning" and finding.evidence == {"band": "B20", "efficiency_pct": 22.0,
-                                                                  "basis": "entered"}
+    assert finding.severity == "warning"
+    assert (finding.evidence["band"], finding.evidence["efficiency_pct"]) == ("B20", 22.0)
+    assert finding.basis == "datasheet" and finding.evidence["source"] == "datasheet"
+    # -10 log10(0.22) = 6.6 dB, paid on uplink and downlink by a main antenna
+    assert finding.evidence["loss_db"] == pytest.approx(6.58, abs=0.01)
+    assert "uplink" in finding.explanation and "downlink" in finding.explanation
 
 
 def test_it_warns_when_the_measured_efficiency_bound_is_below_25_percent():
-    # |S11|^2 + |S21|^2 = 0.8^2 + 0.45^2 = 0.8425: at most 15.75 % can be radiated
-    document, measurements = measured({"low": (0.8, 0.45), "high": (0.1, 0.05)})
+    # |S11|^2 + |S21|^2 = 0.9^2 + 0.05^2 = 0.8125: at most 18.75 % can be radiated. The network is passive:
+    # for S11 = S22 = a, S21 = S12 = b the singular values are |a + b| = 0.95 and |a - b| (linear algebra).
+    document, measurements = measured({"low": (0.9, 0.05), "high": (0.1, 0.05)})
     findings = findings_of(run(document, measurements), "efficiency")
     assert {f.evidence["band"] for f in findings} == {"B8", "B20"}
-    assert findings[0].evidence["efficiency_pct"] == pytest.approx(15.75, abs=0.06)  # shown to 0.1 %
+    assert findings[0].evidence["efficiency_pct"] == pytest.approx(18.75, abs=0.06)  # shown to 0.1 %
+    assert {f.basis for f in findings} == {"measured"}
 
 
 # -- people and paperwork ------------------------------------------------------------------------------
@@ -380,3 +386,243 @@ def test_a_clean_design_raises_only_notes():
     evaluation = run(design("cat-m1", antennas=[antenna("A", efficiency_pct={"B3": 50, "B8": 40, "B20": 35})]))
     assert evaluation.summary["blocker"] == 0 and evaluation.summary["warning"] == 0
     assert np.all([f.severity == "note" for f in evaluation.findings])
+
+
+# -- rule set 2 (design.md, "Rule set 2: what changes") ------------------------------------------------------
+# B20 (TS 36.101 Table 5.5-1: UL 832-862, DL 791-821) has the lowest edge of B3+B8+B20, so it is the band that
+# sets the judging frequency. Far-field patterns come from short dipoles (benchmarks/far_field_data.py).
+
+from benchmarks.far_field_data import dipole_field, grid, pattern_text  # noqa: E402
+from rules.coverage import second_antenna_gain  # noqa: E402
+from rules.findings import BASES  # noqa: E402
+from rules.measurements import attach_measurements  # noqa: E402
+
+PATTERN_FREQUENCIES_MHZ = [800.0, 940.0, 1840.0]  # inside the downlinks of B20, B8 and B3 (TS 36.101)
+
+
+def two_port(blocks: list[tuple[float, float, float, float]], step_mhz: int = 5) -> str:
+    """Touchstone text of S11 = S22 = a, S21 = S12 = b (real), `blocks` of (from_mhz, to_mhz, a, b); outside
+    every block a = 0.1, b = 0.05 (well matched, isolated)."""
+    lines = ["# MHz S RI R 50"]
+    for frequency in range(700, 2201, step_mhz):
+        a, b = next(((a, b) for low, high, a, b in blocks if low <= frequency <= high), (0.1, 0.05))
+        lines.append(f"{frequency} {a} 0 {b} 0 {b} 0 {a} 0")
+    return "\n".join(lines) + "\n"
+
+
+def dipole_file(axis, position_mm) -> str:
+    theta, phi = grid(10.0)
+    fields = dipole_field(PATTERN_FREQUENCIES_MHZ, theta, phi, axis, position_mm)
+    return pattern_text(PATTERN_FREQUENCIES_MHZ, theta, phi, *fields)
+
+
+def evaluate_with(document: dict, files: dict[str, str]):
+    from rules.design import parse_design
+    from rules.evaluate import evaluate
+
+    parsed = parse_design(document)
+    return evaluate(parsed, attach_measurements(parsed, files.__getitem__))
+
+
+def close_pair(second_polarization=(0, 1, 0), efficiency=None, **extra) -> dict:
+    """A and B 55 mm apart, inside the 60.3 mm near field at 791 MHz."""
+    more = {"efficiency_pct": efficiency} if efficiency is not None else {}
+    return design("cat-1", antennas=[antenna("A", "main", (20, 20, 10), (1, 0, 0), **more),
+                                     antenna("B", "receive", (75, 20, 10), second_polarization, **more)], **extra)
+
+
+FAR_FIELDS = [{"kind": "far-field", "file": "a.csv", "antenna": "A"},
+              {"kind": "far-field", "file": "b.csv", "antenna": "B"}]
+
+
+def test_every_finding_names_a_basis():
+    evaluation = run(design("cat-1", antennas=[antenna("A", efficiency_pct={"B8": 20})]))
+    assert {finding.basis for finding in evaluation.findings} <= set(BASES)
+    assert all("basis" in finding.as_dict() for finding in evaluation.findings)
+
+
+def test_a_close_pair_is_a_measured_note_when_far_field_patterns_show_ecc_at_most_0_5():
+    # Crossed dipoles (x and y axes) displaced along x: uncorrelated by symmetry (Vaughan & Andersen 1987).
+    files = {"a.csv": dipole_file((1, 0, 0), (20, 20, 10)), "b.csv": dipole_file((0, 1, 0), (75, 20, 10))}
+    evaluation = evaluate_with(close_pair(measurements=FAR_FIELDS), files)
+    [finding] = findings_of(evaluation, "separation")
+    assert (finding.severity, finding.basis) == ("note", "measured")
+    assert finding.evidence["design_severity"] == "warning"
+    assert finding.evidence["outranked_by"] == ["a.csv", "b.csv"]
+    assert finding.evidence["measured_method"] == "far-field" and finding.evidence["measured_band"] == "B20"
+    assert finding.evidence["measured_ecc"] == pytest.approx(0.0, abs=1e-3)
+    assert "outranks the spacing rule" in finding.explanation
+
+
+def test_a_close_copolarized_pair_stays_a_blocker_when_its_patterns_are_correlated():
+    # Parallel z dipoles 55 mm apart at 800 MHz: kd = 0.922, Jakes 1974 gives rho = 0.855, ECC 0.73.
+    files = {"a.csv": dipole_file((0, 0, 1), (20, 20, 10)), "b.csv": dipole_file((0, 0, 1), (75, 20, 10))}
+    evaluation = evaluate_with(close_pair((1, 0, 0), measurements=FAR_FIELDS), files)
+    [finding] = findings_of(evaluation, "separation")
+    assert (finding.severity, finding.basis) == ("blocker", "design")
+    assert "do not clear it" in finding.explanation
+    blocker = next(f for f in findings_of(evaluation, "correlation") if f.evidence["band"] == "B20")
+    assert blocker.id == "ECC-003" and blocker.severity == "blocker" and blocker.evidence["method"] == "far-field"
+    x = 2 * math.pi * 55 / (C_M_PER_S / 800e6 * 1000)
+    rho = 1.5 * (math.sin(x) / x + math.cos(x) / x**2 - math.sin(x) / x**3)
+    assert blocker.evidence["ecc"] == pytest.approx(rho**2, abs=1e-3)
+
+
+def test_a_close_pair_is_a_measured_note_when_sparameters_of_efficient_antennas_show_low_ecc_and_isolation():
+    # a = 0.1, b = 0.05: isolation 26.0 dB, ECC 4 a^2 b^2 / (1 - a^2 - b^2)^2 = 1.0e-4 (Blanch 2003)
+    document = close_pair((1, 0, 0), efficiency={"B3": 60, "B8": 55, "B20": 50},
+                          measurements=[{"file": "pair.s2p", "ports": ["A", "B"]}])
+    evaluation = evaluate_with(document, {"pair.s2p": two_port([])})
+    [finding] = findings_of(evaluation, "separation")
+    assert (finding.severity, finding.basis) == ("note", "measured")
+    assert finding.evidence["design_severity"] == "blocker"
+    assert finding.evidence["measured_isolation_db"] == pytest.approx(-20 * math.log10(0.05), abs=0.01)
+    assert finding.evidence["outranked_by"] == ["pair.s2p"]
+
+
+def test_sparameter_ecc_of_lossy_antennas_clears_nothing_and_says_a_far_field_measurement_decides():
+    document = close_pair((1, 0, 0), efficiency={"B3": 60, "B8": 45, "B20": 40},
+                          measurements=[{"file": "pair.s2p", "ports": ["A", "B"]}])
+    evaluation = evaluate_with(document, {"pair.s2p": two_port([])})
+    [finding] = findings_of(evaluation, "separation")
+    assert (finding.severity, finding.basis) == ("blocker", "design")
+    assert "far-field" in finding.explanation
+    [optimistic] = findings_of(evaluation, "correlation")
+    assert (optimistic.id, optimistic.severity) == ("ECC-002", "note")
+    assert optimistic.evidence["method"] == "s-parameters" and optimistic.evidence["trustworthy"] is False
+    assert optimistic.evidence["bands"] == ["B8", "B20"]  # B3: both at 60 %, trusted
+    assert "far-field" in optimistic.explanation
+
+
+def test_sparameter_ecc_without_entered_efficiency_clears_nothing():
+    document = close_pair((1, 0, 0), measurements=[{"file": "pair.s2p", "ports": ["A", "B"]}])
+    evaluation = evaluate_with(document, {"pair.s2p": two_port([])})
+    assert severities_of(evaluation, "separation") == ["blocker"]
+
+
+def test_low_far_field_ecc_does_not_clear_a_pair_whose_measured_isolation_is_below_10_db():
+    # b = 0.4 across B20: isolation 7.96 dB
+    files = {"a.csv": dipole_file((1, 0, 0), (20, 20, 10)), "b.csv": dipole_file((0, 1, 0), (75, 20, 10)),
+             "pair.s2p": two_port([(780, 870, 0.2, 0.4)])}
+    document = close_pair(measurements=[*FAR_FIELDS, {"file": "pair.s2p", "ports": ["A", "B"]}])
+    [finding] = findings_of(evaluate_with(document, files), "separation")
+    assert (finding.severity, finding.basis) == ("warning", "design")
+    assert "7.96 dB isolation" in finding.explanation or "8.0 dB isolation" in finding.explanation
+
+
+def test_correlation_is_judged_over_the_downlink_not_the_uplink():
+    # B13 (TS 36.101): UL 777-787, DL 746-756. a = b = 0.46 gives ECC 0.54 (Blanch 2003) at 770-795 MHz only.
+    pair_design = design("cat-1", bands=["B13"], antennas=[
+        antenna("A", "main", (0, 0, 0), efficiency_pct={"B13": 60}),
+        antenna("B", "receive", (150, 0, 0), (0, 1, 0), efficiency_pct={"B13": 60})],
+        measurements=[{"file": "pair.s2p", "ports": ["A", "B"]}])
+    uplink_only = evaluate_with(pair_design, {"pair.s2p": two_port([(770, 795, 0.46, 0.46)])})
+    assert [f.severity for f in findings_of(uplink_only, "correlation") if f.id == "ECC-001"] == []
+    downlink = evaluate_with(pair_design, {"pair.s2p": two_port([(745, 760, 0.46, 0.46)])})
+    [finding] = [f for f in findings_of(downlink, "correlation") if f.id == "ECC-001"]
+    assert finding.severity == "warning" and finding.evidence["method"] == "s-parameters"
+    assert 746 <= finding.evidence["frequency_mhz"] <= 756
+
+
+def test_a_measurement_that_is_not_passive_is_a_measurement_warning_and_feeds_no_correlation_or_efficiency():
+    # S11 = S22 = 0.6, S21 = S12 = 0.5 passes the column test (0.36 + 0.25 = 0.61 <= 1) but S has the singular
+    # value 0.6 + 0.5 = 1.1 > 1 (symmetric 2x2: singular values |a + b|, |a - b|).
+    document = close_pair((1, 0, 0), efficiency={"B3": 60, "B8": 60, "B20": 60},
+                          measurements=[{"file": "pair.s2p", "ports": ["A", "B"]}])
+    evaluation = evaluate_with(document, {"pair.s2p": two_port([(780, 870, 0.6, 0.5)])})
+    [warning] = findings_of(evaluation, "measurement")
+    assert (warning.id, warning.severity, warning.basis) == ("MEA-001", "warning", "measured")
+    assert warning.evidence["file"] == "pair.s2p" and warning.evidence["problem"] == "not-passive"
+    assert warning.evidence["largest_singular_value"] == pytest.approx(1.1, abs=1e-9)
+    assert 780 <= warning.evidence["frequency_mhz"] <= 870
+    assert warning.evidence["bands"] == ["B20"]  # B8 (880-960) lies outside the bad block
+    assert [f for f in findings_of(evaluation, "correlation") if f.evidence["band"] == "B20"] == []
+    assert [f for f in findings_of(evaluation, "efficiency") if f.evidence["band"] == "B20"] == []
+    assert severities_of(evaluation, "separation") == ["blocker"]  # not passive in B20: can't clear
+
+
+def test_a_short_ground_plane_is_a_measured_note_when_measured_efficiency_is_at_least_25_percent():
+    # 45 mm: below an eighth wave at 791 MHz (47.4 mm), a blocker on geometry
+    document = design(ground_plane_mm=[45, 30], antennas=[
+        antenna("A", efficiency_pct={"B20": 30, "B8": 35}, efficiency_source="measured")])
+    [finding] = findings_of(run(document), "ground-plane")
+    assert (finding.severity, finding.basis) == ("note", "measured")
+    assert finding.evidence["design_severity"] == "blocker" and finding.evidence["measured_efficiency_pct"] == 30
+    assert finding.evidence["measured_band"] == "B20"
+
+
+def test_a_short_ground_plane_stays_a_blocker_for_datasheet_efficiency_or_a_low_measured_one():
+    datasheet = design(ground_plane_mm=[45, 30], antennas=[antenna("A", efficiency_pct={"B20": 30})])
+    assert severities_of(run(datasheet), "ground-plane") == ["blocker"]
+    low = design(ground_plane_mm=[45, 30], antennas=[
+        antenna("A", efficiency_pct={"B20": 20, "B8": 40}, efficiency_source="measured")])
+    assert severities_of(run(low), "ground-plane") == ["blocker"]
+    # measured in another band than the one that sets the judging frequency (B20): not enough
+    other_band = design(ground_plane_mm=[45, 30], antennas=[
+        antenna("A", efficiency_pct={"B8": 40}, efficiency_source="measured")])
+    assert severities_of(run(other_band), "ground-plane") == ["blocker"]
+
+
+def test_an_internal_feed_outside_the_enclosure_is_a_warning_and_does_not_pass_the_spacing_rule():
+    # x = 250 mm in a 150 mm long box: 100 mm outside
+    document = design("cat-1", antennas=[antenna("A", "main", (20, 20, 10)),
+                                         antenna("B", "receive", (250, 20, 10), (0, 1, 0))])
+    evaluation = run(document)
+    [warning] = findings_of(evaluation, "enclosure")
+    assert (warning.id, warning.severity, warning.subjects) == ("ENC-002", "warning", ("B",))
+    assert warning.evidence["outside_by_mm"] == 100.0
+    [spacing] = findings_of(evaluation, "separation")
+    assert spacing.id == "SEP-003" and spacing.evidence["outside_enclosure"] == ["B"]
+
+
+def test_a_feed_within_1_mm_of_the_enclosure_wall_is_accepted():
+    document = design("cat-m1", antennas=[antenna("A", "main", (150.9, -0.5, 30.5))])
+    assert findings_of(run(document), "enclosure") == []
+
+
+def test_peak_gain_per_band_blocks_only_the_bands_over_their_limit():
+    document = design("cat-m1", modem={"gain_limits_dbi": {"B3": 2.0, "B8": 2.0, "B20": 2.0}},
+                      antennas=[antenna("A", peak_gain_dbi={"B3": 3.5, "B8": 1.0})])
+    evaluation = run(document)
+    blockers = [f for f in findings_of(evaluation, "gain-limit") if f.severity == "blocker"]
+    assert [(f.evidence["band"], f.evidence["gain_dbi"]) for f in blockers] == [("B3", 3.5)]
+    assert blockers[0].basis == "datasheet"
+    [unjudged] = [f for f in findings_of(evaluation, "gain-limit") if f.severity == "note"]
+    assert unjudged.evidence["bands"] == ["B20"]
+
+
+def test_gnss_and_wlan_antennas_are_not_cellular_receive_branches():
+    gnss = antenna("G", "gnss", (30, 20, 10), ranges_mhz=[[1559, 1610]])
+    wlan = antenna("W", "wlan", (40, 20, 10), ranges_mhz=[[2400, 2484]])
+    cat1 = run(design("cat-1", antennas=[antenna("A"), gnss, wlan]))
+    [count] = findings_of(cat1, "antenna-count")
+    assert (count.severity, count.evidence["required"], count.evidence["fitted"]) == ("blocker", 2, 1)
+    assert findings_of(cat1, "separation") == [] and findings_of(cat1, "band-coverage") == []
+    single = run(design("cat-m1", antennas=[antenna("A"), gnss]))
+    assert findings_of(single, "antenna-count") == []
+
+
+def test_main_and_receive_efficiency_more_than_3_db_apart_costs_combining_gain():
+    # 60 % against 20 %: 4.77 dB apart. The cost follows the engine's MRC model in rules/coverage.py at the
+    # assumed ECC of 0.5 (coverage.toml) and 1 % outage.
+    document = design("cat-1", antennas=[antenna("A", efficiency_pct={"B20": 60, "B8": 60}),
+                                         antenna("B", "receive", (140, 20, 10), (0, 1, 0),
+                                                 efficiency_pct={"B20": 20, "B8": 31})])
+    [finding] = [f for f in findings_of(run(document), "efficiency") if f.id == "EFF-003"]
+    assert finding.severity == "warning" and finding.evidence["band"] == "B20"  # B8: 2.87 dB apart
+    assert finding.evidence["imbalance_db"] == pytest.approx(10 * math.log10(3), abs=0.01)
+    expected = second_antenna_gain(0.01, 0.5, 1.0).total_db - second_antenna_gain(0.01, 0.5, 1 / 3).total_db
+    assert finding.evidence["cost_db"] == pytest.approx(expected, abs=0.01)
+    assert f"{expected:.1f} dB" in finding.explanation
+
+
+def test_redcap_names_the_modules_declared_branches_and_a_one_branch_configuration():
+    evaluation = run(design("nr-redcap", bands=["n3", "n8", "n20"], modem={"rx_ports": 2}))
+    [finding] = findings_of(evaluation, "antenna-count")
+    assert "module declares 2 receive branch" in finding.explanation
+    assert "one receive branch" in finding.action and "Cat 1bis" not in finding.action
+
+
+def test_a_pair_already_crossed_is_not_told_to_turn():
+    [finding] = findings_of(run(pair(55, (0, 1, 0))), "separation")
+    assert "already 90 degrees apart" in finding.action and "turn one" not in finding.action

@@ -19,6 +19,7 @@ from rules.sparams import (
     efficiency_upper_bound,
     envelope_correlation,
     isolation_db,
+    largest_singular_value,
     return_loss_db,
     vswr,
     worst_maximum,
@@ -381,3 +382,43 @@ def test_passive_networks_give_bounded_figures(network, data):
     clear = (q_ii > 1e-6) & (q_jj > 1e-6)
     expected = np.minimum(_ecc_from_dissipation_matrix(network.s, i, j)[clear], 1.0)
     np.testing.assert_allclose(ecc[clear], expected, rtol=1e-6, atol=1e-9)
+
+
+# -- passivity: the largest singular value of S -------------------------------------------------------------
+
+def test_a_network_that_passes_the_column_test_can_still_be_active():
+    # S11 = S22 = 0.6, S21 = S12 = 0.5: each column has |S11|^2 + |S21|^2 = 0.61 <= 1, but the symmetric
+    # matrix has the eigenvector (1, 1) with eigenvalue 0.6 + 0.5 = 1.1: fed equally at both ports it returns
+    # 1.21 times the power (linear algebra of a symmetric 2x2 matrix).
+    network = network_of([[0.6, 0.5], [0.5, 0.6]])
+    assert (np.abs(network.s[0]) ** 2).sum(axis=0).max() <= 1.0
+    assert largest_singular_value(network)[0] == pytest.approx(1.1, abs=1e-12)
+
+
+def test_a_resistive_three_port_divider_is_passive():
+    # Equal-split resistive divider: S_ii = 0, S_ij = 1/2 (Pozar, Microwave Engineering, §7.2, from memory).
+    # Its eigenvalues are 1 and -1/2 (twice): passive, with no power gain for any excitation.
+    divider = network_of(0.5 * (np.ones((3, 3)) - np.eye(3)))
+    assert largest_singular_value(divider)[0] == pytest.approx(1.0, abs=1e-12)
+
+
+def test_a_lossless_network_has_every_singular_value_1():
+    # A unitary S (scipy.stats.unitary_group) is lossless: all singular values are exactly 1.
+    s = unitary_group.rvs(4, random_state=3)
+    assert largest_singular_value(network_of(s))[0] == pytest.approx(1.0, abs=1e-12)
+
+
+@pytest.mark.parametrize("path", sorted(SKRF_DATA.glob("*.s?p")), ids=lambda path: path.name)
+def test_scikit_rf_shipped_files_are_passive_within_tolerance(path):
+    # Every file scikit-rf ships is passive within the 1 % the engine allows (its largest singular value,
+    # computed by numpy from scikit-rf's own S array, is at most 1.0 + rounding: 1.0000 for the calibration
+    # standards and lines, 0.9995 for "ring slot.s2p", 0.92 for "ring slot measured.s1p").
+    theirs = np.linalg.svd(skrf.Network(str(path)).s, compute_uv=False)[:, 0]
+    ours = largest_singular_value(read_touchstone(path))
+    assert ours == pytest.approx(theirs, abs=1e-9)
+    assert ours.max() <= 1.01
+
+
+def test_data_too_large_to_be_measured_is_not_passive():
+    network = network_of([[[1e300, 0], [0, 0.1]], [[np.inf, 0], [0, 0.1]]])
+    assert np.isinf(largest_singular_value(network)).all()

@@ -107,6 +107,34 @@ def test_rules_lists_every_rule_with_rationale_and_sources():
     assert "SEP-001" in text and "sources:" in text
 
 
+def test_the_far_field_example_is_cleared_by_its_patterns(tmp_path):
+    # rules/examples/trail-tracker.json: a crossed pair 50 mm apart (inside lambda/2pi = 60.3 mm at 791 MHz,
+    # Wheeler 1959) whose far-field patterns show ECC 0; a short ground plane with measured efficiency.
+    result = subprocess.run([sys.executable, "manage.py", "evaluate", "rules/examples/trail-tracker.json",
+                             "--format", "json"], cwd=ROOT, capture_output=True, text=True, timeout=120)
+    assert result.returncode == 0, result.stderr
+    output = json.loads(result.stdout)
+    assert output["ruleset"] == "2.0.0"
+    by_id = {finding["id"]: finding for finding in output["findings"]}
+    assert (by_id["SEP-001"]["severity"], by_id["SEP-001"]["basis"]) == ("note", "measured")
+    assert by_id["SEP-001"]["evidence"]["measured_method"] == "far-field"
+    assert (by_id["GND-001"]["severity"], by_id["GND-001"]["basis"]) == ("note", "measured")
+    assert by_id["ECC-004"]["evidence"]["environment"] == "taga"
+
+
+def test_a_broken_far_field_file_exits_2_naming_the_file_and_line(tmp_path):
+    text = "# chamber export\nfrequency_mhz,theta_deg,phi_deg,e_theta_re,e_theta_im,e_phi_re,e_phi_im\n800,0,0,1,0\n"
+    document = design(measurements=[{"kind": "far-field", "file": "a.csv", "antenna": "A"}])
+    result = evaluate(tmp_path, document, "--format", "json", files={"a.csv": text})
+    assert result.returncode == 2 and result.stdout == ""
+    assert "measurements[0].file: a.csv:3: expected 7 comma-separated numbers" in result.stderr
+
+
+def test_the_text_report_says_what_each_finding_rests_on(tmp_path):
+    result = evaluate(tmp_path, design(antennas=[antenna("A", efficiency_pct={"B8": 20})]))
+    assert "[from datasheets]" in result.stdout and "[from the design]" in result.stdout
+
+
 # -- whatever comes, a message and exit 2, never a traceback ---------------------------------------------------
 def _assert_refused(result, *expected: str) -> None:
     assert result.returncode == 2, (result.returncode, result.stderr[-1500:])

@@ -148,7 +148,8 @@ def test_pair_severities_keep_the_worst_separation_finding_per_pair_from_finding
     parsed = parse_design(design("cat-1", antennas=[
         antenna("MAIN", position=(20, 20, 10)),
         antenna("DIV", "receive", position=(75, 20, 10)),  # 55 mm, co-polarized: blocker
-        antenna("AUX", "receive", position=(20, 100, 10), polarization=(0, 1, 0)),  # 80 mm from MAIN, cross: note
+        # 75.7 mm from MAIN, cross: note; 99.2 mm from DIV, beyond lambda/4; on the enclosure's wall (y = 95)
+        antenna("AUX", "receive", position=(10, 95, 10), polarization=(0, 1, 0)),
         unplaced("SPARE"),  # SEP-002 names it alone: no pair
     ]))
     findings = evaluate(parsed).findings
