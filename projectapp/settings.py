@@ -71,6 +71,7 @@ INSTALLED_APPS = [
     "django_htmx",
     "axes",
     "projectapp.teams",
+    "projectapp.audit",
     "projectapp.library",
     "projectapp.designs",
     "projectapp.reviews",

@@ -9,14 +9,14 @@ from django.core.files.base import ContentFile
 from django.db import transaction
 from django.utils import timezone
 
+from projectapp.audit.models import AuditEvent
+from projectapp.audit.services import audit_record
 from projectapp.designs import library_use, questionnaire
 from projectapp.designs.checklists import measurement_reader
 from projectapp.designs.document_changes import Changes, document_changes
 from projectapp.designs.models import MeasurementFile, Product, Revision
 from projectapp.library.models import Entry
 from projectapp.library.parts import ANTENNA, MODULE
-from projectapp.reviews.audit import audit_record
-from projectapp.reviews.models import AuditEvent
 from projectapp.reviews.services import review_items_create
 from projectapp.teams.access import has_role, require_role
 from projectapp.teams.models import Role, Team

@@ -17,11 +17,12 @@ from django.db import transaction
 from django.db.models import F
 from django.utils import timezone
 
+from projectapp.audit.models import AuditEvent
+from projectapp.audit.services import audit_record
 from projectapp.designs.models import Revision
 from projectapp.reviews.models import (
     NEEDS_JUSTIFICATION,
     SEVERITY_RANK,
-    AuditEvent,
     Comment,
     Disposition,
     ReviewItem,
@@ -73,8 +74,8 @@ def _require_reviewer(user, item: ReviewItem) -> None:
 
 def _audit(*, item: ReviewItem | None, revision: Revision, user, action: str, summary: str,
            changes: dict[str, Any] | None = None) -> AuditEvent:
-    return AuditEvent.objects.create(product=revision.product, revision=revision, item=item, actor=user,
-                                     action=action, summary=summary[:300], changes=changes or {})
+    return audit_record(product=revision.product, revision=revision, item=item, actor=user, action=action,
+                        summary=summary, changes=changes)
 
 
 def _key(finding: dict[str, Any]) -> tuple[str, str]:

@@ -12,6 +12,7 @@ from django.shortcuts import get_object_or_404, redirect, render
 from django.utils.http import url_has_allowed_host_and_scheme
 from django.views.decorators.http import require_GET, require_POST
 
+from projectapp.audit.models import AuditEvent
 from projectapp.designs.access import get_product_for_user, get_revision_for_user, products_for
 from projectapp.reviews import services
 from projectapp.reviews.comparison import compare_revisions
@@ -23,7 +24,7 @@ from projectapp.reviews.forms import (
     DashboardFilterForm,
     DecisionForm,
 )
-from projectapp.reviews.models import AuditEvent, Disposition, ReviewItem
+from projectapp.reviews.models import Disposition, ReviewItem
 from projectapp.reviews.provenance import decision_lines
 from projectapp.teams.access import teams_of
 from rules.findings import SEVERITIES, TOPICS

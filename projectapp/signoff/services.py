@@ -18,8 +18,10 @@ from django.core.exceptions import PermissionDenied
 from django.core.files.base import ContentFile
 from django.db import transaction
 
+from projectapp.audit.models import AuditEvent
+from projectapp.audit.services import audit_record
 from projectapp.designs.models import Product, Revision
-from projectapp.reviews.models import AuditEvent, Disposition, ReviewItem
+from projectapp.reviews.models import Disposition, ReviewItem
 from projectapp.reviews.services import approver_ids
 from projectapp.signoff.models import MEANINGS, Signature, SignedRecord, Supersession
 from projectapp.teams.access import has_role
@@ -174,10 +176,9 @@ def _revision_sign_checked(*, revision: Revision, user, role: str) -> Signature:
     signature = Signature.objects.create(
         revision=revision, role=role, signer=user, signer_name=user.get_full_name() or user.get_username(),
         meaning=MEANINGS[Role(role)])
-    AuditEvent.objects.create(product=revision.product, revision=revision, actor=user,
-                              action=AuditEvent.Action.SIGNED,
-                              summary=f"Signed revision {revision.number} as {role} ({signature.meaning.split(':')[0]})",
-                              changes={"signature": [None, role]})
+    audit_record(product=revision.product, revision=revision, actor=user, action=AuditEvent.Action.SIGNED,
+                 summary=f"Signed revision {revision.number} as {role} ({signature.meaning.split(':')[0]})",
+                 changes={"signature": [None, role]})
     if not [r for r in team.signoff_roles if r not in (*state.signed_roles, role)]:
         record_archive(revision=revision, user=user)
     else:
@@ -216,10 +217,9 @@ def record_archive(*, revision: Revision, user) -> SignedRecord:
                .exclude(pk=record.pk).exclude(supersession__isnull=False))
     for older in earlier:
         Supersession.objects.create(older=older, newer=record)
-    AuditEvent.objects.create(product=revision.product, revision=revision, actor=user,
-                              action=AuditEvent.Action.ARCHIVED,
-                              summary=f"Archived the signed record of revision {revision.number} "
-                                      f"(SHA-256 {sha256[:16]}…)", changes={"sha256": [None, sha256]})
+    audit_record(product=revision.product, revision=revision, actor=user, action=AuditEvent.Action.ARCHIVED,
+                 summary=f"Archived the signed record of revision {revision.number} (SHA-256 {sha256[:16]}…)",
+                 changes={"sha256": [None, sha256]})
     return record
 
 

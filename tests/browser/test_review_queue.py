@@ -5,8 +5,9 @@ import pytest
 from django.urls import reverse
 from playwright.sync_api import expect
 
+from projectapp.audit.models import AuditEvent
 from projectapp.designs import services as design_services
-from projectapp.reviews.models import AuditEvent, ReviewItem
+from projectapp.reviews.models import ReviewItem
 from projectapp.reviews.services import review_item_assign
 from tests.browser.test_questionnaire_flow import log_in
 from tests.web.conftest import EXAMPLES

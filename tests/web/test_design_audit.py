@@ -5,8 +5,8 @@ writes nothing (the page cache relies on an unchanged state)."""
 from django.core.files.uploadedfile import SimpleUploadedFile
 from django.urls import reverse
 
+from projectapp.audit.models import AuditEvent
 from projectapp.designs import checklists, services
-from projectapp.reviews.models import AuditEvent
 from tests.web.conftest import EXAMPLES
 from tests.web.test_draft_versions import draft_of, page_form, save, signed_in
 

@@ -14,11 +14,11 @@ import pytest
 import skrf
 from django.urls import reverse
 
+from projectapp.audit.models import AuditEvent
 from projectapp.designs import questionnaire, services
 from projectapp.designs.models import Revision
 from projectapp.library import services as library
 from projectapp.library.parts import ANTENNA, MODULE
-from projectapp.reviews.models import AuditEvent
 from rules.design import parse_design
 from rules.touchstone import parse_touchstone
 from tests.web.test_draft_versions import HTMX, draft_of, page_form, save, signed_in

@@ -6,8 +6,9 @@ import json
 import pytest
 from django.urls import reverse
 
+from projectapp.audit.models import AppendOnlyError, AuditEvent
 from projectapp.designs import services as design_services
-from projectapp.reviews.models import AppendOnlyError, AuditEvent, Comment, Disposition, ReviewItem
+from projectapp.reviews.models import Comment, Disposition, ReviewItem
 from projectapp.reviews.services import review_item_decide
 from tests.web.conftest import EXAMPLES
 
