@@ -168,7 +168,7 @@ def signed_record(team, password: str):
         return record, ""
     from projectapp.designs.models import Revision
 
-    for revision in Revision.objects.filter(product__team=team).exclude(status=Revision.Status.DRAFT):
+    for revision in Revision.objects.filter(product__team=team).exclude(state=Revision.State.DRAFT):
         if not services.readiness(revision).ready:
             continue
         for role in team.signoff_roles:

@@ -23,6 +23,12 @@ def choice_field(choices: list[str] | tuple[str, ...]) -> forms.ChoiceField:
                              error_messages={"invalid_choice": f"expected one of {', '.join(choices)}"})
 
 
+def text_field(max_length: int = 200) -> forms.CharField:
+    return forms.CharField(required=False, max_length=max_length, error_messages={
+        "max_length": "expected at most %(limit_value)d characters",
+        "null_characters_not_allowed": "control character U+0000 not allowed"})
+
+
 def date_field() -> forms.DateField:
     return forms.DateField(required=False, error_messages={"invalid": "expected a date as YYYY-MM-DD"})
 

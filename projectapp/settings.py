@@ -76,6 +76,7 @@ INSTALLED_APPS = [
     "projectapp.designs",
     "projectapp.reviews",
     "projectapp.signoff",
+    "projectapp.demo",
 ]
 
 MIDDLEWARE = [

@@ -17,8 +17,11 @@ class AppendOnlyError(RuntimeError):
 class AuditEvent(models.Model):
     class Action(models.TextChoices):
         SUBMITTED = "submitted", "Submitted a revision"
+        REVIEW_OPENED = "review-opened", "Opened the review"
+        WITHDRAWN = "withdrawn", "Withdrew a revision"
         SIGNED = "signed", "Signed"
         ARCHIVED = "archived", "Archived the signed record"
+        SUPERSEDED = "superseded", "Superseded a signed revision"
         DISPOSITION = "disposition", "Recorded a disposition"
         WAIVER = "waiver", "Granted a waiver"
         CONFIRMED = "confirmed", "Confirmed a carried disposition"

@@ -1,11 +1,12 @@
-"""Review of a submitted revision: one item per finding, its disposition, comments, and the audit trail.
+"""Review of a submitted revision: one item per finding, its disposition, and comments.
 
 An item carries its finding as submitted (the frozen checklist entry) and what the team decided about
 it. Items are matched across revisions by rule id and subjects, so a decision carries forward to the
 next revision until someone confirms it, unless the finding's severity rose: a decision taken on a
 warning never becomes a decision on a blocker. Each item keeps its decision's provenance: who decided,
 when, in which revision and on which severity; what the previous revision had decided (carried or
-not); who confirmed a carried decision here. The audit trail is append-only: the model refuses changes.
+not); who confirmed a carried decision here. Items and comments change only while the revision is in
+review (designs.lifecycle: the state, read from the revision's row).
 """
 
 import hashlib
@@ -14,6 +15,7 @@ from django.conf import settings
 from django.db import models
 from django.urls import reverse
 
+from projectapp.designs import lifecycle
 from projectapp.designs.models import Revision
 
 
@@ -32,13 +34,8 @@ SEVERITY_RANK = {"note": 0, "warning": 1, "blocker": 2}  # higher is graver
 
 
 class SignedRevisionError(RuntimeError):
-    """A review item (or comment) of a revision that is being or has been signed can't change."""
-
-
-def is_signing_started(revision_id: int) -> bool:
-    from projectapp.signoff.models import Signature
-
-    return Signature.objects.filter(revision_id=revision_id).exists()
+    """A review item (or comment) of a revision whose review is closed (signing started, signed, superseded or
+    withdrawn: designs.lifecycle) can't change."""
 
 
 def subjects_digest(subjects_key: str) -> str:
@@ -65,10 +62,8 @@ class ReviewItemQuerySet(models.QuerySet):
             *(f"{name}__{field}" for name in PROVENANCE_REVISIONS for field in ("document", "evaluation")))
 
     def update(self, **kwargs):
-        from projectapp.signoff.models import Signature
-
-        if Signature.objects.filter(revision__in=self.values("revision")).exists():
-            raise SignedRevisionError("review items of a signed revision are frozen")
+        if not lifecycle.review_open_in_database(self.values("revision")):
+            raise SignedRevisionError("review items of a revision whose review is closed are frozen")
         return super().update(**kwargs)
 
 
@@ -123,8 +118,8 @@ class ReviewItem(models.Model):
         return f"{self.rule_id} {self.subjects_key or '—'} (revision {self.revision.number})"
 
     def save(self, *args, **kwargs):
-        if self.revision_id and is_signing_started(self.revision_id):
-            raise SignedRevisionError("review items of a signed revision are frozen")
+        if self.revision_id and not lifecycle.review_open_in_database(self.revision_id):
+            raise SignedRevisionError("review items of a revision whose review is closed are frozen")
         self.subjects_digest = subjects_digest(self.subjects_key)
         super().save(*args, **kwargs)
 
@@ -178,6 +173,6 @@ class Comment(models.Model):
         return f"comment by {self.author} on {self.item}"
 
     def save(self, *args, **kwargs):
-        if is_signing_started(self.item.revision_id):
-            raise SignedRevisionError("the discussion of a signed revision is closed")
+        if not lifecycle.review_open_in_database(self.item.revision_id):
+            raise SignedRevisionError("the discussion of a revision whose review is closed is closed too")
         super().save(*args, **kwargs)

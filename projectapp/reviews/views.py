@@ -1,4 +1,5 @@
-"""Review views: the dashboard and queues, a revision's items, one item, the audit trail, comparison.
+"""Review views: submitting a draft for review, the dashboard and queues, a revision's items, one item, the
+audit trail, comparison.
 
 Item forms post to small endpoints; htmx swaps the item's card in place, and without JavaScript the
 endpoint redirects back to the page the form was on.
@@ -7,13 +8,16 @@ endpoint redirects back to the page the form was on.
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
-from django.db.models import Count, Q
+from django.db.models import Case, Count, Q, Value, When
 from django.shortcuts import get_object_or_404, redirect, render
 from django.utils.http import url_has_allowed_host_and_scheme
 from django.views.decorators.http import require_GET, require_POST
 
+from projectapp import paging
 from projectapp.audit.models import AuditEvent
+from projectapp.designs import lifecycle
 from projectapp.designs.access import get_product_for_user, get_revision_for_user, products_for
+from projectapp.designs.models import Revision
 from projectapp.reviews import services
 from projectapp.reviews.comparison import compare_revisions
 from projectapp.reviews.forms import (
@@ -27,6 +31,7 @@ from projectapp.reviews.forms import (
 from projectapp.reviews.models import Disposition, ReviewItem
 from projectapp.reviews.provenance import decision_lines
 from projectapp.teams.access import teams_of
+from rules.design import DesignError
 from rules.findings import SEVERITIES, TOPICS
 
 OPEN_FILTER = (Q(disposition__in=[Disposition.OPEN, Disposition.DISCUSSION])
@@ -42,21 +47,20 @@ def get_item_for_user(user, item_id: int) -> ReviewItem:
     return get_object_or_404(items_for(user), pk=item_id)
 
 
-def current_review_revisions(user):
-    """Each product's latest submitted revision: the one under review."""
-    latest = []
-    for product in products_for(user):
-        revision = product.latest_submitted
-        if revision is not None:
-            latest.append(revision.pk)
-    return latest
+SEVERITY_ORDER = Case(*(When(severity=severity, then=Value(rank)) for rank, severity in enumerate(SEVERITIES)),
+                      default=Value(len(SEVERITIES)))
+FACET_PRODUCTS = 25  # the products with the most open items; the filter's list has them all
+TOPIC_ORDER = Case(*(When(topic=topic, then=Value(rank)) for rank, topic in enumerate(TOPICS)),
+                   default=Value(len(TOPICS)))
 
 
 @login_required
 @require_GET
 def dashboard(request):
-    base = items_for(request.user).filter(revision__in=current_review_revisions(request.user),
-                                          kind=ReviewItem.Kind.RAISED)
+    """The items under review: the raised items of every revision in review in the person's teams, filtered,
+    counted, ordered (gravest first, then product, topic) and paged in the database."""
+    base = ReviewItem.objects.filter(revision__product__team__in=teams_of(request.user),
+                                     revision__state=Revision.State.IN_REVIEW, kind=ReviewItem.Kind.RAISED)
     form = DashboardFilterForm(request.GET).read()
     chosen, filters = form.cleaned, form.shown
     filters["state"] = filters["state"] or "open"
@@ -70,27 +74,57 @@ def dashboard(request):
         items = items.filter(assignee__isnull=True)
     elif "assignee" in chosen:
         items = items.filter(assignee_id=int(chosen["assignee"]))
-    severity_rank = {severity: index for index, severity in enumerate(SEVERITIES)}
-    ordered = sorted(items, key=lambda item: (severity_rank.get(item.severity, 9), item.revision.product.name,
-                                              TOPICS.index(item.topic) if item.topic in TOPICS else 99, item.pk))
-    open_items = base.filter(OPEN_FILTER)
+    ordered = (items.with_provenance().select_related("revision__product__team", "assignee")
+               .defer("finding", "previous_decision", "revision__document", "revision__evaluation",
+                      "revision__section_versions")
+               .annotate(severity_order=SEVERITY_ORDER, topic_order=TOPIC_ORDER)
+               .order_by("severity_order", "revision__product__name", "topic_order", "pk"))
+    paged = paging.paged(ordered, form)
+    facets = base.filter(OPEN_FILTER).order_by()
     context = {
-        "items": ordered,
+        "items": paged.items,
+        "paged": paged,
         "filters": filters,
         "filter_problems": form.problems,
-        "my_open": open_items.filter(assignee=request.user).count(),
-        "by_product": open_items.values("revision__product_id", "revision__product__name")
-        .annotate(n=Count("id")).order_by("revision__product__name"),
-        "by_severity": open_items.values("severity").annotate(n=Count("id")).order_by("severity"),
-        "by_topic": open_items.values("topic").annotate(n=Count("id")).order_by("topic"),
-        "by_assignee": open_items.values("assignee__username", "assignee_id").annotate(n=Count("id"))
+        "my_open": facets.filter(assignee=request.user).count(),
+        "unassigned_open": facets.filter(assignee__isnull=True).count(),
+        "by_product": facets.values("revision__product_id", "revision__product__name")
+        .annotate(n=Count("id")).order_by("-n", "revision__product__name")[:FACET_PRODUCTS],
+        "by_severity": facets.values("severity").annotate(n=Count("id")).order_by("severity"),
+        "by_topic": facets.values("topic").annotate(n=Count("id")).order_by("topic"),
+        "by_assignee": facets.values("assignee__username", "assignee_id").annotate(n=Count("id"))
         .order_by("assignee__username"),
-        "products": products_for(request.user),
+        "products": products_for(request.user).filter(revisions__state=Revision.State.IN_REVIEW).distinct()
+        .order_by("name").only("pk", "name", "team"),
         "severities": SEVERITIES,
         "topics": TOPICS,
     }
     template = "reviews/_dashboard_items.html" if request.htmx else "reviews/dashboard.html"
     return render(request, template, context, status=form.status)
+
+
+@login_required
+@require_POST
+def draft_submit(request, product_id: int):
+    """Submits the product's draft for review (reviews.services.revision_submit)."""
+    product = get_product_for_user(request.user, product_id)
+    draft = product.draft
+    if draft is None:
+        messages.error(request, "There is no draft to submit.")
+        return redirect(product)
+    try:
+        revision = services.revision_submit(revision=draft, user=request.user)
+    except DesignError as error:
+        loose = [problem.message for problem in error.problems if not problem.path]  # no question holds them
+        messages.error(request, f"Revision {draft.number} can't be submitted yet: " + (
+            "; ".join(loose) + "." if loose else
+            f"fix the {len(error.problems)} problem(s) listed beside the questions."))
+        return redirect("draft_edit", product.pk)
+    except lifecycle.IllegalTransition as refused:
+        messages.error(request, str(refused))
+        return redirect(product)
+    messages.success(request, f"Revision {revision.number} submitted for review and frozen.")
+    return redirect(revision)
 
 
 def _card_context(request, item: ReviewItem, *, approvers: set[int] | None = None, **extra) -> dict:
@@ -125,7 +159,8 @@ def revision_review(request, product_id: int, number: int):
     settled = sum(1 for card in raised if card["item"].is_settled)
     return render(request, "reviews/revision_review.html", {
         "product": revision.product, "revision": revision, "cards": raised, "resolved": resolved,
-        "settled": settled, "previous": services._previous_submitted(revision)})
+        "settled": settled, "previous": services._previous_submitted(revision),
+        "closed_reason": "" if lifecycle.is_review_open(revision) else lifecycle.review_closed_reason(revision)})
 
 
 @login_required

@@ -8,7 +8,7 @@ from playwright.sync_api import expect
 from projectapp.audit.models import AuditEvent
 from projectapp.designs import services as design_services
 from projectapp.reviews.models import ReviewItem
-from projectapp.reviews.services import review_item_assign
+from projectapp.reviews.services import review_item_assign, revision_submit
 from tests.browser.test_questionnaire_flow import log_in
 from tests.web.conftest import EXAMPLES
 
@@ -21,7 +21,7 @@ def queue(team, author, reviewer):
     product = design_services.product_create(team=team, name="Hive gateway", user=author)
     design_services.design_import(product=product, text=(EXAMPLES / "hive-gateway.json").read_text(),
                                   source="hive-gateway.json", user=author)
-    revision = design_services.revision_submit(revision=product.draft, user=author)
+    revision = revision_submit(revision=product.draft, user=author)
     for item in revision.review_items.filter(kind="raised", severity__in=["blocker", "warning"]):
         review_item_assign(item=item, user=reviewer, assignee=reviewer, expected_version=item.version)
     return revision

@@ -11,6 +11,7 @@ from django.urls import reverse
 
 from projectapp.designs import services
 from projectapp.reviews.models import ReviewItem
+from projectapp.reviews.services import revision_submit
 from tests.web.conftest import EXAMPLES
 
 HTMX = {"HTTP_HX_REQUEST": "true"}
@@ -61,7 +62,7 @@ def test_a_malformed_filter_is_a_400_that_names_it(client, reviewed, author, nam
 
 
 def test_the_valid_filters_still_apply_beside_a_malformed_one(client, reviewed, product, author):
-    services.revision_submit(revision=product.draft, user=author)  # the hive gateway: blockers to notes
+    revision_submit(revision=product.draft, user=author)  # the hive gateway: blockers to notes
     client.force_login(author)
     items = ReviewItem.objects.filter(revision__product=product, kind="raised")
     notes = items.filter(severity="note").count()
@@ -69,7 +70,7 @@ def test_the_valid_filters_still_apply_beside_a_malformed_one(client, reviewed, 
     page = client.get(reverse("review_dashboard"), {"severity": "note", "state": "all", "product": product.pk,
                                                     "assignee": SUPERSCRIPT_TWO})
     assert page.status_code == 400
-    assert f"{notes} item{'s' if notes != 1 else ''} in the revisions under review" in page.content.decode()
+    assert f">{notes} item{'s' if notes != 1 else ''}<" in page.content.decode()  # the pager counts the filtered items
     assert client.get(reverse("review_dashboard"), {"severity": "note", "state": "all"}).status_code == 200
     assert client.get(reverse("archive_list"), {"since": "2026-01-01", "state": "current"}).status_code == 200
     assert client.get(reverse("revision_compare", args=[reviewed.pk]), {"from": 1, "to": 2}).status_code == 200

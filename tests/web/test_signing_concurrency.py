@@ -18,6 +18,7 @@ from django.db import close_old_connections, connection, connections, transactio
 from projectapp.designs import services as design_services
 from projectapp.reviews import services as review_services
 from projectapp.reviews.models import Comment, ReviewItem
+from projectapp.reviews.services import revision_submit
 from projectapp.signoff import services
 from projectapp.signoff.models import SignedRecord
 from tests.web.conftest import PASSWORD, signing_request
@@ -88,7 +89,7 @@ def race(first: Callable[[], object], second: Callable[[], object], outcome: dic
 def ready(product, author, reviewer, approver):
     """Revision 1 of the hive gateway with every blocker waived and every warning dispositioned, and one note
     (RFX-001, the RF exposure note) marked not applicable."""
-    revision = design_services.revision_submit(revision=product.draft, user=author)
+    revision = revision_submit(revision=product.draft, user=author)
     for item in revision.review_items.filter(kind="raised", severity__in=["blocker", "warning"]):
         review_services.review_item_decide(item=item, user=approver, disposition="waived",
                                            justification="Pilot of 20 units", expected_version=item.version)
@@ -102,7 +103,7 @@ def ready(product, author, reviewer, approver):
 def next_revision_ready(product, author, approver):
     """Revision 2, unchanged: the approver confirms every carried blocker and warning decision."""
     draft = design_services.draft_get_or_start(product=product, user=author)
-    revision = design_services.revision_submit(revision=draft, user=author)
+    revision = revision_submit(revision=draft, user=author)
     for item in revision.review_items.filter(kind="raised", severity__in=["blocker", "warning"]):
         review_services.review_item_confirm(item=item, user=approver, expected_version=item.version)
     assert services.readiness(revision).ready
