@@ -8,7 +8,6 @@ Every list uses it: products, the review dashboard, the archive (and an inbox): 
 """
 
 from dataclasses import dataclass
-from urllib.parse import urlencode
 
 from django import forms
 from django.core.paginator import Page, Paginator
@@ -49,5 +48,4 @@ class Paged:
 def paged(queryset, form: FilterForm, *, per_page: int = PER_PAGE) -> Paged:
     """The page the form asks for (the first by default, the last when it asks beyond the end)."""
     page = Paginator(queryset, per_page).get_page(form.cleaned.get("page", 1))
-    kept = [(name, value) for name, value in form.shown.items() if value and name != "page" and name in form.cleaned]
-    return Paged(page=page, query=urlencode(kept))
+    return Paged(page=page, query=form.query_without())

@@ -87,8 +87,9 @@ class ReviewItem(models.Model):
     decided_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
                                    related_name="+")
     decided_at = models.DateTimeField(null=True, blank=True)
+    # Indexed with the revision (Meta.indexes): "my queue" finds a person's items in the revisions under review.
     assignee = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
-                                 related_name="review_items")
+                                 related_name="review_items", db_index=False)
     # Provenance of the decision in force: the revision it was made in and the finding's severity then.
     decided_in = models.ForeignKey(Revision, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
     decided_severity = models.CharField(max_length=10, blank=True)
@@ -113,6 +114,7 @@ class ReviewItem(models.Model):
             models.UniqueConstraint(fields=["revision", "kind", "rule_id", "subjects_digest"],
                                     name="one_item_per_finding"),
         ]
+        indexes = [models.Index(fields=["assignee", "revision"], name="review_item_assignee_revision")]
 
     def __str__(self) -> str:
         return f"{self.rule_id} {self.subjects_key or '—'} (revision {self.revision.number})"

@@ -5,7 +5,10 @@ Item forms post to small endpoints; htmx swaps the item's card in place, and wit
 endpoint redirects back to the page the form was on.
 """
 
+from collections import Counter
+
 from django.contrib import messages
+from django.contrib.auth import get_user_model
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
 from django.db.models import Case, Count, Q, Value, When
@@ -17,7 +20,8 @@ from projectapp import paging
 from projectapp.audit.models import AuditEvent
 from projectapp.designs import lifecycle
 from projectapp.designs.access import get_product_for_user, get_revision_for_user, products_for
-from projectapp.designs.models import Revision
+from projectapp.designs.models import Product, Revision
+from projectapp.filters import capped_choices
 from projectapp.reviews import services
 from projectapp.reviews.comparison import compare_revisions
 from projectapp.reviews.forms import (
@@ -59,8 +63,10 @@ TOPIC_ORDER = Case(*(When(topic=topic, then=Value(rank)) for rank, topic in enum
 def dashboard(request):
     """The items under review: the raised items of every revision in review in the person's teams, filtered,
     counted, ordered (gravest first, then product, topic) and paged in the database."""
-    base = ReviewItem.objects.filter(revision__product__team__in=teams_of(request.user),
-                                     revision__state=Revision.State.IN_REVIEW, kind=ReviewItem.Kind.RAISED)
+    # The revisions in review as a subquery: the database then reads each one's items by index (with the assignee
+    # for "my queue") instead of walking every item of a person and checking its revision.
+    in_review = Revision.objects.filter(state=Revision.State.IN_REVIEW, product__team__in=teams_of(request.user))
+    base = ReviewItem.objects.filter(revision__in=in_review.values("pk"), kind=ReviewItem.Kind.RAISED)
     form = DashboardFilterForm(request.GET).read()
     chosen, filters = form.cleaned, form.shown
     filters["state"] = filters["state"] or "open"
@@ -80,27 +86,55 @@ def dashboard(request):
                .annotate(severity_order=SEVERITY_ORDER, topic_order=TOPIC_ORDER)
                .order_by("severity_order", "revision__product__name", "topic_order", "pk"))
     paged = paging.paged(ordered, form)
-    facets = base.filter(OPEN_FILTER).order_by()
+    reviewed = products_for(request.user).filter(revisions__state=Revision.State.IN_REVIEW).distinct()
+    products, more_products = capped_choices(reviewed.order_by("name").only("pk", "name", "team"))
     context = {
         "items": paged.items,
         "paged": paged,
         "filters": filters,
         "filter_problems": form.problems,
-        "my_open": facets.filter(assignee=request.user).count(),
-        "unassigned_open": facets.filter(assignee__isnull=True).count(),
-        "by_product": facets.values("revision__product_id", "revision__product__name")
-        .annotate(n=Count("id")).order_by("-n", "revision__product__name")[:FACET_PRODUCTS],
-        "by_severity": facets.values("severity").annotate(n=Count("id")).order_by("severity"),
-        "by_topic": facets.values("topic").annotate(n=Count("id")).order_by("topic"),
-        "by_assignee": facets.values("assignee__username", "assignee_id").annotate(n=Count("id"))
-        .order_by("assignee__username"),
-        "products": products_for(request.user).filter(revisions__state=Revision.State.IN_REVIEW).distinct()
-        .order_by("name").only("pk", "name", "team"),
+        **_open_facets(base, request.user),
+        "products": products,
+        "more_products": more_products,
+        "chosen_product": reviewed.filter(pk=chosen["product"]).first() if "product" in chosen else None,
+        "without_product": form.query_without("product"),
         "severities": SEVERITIES,
         "topics": TOPICS,
     }
     template = "reviews/_dashboard_items.html" if request.htmx else "reviews/dashboard.html"
     return render(request, template, context, status=form.status)
+
+
+def _open_facets(base, user) -> dict:
+    """The open items counted by product, severity, topic and assignee: one grouped query, summed here (one
+    pass over the items instead of one per facet)."""
+    groups = (base.filter(OPEN_FILTER).order_by().values_list("revision__product_id", "severity", "topic",
+                                                              "assignee_id").annotate(n=Count("id")))
+    by_product: Counter = Counter()
+    by_severity: Counter = Counter()
+    by_topic: Counter = Counter()
+    by_assignee: Counter = Counter()
+    for product_id, severity, topic, assignee_id, n in groups:
+        by_product[product_id] += n
+        by_severity[severity] += n
+        by_topic[topic] += n
+        by_assignee[assignee_id] += n
+    top = by_product.most_common(FACET_PRODUCTS)
+    names = dict(Product.objects.filter(pk__in=[pk for pk, _ in top]).values_list("pk", "name"))
+    people = dict(get_user_model().objects.filter(pk__in=[pk for pk in by_assignee if pk])
+                  .values_list("pk", "username"))
+    return {
+        "my_open": by_assignee.get(user.pk, 0),
+        "unassigned_open": by_assignee.get(None, 0),
+        "by_product": sorted(({"product_id": pk, "name": names.get(pk, ""), "n": n} for pk, n in top),
+                             key=lambda row: (-row["n"], row["name"])),
+        "by_severity": sorted(by_severity.items(), key=lambda pair: SEVERITIES.index(pair[0])
+                              if pair[0] in SEVERITIES else 99),
+        "by_topic": sorted(by_topic.items()),
+        "by_assignee": sorted(({"id": pk, "username": people.get(pk) if pk else None, "n": n}
+                               for pk, n in by_assignee.items()), key=lambda row: (row["username"] is None,
+                                                                                   row["username"] or "")),
+    }
 
 
 @login_required

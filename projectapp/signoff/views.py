@@ -12,6 +12,7 @@ from django.views.decorators.http import require_GET, require_http_methods, requ
 from projectapp import paging
 from projectapp.designs.access import get_revision_for_user, products_for
 from projectapp.designs.models import Revision
+from projectapp.filters import capped_choices
 from projectapp.signoff import services
 from projectapp.signoff.forms import ArchiveFilterForm, SignForm, VerifyForm
 from projectapp.signoff.models import Signature, SignedRecord
@@ -96,11 +97,13 @@ def archive_list(request):
     signed_revisions = Revision.objects.filter(product__team__in=teams, state__in=SIGNED_STATES)
     signers = get_user_model().objects.filter(
         pk__in=Signature.objects.filter(revision__in=signed_revisions).values("signer")).order_by("username")
-    products = products_for(request.user).filter(revisions__state__in=SIGNED_STATES).distinct().order_by("name")
+    signed_products = products_for(request.user).filter(revisions__state__in=SIGNED_STATES).distinct()
+    products, more_products = capped_choices(signed_products.order_by("name").only("pk", "name", "team"))
     return render(request, "signoff/archive.html", {
-        "records": paged.items, "paged": paged, "query": query, "products": products.only("pk", "name", "team"),
-        "signers": signers, "categories": categories().values(), "filter_problems": form.problems},
-        status=form.status)
+        "records": paged.items, "paged": paged, "query": query, "products": products, "more_products": more_products,
+        "chosen_product": signed_products.filter(pk=chosen["product"]).first() if "product" in chosen else None,
+        "without_product": form.query_without("product"), "signers": signers, "categories": categories().values(),
+        "filter_problems": form.problems}, status=form.status)
 
 
 SIGNED_STATES = (Revision.State.SIGNED, Revision.State.SUPERSEDED)
