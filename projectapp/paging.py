@@ -45,7 +45,8 @@ class Paged:
         return self.url_of(self.page.next_page_number()) if self.page.has_next() else None
 
 
-def paged(queryset, form: FilterForm, *, per_page: int = PER_PAGE) -> Paged:
-    """The page the form asks for (the first by default, the last when it asks beyond the end)."""
-    page = Paginator(queryset, per_page).get_page(form.cleaned.get("page", 1))
+def paged(queryset, form: FilterForm, *, per_page: int | None = None) -> Paged:
+    """The page the form asks for (the first by default, the last when it asks beyond the end), of `per_page`
+    rows (PER_PAGE unless given)."""
+    page = Paginator(queryset, per_page or PER_PAGE).get_page(form.cleaned.get("page", 1))
     return Paged(page=page, query=form.query_without())

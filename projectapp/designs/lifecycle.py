@@ -19,7 +19,12 @@ takes, and the audit event each writes. No other code changes `Revision.state` (
 Locks: a change that concerns one revision locks its row (select_for_update); one where two revisions of a
 product interact (submitting, which withdraws older ones in review; signing, which supersedes or withdraws
 older ones) locks the product's row first, then the revisions', always in that order. Review writes take only
-the revision's lock, and never a product's after it, so they can't deadlock with either.
+the revision's lock, and never a product's after it, so they can't deadlock with either. Every lock is FOR NO
+KEY UPDATE (PostgreSQL): it makes writers of the same rows take turns, but lets through the foreign-key checks
+PostgreSQL makes at commit for rows that point at a locked product or revision (an audit event, a review
+item). A plain FOR UPDATE blocks those checks: a review write committing its audit event (which points at the
+product) would wait for a signature holding the product, while the signature waits for the review write's
+revision: a deadlock (tests/web/test_signing_concurrency.py found it).
 
 Callers (the review and sign-off apps, the design services) run these inside their own transaction, after
 their permission checks; each function checks its state under the lock and raises IllegalTransition, with
@@ -82,18 +87,18 @@ def check(revision: Revision, to: str) -> None:
 def lock(revision: Revision | int) -> Revision:
     """The revision's row, locked until the transaction ends and read afresh (with its product and team)."""
     pk = revision if isinstance(revision, int) else revision.pk
-    return Revision.objects.select_for_update(of=("self",)).select_related("product__team").get(pk=pk)
+    return Revision.objects.select_for_update(of=("self",), no_key=True).select_related("product__team").get(pk=pk)
 
 
 def lock_with_product(revision: Revision) -> Revision:
     """The product's row, then the revision's: for changes where two revisions of a product interact."""
-    list(Product.objects.select_for_update().filter(pk=revision.product_id).values_list("pk", flat=True))
+    list(Product.objects.select_for_update(no_key=True).filter(pk=revision.product_id).values_list("pk", flat=True))
     return lock(revision)
 
 
 def _older(revision: Revision, states: tuple[str, ...]) -> list[Revision]:
     """The product's earlier revisions in `states`, locked (the product's lock is held), oldest first."""
-    return list(Revision.objects.select_for_update(of=("self",)).select_related("product__team")
+    return list(Revision.objects.select_for_update(of=("self",), no_key=True).select_related("product__team")
                 .filter(product_id=revision.product_id, number__lt=revision.number, state__in=states)
                 .order_by("number"))
 

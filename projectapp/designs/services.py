@@ -67,7 +67,7 @@ FILE_KEY = "file"  # the audit path of a measurement file itself (its name, size
 
 def _locked_draft(revision: Revision) -> Revision:
     """The revision's row, locked until the transaction ends, read afresh: what this change builds on."""
-    current = Revision.objects.select_for_update().get(pk=revision.pk)
+    current = Revision.objects.select_for_update(no_key=True).get(pk=revision.pk)  # as designs.lifecycle locks
     if not current.is_draft:
         raise DraftGone(current)
     current.product = revision.product
@@ -176,7 +176,7 @@ def draft_get_or_start(*, product: Product, user, source: Revision | None = None
     product_create), always under the product's row lock, which also keeps `Product.latest_revision` true.
     Raises DraftExists when `source` is given and the product already has a draft."""
     require_role(user, product.team, Role.AUTHOR)
-    product = Product.objects.select_for_update().get(pk=product.pk)
+    product = Product.objects.select_for_update(no_key=True).get(pk=product.pk)  # as designs.lifecycle locks
     draft = product.draft
     if draft is not None:
         if source is not None:

@@ -127,7 +127,8 @@ def product_create(request):
 def product_detail(request, product_id: int):
     product = get_product_for_user(request.user, product_id)
     revisions = list(product.revisions.select_related("created_by", "submitted_by", "based_on")
-                     .defer("document", "evaluation", "section_versions"))
+                     .defer(*(f"{prefix}{name}" for prefix in ("", "based_on__")
+                              for name in ("document", "evaluation", "section_versions"))))
     return render(request, "designs/product_detail.html", {
         "product": product,
         "revisions": revisions,

@@ -49,7 +49,7 @@ def test_a_reviewer_works_through_their_queue(page, live_server, reviewer, queue
     assert page.evaluate("window.earshotMarker") == "still here"
 
     page.goto(live_server.url + reverse("review_dashboard") + "?assignee=me")
-    expect(page.get_by_text("Nothing here: every item is settled")).to_be_visible()
+    expect(page.get_by_text("No open item is assigned to you")).to_be_visible()
     page.goto(live_server.url + reverse("product_audit", args=[queue.product_id]))
     expect(page.get_by_text("Move DIV to the far corner of the board").first).to_be_visible()
     recorded = AuditEvent.objects.filter(product=queue.product, action="disposition", actor=reviewer).count()

@@ -246,3 +246,47 @@ def test_a_draft_changed_and_changed_back_is_served_with_its_current_version(pro
     page = client.get(url).content.decode()
     assert f'name="version" value="{draft.version}" id="section-deployment-version"' in page
     assert f'value="{draft.version - 2}" id="section-deployment-version"' in first
+
+
+def test_the_code_stamp_follows_the_static_files_a_page_links(tmp_path, settings):
+    """A stylesheet-only deploy starts afresh: a cached page names the stylesheet (by its hashed name in
+    production), so the stamp covers the static files too."""
+    from django.contrib.staticfiles import finders
+
+    static = tmp_path / "static"
+    static.mkdir()
+    sheet = static / "earshot-extra.css"
+    sheet.write_text("body { color: black; }")
+    settings.STATICFILES_DIRS = [static]
+
+    def stamp() -> str:
+        finders.get_finder.cache_clear()
+        fragments.code_stamp.cache_clear()
+        return fragments.code_stamp()
+
+    try:
+        before = stamp()
+        sheet.write_text("body { color: navy; }")
+        assert stamp() != before
+    finally:
+        finders.get_finder.cache_clear()
+        fragments.code_stamp.cache_clear()
+
+
+def test_with_hashed_static_names_the_stamp_follows_the_manifest(tmp_path, settings):
+    from django.contrib.staticfiles.storage import staticfiles_storage
+
+    settings.STATIC_ROOT = tmp_path
+    settings.STORAGES = {**settings.STORAGES, "staticfiles": {
+        "BACKEND": "django.contrib.staticfiles.storage.ManifestStaticFilesStorage"}}
+    manifest = tmp_path / "staticfiles.json"
+    manifest.write_text('{"paths": {"earshot/earshot.css": "earshot/earshot.1111.css"}, "version": "1.1"}')
+    try:
+        staticfiles_storage._setup()  # the storage the settings now name, reading this manifest
+        fragments.code_stamp.cache_clear()
+        before = fragments.code_stamp()
+        manifest.write_text('{"paths": {"earshot/earshot.css": "earshot/earshot.2222.css"}, "version": "1.1"}')
+        fragments.code_stamp.cache_clear()
+        assert fragments.code_stamp() != before
+    finally:
+        fragments.code_stamp.cache_clear()

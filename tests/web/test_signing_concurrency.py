@@ -162,13 +162,18 @@ def test_a_signature_waits_for_a_decision_in_progress_and_then_sees_it(ready, au
 
 
 def test_two_revisions_signed_at_once_leave_one_current_record(ready, product, author, reviewer, approver):
-    newer = next_revision_ready(product, author, approver)
-    for revision in (ready, newer):
+    def first_two_signatures(revision):
         services.revision_sign(revision=revision, user=author, role="author", password=PASSWORD, request=signing_request())
         services.revision_sign(revision=revision, user=reviewer, role="reviewer", password=PASSWORD, request=signing_request())
+
+    first_two_signatures(ready)  # being signed, revision 1 stays so when revision 2 is submitted (designs.lifecycle)
+    newer = next_revision_ready(product, author, approver)
+    first_two_signatures(newer)
     outcome: dict[str, str] = {}
     assert race(sign(newer, approver, "approver"), sign(ready, approver, "approver"), outcome, ("newer", "older"))
     assert outcome["newer"] == "done"
     assert outcome["older"].startswith("refused: Revision 2 of"), outcome["older"]
     assert [record.revision.number for record in SignedRecord.objects.all() if record.is_current] == [2]
+    ready.refresh_from_db()
+    assert ready.state == "withdrawn"  # it can never be signed now
 
