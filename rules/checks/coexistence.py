@@ -71,6 +71,8 @@ class PairIsolation:
     frequency_mhz: float | None = None  # where the measured worst is, or the frequency of the estimate
     estimate: FreeSpaceEstimate | None = None
     uncovering_files: tuple[str, ...] = ()  # files with both ports that do not span the victim's frequencies
+    external: tuple[str, ...] = ()  # external antennas of the pair: their feed position is not where they radiate
+    no_transmitter: bool = False  # the design has no main antenna to pair with
 
     def sentence(self, judged_mhz: tuple[float, float]) -> str:
         missed = ""
@@ -79,8 +81,13 @@ class PairIsolation:
         if self.basis == "measured":
             return (f"Measured in {self.file}: at least {self.isolation_db:.1f} dB over {_mhz(judged_mhz)} (worst at "
                     f"{self.frequency_mhz:g} MHz).")
+        if self.no_transmitter:
+            return "The design has no main (transmitting) antenna yet, so the pair's isolation can't be judged."
         none = f"No measurement has both ports over {_mhz(judged_mhz)}{missed}"
         estimate = self.estimate
+        if self.external:
+            return (f"{none}, and {' and '.join(self.external)} is mounted externally: its feed position says nothing "
+                    "of where it radiates, so no free-space estimate is made.")
         if estimate is None:
             return f"{none}, and without both feed positions the isolation can't be estimated."
         if estimate.isolation_db is None:
@@ -117,6 +124,9 @@ def pair_isolation(context: CheckContext, cellular: Antenna, victim: Antenna,
             worst = (found.value, measurement.file, found.frequency_mhz)
     if worst is not None:
         return PairIsolation(worst[0], "measured", worst[1], worst[2])
+    external = [antenna.name for antenna in (cellular, victim) if antenna.mounting == "external"]
+    if external:
+        return PairIsolation(None, None, uncovering_files=tuple(uncovering), external=tuple(external))
     if cellular.position_mm is None or victim.position_mm is None:
         return PairIsolation(None, None, uncovering_files=tuple(uncovering))
     angle_deg = (physics.polarization_angle_deg(cellular.polarization, victim.polarization)
@@ -145,14 +155,17 @@ def _margin_sentence(margin_db: float | None, remedy: str) -> str:
     return f"That leaves {-margin_db:.1f} dB to {remedy}."
 
 
-def _isolation_evidence(isolation: PairIsolation, budget: Budget, cellular: Antenna, victim: Antenna) -> dict[str, Any]:
+def _isolation_evidence(isolation: PairIsolation, budget: Budget, cellular: Antenna | None,
+                        victim: Antenna) -> dict[str, Any]:
     estimate = isolation.estimate
     return {
-        "cellular_antenna": cellular.name,
+        "cellular_antenna": cellular.name if cellular else None,
         "victim_antenna": victim.name,
         "direction": budget.direction,
-        "emission_dbm_per_mhz": budget.emission_dbm_per_mhz,
-        "tolerated_dbm_per_mhz": budget.tolerated_dbm_per_mhz,
+        # powers in the 1 MHz measurement bandwidth of the 3GPP limits above 1 GHz
+        "emission_dbm": budget.emission_dbm_per_mhz,
+        "tolerated_dbm": budget.tolerated_dbm_per_mhz,
+        "measurement_bandwidth_mhz": 1.0,
         "victim_noise_figure_db": budget.noise_figure_db,
         "desense_db": coexistence_data().desense_db,
         "judged_mhz": list(budget.judged_mhz),
@@ -194,19 +207,21 @@ def harmonic_on_gnss(context: CheckContext) -> Iterator[Flag]:
     aggressors: list[Antenna | None] = list(transmitters(context)) or [None]
     for gnss in (antenna for antenna in context.design.antennas if antenna.role == "gnss"):
         for band in context.design.modem.bands:
-            for victim in victims_of(gnss):
-                hits = harmonic_hits(band, victim, data.harmonic_orders)
-                if not hits:
-                    continue
-                order, overlap = hits[0]
-                for cellular in aggressors:
-                    yield _harmonic_flag(context, band, victim, gnss, cellular, hits, order, overlap)
+            # One finding per pair and band (its review identity): the first GNSS band hit, the others named in it.
+            struck = [(victim, hits) for victim in victims_of(gnss)
+                      if (hits := harmonic_hits(band, victim, data.harmonic_orders))]
+            if not struck:
+                continue
+            victim, hits = struck[0]
+            for cellular in aggressors:
+                yield _harmonic_flag(context, band, victim, gnss, cellular, hits, [item[0] for item in struck[1:]])
 
 
 def _harmonic_flag(context: CheckContext, band: Band, victim: Victim, gnss: Antenna, cellular: Antenna | None,
-                   hits: list[tuple[int, tuple[float, float]]], order: int, overlap: tuple[float, float]) -> Flag:
+                   hits: list[tuple[int, tuple[float, float]]], also: list[Victim]) -> Flag:
     data = coexistence_data()
     assert band.ul_mhz is not None
+    order, overlap = hits[0]
     harmonic = (order * band.ul_mhz[0], order * band.ul_mhz[1])
     budget = harmonic_budget(data, victim, overlap)
     named = band.number in (13, 14) and victim.key == "gnss-l1"
@@ -216,33 +231,24 @@ def _harmonic_flag(context: CheckContext, band: Band, victim: Victim, gnss: Ante
     others = [f"the {_ordinal(item[0])} at {_mhz(item[1])}" for item in hits[1:]]
     if others:
         landing += f" So does {' and '.join(others)}."
+    if also:
+        landing += f" Its harmonics also land on {' and '.join(item.label for item in also)}, which {gnss.name} receives too."
     remedy = (f"the module's real {_ordinal(order)}-harmonic level (its datasheet's figure is usually far below the "
               "3GPP limit), filtering (a harmonic filter at the module's output, a SAW filter ahead of the GNSS "
               "low-noise amplifier) and the layout")
-    if cellular is None:
-        isolation_text = "The design has no main (transmitting) antenna yet, so the pair's isolation can't be judged."
-        isolation = PairIsolation(None, None)
-        subjects: tuple[str, ...] = (gnss.name, band.name)
-        evidence_antenna = None
-    else:
-        isolation = pair_isolation(context, cellular, gnss, budget.judged_mhz)
-        isolation_text = isolation.sentence(budget.judged_mhz)
-        subjects = (cellular.name, gnss.name, band.name)
-        evidence_antenna = cellular
+    isolation = (pair_isolation(context, cellular, gnss, budget.judged_mhz) if cellular is not None
+                 else PairIsolation(None, None, no_transmitter=True))
+    subjects = (gnss.name, band.name) if cellular is None else (cellular.name, gnss.name, band.name)
     margin_db = _margin(isolation, budget)
     first = cellular.name if cellular else "the transmitting antenna"
     explanation = (f"{landing} Budget: {_budget_sentence(budget, first, gnss.name, 'the module', f'a {victim.label} receiver')} "
-                   f"{isolation_text} {_margin_sentence(margin_db, remedy)}")
+                   f"{isolation.sentence(budget.judged_mhz)} {_margin_sentence(margin_db, remedy)}")
     evidence: dict[str, Any] = {
         "band": band.name, "victim": victim.label, "mechanism": HARMONIC, "aggressor_mhz": list(band.ul_mhz),
         "victim_mhz": list(victim.range_mhz), "order": order, "orders": [item[0] for item in hits],
-        "harmonic_mhz": list(harmonic), "overlap_mhz": list(overlap),
+        "harmonic_mhz": list(harmonic), "overlap_mhz": list(overlap), "also_victims": [item.label for item in also],
     }
-    if evidence_antenna is not None:
-        evidence |= _isolation_evidence(isolation, budget, evidence_antenna, gnss)
-    else:
-        evidence |= {"victim_antenna": gnss.name, "needed_isolation_db": budget.needed_isolation_db,
-                     "isolation_db": None, "isolation_basis": None}
+    evidence |= _isolation_evidence(isolation, budget, cellular, gnss)
     measure = ("" if isolation.basis == "measured" else
                f" measure the isolation between {first} and {gnss.name} over {_mhz(overlap)};")
     return Flag(
@@ -281,20 +287,28 @@ def band_edge_beside_wlan(context: CheckContext) -> Iterator[Flag]:
     category_id = context.design.modem.category.id
     for wlan in (antenna for antenna in context.design.antennas if antenna.role == "wlan"):
         for band in context.design.modem.bands:
-            for victim in victims_of(wlan):
-                near = near_ranges(band, victim, data.guard_mhz)
-                if not near:
-                    continue
-                budgets = adjacent_budgets(data, category_id, victim, near)
-                for cellular in context.cellular_antennas:
-                    mine = [budget for budget in budgets if cellular.transmits or budget.direction != CELLULAR_TO_VICTIM]
-                    if mine:
-                        yield _adjacent_flag(context, band, victim, wlan, cellular, near[0], mine)
+            # One finding per pair and band (its review identity): the first WLAN band beside it, the others named.
+            beside = [(victim, near) for victim in victims_of(wlan) if (near := near_ranges(band, victim, data.guard_mhz))]
+            if not beside:
+                continue
+            victim, near = beside[0]
+            also = [item[0] for item in beside[1:]]
+            budgets = adjacent_budgets(data, category_id, victim, near)
+            for cellular in context.cellular_antennas:
+                mine = [budget for budget in budgets if cellular.transmits or budget.direction != CELLULAR_TO_VICTIM]
+                if mine:
+                    yield _adjacent_flag(context, band, victim, wlan, cellular, near[0], mine, also)
+            uplink = [budget for budget in budgets if budget.direction == CELLULAR_TO_VICTIM]
+            if uplink and not transmitters(context):
+                yield _adjacent_flag(context, band, victim, wlan, None, near[0], uplink, also)
 
 
-def _adjacent_flag(context: CheckContext, band: Band, victim: Victim, wlan: Antenna, cellular: Antenna,
-                   nearest: NearRange, budgets: list[Budget]) -> Flag:
-    judged = [(budget, pair_isolation(context, cellular, wlan, budget.judged_mhz)) for budget in budgets]
+def _adjacent_flag(context: CheckContext, band: Band, victim: Victim, wlan: Antenna, cellular: Antenna | None,
+                   nearest: NearRange, budgets: list[Budget], also: list[Victim]) -> Flag:
+    """One pair's finding; `cellular` None when the design has no main antenna to carry the uplink yet."""
+    judged = [(budget, pair_isolation(context, cellular, wlan, budget.judged_mhz) if cellular is not None
+               else PairIsolation(None, None, no_transmitter=True)) for budget in budgets]
+    name = cellular.name if cellular is not None else "the transmitting antenna"
 
     def severity_key(item: tuple[Budget, PairIsolation]) -> tuple[int, float]:
         margin_db = _margin(item[1], item[0])
@@ -308,15 +322,17 @@ def _adjacent_flag(context: CheckContext, band: Band, victim: Victim, wlan: Ante
              "judges")
     if band.number in (7, 40, 41) and victim.key == "wlan-2g4":
         where += ": one of the cases 3GPP TR 36.816 names beside the ISM band"
+    if also:
+        where += f"; it is also within the guard of {' and '.join(item.label for item in also)}"
     ways = []
     for item_budget, item_isolation in judged:
         if item_budget.direction == CELLULAR_TO_VICTIM:
-            who, aggressor, receiver = (f"{cellular.name}'s uplink into the WLAN receiver at {wlan.name}",
+            who, aggressor, receiver = (f"{name}'s uplink into the WLAN receiver at {wlan.name}",
                                         "the module", "a WLAN receiver")
         else:
             who, aggressor, receiver = (f"the WLAN transmitter at {wlan.name} into {band.name}'s downlink at "
-                                        f"{cellular.name}", "the WLAN transmitter", "a cellular receiver")
-        ways.append(f"{who}: {_budget_sentence(item_budget, cellular.name, wlan.name, aggressor, receiver)} "
+                                        f"{name}", "the WLAN transmitter", "a cellular receiver")
+        ways.append(f"{who}: {_budget_sentence(item_budget, name, wlan.name, aggressor, receiver)} "
                     f"{item_isolation.sentence(item_budget.judged_mhz)}")
     remedy = ("the radios' real emissions (their datasheets), coexistence filters on the WLAN path (and on the cellular "
               "path in a TDD band), the layout, and time-sharing between the radios where both run at once")
@@ -329,19 +345,19 @@ def _adjacent_flag(context: CheckContext, band: Band, victim: Victim, wlan: Ante
         "band": band.name, "victim": victim.label, "mechanism": ADJACENT, "aggressor_mhz": list(nearest.range_mhz),
         "victim_mhz": list(victim.range_mhz), "guard_mhz": nearest.gap_mhz,
         "guard_limit_mhz": coexistence_data().guard_mhz, "cellular_range": nearest.kind,
-        "directions": [item.direction for item in budgets],
+        "directions": [item.direction for item in budgets], "also_victims": [item.label for item in also],
     } | _isolation_evidence(isolation, budget, cellular, wlan)
     measure = "" if isolation.basis == "measured" else (
-        f" measure the isolation between {cellular.name} and {wlan.name} across {_mhz(budget.judged_mhz)};")
+        f" measure the isolation between {name} and {wlan.name} across {_mhz(budget.judged_mhz)};")
     return Flag(
         severity="warning",
         title=(f"{band.name} {'touches' if nearest.gap_mhz == 0 else f'is {nearest.gap_mhz:g} MHz from'} "
-               f"{victim.label}: {cellular.name} and {wlan.name}"),
+               f"{victim.label}: {name} and {wlan.name}"),
         explanation=explanation,
         action=(f"Plan a coexistence filter on the WLAN path and ask both radios' makers for their emissions at the "
                 f"{band.name} edge;{measure} then test both radios running at once (WLAN throughput with {band.name} "
                 "transmitting at full power, and the cellular downlink with WLAN transmitting)."),
-        subjects=(cellular.name, wlan.name, band.name),
+        subjects=(wlan.name, band.name) if cellular is None else (cellular.name, wlan.name, band.name),
         evidence=evidence,
         references=(TR_36_816, *(item.emission_source for item in budgets), victim.source, FRIIS),
         basis="measured" if isolation.basis == "measured" else "design",

@@ -357,3 +357,31 @@ def test_every_transmitting_antenna_and_every_gnss_antenna_make_a_pair():
         antenna("A"), gnss(), antenna("H", "gnss", (120, 10, 10), (0, 0, 1), ranges_mhz=[[1559, 1610]])])
     subjects = sorted(finding.subjects for finding in findings_of(run(document), "coexistence"))
     assert subjects == [("A", "G", "B13"), ("A", "G", "B14"), ("A", "H", "B13"), ("A", "H", "B14")]
+
+
+def test_an_external_antenna_gets_no_free_space_estimate():
+    # An external antenna's position is its connector, not where it radiates.
+    document = design("cat-m1", bands=["B13"], antennas=[antenna("A", mounting="external"), gnss()])
+    [finding] = findings_of(run(document), "coexistence")
+    assert finding.evidence["isolation_db"] is None and finding.evidence["isolation_basis"] is None
+    assert "mounted externally" in finding.explanation
+
+
+def test_without_a_main_antenna_the_victim_and_band_are_still_flagged():
+    # design.md's policy row needs only the GNSS / WLAN antenna and the band; CNT-002 blocks the missing main.
+    harmonic = run(design("cat-m1", bands=["B13"], antennas=[antenna("R", "receive"), gnss()]))
+    [finding] = findings_of(harmonic, "coexistence")
+    assert finding.subjects == ("G", "B13") and finding.evidence["cellular_antenna"] is None
+    assert "no main (transmitting) antenna" in finding.explanation
+    adjacent = run(design("cat-4", bands=["B7"], antennas=[antenna("R", "receive"), wlan()]))
+    assert [item.subjects for item in findings_of(adjacent, "coexistence")] == [("W", "B7")]
+
+
+def test_each_pair_and_band_is_one_finding_so_review_identities_stay_unique():
+    # A finding's review identity is (rule id, subjects): two findings with the same would collide in the review.
+    document = design("cat-4", bands=["B13", "B14", "B40", "B41", "B7"], antennas=[
+        antenna("A", ranges_mhz=[[698, 2700]]), antenna("B", "receive", (140, 20, 10), (0, 1, 0)),
+        gnss(ranges_mhz=((1164, 1192), (1559, 1610))), wlan((20, 70, 10), ranges_mhz=((2400, 2500), (5150, 5900)))])
+    findings = run(document).findings
+    assert len({finding.key for finding in findings}) == len(findings)
+    assert len(findings_of(run(document), "coexistence")) == 2 + 3 + 2  # A-G x 2, A-W x 3, B-W x 2 (TDD)
