@@ -24,7 +24,7 @@ if TYPE_CHECKING:
 # optimistic S-parameter ECC (ECC-002), efficiency imbalance (EFF-003), feed outside the enclosure (ENC-002,
 # SEP-003), per-band peak gain (GAI-001), GNSS and WLAN antennas kept out of the cellular rules; coexistence with
 # them (COX-001, COX-002), radiated estimates against the team's targets (OTA-001..003), the RedCap 1Rx barring
-# note (CRT-004), coverage enhancement for deep LTE-M / NB-IoT (COV-002).
+# note (CNT-004), coverage enhancement for deep LTE-M / NB-IoT (COV-002).
 RULESET_VERSION = "2.0.0"
 RULE_ID_PATTERN = re.compile(r"^[A-Z]{3}-\d{3}$")
 

@@ -6,9 +6,6 @@ from rules.context import CheckContext
 from rules.findings import Flag
 from rules.registry import rule
 
-REDCAP_1RX = "3GPP TS 38.331 cellBarredRedCap1Rx (Rel-17 SIB1)"
-TS_38_300 = "3GPP TS 38.300 §16.13"
-
 
 @rule(
     id="CRT-001", topic="certification", severities=("note",),
@@ -66,38 +63,4 @@ def regulatory_approval(context: CheckContext) -> Iterator[Flag]:
             "licensed practice."
         ),
         action="Confirm the approval route for each market with a qualified regulatory test house.",
-    )
-
-
-@rule(
-    id="CRT-004", added_in="2.0.0", topic="certification", severities=("note",),
-    title="RedCap with one receive branch: operators can bar such devices",
-    rationale=(
-        "A RedCap device tells the network how many receive branches it has, and each cell broadcasts whether it "
-        "admits RedCap devices with one (TS 38.331 cellBarredRedCap1Rx): an operator may bar them while admitting two-"
-        "branch ones, for the coverage and capacity a branch costs. Every RedCap design that runs one receive branch "
-        "(a one-port module, or one cellular antenna connected) gets this note, whatever else it is flagged for."
-    ),
-    sources=(REDCAP_1RX, TS_38_300),
-)
-def redcap_one_branch(context: CheckContext) -> Iterator[Flag]:
-    modem = context.design.modem
-    if modem.category.single_antenna != "module":
-        return
-    if modem.rx_ports != 1 and context.rx_connected != 1:
-        return
-    why = ("the module has one receive port" if modem.rx_ports == 1 else
-           "one cellular antenna reaches the module's receive ports")
-    yield Flag(
-        severity="note",
-        title="RedCap with one receive branch: operators can bar 1Rx devices from a cell",
-        explanation=(
-            f"The design runs {modem.category.label} with one receive branch ({why}). Each cell broadcasts whether it "
-            f"admits RedCap devices with one receive branch ({REDCAP_1RX}); an operator may bar them where it admits "
-            "two-branch ones, and a barred device can't camp on that cell at all."
-        ),
-        action=("Confirm with each target operator that it admits 1Rx RedCap devices on the bands and in the areas the "
-                "product needs, or fit a second receive branch."),
-        evidence={"rx_branches": 1, "rx_ports": modem.rx_ports, "cellular_antennas_connected": context.rx_connected},
-        references=(REDCAP_1RX, TS_38_300),
     )

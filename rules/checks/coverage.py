@@ -130,7 +130,7 @@ def single_antenna_coverage(context: CheckContext) -> Iterator[Flag]:
     redcap = ""
     if category.single_antenna == "module":
         redcap = (" With one receive branch in use the device is a 1Rx RedCap UE, which an operator can bar from a "
-                  f"cell ({REDCAP_1RX}): see CRT-004.")
+                  f"cell ({REDCAP_1RX}): see CNT-004.")
     yield Flag(
         severity="warning" if warn else "note",
         title=(f"One receive antenna: about {cost.headline_db:.1f} dB less downlink in {worst.band}; "
