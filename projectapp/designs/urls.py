@@ -14,6 +14,7 @@ urlpatterns = [
     path("products/<int:product_id>/draft/measurements/ports/", views.measurement_ports, name="measurement_ports"),
     path("products/<int:product_id>/draft/measurements/remove/", views.measurement_remove,
          name="measurement_remove"),
+    path("products/<int:product_id>/draft/library-update/", views.draft_library_update, name="draft_library_update"),
     path("products/<int:product_id>/draft/<slug:section>/", views.draft_section_save, name="draft_section_save"),
     path("products/<int:product_id>/import/", views.design_import, name="design_import"),
     path("products/<int:product_id>/revisions/<int:number>/", views.revision_detail, name="revision_detail"),

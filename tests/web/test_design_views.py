@@ -320,8 +320,8 @@ def test_nul_and_lone_surrogates_in_an_import_are_named_and_nothing_is_stored(cl
     client_for(client, author)
     before = product.draft.document
     for json_escape, expected in (("\\u0000", "product.name: control character U+0000 not allowed"),
-                                  ("\\ud800", "product.name: lone surrogate U+D800 not allowed"),
-                                  ("\\u001b[32m", "product.name: control character U+001B not allowed")):
+                             ("\\ud800", "product.name: lone surrogate U+D800 not allowed"),
+                             ("\\u001b[32m", "product.name: control character U+001B not allowed")):
         text = json.dumps(hive()).replace("Tallow Creek hive gateway", f"Tallow{json_escape} hive gateway")
         response = client.post(reverse("design_import", args=[product.pk]), {"design_file": upload(text)})
         assert response.status_code == 400 and expected in response.content.decode(), json_escape
