@@ -31,6 +31,9 @@ class Disposition(models.TextChoices):
 SETTLED = (Disposition.CHANGE, Disposition.WAIVED, Disposition.NOT_APPLICABLE)
 NEEDS_JUSTIFICATION = (Disposition.WAIVED, Disposition.NOT_APPLICABLE)
 SEVERITY_RANK = {"note": 0, "warning": 1, "blocker": 2}  # higher is graver
+# The items that still need someone: open, under discussion, or carried from an earlier revision and not confirmed.
+OPEN_ITEMS = (models.Q(disposition__in=[Disposition.OPEN, Disposition.DISCUSSION])
+              | models.Q(carried_from__isnull=False, carried_confirmed=False))
 
 
 class SignedRevisionError(RuntimeError):
@@ -87,7 +90,9 @@ class ReviewItem(models.Model):
     decided_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
                                    related_name="+")
     decided_at = models.DateTimeField(null=True, blank=True)
-    # Indexed with the revision (Meta.indexes): "my queue" finds a person's items in the revisions under review.
+    # Not indexed on its own: with one, SQLite's planner answered "my queue" by walking every item ever assigned to
+    # the person and checking each one's revision; without, it reads the revisions in review and their items
+    # (benchmarks/lists.py). Unassigning on a person's deletion reads the table, which is rare.
     assignee = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
                                  related_name="review_items", db_index=False)
     # Provenance of the decision in force: the revision it was made in and the finding's severity then.
@@ -114,7 +119,6 @@ class ReviewItem(models.Model):
             models.UniqueConstraint(fields=["revision", "kind", "rule_id", "subjects_digest"],
                                     name="one_item_per_finding"),
         ]
-        indexes = [models.Index(fields=["assignee", "revision"], name="review_item_assignee_revision")]
 
     def __str__(self) -> str:
         return f"{self.rule_id} {self.subjects_key or '—'} (revision {self.revision.number})"
@@ -178,3 +182,16 @@ class Comment(models.Model):
         if not lifecycle.review_open_in_database(self.item.revision_id):
             raise SignedRevisionError("the discussion of a revision whose review is closed is closed too")
         super().save(*args, **kwargs)
+
+
+class ReviewTally(models.Model):
+    """One revision's open raised items (OPEN_ITEMS) counted by severity, topic and assignee: what the review
+    dashboard sums, a row per revision in review, instead of counting every item on every look. Every write that
+    changes an item refreshes it in the same transaction, under the revision's lock (reviews.services)."""
+
+    revision = models.OneToOneField(Revision, on_delete=models.CASCADE, primary_key=True, related_name="review_tally")
+    open_items = models.PositiveIntegerField(default=0)
+    groups = models.JSONField(default=list)  # [[severity, topic, assignee id or null, count], ...]
+
+    def __str__(self) -> str:
+        return f"{self.open_items} open item(s) of revision {self.revision_id}"

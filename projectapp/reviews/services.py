@@ -19,7 +19,7 @@ from typing import Any
 
 from django.core.exceptions import PermissionDenied
 from django.db import transaction
-from django.db.models import F
+from django.db.models import Count, F
 from django.utils import timezone
 
 from projectapp.audit.models import AuditEvent
@@ -29,10 +29,12 @@ from projectapp.designs.models import Revision
 from projectapp.reviews.gate import approver_ids  # noqa: F401 (the PDF and the views read it from here)
 from projectapp.reviews.models import (
     NEEDS_JUSTIFICATION,
+    OPEN_ITEMS,
     SEVERITY_RANK,
     Comment,
     Disposition,
     ReviewItem,
+    ReviewTally,
 )
 from projectapp.teams.access import has_role, require_role
 from projectapp.teams.models import Membership, Role
@@ -179,6 +181,7 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
                                       severity=before.severity, title=before.title, finding=before.finding,
                                       disposition=before.disposition, justification=before.justification))
     ReviewItem.objects.bulk_create(created)
+    review_tallies_refresh(revision_ids=[revision.pk])
     raised = sum(1 for item in created if item.kind == ReviewItem.Kind.RAISED)
     carried = sum(1 for item in created if item.carried_from_id)
     resolved = len(created) - raised
@@ -204,9 +207,28 @@ def revision_submit(*, revision: Revision, user) -> Revision:
     return frozen
 
 
+def review_tallies_refresh(*, revision_ids) -> None:
+    """Counts the open raised items of these revisions again (ReviewTally): after every write that changes an
+    item, in its transaction; `Revision.objects.values_list("pk", flat=True)` rebuilds them all (a bulk load)."""
+    counted: dict[int, list[list[Any]]] = {revision_id: [] for revision_id in revision_ids}
+    groups = (ReviewItem.objects.filter(revision_id__in=list(counted), kind=ReviewItem.Kind.RAISED).filter(OPEN_ITEMS)
+              .order_by().values_list("revision_id", "severity", "topic", "assignee_id").annotate(n=Count("id")))
+    for revision_id, severity, topic, assignee_id, n in groups:
+        counted[revision_id].append([severity, topic, assignee_id, n])
+    existing = set(ReviewTally.objects.filter(revision_id__in=list(counted)).values_list("revision_id", flat=True))
+    ReviewTally.objects.bulk_create([ReviewTally(revision_id=revision_id) for revision_id in counted
+                                     if revision_id not in existing])
+    ReviewTally.objects.bulk_update([ReviewTally(revision_id=revision_id, groups=rows,
+                                                 open_items=sum(row[3] for row in rows))
+                                     for revision_id, rows in counted.items()], ["groups", "open_items"],
+                                    batch_size=500)
+
+
 def _save_versioned(item: ReviewItem, expected_version: int, **values: Any) -> ReviewItem:
     updated = ReviewItem.objects.filter(pk=item.pk, version=expected_version).update(
         version=F("version") + 1, updated_at=timezone.now(), **values)
+    if updated:
+        review_tallies_refresh(revision_ids=[item.revision_id])
     current = ReviewItem.objects.with_provenance().select_related("revision__product__team", "assignee").get(
         pk=item.pk)
     if not updated:

@@ -11,7 +11,7 @@ from django.contrib import messages
 from django.contrib.auth import get_user_model
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
-from django.db.models import Case, Count, Q, Value, When
+from django.db.models import Case, Value, When
 from django.shortcuts import get_object_or_404, redirect, render
 from django.utils.http import url_has_allowed_host_and_scheme
 from django.views.decorators.http import require_GET, require_POST
@@ -20,7 +20,7 @@ from projectapp import paging
 from projectapp.audit.models import AuditEvent
 from projectapp.designs import lifecycle
 from projectapp.designs.access import get_product_for_user, get_revision_for_user, products_for
-from projectapp.designs.models import Product, Revision
+from projectapp.designs.models import Revision
 from projectapp.filters import capped_choices
 from projectapp.reviews import services
 from projectapp.reviews.comparison import compare_revisions
@@ -32,14 +32,13 @@ from projectapp.reviews.forms import (
     DashboardFilterForm,
     DecisionForm,
 )
-from projectapp.reviews.models import Disposition, ReviewItem
+from projectapp.reviews.models import OPEN_ITEMS, ReviewItem, ReviewTally
 from projectapp.reviews.provenance import decision_lines
 from projectapp.teams.access import teams_of
 from rules.design import DesignError
 from rules.findings import SEVERITIES, TOPICS
 
-OPEN_FILTER = (Q(disposition__in=[Disposition.OPEN, Disposition.DISCUSSION])
-               | Q(carried_from__isnull=False, carried_confirmed=False))
+OPEN_FILTER = OPEN_ITEMS
 
 
 def items_for(user):
@@ -63,10 +62,9 @@ TOPIC_ORDER = Case(*(When(topic=topic, then=Value(rank)) for rank, topic in enum
 def dashboard(request):
     """The items under review: the raised items of every revision in review in the person's teams, filtered,
     counted, ordered (gravest first, then product, topic) and paged in the database."""
-    # The revisions in review as a subquery: the database then reads each one's items by index (with the assignee
-    # for "my queue") instead of walking every item of a person and checking its revision.
-    in_review = Revision.objects.filter(state=Revision.State.IN_REVIEW, product__team__in=teams_of(request.user))
-    base = ReviewItem.objects.filter(revision__in=in_review.values("pk"), kind=ReviewItem.Kind.RAISED)
+    # The revisions in review (an index on their state), then their items (an index on the revision).
+    base = ReviewItem.objects.filter(revision__product__team__in=teams_of(request.user),
+                                     revision__state=Revision.State.IN_REVIEW, kind=ReviewItem.Kind.RAISED)
     form = DashboardFilterForm(request.GET).read()
     chosen, filters = form.cleaned, form.shown
     filters["state"] = filters["state"] or "open"
@@ -93,7 +91,7 @@ def dashboard(request):
         "paged": paged,
         "filters": filters,
         "filter_problems": form.problems,
-        **_open_facets(base, request.user),
+        **_open_facets(request.user),
         "products": products,
         "more_products": more_products,
         "chosen_product": reviewed.filter(pk=chosen["product"]).first() if "product" in chosen else None,
@@ -105,29 +103,28 @@ def dashboard(request):
     return render(request, template, context, status=form.status)
 
 
-def _open_facets(base, user) -> dict:
-    """The open items counted by product, severity, topic and assignee: one grouped query, summed here (one
-    pass over the items instead of one per facet)."""
-    groups = (base.filter(OPEN_FILTER).order_by().values_list("revision__product_id", "severity", "topic",
-                                                              "assignee_id").annotate(n=Count("id")))
-    by_product: Counter = Counter()
+def _open_facets(user) -> dict:
+    """The open items of the revisions in review counted by product, severity, topic and assignee: summed from
+    each revision's tally (reviews.models.ReviewTally, kept by every review write), a row per revision, rather
+    than counted from the items on every look."""
+    tallies = ReviewTally.objects.filter(revision__state=Revision.State.IN_REVIEW,
+                                         revision__product__team__in=teams_of(user))
+    by_product = list(tallies.filter(open_items__gt=0).order_by("-open_items", "revision__product__name")
+                      .values_list("revision__product_id", "revision__product__name", "open_items")[:FACET_PRODUCTS])
     by_severity: Counter = Counter()
     by_topic: Counter = Counter()
     by_assignee: Counter = Counter()
-    for product_id, severity, topic, assignee_id, n in groups:
-        by_product[product_id] += n
-        by_severity[severity] += n
-        by_topic[topic] += n
-        by_assignee[assignee_id] += n
-    top = by_product.most_common(FACET_PRODUCTS)
-    names = dict(Product.objects.filter(pk__in=[pk for pk, _ in top]).values_list("pk", "name"))
+    for groups in tallies.values_list("groups", flat=True):
+        for severity, topic, assignee_id, n in groups:
+            by_severity[severity] += n
+            by_topic[topic] += n
+            by_assignee[assignee_id] += n
     people = dict(get_user_model().objects.filter(pk__in=[pk for pk in by_assignee if pk])
                   .values_list("pk", "username"))
     return {
         "my_open": by_assignee.get(user.pk, 0),
         "unassigned_open": by_assignee.get(None, 0),
-        "by_product": sorted(({"product_id": pk, "name": names.get(pk, ""), "n": n} for pk, n in top),
-                             key=lambda row: (-row["n"], row["name"])),
+        "by_product": [{"product_id": pk, "name": name, "n": n} for pk, name, n in by_product],
         "by_severity": sorted(by_severity.items(), key=lambda pair: SEVERITIES.index(pair[0])
                               if pair[0] in SEVERITIES else 99),
         "by_topic": sorted(by_topic.items()),

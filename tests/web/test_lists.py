@@ -176,3 +176,37 @@ def test_the_dashboard_and_archive_page_too(client, team, author, reviewer, appr
     last = page(client, reviewer, reverse("archive_list"), page=2)
     assert last.count("status-superseded") == 1 and "status-signed" not in last
     assert SignedRecord.objects.count() == 3
+
+
+def test_every_review_write_keeps_the_dashboards_tally(client, product, author, reviewer, approver):
+    from django.db.models import Count
+
+    from projectapp.reviews.models import OPEN_ITEMS, ReviewItem, ReviewTally
+    from projectapp.reviews.services import review_item_assign, review_item_confirm, review_item_decide
+
+    def counted_now(revision) -> list:
+        return sorted([list(row) for row in ReviewItem.objects.filter(revision=revision, kind="raised")
+                       .filter(OPEN_ITEMS).order_by().values_list("severity", "topic", "assignee_id")
+                       .annotate(n=Count("id"))], key=repr)
+
+    def kept(revision) -> list:
+        return sorted(ReviewTally.objects.get(revision=revision).groups, key=repr)
+
+    revision = revision_submit(revision=product.draft, user=author)
+    assert kept(revision) == counted_now(revision) and counted_now(revision)
+    item = revision.review_items.get(rule_id="EFF-001", kind="raised")
+    review_item_assign(item=item, user=reviewer, assignee=reviewer, expected_version=item.version)
+    assert kept(revision) == counted_now(revision)
+    item.refresh_from_db()
+    review_item_decide(item=item, user=reviewer, disposition="change", justification="",
+                       expected_version=item.version)
+    assert kept(revision) == counted_now(revision)
+    second = revision_submit(revision=services.draft_get_or_start(product=product, user=author), user=author)
+    carried = second.review_items.get(rule_id="EFF-001", kind="raised")
+    assert carried.is_carried_unconfirmed and kept(second) == counted_now(second)
+    review_item_confirm(item=carried, user=reviewer, expected_version=carried.version)
+    assert kept(second) == counted_now(second)
+    html = page(client, reviewer, reverse("review_dashboard"))
+    open_now = sum(row[3] for row in counted_now(second))
+    assert f"{open_now} item{'s' if open_now != 1 else ''}" in html  # the pager's count of the open items
+    assert ReviewTally.objects.get(revision=second).open_items == open_now
