@@ -319,12 +319,12 @@ def test_a_400_digit_integer_in_an_import_is_named_by_its_path(client, product, 
 def test_nul_and_lone_surrogates_in_an_import_are_named_and_nothing_is_stored(client, product, author):
     client_for(client, author)
     before = product.draft.document
-    for escape, expected in (("\\u0000", "product.name: control character U+0000 not allowed"),
-                             ("\\ud800", "product.name: lone surrogate U+D800 not allowed"),
-                             ("\\u001b[32m", "product.name: control character U+001B not allowed")):
-        text = json.dumps(hive()).replace("Tallow Creek hive gateway", f"Tallow{escape} hive gateway")
+    for json_escape, expected in (("\\u0000", "product.name: control character U+0000 not allowed"),
+                                  ("\\ud800", "product.name: lone surrogate U+D800 not allowed"),
+                                  ("\\u001b[32m", "product.name: control character U+001B not allowed")):
+        text = json.dumps(hive()).replace("Tallow Creek hive gateway", f"Tallow{json_escape} hive gateway")
         response = client.post(reverse("design_import", args=[product.pk]), {"design_file": upload(text)})
-        assert response.status_code == 400 and expected in response.content.decode(), escape
+        assert response.status_code == 400 and expected in response.content.decode(), json_escape
     assert product.draft.document == before
     assert_pages_answer(client, [author], product)
 
@@ -478,5 +478,7 @@ def test_a_design_with_rule_set_2_fields_opens_evaluates_and_exports(client, tea
     revision = Revision.objects.get(product=product, number=1)
     assert {finding["basis"] for finding in revision.evaluation["findings"]} <= {"design", "datasheet", "measured"}
     from projectapp.signoff.pdf import _design_summary
+    from projectapp.signoff.record_fonts import register
 
+    register()  # what build_record_pdf does first: the record's fonts
     assert _design_summary(parse_design(revision.document))  # the record's design table draws these antennas
