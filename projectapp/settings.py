@@ -71,6 +71,7 @@ INSTALLED_APPS = [
     "django_htmx",
     "axes",
     "projectapp.teams",
+    "projectapp.library",
     "projectapp.designs",
     "projectapp.reviews",
     "projectapp.signoff",

@@ -14,6 +14,7 @@ urlpatterns = [
     path("admin/", admin.site.urls),
     path("healthz/", healthz, name="healthz"),
     path("", include("projectapp.designs.urls")),
+    path("", include("projectapp.library.urls")),
     path("", include("projectapp.reviews.urls")),
     path("", include("projectapp.signoff.urls")),
 ]

@@ -124,6 +124,15 @@ class DesignError(ValueError):
 
 
 @dataclass(frozen=True)
+class LibraryRef:
+    """Which entry of the team's parts library the values were filled from, and its version then. The engine
+    ignores it: the design carries the values themselves."""
+
+    name: str
+    version: int
+
+
+@dataclass(frozen=True)
 class Antenna:
     name: str
     role: str
@@ -137,6 +146,7 @@ class Antenna:
     cable_loss_db: float = 0.0
     peak_gain_dbi_per_band: Mapping[str, float] = field(default_factory=dict)  # when given band by band
     efficiency_source: str = "datasheet"
+    library: LibraryRef | None = None
 
     @property
     def transmits(self) -> bool:
@@ -169,6 +179,7 @@ class Modem:
     conducted_sensitivity_dbm: Mapping[str, float] = field(default_factory=dict)  # datasheet, per band
     full_duplex: bool = False  # LTE-M only: the module runs FD-FDD; default half-duplex (HD-FDD), as most do
     ntn: bool = False  # the module supports satellite (non-terrestrial network) access
+    library: LibraryRef | None = None
 
     @property
     def max_output_dbm(self) -> float:
@@ -597,7 +608,7 @@ def _parse_modem(reader: _Reader, value: Any) -> Modem | None:
         return None
     raw = reader.object(value, "modem", ("category", "bands", "rx_ports", "gain_limits_dbi",
                                          "operator_single_antenna_approval", "power_class",
-                                         "conducted_sensitivity_dbm", "full_duplex", "ntn"))
+                                         "conducted_sensitivity_dbm", "full_duplex", "ntn", "library"))
     if raw is None:
         return None
     category_id = raw.get("category")
@@ -650,6 +661,7 @@ def _parse_modem(reader: _Reader, value: Any) -> Modem | None:
         reader.problem("modem.full_duplex", "NB-IoT is half-duplex only (3GPP TS 36.306); expected false or "
                                             "nothing")
     ntn = reader.boolean(raw.get("ntn"), "modem.ntn", False)
+    library = _parse_library_ref(reader, raw.get("library"), "modem.library")
     for index, band in enumerate(selected):
         if band.satellite and not ntn:
             reader.problem(f"modem.bands[{index}]", f"{band.name} is a satellite (NTN) band; set modem.ntn to "
@@ -661,7 +673,7 @@ def _parse_modem(reader: _Reader, value: Any) -> Modem | None:
     if category is None or not selected:
         return None
     return Modem(category, tuple(selected), rx_ports, gain_limits, approval, power_class, sensitivity,
-                 full_duplex, ntn)
+                 full_duplex, ntn, library)
 
 
 def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:
@@ -676,7 +688,7 @@ def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:
         path = f"antennas[{index}]"
         raw = reader.object(item, path, ("name", "role", "mounting", "position_mm", "polarization", "ranges_mhz",
                                          "peak_gain_dbi", "efficiency_pct", "size_mm", "cable_loss_db",
-                                         "efficiency_source"))
+                                         "efficiency_source", "library"))
         if raw is None:
             complete = False
             continue
@@ -707,6 +719,7 @@ def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:
                                    unit="dB")
         efficiency_source = reader.choice(raw.get("efficiency_source"), f"{path}.efficiency_source",
                                           EFFICIENCY_SOURCES, "datasheet")
+        library = _parse_library_ref(reader, raw.get("library"), f"{path}.library")
         if len(reader.problems) > before or name is None or role is None:
             complete = False
             continue
@@ -716,6 +729,7 @@ def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:
             ranges_mhz=ranges, peak_gain_dbi=gain, efficiency_pct=efficiency,
             size_mm=size, cable_loss_db=cable_loss or 0.0,  # type: ignore[arg-type]
             peak_gain_dbi_per_band=gain_per_band, efficiency_source=efficiency_source or "datasheet",
+            library=library,
         ))
     return antennas if complete else None
 
@@ -729,6 +743,26 @@ def _parse_gain(reader: _Reader, value: Any, path: str) -> tuple[float | None, d
         reader.problem(path, f"expected a number in dBi, got {_show(value)}; or an object of band to dBi")
         return None, {}
     return reader.number(value, path, minimum=-30, maximum=30, unit="dBi"), {}
+
+
+LIBRARY_VERSION_MAX = 2**31 - 1
+
+
+def _parse_library_ref(reader: _Reader, value: Any, path: str) -> LibraryRef | None:
+    """`{"name": ..., "version": n}`: the parts-library entry the values were filled from (a note, not values)."""
+    if value is None:
+        return None
+    raw = reader.object(value, path, ("name", "version"))
+    if raw is None:
+        return None
+    name = reader.text(raw.get("name"), f"{path}.name", required=True)
+    if raw.get("version") is None:
+        reader.problem(f"{path}.version", f"required: expected a whole number from 1 to {LIBRARY_VERSION_MAX}")
+        return None
+    version = reader.integer(raw.get("version"), f"{path}.version", minimum=1, maximum=LIBRARY_VERSION_MAX)
+    if name is None or version is None:
+        return None
+    return LibraryRef(name, version)
 
 
 def _parse_ranges(reader: _Reader, value: Any, path: str) -> tuple[tuple[float, float], ...] | None:

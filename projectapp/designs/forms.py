@@ -2,6 +2,7 @@ from django import forms
 
 from projectapp.designs import questionnaire
 from projectapp.designs.models import Product
+from projectapp.library.models import Entry
 from projectapp.teams.models import Team
 
 MAX_DESIGN_FILE_BYTES = 1_000_000
@@ -61,6 +62,60 @@ class DraftVersionForm(forms.Form):
 
 VERSION_MESSAGE = ("version: expected the draft version this page was read at (a whole number); reload the page "
                    "and make the change again")
+
+
+class LibraryActionForm(forms.Form):
+    """A questionnaire button that fills a part from the team's library: `library:<row>`, `library:new` (a new
+    antenna row) or `library:modem`."""
+
+    action = forms.RegexField(r"^library:(modem|new|\d{1,4})$")
+
+    @property
+    def target(self) -> str:
+        return self.cleaned_data["action"].split(":", 1)[1]
+
+
+class LibraryEntryForm(forms.Form):
+    """The entry picked beside that button (its select is named `library-<target>-entry`)."""
+
+    entry = forms.ModelChoiceField(queryset=Entry.objects.none(), error_messages={
+        "required": "expected a part of the team's library to fill from",
+        "invalid_choice": "expected a part of the team's library (not retired) to fill from"})
+
+    def __init__(self, *args, entries, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.fields["entry"].queryset = entries
+
+
+class LibraryTargetForm(forms.Form):
+    """Which part of the draft a library change is reviewed for: the modem, or an antenna by its name."""
+
+    part = forms.ChoiceField(choices=[("modem", "modem"), ("antenna", "antenna")])
+    antenna = forms.CharField(max_length=200, required=False)
+
+    def clean(self):
+        cleaned = super().clean()
+        if cleaned.get("part") == "antenna" and not cleaned.get("antenna"):
+            self.add_error("antenna", "expected the name of the antenna in the draft")
+        return cleaned
+
+    @property
+    def kind(self) -> str:
+        return "module" if self.cleaned_data["part"] == "modem" else "antenna"
+
+    @property
+    def antenna_name(self) -> str | None:
+        return None if self.cleaned_data["part"] == "modem" else self.cleaned_data["antenna"]
+
+
+class LibraryApplyForm(LibraryTargetForm):
+    entry_version = forms.IntegerField(min_value=1, max_value=2**31 - 1)
+    apply = forms.MultipleChoiceField(required=False, choices=())
+    files = forms.BooleanField(required=False)
+
+    def __init__(self, *args, keys: list[str], **kwargs):
+        super().__init__(*args, **kwargs)
+        self.fields["apply"].choices = [(key, key) for key in keys]
 
 
 class SectionActionForm(forms.Form):

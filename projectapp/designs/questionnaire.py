@@ -17,6 +17,7 @@ from typing import Any
 
 from django.http import QueryDict
 
+from projectapp.typed_values import read_number, read_ranges, show_number, show_ranges
 from rules.catalog import DEFAULT_POWER_CLASS, bands, categories, power_classes
 from rules.design import EFFICIENCY_SOURCES, ENVIRONMENTS, MATERIALS, MOUNTINGS, ROLES, Problem, find_band
 
@@ -255,58 +256,6 @@ def band_presets() -> tuple[BandPreset, ...]:
 
 
 # -- reading typed values back --------------------------------------------------------------------------
-
-_RANGE_PATTERN = re.compile(r"^\s*(-?[\d.]+)\s*(?:-|–|—|to)\s*(-?[\d.]+)\s*$")
-
-
-def read_number(raw: str) -> Any:
-    """A typed number as a JSON number; anything else is kept as typed, for the parser to explain."""
-    text = raw.strip()
-    if text == "":
-        return None
-    try:
-        number = float(text)
-    except ValueError:
-        return text
-    if number != number or number in (float("inf"), float("-inf")):
-        return text
-    return int(number) if number.is_integer() and "." not in text and "e" not in text.lower() else number
-
-
-def read_ranges(raw: str) -> Any:
-    text = raw.strip()
-    if not text:
-        return None
-    ranges = []
-    for part in re.split(r"[,;]", text):
-        if not part.strip():
-            continue
-        match = _RANGE_PATTERN.match(part)
-        if not match:
-            return text
-        ranges.append([read_number(match.group(1)), read_number(match.group(2))])
-    return ranges
-
-
-def show_ranges(value: Any) -> str:
-    if isinstance(value, list):
-        parts = []
-        for item in value:
-            if isinstance(item, list) and len(item) == 2:
-                parts.append(f"{item[0]}-{item[1]}")
-            else:
-                return str(value)
-        return ", ".join(parts)
-    return "" if value is None else str(value)
-
-
-def show_number(value: Any) -> str:
-    if value is None:
-        return ""
-    if isinstance(value, bool):
-        return str(value).lower()
-    return str(value)
-
 
 def get_path(document: Any, path: str) -> Any:
     """document['antennas'][0]['name'] for 'antennas[0].name'; None where the path leads nowhere."""

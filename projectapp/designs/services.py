@@ -9,10 +9,12 @@ from django.core.files.base import ContentFile
 from django.db import transaction
 from django.utils import timezone
 
-from projectapp.designs import questionnaire
+from projectapp.designs import library_use, questionnaire
 from projectapp.designs.checklists import measurement_reader
 from projectapp.designs.document_changes import Changes, document_changes
 from projectapp.designs.models import MeasurementFile, Product, Revision
+from projectapp.library.models import Entry
+from projectapp.library.parts import ANTENNA, MODULE
 from projectapp.reviews.audit import audit_record
 from projectapp.reviews.models import AuditEvent
 from projectapp.reviews.services import review_items_create
@@ -533,3 +535,114 @@ def pattern_update(*, revision: Revision, name: str, antenna: str, absolute: boo
            summary=f"Set the antenna and environment of the far-field pattern {name} in draft revision "
                    f"{draft.number}")
     return [entries[other]["file"] for other in changed if other != index]
+
+
+# -- the team's parts library -----------------------------------------------------------------------------
+
+class LibraryEntryChanged(Exception):
+    """The library entry changed again after the version the author reviewed; nothing was stored."""
+
+    def __init__(self, entry: Entry):
+        self.entry = entry
+        super().__init__(f"{entry.name} is now version {entry.version}")
+
+
+def _usable_entry(entry: Entry, *, product: Product, kind: str) -> Entry:
+    if entry.team_id != product.team_id or entry.kind != kind:
+        raise PermissionDenied("That library entry is not one of this team's parts of that kind.")
+    return entry
+
+
+def _copy_library_files(*, draft: Revision, document: dict[str, Any], entry: Entry, antenna: str,
+                        user) -> tuple[Changes, list[str]]:
+    """Copies the entry's files the draft doesn't keep into its measurements (port 1 measured `antenna`), in the
+    document and as files. A different file of the same name in the draft refuses the whole change (ValueError)."""
+    kept = {measurement.name: measurement.sha256 for measurement in draft.measurement_files.all()}
+    copied: list[MeasurementFile] = []
+    for stored in entry.files.all():
+        if kept.get(stored.name) == stored.sha256:
+            continue
+        if stored.name in kept:
+            raise ValueError(f"{stored.name}: the draft already keeps a different file of that name; remove it from "
+                             "the measurements first, then fill again")
+        content = stored.read_bytes()
+        network = parse_touchstone(content.decode("utf-8", errors="replace"), source=stored.name)
+        ports = [antenna] + [None] * (network.port_count - 1)
+        document["measurements"] = [*_list(document.get("measurements")), {"file": stored.name, "ports": ports}]
+        measurement = MeasurementFile(revision=draft, name=stored.name, size_bytes=len(content),
+                                      sha256=MeasurementFile.digest(content), uploaded_by=user)
+        measurement.file.save(stored.name, ContentFile(content), save=False)
+        measurement.save()
+        copied.append(measurement)
+    keys = [FILE_KEY] if len(copied) == 1 else [f"{FILE_KEY}[{index}]" for index in range(len(copied))]
+    return ({key: [None, _describe_file(measurement) + f", from library part {entry.name} version {entry.version}"]
+             for key, measurement in zip(keys, copied, strict=True)}, [measurement.name for measurement in copied])
+
+
+@transaction.atomic
+def draft_library_fill(*, revision: Revision, section: questionnaire.Section, answers: Mapping[str, Any],
+                       target: str, entry: Entry, read_version: int, user) -> tuple[Revision, list[str]]:
+    """Saves a posted section with one of its parts filled from a library entry: an antenna row (`target` its
+    index, or "new" for a new row) or the modem ("modem"). The values are copied in with a note of the entry's
+    name and version, and an antenna entry's files are copied into the measurements. One versioned, audited
+    write, refused (DraftConflict) if the section changed after `read_version`. Returns the draft and the names
+    of the files copied."""
+    require_role(user, revision.product.team, Role.AUTHOR)
+    kind = MODULE if target == library_use.MODEM else ANTENNA
+    _usable_entry(entry, product=revision.product, kind=kind)
+    if entry.is_retired:
+        raise ValueError(f"{entry.name} is retired in the library; restore it there to use it")
+    draft = _locked_draft(revision)
+    document = questionnaire.apply_answers(draft.document, section, answers)  # what was typed meanwhile stays
+    if kind == MODULE:
+        document = library_use.fill_modem(document, entry)
+        where = "the modem"
+    else:
+        rows = _list(document.get("antennas"))
+        index = None if target == "new" else int(target)
+        if index is not None and not 0 <= index < len(rows):
+            raise ValueError(f"antennas[{index}]: no such antenna row in the draft")
+        document = library_use.fill_antenna(document, index, entry)
+        filled_row = document["antennas"][len(rows) if index is None else index]
+        where = f"antenna {filled_row.get('name')}"
+    _require_fresh(draft, section.slug, read_version)
+    file_changes, copied = ({}, [])
+    if kind == ANTENNA:
+        file_changes, copied = _copy_library_files(draft=draft, document=document, entry=entry,
+                                                   antenna=str(filled_row.get("name")), user=user)
+    draft = _store(draft=draft, document=document, user=user, action=AuditEvent.Action.LIBRARY_FILLED,
+                   summary=f"Filled {where} from library part {entry.name} version {entry.version} in draft "
+                           f"revision {draft.number}" + (f", with {len(copied)} file(s)" if copied else ""),
+                   file_changes=file_changes)
+    return draft, copied
+
+
+@transaction.atomic
+def draft_library_apply(*, revision: Revision, kind: str, antenna: str | None, entry: Entry, entry_version: int,
+                        keys: list[str], with_files: bool, read_version: int, user) -> Revision:
+    """Applies a newer version of a library entry to the part of the draft that noted an older one: the chosen
+    fields (`keys`) take the entry's values, the note moves to the entry's version, and (`with_files`) its new
+    files are copied in. Refused, with nothing stored, if the entry changed after `entry_version`
+    (LibraryEntryChanged) or the part's section changed after `read_version` (DraftConflict)."""
+    require_role(user, revision.product.team, Role.AUTHOR)
+    _usable_entry(entry, product=revision.product, kind=kind)
+    current = Entry.objects.get(pk=entry.pk)
+    if current.version != entry_version:
+        raise LibraryEntryChanged(current)
+    draft = _locked_draft(revision)
+    part = library_use.target_object(draft.document, kind, antenna)
+    if part is None or part[library_use.NOTE].get("name") != current.name:
+        raise ValueError(f"{'the modem' if antenna is None else 'antenna ' + antenna} of the draft no longer notes "
+                         f"library part {current.name}")
+    section = questionnaire.PRODUCT if kind == MODULE else questionnaire.ANTENNAS
+    _require_fresh(draft, section.slug, read_version)
+    document = library_use.apply_offer(draft.document, kind, antenna, current, keys)
+    file_changes: Changes = {}
+    if with_files and kind == ANTENNA and antenna is not None:
+        file_changes, _ = _copy_library_files(draft=draft, document=document, entry=current, antenna=antenna,
+                                              user=user)
+    noted = part[library_use.NOTE].get("version")
+    where = "the modem" if antenna is None else f"antenna {antenna}"
+    return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.LIBRARY_APPLIED,
+                  summary=f"Applied library part {current.name} version {noted} → {current.version} to {where} of "
+                          f"draft revision {draft.number}", file_changes=file_changes)

@@ -18,6 +18,7 @@ urlpatterns = [
          name="measurement_pattern_upload"),
     path("products/<int:product_id>/draft/measurements/far-field/change/", views.measurement_pattern_update,
          name="measurement_pattern_update"),
+    path("products/<int:product_id>/draft/library-update/", views.draft_library_update, name="draft_library_update"),
     path("products/<int:product_id>/draft/<slug:section>/", views.draft_section_save, name="draft_section_save"),
     path("products/<int:product_id>/import/", views.design_import, name="design_import"),
     path("products/<int:product_id>/revisions/<int:number>/", views.revision_detail, name="revision_detail"),

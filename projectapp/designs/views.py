@@ -17,10 +17,10 @@ from django.http import HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.views.decorators.http import require_GET, require_http_methods, require_POST
-from django_htmx.http import reswap
+from django_htmx.http import HttpResponseClientRedirect, reswap
 
 from projectapp import fragments
-from projectapp.designs import coverage_panel, pattern_facts, questionnaire, services
+from projectapp.designs import coverage_panel, library_use, pattern_facts, questionnaire, services
 from projectapp.designs.access import (
     get_product_for_user,
     get_revision_for_user,
@@ -43,6 +43,10 @@ from projectapp.designs.forms import (
     VERSION_MESSAGE,
     DraftVersionForm,
     ImportForm,
+    LibraryActionForm,
+    LibraryApplyForm,
+    LibraryEntryForm,
+    LibraryTargetForm,
     MeasurementFileForm,
     PatternChangeForm,
     PatternForm,
@@ -64,6 +68,7 @@ from projectapp.figures.placement import (
     pair_severities_from_findings,
     placement_svg,
 )
+from projectapp.library.models import Entry
 from projectapp.teams.access import has_role, require_role, teams_where
 from projectapp.teams.models import Role
 from rules.coverage import OutsideValidity
@@ -197,21 +202,59 @@ def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> di
 
 
 def _section_item(section: questionnaire.Section, document: dict, problems: list[Problem], *, version: int,
-                  conflict: services.DraftConflict | None = None) -> dict:
+                  library: dict[str, list[Entry]], conflict: services.DraftConflict | None = None) -> dict:
     """One questionnaire section as _section.html shows it: its fields, problems no field holds, the draft
-    version its values were read at, and a conflict if its last save met someone else's change."""
+    version its values were read at, the library parts it can be filled from, and a conflict if its last save
+    met someone else's change."""
     fields = questionnaire.section_fields(section, document, problems)
     flat = [item for row in fields for item in row] if section is questionnaire.ANTENNAS else fields
+    notes: list = []
+    if section is questionnaire.ANTENNAS:
+        notes = [row.get("library") if isinstance(row, dict) and isinstance(row.get("library"), dict) else None
+                 for row in document.get("antennas") or []] if isinstance(document.get("antennas"), list) else []
+    elif isinstance(document.get("modem"), dict) and isinstance(document["modem"].get("library"), dict):
+        notes = [document["modem"]["library"]]
     return {"section": section, "fields": fields, "flat": flat, "version": version, "conflict": conflict,
-            "loose_problems": questionnaire.section_problems(section, problems, flat)}
+            "loose_problems": questionnaire.section_problems(section, problems, flat),
+            "library": library.get(section.slug, []), "rows": list(zip(fields, notes + [None] * len(fields),
+                                                                        strict=False))
+            if section is questionnaire.ANTENNAS else [], "note": notes[0] if notes and section is
+            questionnaire.PRODUCT else None}
+
+
+def _library_choices(product) -> dict[str, list[Entry]]:
+    """The team's parts the questionnaire offers, per section: antennas and modules not retired."""
+    entries = list(Entry.objects.filter(team_id=product.team_id, retired_at__isnull=True).order_by("name")
+                   .only("pk", "name", "version", "kind", "team_id"))
+    return {questionnaire.ANTENNAS.slug: [entry for entry in entries if entry.kind == Entry.Kind.ANTENNA],
+            questionnaire.PRODUCT.slug: [entry for entry in entries if entry.kind == Entry.Kind.MODULE]}
+
+
+def _library_stamp(product) -> tuple:
+    """What the draft page shows of the team's library (the pickers and the offers of newer versions)."""
+    return tuple(Entry.objects.filter(team_id=product.team_id).order_by("pk").values_list(
+        "pk", "name", "version", "retired_at"))
+
+
+def _library_offers(revision: Revision) -> list[library_use.Offer]:
+    names = library_use.noted_names(revision.document)
+    if not names:
+        return []
+    entries = {entry.name: entry for entry in Entry.objects.filter(team_id=revision.product.team_id, name__in=names)
+               .prefetch_related("files")}
+    kept = dict(revision.measurement_files.values_list("name", "sha256"))
+    return library_use.offers_for(revision.document, entries, kept)
 
 
 def _draft_context(revision: Revision, state: ChecklistState, *, kept: dict | None = None) -> dict:
     """The draft page's context; `kept` replaces one section's item (a conflict shown with what was typed)."""
+    library = _library_choices(revision.product)
     sections = [kept if kept and kept["section"] is section
-                else _section_item(section, revision.document, state.problems, version=revision.version)
+                else _section_item(section, revision.document, state.problems, version=revision.version,
+                                   library=library)
                 for section in questionnaire.SECTIONS]
     return {"product": revision.product, "revision": revision, "sections": sections,
+            "library_offers": _library_offers(revision),
             "presets": questionnaire.band_presets(), "measurements": _measurement_rows(revision, state.problems),
             "pattern_defaults": _pattern_defaults(revision),
             "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, **_panel_context(state)}
@@ -280,7 +323,8 @@ def draft_edit(request, product_id: int):
     # The page carries the draft's version in every form (what each save names as read), so it is part of
     # the key; the state key names the content, which the checklist and figures are cached by.
     return fragments.page(request, "designs/draft_edit.html",
-                          ("draft", state_key(draft), draft.version, product.pk, product.name, draft.number),
+                          ("draft", state_key(draft), draft.version, product.pk, product.name, draft.number,
+                           _library_stamp(product)),
                           lambda: _draft_context(draft, checklist_for(draft)), timeout=fragments.DAY)
 
 
@@ -318,13 +362,41 @@ def draft_section_save(request, product_id: int, section: str):
     form = DraftVersionForm(request.POST)
     if not form.is_valid():
         return _not_saved(request, product, current, VERSION_MESSAGE, status=400)
-    extras = SectionActionForm(request.POST)  # the row action and preset; apply_answers() reads them once valid
+    library_action = LibraryActionForm(request.POST)
+    filling = request.POST.get("action", "").startswith("library:")
+    # the row action and preset; apply_answers() reads them once valid (a library action is read below)
+    extras = SectionActionForm({key: value for key, value in request.POST.items() if key != "action"}
+                               if filling else request.POST)
     if not extras.is_valid():
         return _not_saved(request, product, current, "Nothing was saved: " + "; ".join(
             str(error) for errors in extras.errors.values() for error in errors), status=400)
+    copied: list[str] = []
     try:
-        draft = services.draft_section_save(revision=draft, section=current, answers=request.POST,
-                                            read_version=form.read_version, user=request.user)
+        if filling:
+            if not library_action.is_valid():
+                return _not_saved(request, product, current, "action: expected library:<row>, library:new or "
+                                                             "library:modem; nothing was stored", status=400)
+            target = library_action.target
+            if (target == "modem") != (current is questionnaire.PRODUCT) or current not in (
+                    questionnaire.PRODUCT, questionnaire.ANTENNAS):
+                return _not_saved(request, product, current, "action: this section has no such library part; "
+                                                             "nothing was stored", status=400)
+            kind = Entry.Kind.MODULE if target == "modem" else Entry.Kind.ANTENNA
+            pick = LibraryEntryForm(request.POST, prefix=f"library-{target}", entries=Entry.objects.filter(
+                team_id=product.team_id, kind=kind, retired_at__isnull=True))
+            if not pick.is_valid():
+                return _not_saved(request, product, current, f"library-{target}-entry: "
+                                  + "; ".join(pick.errors["entry"]) + "; nothing was stored", status=400)
+            draft, copied = services.draft_library_fill(
+                revision=draft, section=current, answers=request.POST, target=target,
+                entry=pick.cleaned_data["entry"], read_version=form.read_version, user=request.user)
+            if copied or not request.htmx:  # with htmx the filled row shows its note; a reload shows this
+                messages.success(request, f"Filled from library part {pick.cleaned_data['entry'].name}"
+                                 + (f"; copied {', '.join(copied)} into the measurements (check the port map)."
+                                    if copied else "."))
+        else:
+            draft = services.draft_section_save(revision=draft, section=current, answers=request.POST,
+                                                read_version=form.read_version, user=request.user)
     except services.DraftGone:
         return _not_saved(request, product, current, GONE_MESSAGE.format(product=product.name), status=409)
     except services.DraftConflict as conflict:
@@ -332,6 +404,10 @@ def draft_section_save(request, product_id: int, section: str):
     except DesignError as error:  # what no database can hold (services.require_storable)
         return _not_saved(request, product, current, "Nothing was saved: " + "; ".join(
             str(problem) for problem in error.problems), status=400)
+    except (ValueError, TouchstoneError) as error:
+        return _not_saved(request, product, current, f"{error}; nothing was stored", status=400)
+    if request.htmx and copied:  # the measurements block changed too: the page again, at the section
+        return HttpResponseClientRedirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
     if request.htmx:
         state = checklist_for(draft)
         panel = fragments.shared("designs/_panel_oob.html", ("panel", state_key(draft), product.pk),
@@ -341,7 +417,9 @@ def draft_section_save(request, product_id: int, section: str):
                     else "designs/draft_section_saved.html")
         return render(request, template, {
             "product": product, "revision": draft, "presets": questionnaire.band_presets(),
-            "current": _section_item(current, draft.document, state.problems, version=draft.version),
+            "current": _section_item(current, draft.document, state.problems, version=draft.version,
+                                     library={} if request.POST.get("answer") == "messages"  # no inputs sent back
+                                     else _library_choices(product)),
             "panel": fragments.personal(panel, request)})
     messages.success(request, f"{current.title} saved.")
     return redirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
@@ -373,7 +451,8 @@ def _section_conflict(request, section: questionnaire.Section, conflict: service
             "product": draft.product, "conflict": conflict, "current": {"section": section}}, status=409)
         return reswap(response, "none")
     typed = questionnaire.apply_answers(draft.document, section, request.POST)
-    kept = _section_item(section, typed, _problems_of(typed), version=conflict.read_version, conflict=conflict)
+    kept = _section_item(section, typed, _problems_of(typed), version=conflict.read_version,
+                         library=_library_choices(draft.product), conflict=conflict)
     return render(request, "designs/draft_edit.html", _draft_context(draft, checklist_for(draft), kept=kept),
                   status=409)
 
@@ -700,3 +779,55 @@ def measurement_pattern_update(request, product_id: int):
                                                  "since patterns are compared in one environment" if others else "")
                      + ".")
     return _back_to_measurements(product)
+
+
+@login_required
+@require_http_methods(["GET", "POST"])
+def draft_library_update(request, product_id: int):
+    """A newer version of a library part the draft was filled from: what applying it changes, field by field
+    (GET), and applying the fields the author keeps ticked (POST). Only drafts are offered it; a submitted
+    revision keeps what it was submitted with."""
+    product = get_product_for_user(request.user, product_id)
+    if not has_role(request.user, product.team, Role.AUTHOR):
+        return render(request, "designs/no_role.html", {"role": "author", "product": product}, status=403)
+    draft = product.draft
+    if draft is None:
+        return render(request, "designs/gone.html", {"product": product}, status=404)
+    target = LibraryTargetForm(request.POST if request.method == "POST" else request.GET)
+    context = {"product": product, "revision": draft, "target": target, "offer": None, "problems": []}
+    if not target.is_valid():
+        context["problems"] = [f"{name}: {'; '.join(errors)}" for name, errors in target.errors.items()]
+        return render(request, "designs/library_update.html", context, status=400)
+    offer = next((offer for offer in _library_offers(draft)
+                  if offer.kind == target.kind and offer.antenna == target.antenna_name), None)
+    context["offer"] = offer
+    if request.method == "GET" or offer is None:
+        return render(request, "designs/library_update.html", context)
+    form = LibraryApplyForm(request.POST, keys=[change.key for change in offer.changes])
+    version = DraftVersionForm(request.POST)
+    if not form.is_valid() or not version.is_valid():
+        context["problems"] = [f"{name}: {'; '.join(errors)}" for name, errors in
+                               [*form.errors.items(), *version.errors.items()]] or [VERSION_MESSAGE]
+        return render(request, "designs/library_update.html", context, status=400)
+    try:
+        services.draft_library_apply(revision=draft, kind=offer.kind, antenna=offer.antenna, entry=offer.entry,
+                                     entry_version=form.cleaned_data["entry_version"],
+                                     keys=form.cleaned_data["apply"], with_files=form.cleaned_data["files"],
+                                     read_version=version.read_version, user=request.user)
+    except services.LibraryEntryChanged as changed:
+        context["problems"] = [f"{changed.entry.name} changed again (now version {changed.entry.version}) while "
+                               "you reviewed it: nothing was applied; review its changes again below"]
+        return render(request, "designs/library_update.html", context, status=409)
+    except services.DraftConflict as conflict:
+        context["conflict"] = conflict
+        context["revision"] = conflict.revision
+        return render(request, "designs/library_update.html", context, status=409)
+    except services.DraftGone:
+        return render(request, "designs/gone.html", {"product": product}, status=409)
+    except (ValueError, TouchstoneError) as error:
+        context["problems"] = [f"{error}; nothing was applied"]
+        return render(request, "designs/library_update.html", context, status=400)
+    messages.success(request, f"Library part {offer.entry.name} version {offer.entry.version} applied to "
+                              f"{offer.where}.")
+    return redirect(reverse("draft_edit", args=[product.pk])
+                    + ("#section-product" if offer.kind == "module" else "#section-antennas"))

@@ -3,18 +3,8 @@ never edited by anyone."""
 
 from django.contrib import admin
 
+from projectapp.read_only_admin import ReadOnlyAdmin
 from projectapp.reviews.models import AuditEvent, Comment, ReviewItem
-
-
-class ReadOnlyAdmin(admin.ModelAdmin):
-    def has_add_permission(self, request):
-        return False
-
-    def has_change_permission(self, request, obj=None):
-        return False
-
-    def has_delete_permission(self, request, obj=None):
-        return False
 
 
 @admin.register(ReviewItem)

@@ -15,6 +15,7 @@ from django.db import models
 from django.urls import reverse
 
 from projectapp.designs.models import Product, Revision
+from projectapp.teams.models import Team
 
 
 class Disposition(models.TextChoices):
@@ -203,12 +204,25 @@ class AuditEvent(models.Model):
         FILE_ADDED = "file-added", "Added a measurement file"
         FILE_MAPPED = "file-mapped", "Mapped a measurement's ports"
         FILE_REMOVED = "file-removed", "Removed a measurement file"
+        LIBRARY_FILLED = "library-filled", "Filled a part from the library"
+        LIBRARY_APPLIED = "library-applied", "Applied a library change"
+        PART_CREATED = "part-created", "Added a library part"
+        PART_CHANGED = "part-changed", "Changed a library part"
+        PART_RETIRED = "part-retired", "Retired a library part"
+        PART_RESTORED = "part-restored", "Restored a library part"
+        PART_FILE_ADDED = "part-file-added", "Added a file to a library part"
+        PART_FILE_REMOVED = "part-file-removed", "Removed a file from a library part"
 
-    product = models.ForeignKey(Product, on_delete=models.PROTECT, related_name="audit_events")
+    # A design or review event belongs to a product; a parts-library event to its team alone, with
+    # `subject` naming the library entry ("library-entry:<id>").
+    product = models.ForeignKey(Product, on_delete=models.PROTECT, null=True, blank=True,
+                                related_name="audit_events")
+    team = models.ForeignKey(Team, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
+    subject = models.CharField(max_length=80, blank=True, db_index=True)
     revision = models.ForeignKey(Revision, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
     item = models.ForeignKey(ReviewItem, on_delete=models.PROTECT, null=True, blank=True, related_name="audit_events")
     actor = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
-    action = models.CharField(max_length=16, choices=Action.choices)
+    action = models.CharField(max_length=24, choices=Action.choices)
     summary = models.CharField(max_length=300)
     changes = models.JSONField(default=dict)  # {"field": [before, after], ...}; design paths for design edits
     draft_version = models.PositiveIntegerField(null=True, blank=True)  # the draft version a design edit made
@@ -223,6 +237,8 @@ class AuditEvent(models.Model):
     def save(self, *args, **kwargs):
         if self.pk is not None:
             raise AppendOnlyError("audit events are never changed")
+        if self.team_id is None and self.product_id is not None:
+            self.team_id = self.product.team_id  # every event names its team, whichever path wrote it
         super().save(*args, **kwargs)
 
     def delete(self, *args, **kwargs):

@@ -26,6 +26,7 @@ from django.urls import URLPattern, URLResolver, get_resolver, path, reverse
 from projectapp.designs import questionnaire, services
 from projectapp.designs.forms import MAX_DESIGN_FILE_BYTES
 from projectapp.designs.models import Product, Revision
+from projectapp.library import services as library
 from projectapp.reviews.models import ReviewItem
 from projectapp.teams.models import Role, Team
 from tests.web.conftest import EXAMPLES, PASSWORD, make_user
@@ -109,7 +110,7 @@ def test_the_walk_sees_the_whole_site_and_says_what_it_skips():
 
 
 # -- the data: this team's (the one being protected) and another team's -----------------------------------------
-MINE = ("Tallow Creek Instruments", "Orchard soil probe", "Hive gateway")  # names only this team's pages show
+MINE = ("Tallow Creek Instruments", "Orchard soil probe", "Hive gateway", "Reed flex 2")  # names only this team's pages show
 
 
 @dataclass
@@ -147,8 +148,13 @@ def site(db, team, author):
     outsider_product = services.product_create(team=other_team, name="Larchmere water meter", user=outsider)
     item = ReviewItem.objects.filter(revision=revision).order_by("pk").first()
     assert item is not None, "the orchard probe's submitted revision should raise at least one item"
+    entry = library.entry_create(team=team, kind="antenna", name="Reed flex 2", values={"peak_gain_dbi": 1.2},
+                                 user=author)
+    stored = library.entry_file_add(entry=entry, name="reed.s2p", content=(EXAMPLES / "field-router-revA.s2p")
+                                    .read_bytes(), read_version=1, user=author)
     kwargs = {"product_id": submitted.pk, "number": revision.number, "item_id": item.pk,
-              "section": questionnaire.SECTIONS[0].slug}
+              "section": questionnaire.SECTIONS[0].slug, "team_id": team.pk, "entry_id": entry.pk,
+              "file_id": stored.pk}
     record = _signed_record(revision, author)
     if record is not None:
         kwargs["record_id"] = record.pk
@@ -438,7 +444,10 @@ def test_pages_keep_to_the_content_security_policy(client, site):
              reverse("draft_edit", args=[site.draft_product.pk]),
              reverse("revision_detail", args=[site.submitted.pk, 1]),
              reverse("revision_review", args=[site.submitted.pk, 1]),
-             reverse("review_item", args=[site.kwargs["item_id"]]), reverse("password_change")]
+             reverse("review_item", args=[site.kwargs["item_id"]]), reverse("password_change"),
+             reverse("library_list", args=[site.kwargs["team_id"]]),
+             reverse("library_entry", args=[site.kwargs["entry_id"]]),
+             reverse("library_antenna_create", args=[site.kwargs["team_id"]])]
     for url in pages:
         response = client.get(url)
         assert response.status_code == 200, url

@@ -12,8 +12,10 @@ from django.contrib.auth import get_user_model
 from django.core.management.base import BaseCommand
 from django.db import transaction
 
-from projectapp.designs import services
+from projectapp.designs import library_use, services
 from projectapp.designs.models import Product
+from projectapp.library import services as library
+from projectapp.library.models import Entry
 from projectapp.teams.models import Membership, Role, Team
 
 EXAMPLES = Path(__file__).resolve().parents[4] / "rules" / "examples"
@@ -41,6 +43,54 @@ PRODUCTS = [
     ("Field router", "Cat 4 router with a measured two-port S-parameter file.",
      "field-router.json", ["field-router-revA.s2p"], True),
 ]
+
+
+# The team's parts library: invented parts with demo-only figures (plausible, not from any datasheet).
+# name, kind, description, values
+PARTS = [
+    ("TCI flex antenna F2", "antenna", "Internal flex antenna on the lid, 40 mm, U.FL pigtail",
+     {"mounting": "internal", "ranges_mhz": [[698, 960], [1710, 2200]], "peak_gain_dbi": 2.0,
+      "efficiency_pct": {"B2": 52, "B4": 50, "B12": 34, "B13": 36, "B66": 50}, "size_mm": [40, 8, 3],
+      "polarization": [1, 0, 0]}),
+    ("TCI whip antenna W7", "antenna", "External whip on an SMA bulkhead with 0.5 m of cable",
+     {"mounting": "external", "ranges_mhz": [[698, 960], [1710, 2700]], "peak_gain_dbi": 3.0,
+      "efficiency_pct": {"B3": 62, "B8": 55, "B20": 51}, "size_mm": [110, 12, 12], "polarization": [0, 0, 1],
+      "cable_loss_db": 0.5}),
+    ("TCI chip antenna C1", "antenna", "Ceramic chip antenna at the board edge, needs 30 mm of clearance",
+     {"mounting": "internal", "ranges_mhz": [[824, 960], [1710, 2170]], "peak_gain_dbi": 0.5,
+      "efficiency_pct": {"B2": 45, "B5": 35}, "size_mm": [10, 3, 1]}),
+    ("TCI Cat 1 module C1", "module", "The team's Cat 1 module for North America",
+     {"category": "cat-1", "bands": ["B2", "B4", "B5", "B12", "B13", "B14", "B66", "B71"], "rx_ports": 2,
+      "gain_limits_dbi": {"B2": 6.0, "B4": 6.0, "B5": 5.0, "B12": 5.0, "B13": 5.0, "B66": 6.0}, "power_class": 3,
+      "conducted_sensitivity_dbm": {"B2": -100.5, "B12": -101.0, "B13": -101.0}}),
+    ("TCI LTE-M module M1", "module", "The team's LTE-M / NB-IoT module, half duplex",
+     {"category": "cat-m1", "bands": ["B2", "B3", "B4", "B5", "B8", "B12", "B13", "B20", "B28", "B66"],
+      "rx_ports": 1, "gain_limits_dbi": {"B2": 6.0, "B4": 6.0, "B12": 4.5, "B13": 4.5}, "power_class": 3}),
+]
+# The flex antenna's second version (a revised efficiency table): the cold-chain tracker's draft, filled from the
+# first, is offered it.
+FLEX_V2_EFFICIENCY = {"B2": 50, "B4": 49, "B12": 31, "B13": 33, "B66": 48}
+
+
+def seed_library(team, *, author, reviewer) -> dict[str, Entry]:
+    """The team's parts, once: if the library holds any entry, it is left as it is."""
+    if Entry.objects.filter(team=team).exists():
+        return {}
+    return {name: library.entry_create(team=team, kind=kind, name=name, description=description,
+                                       values=values, user=author)
+            for name, kind, description, values in PARTS}
+
+
+def fill_cold_chain_tracker(product, parts: dict[str, Entry], *, author, reviewer) -> None:
+    """The tracker's draft takes its antenna and modem from the library; then the antenna's entry gets a new
+    version, which the draft shows as a change to review."""
+    draft = product.draft
+    document = library_use.fill_antenna(draft.document, 0, parts["TCI flex antenna F2"])
+    document = library_use.fill_modem(document, parts["TCI Cat 1 module C1"])
+    services.draft_save_document(revision=draft, document=document, user=author)
+    flex = parts["TCI flex antenna F2"]
+    library.entry_update(entry=flex, values={**flex.values, "efficiency_pct": FLEX_V2_EFFICIENCY},
+                         description=flex.description, read_version=flex.version, user=reviewer)
 
 
 def cold_chain_tracker() -> dict:
@@ -78,6 +128,7 @@ class Command(BaseCommand):
 
         team = Team.objects.get(name=TEAM)
         author = users["maren"]
+        parts = seed_library(team, author=author, reviewer=users["tobias"])
         created = 0
         for name, description, example, measurement_files, submit in PRODUCTS:
             if Product.objects.filter(team=team, name=name).exists():
@@ -92,6 +143,8 @@ class Command(BaseCommand):
                                    user=author)
             if submit:
                 services.revision_submit(revision=product.draft, user=author)
+            elif example is None and parts:
+                fill_cold_chain_tracker(product, parts, author=author, reviewer=users["tobias"])
             created += 1
 
         if created == 0:
