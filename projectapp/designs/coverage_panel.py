@@ -101,11 +101,16 @@ def headline(rows: Sequence[Mapping[str, Any]]) -> list[str]:
     losing = [row for row in rows if row.get("area_share_pct") is not None and row["area_share_pct"] < 99.5]
     keeping = [row["band"] for row in rows if row.get("area_share_pct") is not None and row["area_share_pct"] >= 99.5]
     first = rows[0]
-    cost = (f"One receive branch fewer costs the downlink about {_cell('x', first['single_branch_cost_db'])} dB "
-            f"(published single-branch figures, {_cell('x', first['single_branch_cost_range_db'])} dB; at most "
-            f"{_cell('x', first['fading_bound_db'])} dB in flat Rayleigh fading)")
-    if len({row["single_branch_cost_db"] for row in rows}) > 1:
-        cost = "One receive branch fewer costs the downlink a few dB, band by band as the table shows"
+
+    def spread(key: str) -> str:
+        values = sorted({row[key] for row in rows})
+        return _cell("x", values[0]) if len(values) == 1 else f"{_cell('x', values[0])}–{_cell('x', values[-1])}"
+
+    ranges = [row["single_branch_cost_range_db"] for row in rows]
+    cost = (f"One receive branch fewer costs the downlink about {spread('single_branch_cost_db')} dB "
+            f"(the published single-branch figures, {_cell('x', min(low for low, _ in ranges))}–"
+            f"{_cell('x', max(high for _, high in ranges))} dB; at most {spread('fading_bound_db')} dB in flat "
+            "Rayleigh fading)")
     if keeping:
         cost += f"; where the uplink limits even then ({_bands(keeping)}) that costs no range"
     sentences.append(cost + ".")

@@ -140,10 +140,10 @@ ENCLOSURE = Section(
 ANTENNA_QUESTIONS = (
     Question("name", "Name", "text", "A short label, unique in the design (as on the schematic: ANT1, DIV)."),
     Question("role", "Role", "choice",
-             "What the antenna is for. 'main' is on the module's main port and transmits and receives; "
-             "'receive' is a second cellular path that only receives (diversity or MIMO). GNSS and WLAN "
-             "antennas serve other radios in the product: they are not counted as cellular antennas, but the "
-             "checklist looks at how close they sit to the cellular ones.", choices=ROLE_CHOICES),
+             "What the antenna is for. 'main' sits on the module's main port: it sends and receives. 'receive' is "
+             "a second cellular path that only receives (diversity, MIMO). GNSS and WLAN antennas serve other "
+             "radios: not counted as cellular, but checked for interference from the cellular ones.",
+             choices=ROLE_CHOICES),
     Question("mounting", "Mounting", "choice",
              "'internal' sits inside the enclosure (chip, flex, PCB trace); 'external' is outside on a "
              "connector or cable.", choices=tuple((mounting, mounting) for mounting in MOUNTINGS),
@@ -480,7 +480,8 @@ class Field:
 
 
 def _errors_for(path: str, problems: list[Problem]) -> list[str]:
-    return [problem.message for problem in problems
+    """The problems at or inside a field, each with its own path (`modem.gain_limits_dbi.B8: ...` names the band)."""
+    return [str(problem) for problem in problems
             if problem.path == path or problem.path.startswith((path + "[", path + "."))]
 
 
@@ -492,7 +493,7 @@ def _field(question: Question, name: str, value: Any, problems: list[Problem], s
         item.parts = [(label, f"{name}[{index}]", show_number(values[index]) if index < len(values) else "")
                       for index, label in enumerate(question.parts)]
         if value is not None and not isinstance(value, list):
-            item.errors.append(f"stored value {value!r} is not a list")
+            item.errors.append(f"{name}: stored value {value!r} is not a list")
     elif question.kind == "choice":
         current = question.default if value is None else str(value)
         options = [(choice, label, choice == current) for choice, label in question.choices]

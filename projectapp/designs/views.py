@@ -163,7 +163,9 @@ def _figures(state: ChecklistState, id_prefix: str) -> dict:
             design, pair_severities=pair_severities_from_findings(state.findings),
             frequency_mhz=design.lowest_mhz, id_prefix=id_prefix,
             coexistence=coexistence_lines_from_findings(state.findings, design)))
-        measurements = attempt("measurements", lambda: load_measurements(state)) or ()
+        measurements = attempt("measurements", lambda: load_measurements(state))
+        if measurements is None:  # an empty AttachedMeasurements still carries its far-field patterns
+            measurements = ()
         coverage = attempt("coverage estimate", lambda: coverage_rows(state)) or []
         if coverage:
             coverage_svg = attempt("coverage chart", lambda: chart_svg(

@@ -30,7 +30,7 @@ from reportlab.lib.validators import isAnything
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
 from rules import physics
-from rules.design import CELLULAR_ROLES, Antenna, Design
+from rules.design import CELLULAR_ROLES, Antenna, Design, find_band
 from rules.findings import SEVERITIES, Finding
 
 INK = colors.HexColor("#1f2a33")
@@ -198,7 +198,8 @@ def coexistence_lines_from_findings(findings: Iterable[Finding | Mapping[str, An
     A finding's subjects name the antennas (and the band); a finding that names only the victim is drawn
     from the transmitting (main) antennas, whose uplink is the aggressor, and one that names only a cellular
     antenna to every antenna of the victim's radio (its evidence `victim`, e.g. 'GNSS L1/E1'). Stored
-    checklists work too (the findings' dict form); names the design doesn't have are left out."""
+    checklists work too (the findings' dict form); a finding that names an antenna the design doesn't have is
+    left out."""
     roles = {antenna.name: antenna.role for antenna in design.antennas}
     found: dict[tuple[str, str], tuple[str, list[str], list[str]]] = {}
     for finding in findings:
@@ -211,7 +212,10 @@ def coexistence_lines_from_findings(findings: Iterable[Finding | Mapping[str, An
         if topic != "coexistence" or severity not in SEVERITIES or not isinstance(subjects, (list, tuple)):
             continue
         evidence = evidence if isinstance(evidence, Mapping) else {}
-        named = [subject for subject in subjects if isinstance(subject, str) and subject in roles]
+        if any(not isinstance(subject, str) or (subject not in roles and find_band(subject) is None)
+               for subject in subjects):
+            continue  # it names an antenna this design does not have (say, a renamed one): nothing to join
+        named = [subject for subject in subjects if subject in roles]
         victim_text = evidence.get("victim") if isinstance(evidence.get("victim"), str) else ""
         victim_role = "wlan" if victim_text.upper().startswith("WLAN") else "gnss" if victim_text else None
         cellular = [name for name in named if roles[name] in CELLULAR_ROLES]
@@ -805,7 +809,7 @@ def _legend_groups(frequency_mhz: float, near_field_mm: float, quarter_wave_mm: 
                    "projected; shorter when tilted out of view"),
             _Entry(lambda group, x, y: _out_of_page(group, x, y, dot=True), "axis out of the page"),
         ]),
-        (f"Around each antenna at {frequency}", [
+        (f"Around each {'cellular ' if roles - set(CELLULAR_ROLES) else ''}antenna at {frequency}", [
             _Entry(zone(NEAR_FIELD_DASH, NEAR_FIELD_TINT), f"λ/2π = {near_field_mm:.1f} mm at {frequency}",
                    "reactive near field"),
             _Entry(zone(QUARTER_WAVE_DASH, None), f"λ/4 = {quarter_wave_mm:.1f} mm at {frequency}",
