@@ -22,7 +22,7 @@ from typing import Any
 
 import numpy as np
 from reportlab.graphics import renderSVG
-from reportlab.graphics.shapes import Circle, Drawing, Group, Line, Polygon, Rect, String
+from reportlab.graphics.shapes import Circle, Drawing, Group, Line, Polygon, PolyLine, Rect, String
 from reportlab.lib import colors
 from reportlab.lib.attrmap import AttrMap, AttrMapValue
 from reportlab.lib.utils import simpleSplit
@@ -475,6 +475,12 @@ def _arrow(group: Group, x: float, y: float, dx: float, dy: float, half_pt: floa
     return start, end
 
 
+def _dashed(start: tuple[float, float], end: tuple[float, float], colour: colors.Color) -> PolyLine:
+    """A coexistence line. A PolyLine, not a Line: the SVG renderer closes a Line's path (Z), and a dash pattern
+    drawn there and back fills its own gaps."""
+    return PolyLine([*start, *end], strokeColor=colour, strokeWidth=1.5, strokeDashArray=COEXISTENCE_DASH)
+
+
 def _out_of_page(group: Group, x: float, y: float, dot: bool = False) -> Box:
     """The circled dot of an axis perpendicular to the view; around a marker the marker is the dot."""
     group.add(Circle(x, y, OUT_OF_PLANE_RING_PT, fillColor=None, strokeColor=INK, strokeWidth=1.1))
@@ -701,8 +707,7 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
     for line in coexistence:
         start, end = points[line.cellular], points[line.victim]
         if start != end:
-            group.add(Line(*start, *end, strokeColor=SEVERITY_COLOURS[line.severity], strokeWidth=1.5,
-                           strokeDashArray=COEXISTENCE_DASH))
+            group.add(_dashed(start, end, SEVERITY_COLOURS[line.severity]))
             placer.block_segment(start, end, 1.5, 1.0)
 
     for antenna in placed:
@@ -824,8 +829,7 @@ def _legend_groups(frequency_mhz: float, near_field_mm: float, quarter_wave_mm: 
         ("Cellular antenna pairs, feed to feed", [
             *(_Entry(pair_line(SEVERITY_COLOURS[severity]), severity) for severity in SEVERITIES),
             _Entry(pair_line(NO_FINDING_COLOUR), "no finding", "label: 3-D distance in mm"),
-            *([_Entry(lambda group, x, y: group.add(Line(x - 11, y, x + 11, y, strokeColor=SEVERITY_COLOURS["warning"],
-                                                         strokeWidth=1.5, strokeDashArray=COEXISTENCE_DASH)),
+            *([_Entry(lambda group, x, y: group.add(_dashed((x - 11, y), (x + 11, y), SEVERITY_COLOURS["warning"])),
                       "dashed: coexistence finding", "cellular bands → the GNSS or WLAN band")] if coexistence else []),
         ]),
     ]

@@ -103,3 +103,22 @@ def test_a_revision_checked_under_rule_set_1_still_renders_without_a_basis(clien
     text = pdf_text(build_record_pdf(Revision.objects.get(pk=tracker.pk), fingerprint="0" * 64))
     assert "1.1.0" in text and "Cleared by measurement" not in text
     assert "NOTE —" in text, "the basis cell of an old finding is a dash"
+
+
+def test_the_record_and_the_revision_page_show_the_radiated_targets_and_the_radio_roles(client, team, author,
+                                                                                     reviewer):
+    # rules/examples/depot-gateway.json: the team's TRP and TIS targets per band, a GNSS and a WLAN antenna
+    product = services.product_create(team=team, name="Depot gateway", user=author)
+    services.design_import(product=product, text=(EXAMPLES / "depot-gateway.json").read_text(),
+                           source="depot-gateway.json", user=author)
+    revision = services.revision_submit(revision=product.draft, user=author)
+    text = pdf_text(build_record_pdf(revision, fingerprint="0" * 64))
+    assert "Radiated target, TRP (at least) B2 19 dBm" in text and "B13 18 dBm" in text
+    assert "Radiated target, TIS (at most) B2 -96 dBm" in text
+    assert "GNSS (satellite navigation)" in text and "WLAN (Wi-Fi, Bluetooth)" in text
+    assert "Conducted sensitivity B2 -100.5 dBm" in text
+    assert "from datasheets" in text, "the radiated estimates rest on datasheet figures"
+    client.force_login(reviewer)
+    page = client.get(revision.get_absolute_url()).content.decode()
+    assert "Radiated target, TRP (at least)" in page and "B13 18 dBm" in page
+    assert "B2 -100.5 dBm" in page

@@ -454,8 +454,13 @@ def test_coexistence_findings_become_dashed_lines_in_their_colour_with_bands_and
     assert set(lines) == {("MAIN", "GPS"), ("DIV", "WIFI")}, "GHOST is not in the design: left out"
     assert lines["MAIN", "GPS"].bands == ("B13", "B14"), "the victim-only finding is drawn from the main antenna"
     assert lines["MAIN", "GPS"].label == "B13, B14 → GNSS L1/E1"
-    [dashed] = lines_between(root, layout.top_view_pt(20, 20), layout.top_view_pt(60, 80))
-    assert style(dashed)["stroke"] == WARNING and style(dashed).get("stroke-dasharray")
+    main, gps = (tuple(round(value, 2) for value in layout.top_view_pt(*xy)) for xy in ((20, 20), (60, 80)))
+    [dashed] = [polyline for polyline in root.iter(f"{SVG}polyline")
+                if {tuple(round(float(v), 2) for v in point.split()) for point in polyline.get("points").split(",")}
+                == {main, gps}]
+    assert style(dashed)["stroke"] == WARNING and style(dashed)["stroke-dasharray"] == "6, 3"
+    assert not lines_between(root, layout.top_view_pt(20, 20), layout.top_view_pt(60, 80)), (
+        "an open polyline: a closed path would draw the dashes there and back and fill the gaps")
     shown = texts(root)
     assert "B13, B14 → GNSS L1/E1" in shown and "B40 → WLAN 2.4 GHz" in shown
     assert "dashed: coexistence finding" in shown
@@ -494,3 +499,20 @@ def test_coexistence_lines_are_capped_worst_first_and_the_drawing_says_so():
     assert layout.coexistence[0].severity == "warning"
     assert f"Coexistence lines are drawn for the {placement.MAX_COEXISTENCE_LINES} worst of 27." in (
         root.find(f"{SVG}desc").text)
+
+
+def test_the_engines_own_coexistence_findings_are_drawn_for_the_depot_gateway():
+    # rules/examples/depot-gateway.json: B13's 2nd uplink harmonic (777-787 MHz x 2 = 1554-1574 MHz, 3GPP TS 36.101
+    # Table 5.5-1) lands on GNSS L1/E1; B41 (2496 MHz) sits 12.5 MHz above WLAN's 2483.5 MHz (TR 36.816 names both)
+    import json
+
+    from tests.web.conftest import EXAMPLES
+
+    parsed = parse_design(json.loads((EXAMPLES / "depot-gateway.json").read_text()))
+    findings = evaluate(parsed).findings
+    lines = placement.coexistence_lines_from_findings(findings, parsed)
+    assert {(line.cellular, line.victim, line.bands) for line in lines} == {
+        ("MAIN", "GNSS", ("B13",)), ("MAIN", "WIFI", ("B41",)), ("DIV", "WIFI", ("B41",))}
+    layout = placement_drawing(parsed, pair_severities=pair_severities_from_findings(findings),
+                               frequency_mhz=parsed.lowest_mhz, coexistence=lines).layout
+    assert len(layout.coexistence) == 3 and [(p.first, p.second) for p in layout.pairs] == [("MAIN", "DIV")]

@@ -2,6 +2,7 @@
 document path, posts into the document as the contract shapes it, and shows the parser's problems beside it."""
 
 import json
+import math
 
 import pytest
 from django.urls import reverse
@@ -220,3 +221,25 @@ def test_an_imported_design_with_every_rule_set_2_field_shows_them_in_the_questi
     for slug in ("product", "antennas", "deployment"):
         save(author_client, product, slug, {})
     assert product.draft.version == version, "saving what the page shows stores nothing new"
+
+
+def test_a_radiated_target_the_parser_refuses_is_named_beside_its_band(author_client, product):
+    save(author_client, product, "deployment", {"deployment.radiated_targets_dbm.tis.B3": "-20",
+                                                "deployment.radiated_targets_dbm.trp.B8": "high"})
+    html = page(author_client, product)
+    # rules/design.py bounds a TIS target to -150..-50 dBm
+    assert ("deployment.radiated_targets_dbm.tis.B3: expected a number at least -150 and at most -50 dBm, got -20"
+            in html)
+    assert "deployment.radiated_targets_dbm.trp.B8: expected a number in dBm, got &quot;high&quot;" in html
+    assert 'value="high"' in html, "kept as typed"
+
+
+def test_radiated_targets_entered_in_the_questionnaire_reach_the_radiated_estimates(author_client, product):
+    # hive-gateway.json's MAIN: 52 % in B3, class 3 (23 dBm, TS 36.101 Table 6.2.2-1); TRP = 23 + 10 log10(0.52)
+    save(author_client, product, "deployment", {"deployment.radiated_targets_dbm.trp.B3": "22"})
+    from projectapp.designs.checklists import checklist_for
+
+    ota = [finding for finding in checklist_for(Revision.objects.get(product=product, status="draft")).findings
+           if finding["topic"] == "ota" and finding["evidence"].get("band") == "B3"]
+    assert ota and ota[0]["evidence"]["target_dbm"] == 22 and ota[0]["severity"] == "warning"
+    assert ota[0]["evidence"]["estimate_dbm"] == pytest.approx(23 + 10 * math.log10(0.52), abs=0.01)
