@@ -79,8 +79,7 @@ def dashboard(request):
     elif "assignee" in chosen:
         items = items.filter(assignee_id=int(chosen["assignee"]))
     ordered = (items.with_provenance().select_related("revision__product__team", "assignee")
-               .defer("finding", "previous_decision", "revision__document", "revision__evaluation",
-                      "revision__section_versions")
+               .defer("previous_decision", "revision__document", "revision__evaluation", "revision__section_versions")
                .annotate(severity_order=SEVERITY_ORDER, topic_order=TOPIC_ORDER)
                .order_by("severity_order", "revision__product__name", "topic_order", "pk"))
     paged = paging.paged(ordered, form)
@@ -158,6 +157,11 @@ def draft_submit(request, product_id: int):
     return redirect(revision)
 
 
+def _digests(revision) -> dict[str, str]:
+    """File name -> SHA-256 of the revision's measurement files, named beside a finding a measurement cleared."""
+    return dict(revision.measurement_files.values_list("name", "sha256"))
+
+
 def _card_context(request, item: ReviewItem, *, approvers: set[int] | None = None, **extra) -> dict:
     people = services.assignable_people(item.revision)
     if approvers is None:
@@ -191,6 +195,7 @@ def revision_review(request, product_id: int, number: int):
     return render(request, "reviews/revision_review.html", {
         "product": revision.product, "revision": revision, "cards": raised, "resolved": resolved,
         "settled": settled, "previous": services._previous_submitted(revision),
+        "measurement_digests": _digests(revision),
         "closed_reason": "" if lifecycle.is_review_open(revision) else lifecycle.review_closed_reason(revision)})
 
 
@@ -205,6 +210,7 @@ def item_detail(request, item_id: int):
         "events": item.audit_events.select_related("actor"),
         "product": item.revision.product,
         "revision": item.revision,
+        "measurement_digests": _digests(item.revision),
     })
 
 

@@ -1,4 +1,4 @@
-"""The migrations of the life cycle on a database that holds today's rows: designs/0003 derives every revision's
+"""The migrations of the life cycle on a database that holds today's rows: designs/0004 derives every revision's
 state from the old status, signatures, records and supersessions, stores its counts and each product's latest
 revision; reviews/0007 and audit/0001 move the audit trail to its own app without touching a row."""
 
@@ -14,7 +14,7 @@ from tests.web.conftest import EXAMPLES
 
 pytestmark = pytest.mark.django_db(transaction=True)
 
-BEFORE = [("designs", "0002_revision_version"), ("reviews", "0006_auditevent_team_subject_product_optional"),
+BEFORE = [("designs", "0003_measurementfile_kind"), ("reviews", "0006_auditevent_team_subject_product_optional"),
           ("signoff", "0002_signature_signer_name_fits_full_name"), ("audit", None)]
 
 

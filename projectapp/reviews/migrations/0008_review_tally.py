@@ -27,7 +27,7 @@ def count_open_items(apps, schema_editor):
 class Migration(migrations.Migration):
 
     dependencies = [
-        ('designs', '0003_revision_state_and_counts'),
+        ('designs', '0004_revision_state_and_counts'),
         ('reviews', '0007_auditevent_moves_to_audit_app'),
         migrations.swappable_dependency(settings.AUTH_USER_MODEL),
     ]

@@ -105,7 +105,7 @@ def statuses_from_states(apps, schema_editor):
 class Migration(migrations.Migration):
 
     dependencies = [
-        ('designs', '0002_revision_version'),
+        ('designs', '0003_measurementfile_kind'),
         ('signoff', '0002_signature_signer_name_fits_full_name'),
         migrations.swappable_dependency(settings.AUTH_USER_MODEL),
     ]
