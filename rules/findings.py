@@ -57,14 +57,20 @@ def round_evidence(key: str, value: Any) -> Any:
     return value
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Flag:
-    """What a check function yields; the registry stamps it with the rule's id and topic."""
+    """What a check function yields; the registry stamps it with the rule's id and topic.
+
+    `explanation` and `action` are the engineer's words. `product_impact` says, in a product manager's words,
+    what the finding means for the product (range, cost, schedule, approval), agreeing with the finding's
+    numbers and severity; it is required, so no rule can leave a finding unexplained to the person who owns
+    the product."""
 
     severity: str
     title: str
     explanation: str
     action: str
+    product_impact: str
     subjects: tuple[str, ...] = ()
     evidence: Mapping[str, Any] = field(default_factory=dict)
     references: tuple[str, ...] = ()
@@ -79,6 +85,7 @@ class Finding:
     title: str
     explanation: str
     action: str
+    product_impact: str
     subjects: tuple[str, ...]
     evidence: Mapping[str, Any]
     references: tuple[str, ...]
@@ -100,6 +107,7 @@ class Finding:
             "title": self.title,
             "explanation": self.explanation,
             "action": self.action,
+            "product_impact": self.product_impact,
             "subjects": list(self.subjects),
             "evidence": dict(self.evidence),
             "references": list(self.references),

@@ -64,6 +64,24 @@ def _direction_text(analysis: CoverageAnalysis) -> str:
     return f"The downlink limits the coverage ({margins}), so the branch's whole cost reaches it."
 
 
+def _coverage_impact(analysis: CoverageAnalysis, warn: bool, judged: bool, limiting: str) -> str:
+    """What the missing receive antenna means for the product, in a product manager's words."""
+    lost = f"about {analysis.cost.headline_db:.1f} dB weaker reception in {analysis.band}"
+    decide = " These are estimates; the operators' networks and tests decide."
+    if warn:
+        return (f"With one receive antenna instead of two the product gets {lost}: one antenna covers about "
+                f"{analysis.area_share_pct:.0f} % of the area two would, so more installations at the edge of coverage "
+                "(indoors, basements) will struggle to connect." + decide)
+    if not judged:
+        return (f"With one receive antenna instead of two the product gets {lost}; no coverage estimate exists for "
+                "this band, so how much area it costs is not known." + decide)
+    if limiting == "ul":
+        return (f"With one receive antenna instead of two the product gets {lost}, but its own sending limits the "
+                "coverage anyway: by this estimate the area it covers does not shrink." + decide)
+    return (f"With one receive antenna instead of two the product gets {lost}: one antenna still covers about "
+            f"{analysis.area_share_pct:.0f} % of the area two would, a modest loss." + decide)
+
+
 @rule(
     id="COV-001", changed_in="2.0.0", topic="coverage", severities=("warning", "note"),
     title="One receive antenna where the modem can use two: the coverage it costs",
@@ -83,6 +101,8 @@ def _direction_text(analysis: CoverageAnalysis) -> str:
         TR_38_901, SINGLE_BRANCH, "3GPP TR 36.888 and TR 45.820 (coverage targets)", MRC,
         "common practice (70 % area share threshold; cell area grows with the square of its range)",
     ),
+    product_impact=("Leaving out a receive antenna the modem could use makes the product hear the network less well: "
+                    "how much coverage that costs depends on whether sending or receiving runs out first."),
 )
 def single_antenna_coverage(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -133,6 +153,8 @@ def single_antenna_coverage(context: CheckContext) -> Iterator[Flag]:
                   f"operator can bar such devices from a cell ({REDCAP_1RX}): confirm the operators allow it.")
     yield Flag(
         severity="warning" if warn else "note",
+        product_impact=_coverage_impact(worst, warn, bool(judged), limiting) + (
+            " Some operators keep one-antenna RedCap devices off their cells: ask them." if redcap else ""),
         title=(f"One receive antenna: about {cost.headline_db:.1f} dB less downlink in {worst.band}; "
                + (f"coverage {share_pct:.0f} % of the two-antenna area" if limiting == "dl" or not judged
                   else "the uplink limits, coverage unchanged")),
