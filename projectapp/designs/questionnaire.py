@@ -34,6 +34,7 @@ class Question:
     blank_label: str = ""  # a choice question's "not given" option, if it may be left out
     default: str = ""  # what the parser assumes when the answer is left out (design-file.md defaults)
     reshapes: bool = False  # changing it changes which questions or options the section shows
+    term: str = ""  # the trade term it asks about (rules/data/terms.toml id): a "what is this?" beside it
 
 
 @dataclass(frozen=True)
@@ -58,19 +59,23 @@ PRODUCT = Section(
         Question("modem.category", "UE category", "choice",
                  "The module's LTE or NR category, on the first page of its datasheet (for example 'Cat M1' or "
                  "'Cat 1bis'). It decides how many receive antennas the product needs.",
-                 choices=CATEGORY_CHOICES, reshapes=True),
+                 choices=CATEGORY_CHOICES, reshapes=True, term="ue-category"),
         Question("modem.bands", "Bands", "bands",
                  "The bands the product must work on: the intersection of what the module supports (datasheet, "
-                 "'supported bands') and what the target operators use. Start from a region preset and trim."),
+                 "'supported bands') and what the target operators use. Start from a region preset and trim.",
+                 term="band"),
         Question("modem.rx_ports", "Receive antenna ports on the module", "integer",
                  "How many antenna connectors or pads the module has for receiving, main included (datasheet, "
-                 "pin description: look for 'ANT_MAIN', 'ANT_DIV' or 'ANT_RX'). Leave empty if unsure."),
+                 "pin description: look for 'ANT_MAIN', 'ANT_DIV' or 'ANT_RX'). Leave empty if unsure.",
+                 term="receive-branch"),
         Question("modem.operator_single_antenna_approval", "An operator approved one antenna", "bool",
                  "Tick only if an operator has approved in writing running this category with a single "
-                 "antenna (relevant to Cat 1). Keep the approval with the design record."),
+                 "antenna (relevant to Cat 1). Keep the approval with the design record.",
+                 term="carrier-acceptance"),
         Question("modem.gain_limits_dbi", "Maximum antenna gain allowed by the module's approval", "band_numbers",
                  "The module's regulatory approval (grant or declaration) lists the highest antenna gain per band "
-                 "it was approved with. Copy them here; leave a band empty if no limit is given.", unit="dBi"),
+                 "it was approved with. Copy them here; leave a band empty if no limit is given.", unit="dBi",
+                 term="regulatory-approval"),
     ),
     ("product", "modem"),
 )
@@ -90,7 +95,7 @@ ENCLOSURE = Section(
         Question("ground_plane_mm", "Main board ground plane", "vector",
                  "Length and width of the main board's copper ground (usually the board outline). Embedded "
                  "antennas use it as their counterpoise, so its length matters at low frequencies.", unit="mm",
-                 parts=("length", "width")),
+                 parts=("length", "width"), term="ground-plane"),
     ),
     ("enclosure", "ground_plane_mm"),
 )
@@ -100,31 +105,32 @@ ANTENNA_QUESTIONS = (
     Question("role", "Role", "choice",
              "'main' transmits and receives (the module's main port); 'receive' is an extra receive path "
              "for diversity or MIMO; 'gnss' (satellite navigation) and 'wlan' (Wi-Fi, Bluetooth) serve other "
-             "radios and are not counted as cellular antennas.", choices=tuple((role, role) for role in ROLES)),
+             "radios and are not counted as cellular antennas.", choices=tuple((role, role) for role in ROLES),
+             term="antenna-role"),
     Question("mounting", "Mounting", "choice",
              "'internal' sits inside the enclosure (chip, flex, PCB trace); 'external' is outside on a "
              "connector or cable.", choices=tuple((mounting, mounting) for mounting in MOUNTINGS),
              default="internal"),
     Question("position_mm", "Feed point position", "vector",
              "Where the antenna's feed point is, measured from the enclosure's corner on the mechanical "
-             "drawing.", unit="mm", parts=("x", "y", "z")),
+             "drawing.", unit="mm", parts=("x", "y", "z"), term="feed-point"),
     Question("polarization", "Polarization axis", "vector",
              "Which way the antenna's main electric field points, as a direction: 1, 0, 0 is along the "
              "length, 0, 1, 0 along the width, 0, 0, 1 upwards. The antenna datasheet's radiation-pattern "
-             "page or its maker can tell.", parts=("x", "y", "z")),
+             "page or its maker can tell.", parts=("x", "y", "z"), term="polarization"),
     Question("ranges_mhz", "Rated frequency ranges", "ranges",
              "The ranges on the antenna datasheet, in MHz, separated by commas: '698-960, 1710-2690'.",
              unit="MHz"),
     Question("peak_gain_dbi", "Peak gain", "number",
-             "The highest peak gain on the antenna datasheet over the bands used.", unit="dBi"),
+             "The highest peak gain on the antenna datasheet over the bands used.", unit="dBi", term="dbi"),
     Question("efficiency_pct", "Total efficiency per band", "band_numbers",
              "Total efficiency from the antenna datasheet or a chamber measurement in this product, per band.",
-             unit="%"),
+             unit="%", term="efficiency"),
     Question("size_mm", "Element size", "vector", "The antenna element's bounding box from its datasheet.",
              unit="mm", parts=("length", "width", "height")),
     Question("cable_loss_db", "Cable loss", "number",
              "Loss of the cable or feed line between module and antenna (external antennas), from the cable's "
-             "datasheet: loss per metre times length.", unit="dB"),
+             "datasheet: loss per metre times length.", unit="dB", term="db-dbm"),
 )
 
 ANTENNAS = Section(
@@ -145,12 +151,13 @@ DEPLOYMENT = Section(
                  choices=tuple((environment, environment) for environment in ENVIRONMENTS),
                  blank_label="not given"),
         Question("deployment.required_dl_kbps", "Sustained downlink need", "number",
-                 "The data rate the product must receive, sustained (firmware updates, commands).", unit="kbps"),
+                 "The data rate the product must receive, sustained (firmware updates, commands).", unit="kbps",
+                 term="uplink-downlink"),
         Question("deployment.required_ul_kbps", "Sustained uplink need", "number",
                  "The data rate the product must send, sustained (reports, images).", unit="kbps"),
         Question("deployment.body_distance_mm", "Closest distance to people", "number",
                  "How close a person's body comes to the product in normal use (worn: 0; wall-mounted out of "
-                 "reach: the distance to where people stand).", unit="mm"),
+                 "reach: the distance to where people stand).", unit="mm", term="rf-exposure"),
     ),
     ("deployment",),
 )

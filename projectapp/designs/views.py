@@ -64,6 +64,7 @@ from projectapp.teams.access import has_role, require_role, teams_where
 from projectapp.teams.models import Role
 from rules.coverage import TABLE_COLUMNS
 from rules.design import DesignError, Problem, parse_design
+from rules.glossary import glossary
 from rules.registry import RETIRED, RULESET_VERSION, registered_rules
 from rules.touchstone import TouchstoneError
 
@@ -501,6 +502,12 @@ def design_import(request, product_id: int):
 def rule_list(request):
     return render(request, "designs/rule_list.html", {
         "rules": registered_rules(), "retired": RETIRED, "ruleset": RULESET_VERSION})
+
+
+@login_required
+@require_GET
+def term_list(request):
+    return render(request, "designs/term_list.html", {"groups": glossary()})
 
 
 def _back_to_measurements(product) -> HttpResponse:

@@ -267,8 +267,10 @@ def _finding_details(items: list[ReviewItem]) -> list[Flowable]:
                       f"{' · ' + esc(', '.join(finding.get('subjects', []))) if finding.get('subjects') else ''}"
                       f" — {esc(finding['title'])}", BODY),
             p(finding["explanation"], SMALL),
-            Paragraph(f"<b>Action:</b> {esc(finding['action'])}", SMALL),
         ]
+        if finding.get("product_impact"):  # findings submitted before the impact line existed have none
+            block.append(Paragraph(f"<b>For the product:</b> {esc(finding['product_impact'])}", SMALL))
+        block.append(Paragraph(f"<b>Action:</b> {esc(finding['action'])}", SMALL))
         if evidence:
             block.append(Paragraph(f"<b>Evidence:</b> {esc(evidence)}", SMALL))
         block.append(Paragraph(f"<b>Sources:</b> {esc('; '.join(finding.get('references', [])))}", MUTED_SMALL))
