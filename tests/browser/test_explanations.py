@@ -2,21 +2,13 @@
 follows it to the terms page; a finding's rule id leads to the rule; a finding says what it means for the
 product."""
 
-import os
-
 import pytest
 from django.urls import reverse
 
+# Importing the flow's helpers also applies its rule for a missing playwright package (skip locally, fail in CI).
 from projectapp.designs import services
-from tests.browser.test_questionnaire_flow import log_in
-from tests.web.conftest import EXAMPLES
-
-try:
-    from playwright.sync_api import expect
-except ImportError:  # the same rule as for Chromium itself (conftest.py): skip locally, fail in CI
-    if os.environ.get("CI"):
-        raise
-    pytest.skip("the playwright Python package is not installed: pip install playwright", allow_module_level=True)
+from tests.browser.test_questionnaire_flow import expect, log_in
+from tests.web.conftest import example_document
 
 pytestmark = pytest.mark.browser
 
@@ -24,8 +16,7 @@ pytestmark = pytest.mark.browser
 @pytest.fixture
 def hive(team, author):
     product = services.product_create(team=team, name="Hive gateway", user=author)
-    services.design_import(product=product, text=(EXAMPLES / "hive-gateway.json").read_text(),
-                           source="hive-gateway.json", user=author)
+    services.draft_save_document(revision=product.draft, document=example_document("hive-gateway.json"), user=author)
     return product
 
 
