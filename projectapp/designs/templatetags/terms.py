@@ -2,9 +2,11 @@
 a term, an evidence key or a table heading to its entry on the terms page. No JavaScript: a <details>
 disclosure and ordinary links, both keyboard-operable; the explanation is never hover-only."""
 
+from functools import lru_cache
+
 from django import template
-from django.urls import reverse
-from django.utils.html import format_html
+from django.urls import get_script_prefix, reverse
+from django.utils.html import conditional_escape, format_html
 from django.utils.safestring import SafeString
 
 from rules.glossary import Term, term
@@ -50,10 +52,10 @@ def term_url(entry: Term) -> str:
     return f"{reverse('term_list')}#{entry.anchor}"
 
 
-@register.simple_tag
-def term_help(term_id: str) -> SafeString:
-    """A "What is ...?" disclosure with the plain explanation, its why, and a link to the term's entry. Built
-    here rather than from a template: the antennas section shows one per question and antenna."""
+# What these tags print depends only on their arguments and the site's URL prefix, and the antennas section
+# prints one disclosure per question and antenna: built once each (a few hundred distinct values at most).
+@lru_cache(maxsize=1024)
+def _term_help(term_id: str, script_prefix: str) -> SafeString:
     entry = term(term_id)
     why = format_html("<p><strong>Why it matters:</strong> {}</p>", entry.why) if entry.why else ""
     return format_html('<details class="term-help"><summary>What does “{}” mean?</summary><p>{}</p>{}'
@@ -61,15 +63,27 @@ def term_help(term_id: str) -> SafeString:
                        entry.term, entry.plain, why, term_url(entry), entry.term)
 
 
-@register.simple_tag
-def term_link(term_id: str, text: str = "", hint: bool = True) -> SafeString:
-    """`text` (default: the term as written) as a link to the term's entry on the terms page. `hint` adds
-    "(what is this?)" for screen readers, for a link whose text is the bare term."""
+@lru_cache(maxsize=4096)
+def _term_link(term_id: str, text: str, hint: bool, script_prefix: str) -> SafeString:
     entry = term(term_id)
     if not hint:
         return format_html('<a class="term" href="{}">{}</a>', term_url(entry), text or entry.term)
     return format_html('<a class="term" href="{}">{}<span class="sr-only"> (what is this?)</span></a>',
                        term_url(entry), text or entry.term)
+
+
+@register.simple_tag
+def term_help(term_id: str) -> SafeString:
+    """A "What does ... mean?" disclosure with the plain explanation, its why, and a link to the term's entry."""
+    return _term_help(term_id, get_script_prefix())
+
+
+@register.simple_tag
+def term_link(term_id: str, text: str = "", hint: bool = True) -> SafeString:
+    """`text` (default: the term as written) as a link to the term's entry on the terms page. `hint` adds
+    "(what is this?)" for screen readers, for a link whose text is the bare term."""
+    # escaped before the cache sees it, so a plain text and a safe one that read alike never share an entry
+    return _term_link(term_id, conditional_escape(text), bool(hint), get_script_prefix())
 
 
 @register.simple_tag
