@@ -129,7 +129,7 @@ def rule(
         if [parameter.name for parameter in parameters] != ["context"]:
             raise RuleDefinitionError(f"{where}: a check takes exactly one parameter, 'context'")
         _RULES[id] = Rule(id, topic, severities, title, rationale, sources, function, added_in, changed_in,
-                          product_impact.strip())
+                          product_impact=product_impact.strip())
         return function
 
     return register

@@ -23,12 +23,12 @@ def _count(number: int, noun: str) -> str:
         "device may run only where an operator has approved it, and it still loses the diversity gain; "
         "Cat 4 and up have no single-antenna exception."
     ),
-    sources=(TS_36_306, TS_38_300, "3GPP TS 36.101 §7 (receiver requirements with two antenna ports)"),
     product_impact=(
         "A product with fewer antennas than its modem type expects either fails the operators' acceptance tests or "
         "hears the network less well at the edge of coverage; fitting an antenna late means new space in the "
         "enclosure and a board change."
     ),
+    sources=(TS_36_306, TS_38_300, "3GPP TS 36.101 §7 (receiver requirements with two antenna ports)"),
 )
 def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -117,8 +117,8 @@ def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
     id="CNT-002", changed_in="2.0.0", topic="antenna-count", severities=("blocker",),
     title="No main (transmit and receive) antenna",
     rationale="The module transmits through its main port; a design of only receive antennas cannot attach.",
-    sources=(TS_36_306,),
     product_impact="Without an antenna on the modem's transmit port the product can't send anything to the network.",
+    sources=(TS_36_306,),
 )
 def no_main_antenna(context: CheckContext) -> Iterator[Flag]:
     antennas = context.cellular_antennas
@@ -146,8 +146,8 @@ def no_main_antenna(context: CheckContext) -> Iterator[Flag]:
         "has receive ports. Extra antennas cost space and money without improving the link. GNSS and WLAN "
         "antennas serve other radios and are not counted."
     ),
-    sources=(TS_36_306,),
     product_impact="Antennas the modem can't use add cost, space and assembly steps without improving coverage.",
+    sources=(TS_36_306,),
 )
 def unused_antennas(context: CheckContext) -> Iterator[Flag]:
     antennas = context.cellular_antennas

@@ -15,11 +15,11 @@ from rules.registry import rule
         "antenna must cover the downlink (GNSS and WLAN antennas serve other radios). Outside its rated range an antenna's match and efficiency are "
         "unspecified and usually poor."
     ),
-    sources=("3GPP TS 36.101 Table 5.5-1", "3GPP TS 38.101-1 Table 5.2-1"),
     product_impact=(
         "In a band its antenna is not made for, the product may connect poorly or not at all where customers expect "
         "it to work, and operators test every band the product claims."
     ),
+    sources=("3GPP TS 36.101 Table 5.5-1", "3GPP TS 38.101-1 Table 5.2-1"),
 )
 def band_outside_rated_range(context: CheckContext) -> Iterator[Flag]:
     for antenna in context.cellular_antennas:
@@ -63,8 +63,8 @@ def band_outside_rated_range(context: CheckContext) -> Iterator[Flag]:
     id="BND-002", changed_in="2.0.0", topic="band-coverage", severities=("note",),
     title="Band coverage can't be checked: rated ranges not given",
     rationale="Without the antenna's rated frequency ranges the engine cannot tell whether it serves the bands.",
-    sources=("common practice",),
     product_impact="Until the antenna's frequency ranges are entered, an antenna that misses a band would go unnoticed.",
+    sources=("common practice",),
 )
 def rated_ranges_unknown(context: CheckContext) -> Iterator[Flag]:
     for antenna in context.cellular_antennas:

@@ -11,8 +11,8 @@ from rules.registry import rule
     id="CRT-001", topic="certification", severities=("note",),
     title="Carrier acceptance still to do",
     rationale="Each operator runs its own acceptance on a device before it may join its network.",
-    sources=("each operator's device acceptance requirements",),
     product_impact="Each operator tests the product before letting it on its network: weeks of lab time and fees.",
+    sources=("each operator's device acceptance requirements",),
 )
 def carrier_acceptance(context: CheckContext) -> Iterator[Flag]:
     bands = ", ".join(band.name for band in context.design.modem.bands)
@@ -35,8 +35,8 @@ def carrier_acceptance(context: CheckContext) -> Iterator[Flag]:
     id="CRT-002", topic="certification", severities=("note",),
     title="Industry certification still to do",
     rationale="Operators usually require the device's industry certification (conformance testing) first.",
-    sources=("3GPP TS 36.521-1 / TS 38.521-1 (UE conformance)", "the certification scheme of each region"),
     product_impact="Industry certification is a fixed step before launch, with lab time and fees of its own.",
+    sources=("3GPP TS 36.521-1 / TS 38.521-1 (UE conformance)", "the certification scheme of each region"),
 )
 def industry_certification(context: CheckContext) -> Iterator[Flag]:
     yield Flag(
@@ -58,8 +58,8 @@ def industry_certification(context: CheckContext) -> Iterator[Flag]:
     id="CRT-003", topic="certification", severities=("note",),
     title="Regulatory approval still to do",
     rationale="Each market's regulator must approve the product (radio, EMC, safety, RF exposure).",
-    sources=("the radio regulation of each market",),
     product_impact="The product can't be sold in a market before that market's regulator approves it.",
+    sources=("the radio regulation of each market",),
 )
 def regulatory_approval(context: CheckContext) -> Iterator[Flag]:
     yield Flag(

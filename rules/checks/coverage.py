@@ -97,12 +97,12 @@ def _coverage_impact(analysis: CoverageAnalysis, warn: bool, judged: bool, limit
         "times the base stations for the same area); otherwise, or where no band has a valid path-loss "
         "model, a note. Only for categories or modules that can use two receive antennas."
     ),
+    product_impact=("Leaving out a receive antenna the modem could use makes the product hear the network less well: "
+                    "how much coverage that costs depends on whether sending or receiving runs out first."),
     sources=(
         TR_38_901, SINGLE_BRANCH, "3GPP TR 36.888 and TR 45.820 (coverage targets)", MRC,
         "common practice (70 % area share threshold; cell area grows with the square of its range)",
     ),
-    product_impact=("Leaving out a receive antenna the modem could use makes the product hear the network less well: "
-                    "how much coverage that costs depends on whether sending or receiving runs out first."),
 )
 def single_antenna_coverage(context: CheckContext) -> Iterator[Flag]:
     design = context.design

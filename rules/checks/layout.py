@@ -44,13 +44,13 @@ def outside_enclosure_mm(context: CheckContext, antenna: Antenna) -> float:
         "that frequency shows ECC of at most 0.5 over its downlink (and, where S-parameters of the pair exist, "
         "isolation of at least 10 dB), the measurement decides and the finding is a note."
     ),
-    sources=(WHEELER, "common practice (quarter-wave minimum spacing)", "3GPP TS 36.101 Table 5.5-1",
-             "design.md rule set 2 (measurement outranks geometry)"),
     product_impact=(
         "Two receive antennas placed too close act partly as one: the product gets less of the range and speed the "
         "second antenna is there for, and operators' over-the-air tests get harder. Moving an antenna is a "
         "mechanical change, cheapest before the enclosure is fixed."
     ),
+    sources=(WHEELER, "common practice (quarter-wave minimum spacing)", "3GPP TS 36.101 Table 5.5-1",
+             "design.md rule set 2 (measurement outranks geometry)"),
 )
 def receive_antennas_too_close(context: CheckContext) -> Iterator[Flag]:
     if context.rx_usable < 2:
@@ -223,8 +223,8 @@ def _measured_verdict(context: CheckContext, first: str, second: str) -> _Verdic
     id="SEP-002", changed_in="2.0.0", topic="separation", severities=("note",),
     title="Spacing can't be judged: feed position not given",
     rationale="Spacing rules need every receive antenna's feed point.",
-    sources=("common practice",),
     product_impact="Until every antenna's position is entered, antennas placed too close would go unnoticed.",
+    sources=("common practice",),
 )
 def position_unknown(context: CheckContext) -> Iterator[Flag]:
     if context.rx_usable < 2 or len(context.cellular_antennas) < 2:
@@ -257,8 +257,8 @@ def position_unknown(context: CheckContext) -> Iterator[Flag]:
         "An internal antenna whose feed point lies outside the enclosure box was probably entered from the wrong "
         "origin, so a spacing that passes on it proves nothing. The pair is listed instead of passing silently."
     ),
-    sources=("common practice",),
     product_impact="A spacing check that passes on a wrongly entered position proves nothing about the product.",
+    sources=("common practice",),
 )
 def spacing_rests_on_outside_position(context: CheckContext) -> Iterator[Flag]:
     if context.rx_usable < 2:
@@ -305,11 +305,11 @@ def _internal_cellular(context: CheckContext) -> list[Antenna]:
         "this product (efficiency_source: measured) at 25 % or more, the measurement decides and the finding is a "
         "note."
     ),
-    sources=("common practice (quarter-wave ground length)", "design.md rule set 2 (measurement outranks geometry)"),
     product_impact=(
         "A built-in antenna needs a long enough circuit board to work in the lowest bands, the ones that reach "
         "farthest and best into buildings; too short a board means weaker coverage there or a different antenna."
     ),
+    sources=("common practice (quarter-wave ground length)", "design.md rule set 2 (measurement outranks geometry)"),
 )
 def ground_plane_short(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -396,8 +396,8 @@ def ground_plane_short(context: CheckContext) -> Iterator[Flag]:
     id="GND-002", changed_in="2.0.0", topic="ground-plane", severities=("note",),
     title="Ground plane size not given",
     rationale="The ground length decides how well an embedded antenna works at low frequencies.",
-    sources=("common practice",),
     product_impact="Until the board size is entered, a board too short for the built-in antennas would go unnoticed.",
+    sources=("common practice",),
 )
 def ground_plane_unknown(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -436,15 +436,15 @@ PRACTICAL_SHARE_OF_BOUND = 0.5
         "bandwidth with loss. A warning when the low bands' bandwidth times the efficiency expected of the "
         "antenna (entered, else 100 %) passes half of that cap: expect tuning, lost efficiency, or both."
     ),
+    product_impact=(
+        "A small device can't cover a wide spread of low frequencies with full efficiency: expect weaker coverage "
+        "in part of the low bands, or a tunable antenna that adds cost and design time."
+    ),
     sources=(
         "Gustafsson, Sohl, Kristensson, Proc. R. Soc. A 463, 2007",
         "McLean, IEEE Trans. Antennas Propag. 44(5), 1996",
         "Bode 1945; Fano, J. Franklin Inst. 249, 1950",
         "common practice (designs reach about half of the bound)",
-    ),
-    product_impact=(
-        "A small device can't cover a wide spread of low frequencies with full efficiency: expect weaker coverage "
-        "in part of the low bands, or a tunable antenna that adds cost and design time."
     ),
 )
 def device_too_small_for_bandwidth(context: CheckContext) -> Iterator[Flag]:
@@ -537,8 +537,8 @@ def device_too_small_for_bandwidth(context: CheckContext) -> Iterator[Flag]:
         "A closed metal enclosure is a shield: an antenna inside it cannot radiate out. Metal parts in a "
         "mixed enclosure detune a nearby antenna and block some directions."
     ),
-    sources=("common practice",),
     product_impact="An antenna inside metal can't reach the network well, or at all, whatever else is right.",
+    sources=("common practice",),
 )
 def internal_antenna_in_metal(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -578,8 +578,8 @@ def internal_antenna_in_metal(context: CheckContext) -> Iterator[Flag]:
         "whose feed lies more than 1 mm outside that box was most likely entered from another origin (the board's, "
         "say); every spacing judged from it is then wrong too, so it is flagged rather than accepted."
     ),
-    sources=("common practice",),
     product_impact="An antenna position entered from the wrong corner makes the spacing checks unreliable.",
+    sources=("common practice",),
 )
 def feed_outside_enclosure(context: CheckContext) -> Iterator[Flag]:
     size = context.design.enclosure_size_mm

@@ -80,9 +80,9 @@ def _cellular_ports(context: CheckContext, measurement: LoadedMeasurement) -> li
         "fault is in the calibration or de-embedding, not in the antennas, so no correlation or efficiency "
         "figure is drawn from those frequencies. Testing each column (|S11|^2 + |S21|^2 <= 1) is not enough."
     ),
+    product_impact="A faulty measurement file says nothing reliable about the product until the test is redone.",
     sources=("power conservation: a passive network's S-matrix has no singular value above 1",
              "common practice (1 % tolerance for measurement noise)"),
-    product_impact="A faulty measurement file says nothing reliable about the product until the test is redone.",
 )
 def not_passive(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:
@@ -133,8 +133,8 @@ def not_passive(context: CheckContext) -> Iterator[Flag]:
         "Return loss below 6 dB (VSWR above 3:1) reflects more than a quarter of the power; below 3.5 dB "
         "it is nearly half (45 %). The worst point over the frequencies the antenna must serve is what counts."
     ),
-    sources=("common practice (VSWR 3:1 for embedded antennas)", "VSWR = (1 + |S_ii|) / (1 - |S_ii|)"),
     product_impact="An antenna that sends much of its power back to the modem gives the product shorter range in that band.",
+    sources=("common practice (VSWR 3:1 for embedded antennas)", "VSWR = (1 + |S_ii|) / (1 - |S_ii|)"),
 )
 def poor_match(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:
@@ -182,8 +182,8 @@ def poor_match(context: CheckContext) -> Iterator[Flag]:
     id="MAT-002", changed_in="2.0.0", topic="matching", severities=("note",),
     title="A measurement does not cover a band",
     rationale="A band the measurement does not span is unmeasured: nothing can be said about it from the file.",
-    sources=("common practice",),
     product_impact="A band the measurement does not reach is unverified: the product's behaviour there is unknown.",
+    sources=("common practice",),
 )
 def measurement_misses_band(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:
@@ -237,9 +237,9 @@ def _pairs(context: CheckContext) -> Iterator[PairWindow]:
         "main antenna loses it into the receive port) and is a sign of strong coupling, which also raises the "
         "envelope correlation. Judged over every frequency either antenna serves in the band."
     ),
-    sources=("common practice (10 dB isolation)", "coupled power = 10^(-isolation / 10)"),
     product_impact=("Antennas that leak power into each other waste it: shorter range, and the second antenna helps "
                     "less."),
+    sources=("common practice (10 dB isolation)", "coupled power = 10^(-isolation / 10)"),
 )
 def poor_isolation(context: CheckContext) -> Iterator[Flag]:
     for measurement, (i, first), (j, second), band, window in _pairs(context):
@@ -285,9 +285,9 @@ def poor_isolation(context: CheckContext) -> Iterator[Flag]:
         "trusted only when both antennas are at least 50 % efficient in the band; otherwise it is judged when high "
         "but never clears anything, and a far-field measurement decides."
     ),
-    sources=(BLANCH, HALLBJORNER, "common practice (ECC below 0.5 for LTE MIMO)", MRC_MODEL),
     product_impact=("Two antennas that receive nearly the same signal give the product little of the range and speed "
                     "a second antenna is there for."),
+    sources=(BLANCH, HALLBJORNER, "common practice (ECC below 0.5 for LTE MIMO)", MRC_MODEL),
 )
 def high_correlation(context: CheckContext) -> Iterator[Flag]:
     for result, first, second, band in _sparameter_results(context):
@@ -335,9 +335,9 @@ def _sparameter_results(context: CheckContext) -> Iterator[tuple[MeasuredCorrela
         "S-parameter ECC can't show that the pair is decorrelated, so it clears nothing; a far-field measurement "
         "decides. Small IoT antennas at 20-50 % efficiency are where this matters most."
     ),
-    sources=(BLANCH, HALLBJORNER),
     product_impact=("A good-looking correlation from this kind of measurement is not proof for lossy antennas: it "
                     "settles nothing until a pattern measurement is made."),
+    sources=(BLANCH, HALLBJORNER),
 )
 def optimistic_correlation(context: CheckContext) -> Iterator[Flag]:
     worst_by_pair: dict[tuple[str, str], list[tuple[MeasuredCorrelation, Band]]] = {}
@@ -380,8 +380,8 @@ def optimistic_correlation(context: CheckContext) -> Iterator[Flag]:
         "1 - sum |S_ki|^2 bounds the radiation efficiency from above. If even the bound is below 25 %, the "
         "antenna can't be efficient whatever its losses. Frequencies where the data is not passive give no bound."
     ),
-    sources=("power conservation over the S-matrix (common practice)", "common practice (25 % efficiency)"),
     product_impact="An antenna that can radiate only a small share of its power gives the product short range in that band.",
+    sources=("power conservation over the S-matrix (common practice)", "common practice (25 % efficiency)"),
 )
 def low_measured_efficiency_bound(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:

@@ -49,9 +49,9 @@ def _environment_words(item: LoadedPattern) -> str:
         "0.5 still leaves most of the diversity gain and 0.7 much less; above 0.5 a warning, above 0.7 a blocker. "
         "Judged over each band's downlink (TDD: the band) at the pattern's frequencies inside it."
     ),
-    sources=(VAUGHAN_ANDERSEN, TAGA, "common practice (ECC below 0.5 for LTE MIMO)"),
     product_impact=("Two antennas that receive nearly the same signal give the product little of the range and speed "
                     "a second antenna is there for."),
+    sources=(VAUGHAN_ANDERSEN, TAGA, "common practice (ECC below 0.5 for LTE MIMO)"),
 )
 def high_pattern_correlation(context: CheckContext) -> Iterator[Flag]:
     for first, second in _pattern_pairs(context):
@@ -87,8 +87,8 @@ def high_pattern_correlation(context: CheckContext) -> Iterator[Flag]:
         "figure is a trustworthy measurement of this product and outranks the spacing rule (SEP-001); this note "
         "records it, and names the bands the patterns do not reach."
     ),
-    sources=(VAUGHAN_ANDERSEN, TAGA),
     product_impact="A pattern measurement that shows the antennas working independently is the best evidence a layout can have.",
+    sources=(VAUGHAN_ANDERSEN, TAGA),
 )
 def pattern_correlation_summary(context: CheckContext) -> Iterator[Flag]:
     for first, second in _pattern_pairs(context):
@@ -154,8 +154,8 @@ def pattern_correlation_summary(context: CheckContext) -> Iterator[Flag]:
         "receives there relative to an isotropic antenna taking both polarizations. A warning when the measured "
         "efficiency is below 25 % in a band, as for an entered one; otherwise a note with the figures."
     ),
-    sources=(TAGA, "common practice (25 % efficiency)"),
     product_impact="A measured efficiency says how much of the product's power really leaves as radio waves.",
+    sources=(TAGA, "common practice (25 % efficiency)"),
 )
 def pattern_efficiency(context: CheckContext) -> Iterator[Flag]:
     for item in context.far_fields:

@@ -32,9 +32,9 @@ def efficiency_basis(antennas: list[Antenna]) -> str:
         "band is judged band by band, and a band missing from it is not judged. Receive-only antennas do not "
         "transmit and are not limited."
     ),
-    sources=("the module's regulatory approval (grant or declaration of conformity)",),
     product_impact=("An antenna stronger than the module's approval allows takes the product outside that approval: it "
                     "then needs its own, with months and test fees added."),
+    sources=("the module's regulatory approval (grant or declaration of conformity)",),
 )
 def gain_above_approval(context: CheckContext) -> Iterator[Flag]:
     modem = context.design.modem
@@ -81,8 +81,8 @@ def gain_above_approval(context: CheckContext) -> Iterator[Flag]:
     title="Gain limits given but an antenna's gain is not",
     rationale=("Without the transmitting antenna's peak gain in a band the approval limit there can't be checked; "
                "a per-band gain that leaves out a limited band leaves that band unjudged."),
-    sources=("common practice",),
     product_impact="Until the antenna's gain is entered, an antenna outside the module's approval would go unnoticed.",
+    sources=("common practice",),
 )
 def gain_unknown(context: CheckContext) -> Iterator[Flag]:
     modem = context.design.modem
@@ -163,11 +163,11 @@ def design_peak(context: CheckContext, direction: str) -> Peak:
         "half-duplex (HD-FDD, the Rel-13 peaks of a few hundred kbps) unless the design declares full "
         "duplex; RedCap on a TDD band gets the downlink or uplink share of the TDD pattern."
     ),
+    product_impact=("If the product needs more data than its modem type can ever carry, no antenna or network fixes it: "
+                    "the modem or the product's data needs must change."),
     sources=("3GPP TS 36.306 Tables 4.1-1, 4.1A-1, 4.1C-1", "3GPP TS 38.306 §4.1.2",
              "3GPP TS 36.213 (LTE-M HD-FDD timing; peaks from memory)",
              "common practice (TDD pattern DDDSU, S = 10:2:2)"),
-    product_impact=("If the product needs more data than its modem type can ever carry, no antenna or network fixes it: "
-                    "the modem or the product's data needs must change."),
 )
 def throughput_above_peak(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -212,8 +212,8 @@ def throughput_above_peak(context: CheckContext) -> Iterator[Flag]:
         "receive-only antenna pays it on the downlink only. Carriers' radiated tests (TRP/TIS) are often failed "
         "near there."
     ),
-    sources=("common practice", "loss = -10 log10(efficiency)"),
     product_impact="An inefficient antenna wastes most of the product's radio power: shorter range and harder operator tests.",
+    sources=("common practice", "loss = -10 log10(efficiency)"),
 )
 def low_entered_efficiency(context: CheckContext) -> Iterator[Flag]:
     selected = {band.name for band in context.design.modem.bands}
@@ -262,8 +262,8 @@ def low_entered_efficiency(context: CheckContext) -> Iterator[Flag]:
         f"finding says how much, by the engine's diversity model ({MRC_MODEL}), at the pair's measured envelope "
         "correlation where a trustworthy measurement gives one, else the coverage analysis's assumed value."
     ),
-    sources=("common practice (diversity branches within 3 dB)", MRC_MODEL),
     product_impact="Two antennas of very different quality give the product less of the benefit of having two.",
+    sources=("common practice (diversity branches within 3 dB)", MRC_MODEL),
 )
 def efficiency_imbalance(context: CheckContext) -> Iterator[Flag]:
     if context.rx_connected < 2:

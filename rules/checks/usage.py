@@ -21,9 +21,9 @@ DEFERENCE = (
         "Within about 20 cm of a transmitting antenna most regulators require an RF exposure evaluation "
         "(SAR or power density) rather than a simple distance statement."
     ),
-    sources=("common practice (20 cm exposure distance)", "local RF exposure regulation"),
     product_impact=("A product used close to people usually needs an RF exposure evaluation before sale: a test with "
                     "its own time and cost, and limits set by each market's regulator."),
+    sources=("common practice (20 cm exposure distance)", "local RF exposure regulation"),
 )
 def people_close(context: CheckContext) -> Iterator[Flag]:
     distance_mm = context.design.deployment.body_distance_mm
@@ -54,8 +54,8 @@ def people_close(context: CheckContext) -> Iterator[Flag]:
     id="RFX-002", topic="rf-exposure", severities=("note",),
     title="Distance to people not given: RF exposure undetermined",
     rationale="Whether an exposure evaluation is needed depends on how close people come in normal use.",
-    sources=("common practice", "local RF exposure regulation"),
     product_impact="How close people come decides whether an RF exposure evaluation is on the plan before sale.",
+    sources=("common practice", "local RF exposure regulation"),
 )
 def distance_unknown(context: CheckContext) -> Iterator[Flag]:
     if context.design.deployment.body_distance_mm is None:
