@@ -70,6 +70,12 @@ PATH_LIMITS: Mapping[str, Limit] = {  # `[]` stands for any index
     "antennas[].polarization": Limit(-1e6, 1e6,
                                      "a direction in any unit: components within a million either way, the largest "
                                      "at least 0.001, so lengths and angles stay finite", least_magnitude=0.001),
+    "deployment.radiated_targets_dbm.trp": Limit(
+        -30.0, 40.0, "a total radiated power from -30 dBm (far below any operator's target, 10 to 23 dBm) to 40 dBm "
+                     "(above power class 1's 31 dBm with any antenna gain)"),
+    "deployment.radiated_targets_dbm.tis": Limit(
+        -150.0, -50.0, "a total isotropic sensitivity from -150 dBm (beyond NB-IoT's deepest coverage) to -50 dBm "
+                       "(worse than any operator accepts), the range of a conducted sensitivity"),
 }
 # Text: the longest each field may be. A name is stored in database columns and printed on the record:
 # the product and file names match their columns (designs.Product.name, designs.MeasurementFile.name);
@@ -192,6 +198,10 @@ class Deployment:
     required_dl_kbps: float | None = None
     required_ul_kbps: float | None = None
     body_distance_mm: float | None = None
+    # Radiated targets per band, copied by the team from its operators' requirements (deployment.
+    # radiated_targets_dbm): total radiated power (at least) and total isotropic sensitivity (at most).
+    trp_targets_dbm: Mapping[str, float] = field(default_factory=dict)
+    tis_targets_dbm: Mapping[str, float] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -572,7 +582,9 @@ def parse_design(document: Any) -> Design:
     deployment = Deployment()
     if root.get("deployment") is not None:
         raw = reader.object(root["deployment"], "deployment", ("environment", "required_dl_kbps",
-                                                               "required_ul_kbps", "body_distance_mm")) or {}
+                                                               "required_ul_kbps", "body_distance_mm",
+                                                               "radiated_targets_dbm")) or {}
+        trp_targets, tis_targets = _parse_radiated_targets(reader, raw.get("radiated_targets_dbm"))
         deployment = Deployment(
             environment=reader.choice(raw.get("environment"), "deployment.environment", ENVIRONMENTS, None),
             required_dl_kbps=reader.number(raw.get("required_dl_kbps"), "deployment.required_dl_kbps",
@@ -581,6 +593,8 @@ def parse_design(document: Any) -> Design:
                                            minimum=0, unit="kbps"),
             body_distance_mm=reader.number(raw.get("body_distance_mm"), "deployment.body_distance_mm",
                                            minimum=0, unit="mm"),
+            trp_targets_dbm=trp_targets,
+            tis_targets_dbm=tis_targets,
         )
 
     names = {antenna.name for antenna in antennas or ()}
@@ -732,6 +746,24 @@ def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:
             library=library,
         ))
     return antennas if complete else None
+
+
+RADIATED_QUANTITIES = ("trp", "tis")
+
+
+def _parse_radiated_targets(reader: _Reader, value: Any) -> tuple[dict[str, float], dict[str, float]]:
+    """`{"trp": {band: dBm}, "tis": {band: dBm}}`, either part optional; each band's target bounded by
+    PATH_LIMITS (a TRP is at least, a TIS at most, what the operator asks)."""
+    path = "deployment.radiated_targets_dbm"
+    if value is None:
+        return {}, {}
+    raw = reader.object(value, path, RADIATED_QUANTITIES)
+    if raw is None:
+        return {}, {}
+    trp, tis = (reader.band_map(raw.get(quantity), f"{path}.{quantity}",
+                                lambda item, item_path: reader.number(item, item_path, unit="dBm"))
+                for quantity in RADIATED_QUANTITIES)
+    return trp, tis
 
 
 def _parse_gain(reader: _Reader, value: Any, path: str) -> tuple[float | None, dict[str, float]]:

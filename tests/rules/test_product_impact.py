@@ -133,6 +133,8 @@ DESIGNS: dict[str, Callable[[], tuple[dict, dict]]] = {
     "low s-parameter ECC, efficiency unknown": lambda: measured_pair([(700, 1000, 0.2, 0.05)]),
     "low efficiency bound": lambda: measured_pair([(700, 1000, 0.87, 0.05)]),
     "not passive": lambda: measured_pair([(780, 870, 0.6, 0.5)], EFFICIENT),
+    "radiated targets without the efficiency to estimate them": lambda: (design(
+        deployment={"radiated_targets_dbm": {"trp": {"B20": 20.0}, "tis": {"B8": -95.0}}}), {}),
     "people within 50 mm": lambda: (design(deployment={"body_distance_mm": 50}), {}),
     "distance to people not given": lambda: (without(design(), "deployment", "body_distance_mm"), {}),
     # B29 is supplemental downlink (TS 36.101 Table 5.5-1): no uplink absorbs the missing branch's cost.
@@ -207,6 +209,12 @@ NUMBERS: dict[str, Callable[[dict], list[set[str]]]] = {
     "SIZ-001": lambda e: [near(e["best_efficiency_pct"], ".0f", " %")],
     "ENC-002": lambda e: [near(e["outside_by_mm"], ".0f", " mm")],
     "RFX-001": lambda e: [{f"{e['body_distance_mm']:g} mm"}],
+    "OTA-001": lambda e: [near(-e["shortfall_db"], ".1f", " dB") if e["shortfall_db"] <= 0
+                          else near(e["shortfall_db"], ".1f", " dB")],
+    "OTA-002": lambda e: [near(-e["shortfall_db"], ".1f", " dB") if e["shortfall_db"] <= 0
+                          else near(e["shortfall_db"], ".1f", " dB")],
+    "COX-001": lambda e: [{""} if e["isolation_margin_db"] is None else near(abs(e["isolation_margin_db"]), ".1f", " dB")],
+    "COX-002": lambda e: [{""} if e["isolation_margin_db"] is None else near(abs(e["isolation_margin_db"]), ".1f", " dB")],
 }
 
 
