@@ -43,11 +43,11 @@ KEY_TERMS = {
     "body_distance_mm": "rf-exposure",
     "method": "far-field-pattern",
     "outranked_by": "basis", "design_severity": "severity",
-    "order": "harmonic", "orders": "harmonic", "victim": "wlan-coexistence",
+    "order": "harmonic", "orders": "harmonic",
     "estimate_dbm": "link-budget", "margin_db": "link-budget", "margin_without_enhancement_db": "link-budget",
     "enhancement_db": "coverage-enhancement", "legacy_mcl_db": "mcl",
     "needed_isolation_db": "isolation", "isolation_margin_db": "isolation", "harmonic_mhz": "harmonic",
-    "efficiency_db": "efficiency", "victim_mhz": "wlan-coexistence",
+    "efficiency_db": "efficiency",
 }
 
 
