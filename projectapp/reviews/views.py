@@ -92,6 +92,11 @@ def dashboard(request):
     return render(request, template, context, status=form.status)
 
 
+def _digests(revision) -> dict[str, str]:
+    """File name -> SHA-256 of the revision's measurement files, named beside a finding a measurement cleared."""
+    return dict(revision.measurement_files.values_list("name", "sha256"))
+
+
 def _card_context(request, item: ReviewItem, *, approvers: set[int] | None = None, **extra) -> dict:
     people = services.assignable_people(item.revision)
     if approvers is None:
@@ -124,7 +129,8 @@ def revision_review(request, product_id: int, number: int):
     settled = sum(1 for card in raised if card["item"].is_settled)
     return render(request, "reviews/revision_review.html", {
         "product": revision.product, "revision": revision, "cards": raised, "resolved": resolved,
-        "settled": settled, "previous": services._previous_submitted(revision)})
+        "settled": settled, "previous": services._previous_submitted(revision),
+        "measurement_digests": _digests(revision)})
 
 
 @login_required
@@ -138,6 +144,7 @@ def item_detail(request, item_id: int):
         "events": item.audit_events.select_related("actor"),
         "product": item.revision.product,
         "revision": item.revision,
+        "measurement_digests": _digests(item.revision),
     })
 
 

@@ -32,6 +32,8 @@ KEY_TERMS = {
     "mean_effective_gain_db": "mean-effective-gain", "mean_effective_gains_db": "mean-effective-gain",
     "largest_singular_value": "passivity", "problem": "passivity",
     "mcl_db": "mcl", "mcl_dl_db": "mcl", "mcl_ul_db": "mcl",
+    "allowed_ul_db": "link-budget", "allowed_loss_two_db": "link-budget", "allowed_loss_one_db": "link-budget",
+    "limiting_two": "uplink-downlink", "single_branch_cost_range_db": "receive-branch",
     "margin_one_db": "link-budget", "margin_two_db": "link-budget", "margin_ul_db": "link-budget",
     "margin_dl_one_db": "link-budget", "margin_dl_two_db": "link-budget",
     "power_class": "power-class", "max_output_dbm": "power-class",
