@@ -85,11 +85,13 @@ class Finding:
     title: str
     explanation: str
     action: str
-    product_impact: str
     subjects: tuple[str, ...]
     evidence: Mapping[str, Any]
     references: tuple[str, ...]
     basis: str = "design"
+    # Last and defaulted so that positional construction keeps working; the registry always sets it from the
+    # flag, which must carry one (Flag.product_impact has no default).
+    product_impact: str = ""
 
     @property
     def key(self) -> tuple[str, tuple[str, ...]]:
