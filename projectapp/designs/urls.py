@@ -30,4 +30,5 @@ urlpatterns = [
     path("products/<int:product_id>/revisions/<int:number>/placement.svg", views.revision_placement_svg,
          name="revision_placement_svg"),
     path("rules/", views.rule_list, name="rule_list"),
+    path("terms/", views.term_list, name="term_list"),
 ]

@@ -75,6 +75,7 @@ from rules.coverage import OutsideValidity
 from rules.design import CELLULAR_ROLES, DesignError, Problem, parse_design
 from rules.farfield import FarFieldError
 from rules.findings import SEVERITIES
+from rules.glossary import glossary
 from rules.registry import RETIRED, RULESET_VERSION, registered_rules
 from rules.touchstone import TouchstoneError
 
@@ -612,6 +613,12 @@ def rule_list(request):
         "rules": rules, "retired": RETIRED, "ruleset": RULESET_VERSION,
         "added": [rule for rule in rules if rule.added_in == RULESET_VERSION],
         "changed": [rule for rule in rules if rule.changed_in == RULESET_VERSION and rule.added_in != RULESET_VERSION]})
+
+
+@login_required
+@require_GET
+def term_list(request):
+    return render(request, "designs/term_list.html", {"groups": glossary()})
 
 
 def _back_to_measurements(product) -> HttpResponse:
