@@ -195,3 +195,41 @@ class ReviewTally(models.Model):
 
     def __str__(self) -> str:
         return f"{self.open_items} open item(s) of revision {self.revision_id}"
+
+
+class StepStatus(models.TextChoices):
+    PLANNED = "planned", "Planned"
+    IN_PROGRESS = "in-progress", "In progress"
+    PASSED = "passed", "Passed"
+    FAILED = "failed", "Failed"
+
+
+class ProcessStep(models.Model):
+    """A step outside the team that a finding names (reviews.steps): who owns it, when it is planned, where it
+    stands and the lab's or operator's reference. It never blocks sign-off of the design review (reviews.gate
+    skips its item); it carries forward to the next revision with its status and history, and is frozen once
+    signing starts: the record shows it as it stood at signing."""
+
+    revision = models.ForeignKey(Revision, on_delete=models.PROTECT, related_name="process_steps")
+    item = models.OneToOneField(ReviewItem, on_delete=models.PROTECT, related_name="process_step")
+    owner = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
+                              related_name="+")
+    planned_on = models.DateField(null=True, blank=True)
+    status = models.CharField(max_length=12, choices=StepStatus.choices, default=StepStatus.PLANNED)
+    reference = models.CharField(max_length=200, blank=True)  # the lab's report number, the operator's case id
+    # Every change as [iso time, username, revision number, {field: [before, after]}], carried forward whole.
+    history = models.JSONField(default=list)
+    carried_from = models.ForeignKey(Revision, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
+    version = models.PositiveIntegerField(default=1)
+    updated_at = models.DateTimeField(auto_now=True)
+
+    class Meta:
+        ordering = ["revision", "item_id"]
+
+    def __str__(self) -> str:
+        return f"step {self.item.rule_id} ({self.get_status_display()}) of revision {self.revision.number}"
+
+    def save(self, *args, **kwargs):
+        if self.revision_id and not lifecycle.review_open_in_database(self.revision_id):
+            raise SignedRevisionError("the steps of a revision whose review is closed are frozen")
+        super().save(*args, **kwargs)
