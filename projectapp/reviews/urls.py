@@ -9,6 +9,7 @@ urlpatterns = [
     path("reviews/items/<int:item_id>/decide/", views.item_decide, name="review_item_decide"),
     path("reviews/items/<int:item_id>/assign/", views.item_assign, name="review_item_assign"),
     path("reviews/items/<int:item_id>/confirm/", views.item_confirm, name="review_item_confirm"),
+    path("reviews/steps/<int:step_id>/", views.step_update, name="process_step_update"),
     path("reviews/items/<int:item_id>/comment/", views.item_comment, name="review_item_comment"),
     path("products/<int:product_id>/revisions/<int:number>/review/", views.revision_review, name="revision_review"),
     path("products/<int:product_id>/audit/", views.product_audit, name="product_audit"),

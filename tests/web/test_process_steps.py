@@ -95,3 +95,38 @@ def test_a_step_of_a_closed_review_is_frozen(reviewed, product, author, reviewer
     step.status = "passed"
     with pytest.raises(SignedRevisionError):
         step.save()
+
+
+def _post_step(client, user, step, **data):
+    from django.urls import reverse
+
+    client.force_login(user)
+    values = {"status": "in-progress", "owner": "", "planned_on": "2027-01-15", "reference": "LAB-1",
+              "version": step.version, **data}
+    return client.post(reverse("process_step_update", args=[step.pk]), values, HTTP_HX_REQUEST="true")
+
+
+def test_the_review_page_lists_steps_apart_and_saves_them(client, reviewed, product, reviewer):
+    from django.urls import reverse
+
+    step = ProcessStep.objects.filter(revision=reviewed).select_related("item").first()
+    client.force_login(reviewer)
+    page = client.get(reverse("revision_review", args=[product.pk, 1])).content.decode()
+    assert "Steps outside the team" in page and f'id="step-{step.pk}"' in page
+    assert f'id="item-{step.item_id}"' not in page  # not offered as an item to waive
+    response = _post_step(client, reviewer, step)
+    assert response.status_code == 200 and "In progress" in response.content.decode()
+    stale = _post_step(client, reviewer, step, status="failed", version=1)
+    assert stale.status_code == 409 and "Someone changed this step" in stale.content.decode()
+    assert ProcessStep.objects.get(pk=step.pk).status == "in-progress"
+
+
+def test_a_bad_date_names_the_field(client, reviewed, reviewer):
+    step = ProcessStep.objects.filter(revision=reviewed).first()
+    response = _post_step(client, reviewer, step, planned_on="next week")
+    assert response.status_code == 400 and "planned_on: expected a date" in response.content.decode()
+
+
+def test_another_teams_step_is_not_found(client, reviewed, outsider):
+    step = ProcessStep.objects.filter(revision=reviewed).first()
+    assert _post_step(client, outsider, step).status_code == 404
