@@ -54,7 +54,7 @@ from projectapp.figures.placement import (
     pair_severities_from_findings,
     placement_drawing,
 )
-from projectapp.reviews.models import ReviewItem
+from projectapp.reviews.models import ProcessStep, ReviewItem
 from projectapp.reviews.provenance import decision_lines
 from projectapp.reviews.services import approver_ids
 from projectapp.signoff.record_fonts import (
@@ -292,6 +292,23 @@ def _checklist(items: list[ReviewItem], approvers: set[int]) -> list[Flowable]:
             grid_table(rows, [18 * mm, 22 * mm, 40 * mm, 52 * mm, FRAME_WIDTH - 132 * mm])]
 
 
+def _external_steps(revision: Revision) -> list[Flowable]:
+    """The steps outside the team as they stood at signing (frozen since: reviews.models.ProcessStep)."""
+    steps = list(ProcessStep.objects.filter(revision=revision).select_related("item", "owner").order_by("item_id"))
+    if not steps:
+        return []
+    rows = [["Rule", "Step", "Status", "Owner", "Planned", "Reference"]]
+    for step in steps:
+        rows.append([f"{step.item.rule_id}\n{', '.join(step.item.subjects)}", step.item.title,
+                     step.get_status_display(), step.owner.get_username() if step.owner else "nobody",
+                     f"{step.planned_on:%Y-%m-%d}" if step.planned_on else "—", step.reference or "—"])
+    return [p("Open external steps", H2),
+            p("Certification, operator acceptance and RF-exposure evaluation are a lab's, a regulator's or an "
+              "operator's to decide; they did not hold up this sign-off. Their state at signing:", MUTED_SMALL),
+            grid_table(rows, [22 * mm, FRAME_WIDTH - 122 * mm, 20 * mm, 22 * mm, 22 * mm, 36 * mm]),
+            Spacer(1, 4 * mm)]
+
+
 def _is_cut(item: ReviewItem) -> bool:
     return len(item.justification) > JUSTIFICATION_IN_TABLE_CHARS
 
@@ -500,6 +517,7 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
         PageBreak(),
         *_checklist(items, approver_ids(product.team)),
         Spacer(1, 4 * mm),
+        *_external_steps(revision),
         *_finding_details(items, digests),
         *_measurement_charts(revision, measurements, design),
         *_coverage(measurements, design),

@@ -130,3 +130,34 @@ def test_a_bad_date_names_the_field(client, reviewed, reviewer):
 def test_another_teams_step_is_not_found(client, reviewed, outsider):
     step = ProcessStep.objects.filter(revision=reviewed).first()
     assert _post_step(client, outsider, step).status_code == 404
+
+
+def test_the_signed_record_lists_open_external_steps_and_freezes_them(reviewed, author, reviewer, approver):
+    import io
+
+    from pypdf import PdfReader
+
+    from projectapp.reviews.models import Disposition
+    from projectapp.reviews.services import review_item_decide
+    from projectapp.signoff import services as signoff
+    from projectapp.signoff.models import SignedRecord
+    from tests.web.conftest import PASSWORD, signing_request
+
+    step = ProcessStep.objects.filter(revision=reviewed).select_related("item").first()
+    process_step_update(step=step, user=reviewer, owner=author, planned_on=datetime.date(2027, 5, 6),
+                        status="in-progress", reference="TH-4410", expected_version=1)
+    for item in reviewed.review_items.filter(kind="raised", process_step__isnull=True).order_by("id"):
+        if item.severity != "note":
+            review_item_decide(item=item, user=approver, disposition=Disposition.WAIVED,
+                               justification="pilot run", expected_version=item.version)
+    # the gate never asked for the steps: signing goes through with every step still open
+    for person, role in ((author, "author"), (reviewer, "reviewer"), (approver, "approver")):
+        signoff.revision_sign(revision=reviewed, user=person, role=role, password=PASSWORD,
+                              request=signing_request())
+    with SignedRecord.objects.get(revision=reviewed).pdf.open("rb") as handle:
+        text = " ".join(page.extract_text() for page in PdfReader(io.BytesIO(handle.read())).pages)
+    assert "Open external steps" in text
+    assert "TH-4410" in text and "2027-05-06" in text and "In progress" in text
+    with pytest.raises(PermissionDenied):
+        process_step_update(step=step, user=reviewer, owner=None, planned_on=None, status="passed", reference="",
+                            expected_version=2)
