@@ -233,3 +233,46 @@ class ProcessStep(models.Model):
         if self.revision_id and not lifecycle.review_open_in_database(self.revision_id):
             raise SignedRevisionError("the steps of a revision whose review is closed are frozen")
         super().save(*args, **kwargs)
+
+
+MAX_ATTACHMENT_BYTES = 10_000_000  # a scanned approval letter or a lab report; larger belongs in the lab's system
+
+
+def attachment_upload_to(instance: "EvidenceAttachment", filename: str) -> str:
+    return f"evidence/product-{instance.revision.product_id}/rev-{instance.revision.number}/{instance.sha256[:16]}-{filename}"
+
+
+class EvidenceAttachment(models.Model):
+    """A file a decision or a step rests on (an operator's approval letter, a lab report), kept with its SHA-256
+    and size. Served only to the team as a download, never inline; frozen once the review closes."""
+
+    revision = models.ForeignKey(Revision, on_delete=models.PROTECT, related_name="evidence")
+    item = models.ForeignKey(ReviewItem, on_delete=models.PROTECT, null=True, blank=True, related_name="evidence")
+    step = models.ForeignKey(ProcessStep, on_delete=models.PROTECT, null=True, blank=True, related_name="evidence")
+    name = models.CharField(max_length=120)
+    file = models.FileField(upload_to=attachment_upload_to)
+    size_bytes = models.PositiveIntegerField()
+    sha256 = models.CharField(max_length=64)
+    uploaded_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, related_name="+")
+    uploaded_at = models.DateTimeField(auto_now_add=True)
+
+    class Meta:
+        ordering = ["revision", "id"]
+
+    def __str__(self) -> str:
+        return self.name
+
+    @property
+    def supports(self) -> str:
+        """What the file is evidence for, in the record's words."""
+        item = self.step.item if self.step_id else self.item
+        kind = "step" if self.step_id else "decision"
+        return f"{kind} on {item.rule_id} {item.title}" if item else kind
+
+    def save(self, *args, **kwargs):
+        if not lifecycle.review_open_in_database(self.revision_id):
+            raise SignedRevisionError("the evidence of a revision whose review is closed is frozen")
+        super().save(*args, **kwargs)
+
+    def delete(self, *args, **kwargs):
+        raise SignedRevisionError("evidence is kept: it is part of the review's record")

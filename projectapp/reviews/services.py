@@ -17,7 +17,10 @@ Nothing lands after the first signature, or on a withdrawn revision.
 
 from typing import Any
 
+import hashlib
+
 from django.core.exceptions import PermissionDenied
+from django.core.files.base import ContentFile
 from django.db import transaction
 from django.db.models import Count, F
 from django.utils import timezone
@@ -32,7 +35,9 @@ from projectapp.reviews.models import (
     OPEN_ITEMS,
     SEVERITY_RANK,
     Comment,
+    MAX_ATTACHMENT_BYTES,
     Disposition,
+    EvidenceAttachment,
     ProcessStep,
     ReviewItem,
     ReviewTally,
@@ -387,3 +392,42 @@ def review_item_comment(*, item: ReviewItem, user, text: str) -> Comment:
     _audit(item=item, revision=item.revision, user=user, action=AuditEvent.Action.COMMENT,
            summary=f"{item.rule_id}: {text[:200]}", changes={"comment": [None, text]})
     return comment
+
+
+def attachment_name(name: str) -> str:
+    """The name an uploaded file is kept and offered under: its last path part, letters, digits and ._-, only."""
+    base = name.replace("\\", "/").rsplit("/", 1)[-1].strip().lstrip(".")
+    return "".join(ch if ch.isalnum() or ch in "._-" else "-" for ch in base)[:120]
+
+
+@transaction.atomic
+def evidence_attach(*, user, name: str, content: bytes, item: ReviewItem | None = None,
+                    step: ProcessStep | None = None) -> EvidenceAttachment:
+    """Keeps a file a decision (item) or a step rests on, with its SHA-256 and size, while the review is open."""
+    if (item is None) == (step is None):
+        raise ValueError("evidence belongs to one decision or one step")
+    target_item = step.item if step is not None else item
+    assert target_item is not None
+    locked = _lock_revision(target_item)
+    team = locked.revision.product.team
+    if not (can_review(user, locked.revision) or (step is not None and has_role(user, team, Role.AUTHOR))):
+        raise PermissionDenied("Attaching evidence needs the reviewer or approver role (the author too, on a step).")
+    if not lifecycle.is_review_open(locked.revision):
+        raise PermissionDenied(lifecycle.review_closed_reason(locked.revision))
+    safe = attachment_name(name)
+    if not safe:
+        raise ReviewInputError("file", "file: expected a file with a name")
+    if not content:
+        raise ReviewInputError("file", f"file: {safe} is empty")
+    if len(content) > MAX_ATTACHMENT_BYTES:
+        raise ReviewInputError("file", f"file: expected at most {MAX_ATTACHMENT_BYTES // 1_000_000} MB, "
+                                       f"got {len(content) / 1_000_000:.1f} MB")
+    attachment = EvidenceAttachment(revision=locked.revision, item=None if step else locked, step=step, name=safe,
+                                    size_bytes=len(content), sha256=hashlib.sha256(content).hexdigest(),
+                                    uploaded_by=user)
+    attachment.file.save(safe, ContentFile(content), save=False)
+    attachment.save()
+    _audit(item=locked, revision=locked.revision, user=user, action=AuditEvent.Action.EVIDENCE_ADDED,
+           summary=f"Attached {safe} to the {'step' if step else 'decision'} on {locked.rule_id}",
+           changes={"evidence": [None, {"name": safe, "sha256": attachment.sha256, "size_bytes": len(content)}]})
+    return attachment

@@ -12,6 +12,7 @@ from django.contrib.auth import get_user_model
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
 from django.db.models import Case, Value, When
+from django.http import FileResponse, Http404
 from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
 from django.utils.http import url_has_allowed_host_and_scheme
@@ -34,7 +35,7 @@ from projectapp.reviews.forms import (
     DecisionForm,
     StepForm,
 )
-from projectapp.reviews.models import OPEN_ITEMS, ProcessStep, ReviewItem, ReviewTally
+from projectapp.reviews.models import OPEN_ITEMS, EvidenceAttachment, ProcessStep, ReviewItem, ReviewTally
 from projectapp.reviews.provenance import decision_lines
 from projectapp.teams.access import teams_of
 from rules.design import DesignError
@@ -393,3 +394,41 @@ def step_update(request, step_id: int):
         messages.error(request, extra["error"])
     return redirect(reverse("revision_review", args=[step.revision.product_id, step.revision.number])
                     + f"#step-{step.pk}")
+
+
+@login_required
+@require_POST
+def evidence_upload(request, item_id: int):
+    """A file for the decision on an item, or for its step when the item is tracked as one."""
+    item = get_item_for_user(request.user, item_id)
+    step = ProcessStep.objects.filter(item=item).first()
+    upload = request.FILES.get("file")
+    if upload is None:
+        messages.error(request, "file: expected a file to attach")
+    elif upload.size > services.MAX_ATTACHMENT_BYTES:
+        messages.error(request, f"file: expected at most {services.MAX_ATTACHMENT_BYTES // 1_000_000} MB")
+    else:
+        try:
+            services.evidence_attach(user=request.user, name=upload.name, content=upload.read(),
+                                     item=None if step else item, step=step)
+            messages.success(request, "Evidence attached.")
+        except services.ReviewInputError as error:
+            messages.error(request, str(error))
+    target = reverse("revision_review", args=[item.revision.product_id, item.revision.number])
+    return redirect(target + (f"#step-{step.pk}" if step else f"#item-{item.pk}"))
+
+
+@login_required
+@require_GET
+def evidence_download(request, attachment_id: int):
+    attachment = get_object_or_404(EvidenceAttachment.objects.filter(
+        revision__product__team__in=teams_of(request.user)), pk=attachment_id)
+    try:
+        handle = attachment.file.open("rb")
+    except FileNotFoundError:
+        raise Http404("The stored file is missing.") from None
+    # Always a download of opaque bytes: an uploaded HTML or SVG file must never run in the site's origin.
+    response = FileResponse(handle, as_attachment=True, filename=attachment.name,
+                            content_type="application/octet-stream")
+    response["X-Content-Type-Options"] = "nosniff"
+    return response
