@@ -262,13 +262,6 @@ class EvidenceAttachment(models.Model):
     def __str__(self) -> str:
         return self.name
 
-    @property
-    def supports(self) -> str:
-        """What the file is evidence for, in the record's words."""
-        item = self.step.item if self.step_id else self.item
-        kind = "step" if self.step_id else "decision"
-        return f"{kind} on {item.rule_id} {item.title}" if item else kind
-
     def save(self, *args, **kwargs):
         if not lifecycle.review_open_in_database(self.revision_id):
             raise SignedRevisionError("the evidence of a revision whose review is closed is frozen")
@@ -276,3 +269,10 @@ class EvidenceAttachment(models.Model):
 
     def delete(self, *args, **kwargs):
         raise SignedRevisionError("evidence is kept: it is part of the review's record")
+
+    @property
+    def supports(self) -> str:
+        """What the file is evidence for, in the record's words."""
+        item = self.step.item if self.step_id else self.item
+        kind = "step" if self.step_id else "decision"
+        return f"{kind} on {item.rule_id} {item.title}" if item else kind

@@ -15,9 +15,8 @@ makes the write wait and then be refused, and a signature waits for a write in p
 Nothing lands after the first signature, or on a withdrawn revision.
 """
 
-from typing import Any
-
 import hashlib
+from typing import Any
 
 from django.core.exceptions import PermissionDenied
 from django.core.files.base import ContentFile
@@ -31,11 +30,11 @@ from projectapp.designs import lifecycle
 from projectapp.designs.models import Revision
 from projectapp.reviews.gate import approver_ids  # noqa: F401 (the PDF and the views read it from here)
 from projectapp.reviews.models import (
+    MAX_ATTACHMENT_BYTES,
     NEEDS_JUSTIFICATION,
     OPEN_ITEMS,
     SEVERITY_RANK,
     Comment,
-    MAX_ATTACHMENT_BYTES,
     Disposition,
     EvidenceAttachment,
     ProcessStep,

@@ -28,8 +28,7 @@ from projectapp.designs.forms import MAX_DESIGN_FILE_BYTES
 from projectapp.designs.models import Product, Revision
 from projectapp.library import services as library
 from projectapp.reviews.models import ProcessStep, ReviewItem
-from projectapp.reviews.services import evidence_attach
-from projectapp.reviews.services import revision_submit
+from projectapp.reviews.services import evidence_attach, revision_submit
 from projectapp.teams.models import Role, Team
 from tests.web.conftest import EXAMPLES, PASSWORD, make_user, signing_request
 
