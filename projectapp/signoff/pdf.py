@@ -54,7 +54,7 @@ from projectapp.figures.placement import (
     pair_severities_from_findings,
     placement_drawing,
 )
-from projectapp.reviews.models import ProcessStep, ReviewItem
+from projectapp.reviews.models import EvidenceAttachment, ProcessStep, ReviewItem
 from projectapp.reviews.provenance import decision_lines
 from projectapp.reviews.services import approver_ids
 from projectapp.signoff.record_fonts import (
@@ -309,6 +309,18 @@ def _external_steps(revision: Revision) -> list[Flowable]:
             Spacer(1, 4 * mm)]
 
 
+def _evidence_files(revision: Revision) -> list[Flowable]:
+    files = list(EvidenceAttachment.objects.filter(revision=revision).select_related("item", "step__item")
+                 .order_by("id"))
+    if not files:
+        return []
+    rows = [["File", "SHA-256", "Supports"]]
+    rows += [[f"{f.name}\n{f.size_bytes} bytes", f.sha256, f.supports] for f in files]
+    return [p("Evidence files", H2),
+            p("Kept with the review; the export pack carries each file, checkable against its SHA-256.", MUTED_SMALL),
+            grid_table(rows, [40 * mm, 62 * mm, FRAME_WIDTH - 102 * mm]), Spacer(1, 4 * mm)]
+
+
 def _is_cut(item: ReviewItem) -> bool:
     return len(item.justification) > JUSTIFICATION_IN_TABLE_CHARS
 
@@ -518,6 +530,7 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
         *_checklist(items, approver_ids(product.team)),
         Spacer(1, 4 * mm),
         *_external_steps(revision),
+        *_evidence_files(revision),
         *_finding_details(items, digests),
         *_measurement_charts(revision, measurements, design),
         *_coverage(measurements, design),

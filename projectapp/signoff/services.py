@@ -26,7 +26,7 @@ from django.db import transaction
 from projectapp.designs import lifecycle
 from projectapp.designs.models import Revision
 from projectapp.reviews import gate
-from projectapp.reviews.models import ProcessStep
+from projectapp.reviews.models import EvidenceAttachment, ProcessStep
 from projectapp.signoff.models import MEANINGS, Signature, SignedRecord, Supersession
 from projectapp.teams.access import has_role
 from projectapp.teams.models import Role
@@ -107,6 +107,9 @@ def record_fingerprint(revision: Revision) -> str:
              for step in ProcessStep.objects.filter(revision=revision).select_related("item", "owner").order_by("id")]
     if steps:  # records signed before steps existed keep their fingerprint
         content["steps"] = steps
+    evidence = list(EvidenceAttachment.objects.filter(revision=revision).order_by("id").values_list("name", "sha256"))
+    if evidence:
+        content["evidence"] = [list(pair) for pair in evidence]
     canonical = json.dumps(content, sort_keys=True, separators=(",", ":"), ensure_ascii=False)
     return hashlib.sha256(canonical.encode("utf-8")).hexdigest()
 

@@ -146,6 +146,9 @@ def test_the_signed_record_lists_open_external_steps_and_freezes_them(reviewed, 
     step = ProcessStep.objects.filter(revision=reviewed).select_related("item").first()
     process_step_update(step=step, user=reviewer, owner=author, planned_on=datetime.date(2027, 5, 6),
                         status="in-progress", reference="TH-4410", expected_version=1)
+    from projectapp.reviews.services import evidence_attach
+
+    report = evidence_attach(user=reviewer, name="th-4410-report.pdf", content=b"lab report body", step=step)
     for item in reviewed.review_items.filter(kind="raised", process_step__isnull=True).order_by("id"):
         if item.severity != "note":
             review_item_decide(item=item, user=approver, disposition=Disposition.WAIVED,
@@ -158,6 +161,8 @@ def test_the_signed_record_lists_open_external_steps_and_freezes_them(reviewed, 
         text = " ".join(page.extract_text() for page in PdfReader(io.BytesIO(handle.read())).pages)
     assert "Open external steps" in text
     assert "TH-4410" in text and "2027-05-06" in text and "In progress" in text
+    assert "Evidence files" in text and "th-4410-report.pdf" in text
+    assert report.sha256 in "".join(text.split())  # a table cell may wrap the 64 hex digits
     with pytest.raises(PermissionDenied):
         process_step_update(step=step, user=reviewer, owner=None, planned_on=None, status="passed", reference="",
                             expected_version=2)
