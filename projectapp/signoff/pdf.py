@@ -277,9 +277,13 @@ def _band_table(checklist: dict[str, Any]) -> list[Flowable]:
     ]
 
 
-def _checklist(items: list[ReviewItem], approvers: set[int]) -> list[Flowable]:
+def _checklist(items: list[ReviewItem], approvers: set[int], stepped: set[int]) -> list[Flowable]:
     rows = [["Severity, basis", "Rule", "Finding", "Decision", "Justification"]]
     for item in items:
+        if item.pk in stepped:  # not a decision of this review: the steps table below says where it stands
+            rows.append([p(item.severity.upper(), CELL), f"{item.rule_id}\n{', '.join(item.subjects)}", item.title,
+                         p("Tracked as an external step (below)"), "—"])
+            continue
         severity = [Paragraph(f'<font color="{SEVERITY_COLOURS[item.severity].hexval().replace("0x", "#")}">'
                               f"<b>{esc(item.severity.upper())}</b></font>", CELL),
                     p(basis_words(item.finding) or "—", CELL_MUTED)]
@@ -527,7 +531,8 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
             frequency_mhz=design.lowest_mhz, width_pt=FRAME_WIDTH, max_height_pt=PAGE_HEIGHT - 80 * mm,
             coexistence=coexistence_lines_from_findings(checklist["findings"], design))),
         PageBreak(),
-        *_checklist(items, approver_ids(product.team)),
+        *_checklist(items, approver_ids(product.team),
+                    set(ProcessStep.objects.filter(revision=revision).values_list("item_id", flat=True))),
         Spacer(1, 4 * mm),
         *_external_steps(revision),
         *_evidence_files(revision),

@@ -159,7 +159,7 @@ def test_the_signed_record_lists_open_external_steps_and_freezes_them(reviewed, 
                               request=signing_request())
     with SignedRecord.objects.get(revision=reviewed).pdf.open("rb") as handle:
         text = " ".join(page.extract_text() for page in PdfReader(io.BytesIO(handle.read())).pages)
-    assert "Open external steps" in text
+    assert "Open external steps" in text and "Tracked as an external step" in text
     assert "TH-4410" in text and "2027-05-06" in text and "In progress" in text
     assert "Evidence files" in text and "th-4410-report.pdf" in text
     assert report.sha256 in "".join(text.split())  # a table cell may wrap the 64 hex digits
