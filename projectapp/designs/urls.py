@@ -8,7 +8,6 @@ urlpatterns = [
     path("products/<int:product_id>/", views.product_detail, name="product_detail"),
     path("products/<int:product_id>/draft/", views.draft_edit, name="draft_edit"),
     path("products/<int:product_id>/draft/start/", views.draft_start, name="draft_start"),
-    path("products/<int:product_id>/draft/submit/", views.draft_submit, name="draft_submit"),
     path("products/<int:product_id>/draft/measurements/upload/", views.measurement_upload,
          name="measurement_upload"),
     path("products/<int:product_id>/draft/measurements/ports/", views.measurement_ports, name="measurement_ports"),
@@ -22,6 +21,8 @@ urlpatterns = [
     path("products/<int:product_id>/draft/<slug:section>/", views.draft_section_save, name="draft_section_save"),
     path("products/<int:product_id>/import/", views.design_import, name="design_import"),
     path("products/<int:product_id>/revisions/<int:number>/", views.revision_detail, name="revision_detail"),
+    path("products/<int:product_id>/revisions/<int:number>/withdraw/", views.revision_withdraw,
+         name="revision_withdraw"),
     path("products/<int:product_id>/revisions/<int:number>/coverage/", views.revision_coverage,
          name="revision_coverage"),
     path("products/<int:product_id>/revisions/<int:number>/design.json", views.revision_export,
@@ -29,4 +30,5 @@ urlpatterns = [
     path("products/<int:product_id>/revisions/<int:number>/placement.svg", views.revision_placement_svg,
          name="revision_placement_svg"),
     path("rules/", views.rule_list, name="rule_list"),
+    path("terms/", views.term_list, name="term_list"),
 ]

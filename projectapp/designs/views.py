@@ -12,15 +12,14 @@ from django.contrib import messages
 from django.contrib.auth.decorators import login_required
 from django.core.cache import cache
 from django.db import DatabaseError
-from django.db.models import OuterRef, Subquery
 from django.http import HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.views.decorators.http import require_GET, require_http_methods, require_POST
 from django_htmx.http import HttpResponseClientRedirect, reswap
 
-from projectapp import fragments
-from projectapp.designs import coverage_panel, library_use, pattern_facts, questionnaire, services
+from projectapp import fragments, paging
+from projectapp.designs import coverage_panel, library_use, lifecycle, pattern_facts, questionnaire, services
 from projectapp.designs.access import (
     get_product_for_user,
     get_revision_for_user,
@@ -33,14 +32,12 @@ from projectapp.designs.checklists import (
     cellular_patterns,
     checklist_for,
     coverage_rows,
-    frozen_state_key,
     load_measurements,
     measurement_digests,
-    state_key,
-    summaries,
 )
 from projectapp.designs.forms import (
     VERSION_MESSAGE,
+    DraftStartForm,
     DraftVersionForm,
     ImportForm,
     LibraryActionForm,
@@ -51,8 +48,10 @@ from projectapp.designs.forms import (
     PatternChangeForm,
     PatternForm,
     PortMapForm,
+    ProductFilterForm,
     ProductForm,
     SectionActionForm,
+    WithdrawForm,
 )
 from projectapp.designs.models import MeasurementFile, Revision
 from projectapp.figures.charts import (
@@ -69,11 +68,14 @@ from projectapp.figures.placement import (
     placement_svg,
 )
 from projectapp.library.models import Entry
-from projectapp.teams.access import has_role, require_role, teams_where
+from projectapp.teams.access import has_role, require_role, teams_of, teams_where
 from projectapp.teams.models import Role
+from rules.catalog import categories
 from rules.coverage import OutsideValidity
 from rules.design import CELLULAR_ROLES, DesignError, Problem, parse_design
 from rules.farfield import FarFieldError
+from rules.findings import SEVERITIES
+from rules.glossary import glossary
 from rules.registry import RETIRED, RULESET_VERSION, registered_rules
 from rules.touchstone import TouchstoneError
 
@@ -83,32 +85,37 @@ logger = logging.getLogger(__name__)
 @login_required
 @require_GET
 def product_list(request):
-    newest = Revision.objects.filter(product=OuterRef("pk")).order_by("-number")
-    products = list(products_for(request.user).annotate(**{
-        f"latest_{name}": Subquery(newest.values(name)[:1]) for name in ("id", "number", "status", "updated_at")}))
-    can_create = teams_where(request.user, Role.AUTHOR).exists()
-    # Everything the page shows is named by these rows (a revision's counts follow from its id and when it
-    # was last saved), so the rendered page is kept per rows.
-    rows = tuple((product.pk, product.name, product.description, product.team.name, product.latest_id,
-                  product.latest_number, product.latest_status, str(product.latest_updated_at))
-                 for product in products)
-    return fragments.page(request, "designs/product_list.html", ("products", rows, can_create),
-                          lambda: _product_list_context(products, can_create))
+    """The person's products, a page at a time, filtered in the database on each product's latest revision: its
+    state and the counts it stored when it was saved or submitted (no design is evaluated here)."""
+    teams = teams_of(request.user)
+    form = ProductFilterForm(request.GET).read()
+    products = (products_for(request.user).select_related("latest_revision").order_by("name", "pk")
+                .defer("latest_revision__document", "latest_revision__evaluation",
+                       "latest_revision__section_versions"))
+    products = form.apply(products, {"team": "team_id", "state": "latest_revision__state",
+                                     "category": "latest_revision__category"})
+    if "q" in form.cleaned:
+        products = products.filter(name__icontains=form.cleaned["q"])
+    raises = form.cleaned.get("raises")
+    if raises:
+        products = products.filter(**{f"latest_revision__{COUNT_COLUMNS[raises]}__gt": 0})
+    paged = paging.paged(products, form)
+    on_page = list(paged.items)
+    # The record in force of each product on the page (its signed revision), when that is not the latest.
+    signed = {revision.product_id: revision for revision in Revision.objects.filter(
+        product__in=[product.pk for product in on_page], state=Revision.State.SIGNED).only("pk", "product_id",
+                                                                                             "number", "state")}
+    rows = [{"product": product, "latest": product.latest_revision,
+             "in_force": signed.get(product.pk) if signed.get(product.pk) != product.latest_revision else None}
+            for product in on_page]
+    return render(request, "designs/product_list.html", {
+        "rows": rows, "paged": paged, "filters": form.shown, "filter_problems": form.problems,
+        "can_create": teams_where(request.user, Role.AUTHOR).exists(), "teams": teams.order_by("name"),
+        "states": Revision.State.choices, "categories": categories().values(), "severities": SEVERITIES,
+    }, status=form.status)
 
 
-def _product_list_context(products, can_create: bool) -> dict:
-    rows = _product_rows(products)
-    return {"rows": rows, "can_create": can_create,
-            fragments.NOT_KEPT: any(row["summary"] and row["summary"].get("failed") for row in rows)}
-
-
-def _product_rows(products) -> list[dict]:
-    latest = {revision.pk: revision for revision in Revision.objects.filter(
-        pk__in=[product.latest_id for product in products if product.latest_id]).prefetch_related(
-        "measurement_files")}
-    found = summaries(list(latest.values()))
-    return [{"product": product, "latest": latest.get(product.latest_id), "summary": found.get(product.latest_id)}
-            for product in products]
+COUNT_COLUMNS = {"blocker": "blockers", "warning": "warnings", "note": "notes"}
 
 
 @login_required
@@ -130,10 +137,13 @@ def product_create(request):
 @require_GET
 def product_detail(request, product_id: int):
     product = get_product_for_user(request.user, product_id)
-    revisions = list(product.revisions.select_related("created_by", "submitted_by"))
+    revisions = list(product.revisions.select_related("created_by", "submitted_by", "based_on")
+                     .defer(*(f"{prefix}{name}" for prefix in ("", "based_on__")
+                              for name in ("document", "evaluation", "section_versions"))))
     return render(request, "designs/product_detail.html", {
         "product": product,
         "revisions": revisions,
+        "has_draft": any(revision.is_draft for revision in revisions),
         "is_author": has_role(request.user, product.team, Role.AUTHOR),
         "roles": product.team.roles_of(request.user),
     })
@@ -194,7 +204,7 @@ def _chart(build, measurement, design, *, id_prefix: str) -> str:
 def _panel_context(state: ChecklistState, *, id_prefix: str = "placement", editable: bool = False) -> dict:
     """The panel's figures, drawn once per state of the revision (and version of the code that draws them).
     `editable`: the draft page's, whose placement drawing the author moves antennas on."""
-    key = fragments.cache_key("figures", state_key(state.revision), id_prefix, editable)
+    key = fragments.cache_key("figures", state.revision.cache_identity, id_prefix, editable)
     figures = cache.get(key)
     if figures is None:
         figures = _figures(state, id_prefix, editable)
@@ -327,19 +337,51 @@ def draft_edit(request, product_id: int):
     # The page carries the draft's version in every form (what each save names as read), so it is part of
     # the key; the state key names the content, which the checklist and figures are cached by.
     return fragments.page(request, "designs/draft_edit.html",
-                          ("draft", state_key(draft), draft.version, product.pk, product.name, draft.number,
-                           _library_stamp(product)),
+                          (draft, product, _library_stamp(product)),
                           lambda: _draft_context(draft, checklist_for(draft)), timeout=fragments.DAY)
 
 
 @login_required
 @require_POST
 def draft_start(request, product_id: int):
+    """A new draft copied from the latest revision, or (`from`) from any revision: "start a draft from it"."""
     product = get_product_for_user(request.user, product_id)
-    draft = services.draft_get_or_start(product=product, user=request.user)
+    require_role(request.user, product.team, Role.AUTHOR)
+    form = DraftStartForm(request.POST)
+    source = None
+    if not form.is_valid() or (form.cleaned_data["from"] is not None and not (
+            source := product.revisions.exclude(state=Revision.State.DRAFT)
+            .filter(number=form.cleaned_data["from"]).first())):
+        messages.error(request, "from: expected the number of a revision of this product that is not a draft; "
+                                "no draft was started")
+        return redirect(product)
+    try:
+        draft = services.draft_get_or_start(product=product, user=request.user, source=source)
+    except services.DraftExists as exists:
+        messages.error(request, f"Revision {exists.draft.number} is already a draft of {product.name}: edit it, or "
+                                "submit it, before starting another from an earlier revision.")
+        return redirect(product)
     messages.success(request, f"Revision {draft.number} is a new draft"
                      + (f", copied from revision {draft.based_on.number}." if draft.based_on else "."))
     return redirect("draft_edit", product.pk)
+
+
+@login_required
+@require_POST
+def revision_withdraw(request, product_id: int, number: int):
+    revision = get_revision_for_user(request.user, product_id, number)
+    require_role(request.user, revision.product.team, Role.AUTHOR)
+    form = WithdrawForm(request.POST)
+    if not form.is_valid():
+        messages.error(request, "reason: " + "; ".join(form.errors.get("reason", [])) + "; nothing was withdrawn")
+        return redirect(revision.product)
+    try:
+        services.revision_withdraw(revision=revision, user=request.user, reason=form.cleaned_data["reason"])
+    except lifecycle.IllegalTransition as refused:
+        messages.error(request, str(refused))
+        return redirect(revision.product)
+    messages.success(request, f"Revision {revision.number} was withdrawn from review.")
+    return redirect(revision.product)
 
 
 def _problems_of(document: dict) -> list[Problem]:
@@ -414,7 +456,7 @@ def draft_section_save(request, product_id: int, section: str):
         return HttpResponseClientRedirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
     if request.htmx:
         state = checklist_for(draft)
-        panel = fragments.shared("designs/_panel_oob.html", ("panel", state_key(draft), product.pk),
+        panel = fragments.shared("designs/_panel_oob.html", (draft, product),
                                  lambda: {"product": product, "revision": draft,
                                           **_panel_context(state, editable=True)},
                                  timeout=fragments.DAY)
@@ -463,26 +505,6 @@ def _section_conflict(request, section: questionnaire.Section, conflict: service
 
 
 @login_required
-@require_POST
-def draft_submit(request, product_id: int):
-    product = get_product_for_user(request.user, product_id)
-    draft = product.draft
-    if draft is None:
-        messages.error(request, "There is no draft to submit.")
-        return redirect(product)
-    try:
-        revision = services.revision_submit(revision=draft, user=request.user)
-    except DesignError as error:
-        loose = [problem.message for problem in error.problems if not problem.path]  # no question holds them
-        messages.error(request, f"Revision {draft.number} can't be submitted yet: " + (
-            "; ".join(loose) + "." if loose else
-            f"fix the {len(error.problems)} problem(s) listed beside the questions."))
-        return redirect("draft_edit", product.pk)
-    messages.success(request, f"Revision {revision.number} submitted for review and frozen.")
-    return redirect(revision)
-
-
-@login_required
 @require_GET
 def revision_detail(request, product_id: int, number: int):
     facts = revision_facts(request.user, product_id, number)
@@ -491,7 +513,7 @@ def revision_detail(request, product_id: int, number: int):
     # the draft's questionnaire); its forms carry the draft's version, so that is in the key too.
     can_measure = facts.is_draft and Role.REVIEWER in facts.roles and not is_author
     revisions = Revision.objects.select_related("product", "submitted_by")
-    draft = revisions.get(pk=facts.revision_id) if facts.is_draft else None  # named by its content
+    draft = revisions.get(pk=facts.revision_id) if facts.is_draft else None
 
     def context() -> dict:
         revision = draft or revisions.get(pk=facts.revision_id)
@@ -503,10 +525,10 @@ def revision_detail(request, product_id: int, number: int):
                 "can_measure": can_measure, "design_text": services.document_export_text(revision=revision),
                 **measuring, **_panel_context(state)}
 
-    state = state_key(draft) if draft else frozen_state_key(facts.revision_id, facts.submitted_at)
+    # The revision's identity (state and version, which a reviewer's measurement forms carry), the product's and
+    # the submitter's name, and what the reader may do: all the page shows.
     return fragments.page(request, "designs/revision_detail.html",
-                          ("revision", state, product_id, facts.product_name, facts.status, facts.submitter_name,
-                           is_author, can_measure, draft.version if draft else None), context)
+                          (facts, facts.submitter_name, is_author, can_measure), context)
 
 
 @login_required
@@ -594,6 +616,12 @@ def rule_list(request):
         "rules": rules, "retired": RETIRED, "ruleset": RULESET_VERSION,
         "added": [rule for rule in rules if rule.added_in == RULESET_VERSION],
         "changed": [rule for rule in rules if rule.changed_in == RULESET_VERSION and rule.added_in != RULESET_VERSION]})
+
+
+@login_required
+@require_GET
+def term_list(request):
+    return render(request, "designs/term_list.html", {"groups": glossary()})
 
 
 def _back_to_measurements(product) -> HttpResponse:

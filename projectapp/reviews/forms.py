@@ -1,6 +1,7 @@
 from django import forms
 
 from projectapp.filters import FilterForm, choice_field, id_field
+from projectapp.paging import page_field
 from projectapp.reviews.models import Disposition
 from rules.findings import SEVERITIES, TOPICS
 
@@ -36,6 +37,7 @@ class DashboardFilterForm(FilterForm):
     assignee = forms.RegexField(regex=r"^(me|nobody|[0-9]{1,18})$", required=False, error_messages={
         "invalid": "expected me, nobody or a person's number from the list"})
     state = choice_field(("open", "all"))
+    page = page_field()
 
 
 class CompareForm(FilterForm):

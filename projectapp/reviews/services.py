@@ -1,33 +1,42 @@
-"""Writes of the engineering review: items at submission, decisions, assignments, comments.
+"""Writes of the engineering review: submitting a draft for review (which opens it), decisions,
+assignments, comments.
 
-Every write records an AuditEvent in the same transaction. Decisions and assignments name the item
+Submitting is the review's to start: `revision_submit` asks designs' life cycle to freeze the draft, then
+creates the items in the same transaction. (An explicit call rather than a signal: the items must exist
+whenever a revision is in review, so their creation can't hang on a receiver being connected.)
+
+Every write records an audit event in the same transaction. Decisions and assignments name the item
 version they were based on; if someone else saved in between, ReviewConflict carries their change and
 nothing is overwritten.
 
 Every write first takes the revision's row lock (as signing does) and reads the item afresh, and only
-then checks whether signing has started: a signature being recorded makes the write wait and then be
-refused, and a signature waits for a write in progress and then sees it. Nothing lands after the first
-signature.
+then checks that the review is open (the revision's state: designs.lifecycle): a signature being recorded
+makes the write wait and then be refused, and a signature waits for a write in progress and then sees it.
+Nothing lands after the first signature, or on a withdrawn revision.
 """
 
 from typing import Any
 
 from django.core.exceptions import PermissionDenied
 from django.db import transaction
-from django.db.models import F
+from django.db.models import Count, F
 from django.utils import timezone
 
+from projectapp.audit.models import AuditEvent
+from projectapp.audit.services import audit_record
+from projectapp.designs import lifecycle
 from projectapp.designs.models import Revision
+from projectapp.reviews.gate import approver_ids  # noqa: F401 (the PDF and the views read it from here)
 from projectapp.reviews.models import (
     NEEDS_JUSTIFICATION,
+    OPEN_ITEMS,
     SEVERITY_RANK,
-    AuditEvent,
     Comment,
     Disposition,
     ReviewItem,
-    is_signing_started,
+    ReviewTally,
 )
-from projectapp.teams.access import has_role
+from projectapp.teams.access import has_role, require_role
 from projectapp.teams.models import Membership, Role
 
 
@@ -54,9 +63,9 @@ def can_review(user, item_or_revision) -> bool:
 
 
 def _lock_revision(item: ReviewItem) -> ReviewItem:
-    """Takes the item's revision row lock (the one signoff.services.revision_sign takes), then reads the item
+    """Takes the item's revision row lock (the one signing takes: designs.lifecycle), then reads the item
     as it is now. Call it first in a transaction, before any check."""
-    list(Revision.objects.select_for_update().filter(pk=item.revision_id).values_list("pk", flat=True))
+    lifecycle.lock(item.revision_id)
     return ReviewItem.objects.with_provenance().select_related("revision__product__team", "assignee").get(pk=item.pk)
 
 
@@ -67,14 +76,14 @@ def _require_reviewer(user, item: ReviewItem) -> None:
         raise PermissionDenied("A draft is not under review.")
     if item.kind != ReviewItem.Kind.RAISED:
         raise PermissionDenied("A resolved item needs no decision.")
-    if is_signing_started(item.revision_id):
-        raise PermissionDenied("Signing has started: the review of this revision is frozen.")
+    if not lifecycle.is_review_open(item.revision):
+        raise PermissionDenied(lifecycle.review_closed_reason(item.revision))
 
 
 def _audit(*, item: ReviewItem | None, revision: Revision, user, action: str, summary: str,
            changes: dict[str, Any] | None = None) -> AuditEvent:
-    return AuditEvent.objects.create(product=revision.product, revision=revision, item=item, actor=user,
-                                     action=action, summary=summary[:300], changes=changes or {})
+    return audit_record(product=revision.product, revision=revision, item=item, actor=user, action=action,
+                        summary=summary, changes=changes)
 
 
 def _key(finding: dict[str, Any]) -> tuple[str, str]:
@@ -83,7 +92,7 @@ def _key(finding: dict[str, Any]) -> tuple[str, str]:
 
 def _previous_submitted(revision: Revision) -> Revision | None:
     return (Revision.objects.filter(product=revision.product, number__lt=revision.number)
-            .exclude(status=Revision.Status.DRAFT).order_by("-number").first())
+            .exclude(state=Revision.State.DRAFT).order_by("-number").first())
 
 
 def _username(user) -> str | None:
@@ -172,20 +181,54 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
                                       severity=before.severity, title=before.title, finding=before.finding,
                                       disposition=before.disposition, justification=before.justification))
     ReviewItem.objects.bulk_create(created)
+    review_tallies_refresh(revision_ids=[revision.pk])
     raised = sum(1 for item in created if item.kind == ReviewItem.Kind.RAISED)
     carried = sum(1 for item in created if item.carried_from_id)
     resolved = len(created) - raised
     graver = f"; {not_carried} not carried because the finding is graver now" if not_carried else ""
-    _audit(item=None, revision=revision, user=user, action=AuditEvent.Action.SUBMITTED,
-           summary=f"Submitted revision {revision.number}: {raised} items ({carried} carried from earlier "
+    _audit(item=None, revision=revision, user=user, action=AuditEvent.Action.REVIEW_OPENED,
+           summary=f"Opened the review of revision {revision.number}: {raised} items ({carried} carried from earlier "
                    f"decisions{graver}), {resolved} resolved since revision {previous.number if previous else '—'}",
-           changes={"status": ["draft", "submitted"], "ruleset": [None, revision.ruleset]})
+           changes={"review_items": [None, raised]})
     return created
+
+
+@transaction.atomic
+def revision_submit(*, revision: Revision, user) -> Revision:
+    """Submits a draft for review: designs' life cycle freezes it (the document, its checklist and the rule-set
+    version, stored whole; older revisions still in review are withdrawn), then the review opens with one item
+    per finding, decisions carried from the previous submitted revision.
+
+    Raises DesignError (nothing changes) when the design can't be checked yet or a rule could not run, and
+    lifecycle.IllegalTransition when the revision is no longer a draft."""
+    require_role(user, revision.product.team, Role.AUTHOR)
+    frozen = lifecycle.submit(revision=revision, user=user)
+    review_items_create(revision=frozen, user=user)
+    return frozen
+
+
+def review_tallies_refresh(*, revision_ids) -> None:
+    """Counts the open raised items of these revisions again (ReviewTally): after every write that changes an
+    item, in its transaction; `Revision.objects.values_list("pk", flat=True)` rebuilds them all (a bulk load)."""
+    counted: dict[int, list[list[Any]]] = {revision_id: [] for revision_id in revision_ids}
+    groups = (ReviewItem.objects.filter(revision_id__in=list(counted), kind=ReviewItem.Kind.RAISED).filter(OPEN_ITEMS)
+              .order_by().values_list("revision_id", "severity", "topic", "assignee_id").annotate(n=Count("id")))
+    for revision_id, severity, topic, assignee_id, n in groups:
+        counted[revision_id].append([severity, topic, assignee_id, n])
+    existing = set(ReviewTally.objects.filter(revision_id__in=list(counted)).values_list("revision_id", flat=True))
+    ReviewTally.objects.bulk_create([ReviewTally(revision_id=revision_id) for revision_id in counted
+                                     if revision_id not in existing])
+    ReviewTally.objects.bulk_update([ReviewTally(revision_id=revision_id, groups=rows,
+                                                 open_items=sum(row[3] for row in rows))
+                                     for revision_id, rows in counted.items()], ["groups", "open_items"],
+                                    batch_size=500)
 
 
 def _save_versioned(item: ReviewItem, expected_version: int, **values: Any) -> ReviewItem:
     updated = ReviewItem.objects.filter(pk=item.pk, version=expected_version).update(
         version=F("version") + 1, updated_at=timezone.now(), **values)
+    if updated:
+        review_tallies_refresh(revision_ids=[item.revision_id])
     current = ReviewItem.objects.with_provenance().select_related("revision__product__team", "assignee").get(
         pk=item.pk)
     if not updated:
@@ -243,11 +286,6 @@ def review_item_confirm(*, item: ReviewItem, user, expected_version: int) -> Rev
     return current
 
 
-def approver_ids(team) -> set[int]:
-    """The team's approvers: only their waiver (granted or confirmed) settles a blocker."""
-    return set(Membership.objects.filter(team=team, role=Role.APPROVER).values_list("user_id", flat=True))
-
-
 def assignable_people(revision: Revision):
     from django.contrib.auth import get_user_model
 
@@ -275,8 +313,8 @@ def review_item_comment(*, item: ReviewItem, user, text: str) -> Comment:
     team = item.revision.product.team
     if not Membership.objects.filter(team=team, user=user).exists():
         raise PermissionDenied("Only team members comment.")
-    if is_signing_started(item.revision_id):
-        raise PermissionDenied("Signing has started: the discussion of this revision is closed.")
+    if not lifecycle.is_review_open(item.revision):
+        raise PermissionDenied(lifecycle.review_closed_reason(item.revision).replace("review", "discussion", 1))
     text = text.strip()
     if not text:
         raise ReviewInputError("text", "text: expected a comment, got nothing")

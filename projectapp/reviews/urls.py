@@ -3,6 +3,7 @@ from django.urls import path
 from projectapp.reviews import views
 
 urlpatterns = [
+    path("products/<int:product_id>/draft/submit/", views.draft_submit, name="draft_submit"),
     path("reviews/", views.dashboard, name="review_dashboard"),
     path("reviews/items/<int:item_id>/", views.item_detail, name="review_item"),
     path("reviews/items/<int:item_id>/decide/", views.item_decide, name="review_item_decide"),

@@ -1,18 +1,27 @@
-"""Review views: the dashboard and queues, a revision's items, one item, the audit trail, comparison.
+"""Review views: submitting a draft for review, the dashboard and queues, a revision's items, one item, the
+audit trail, comparison.
 
 Item forms post to small endpoints; htmx swaps the item's card in place, and without JavaScript the
 endpoint redirects back to the page the form was on.
 """
 
+from collections import Counter
+
 from django.contrib import messages
+from django.contrib.auth import get_user_model
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
-from django.db.models import Count, Q
+from django.db.models import Case, Value, When
 from django.shortcuts import get_object_or_404, redirect, render
 from django.utils.http import url_has_allowed_host_and_scheme
 from django.views.decorators.http import require_GET, require_POST
 
+from projectapp import paging
+from projectapp.audit.models import AuditEvent
+from projectapp.designs import lifecycle
 from projectapp.designs.access import get_product_for_user, get_revision_for_user, products_for
+from projectapp.designs.models import Revision
+from projectapp.filters import capped_choices
 from projectapp.reviews import services
 from projectapp.reviews.comparison import compare_revisions
 from projectapp.reviews.forms import (
@@ -23,13 +32,13 @@ from projectapp.reviews.forms import (
     DashboardFilterForm,
     DecisionForm,
 )
-from projectapp.reviews.models import AuditEvent, Disposition, ReviewItem
+from projectapp.reviews.models import OPEN_ITEMS, ReviewItem, ReviewTally
 from projectapp.reviews.provenance import decision_lines
 from projectapp.teams.access import teams_of
+from rules.design import DesignError
 from rules.findings import SEVERITIES, TOPICS
 
-OPEN_FILTER = (Q(disposition__in=[Disposition.OPEN, Disposition.DISCUSSION])
-               | Q(carried_from__isnull=False, carried_confirmed=False))
+OPEN_FILTER = OPEN_ITEMS
 
 
 def items_for(user):
@@ -41,21 +50,21 @@ def get_item_for_user(user, item_id: int) -> ReviewItem:
     return get_object_or_404(items_for(user), pk=item_id)
 
 
-def current_review_revisions(user):
-    """Each product's latest submitted revision: the one under review."""
-    latest = []
-    for product in products_for(user):
-        revision = product.latest_submitted
-        if revision is not None:
-            latest.append(revision.pk)
-    return latest
+SEVERITY_ORDER = Case(*(When(severity=severity, then=Value(rank)) for rank, severity in enumerate(SEVERITIES)),
+                      default=Value(len(SEVERITIES)))
+FACET_PRODUCTS = 25  # the products with the most open items; the filter's list has them all
+TOPIC_ORDER = Case(*(When(topic=topic, then=Value(rank)) for rank, topic in enumerate(TOPICS)),
+                   default=Value(len(TOPICS)))
 
 
 @login_required
 @require_GET
 def dashboard(request):
-    base = items_for(request.user).filter(revision__in=current_review_revisions(request.user),
-                                          kind=ReviewItem.Kind.RAISED)
+    """The items under review: the raised items of every revision in review in the person's teams, filtered,
+    counted, ordered (gravest first, then product, topic) and paged in the database."""
+    # The revisions in review (an index on their state), then their items (an index on the revision).
+    base = ReviewItem.objects.filter(revision__product__team__in=teams_of(request.user),
+                                     revision__state=Revision.State.IN_REVIEW, kind=ReviewItem.Kind.RAISED)
     form = DashboardFilterForm(request.GET).read()
     chosen, filters = form.cleaned, form.shown
     filters["state"] = filters["state"] or "open"
@@ -69,27 +78,83 @@ def dashboard(request):
         items = items.filter(assignee__isnull=True)
     elif "assignee" in chosen:
         items = items.filter(assignee_id=int(chosen["assignee"]))
-    severity_rank = {severity: index for index, severity in enumerate(SEVERITIES)}
-    ordered = sorted(items, key=lambda item: (severity_rank.get(item.severity, 9), item.revision.product.name,
-                                              TOPICS.index(item.topic) if item.topic in TOPICS else 99, item.pk))
-    open_items = base.filter(OPEN_FILTER)
+    ordered = (items.with_provenance().select_related("revision__product__team", "assignee")
+               .defer("previous_decision", "revision__document", "revision__evaluation", "revision__section_versions")
+               .annotate(severity_order=SEVERITY_ORDER, topic_order=TOPIC_ORDER)
+               .order_by("severity_order", "revision__product__name", "topic_order", "pk"))
+    paged = paging.paged(ordered, form)
+    reviewed = products_for(request.user).filter(revisions__state=Revision.State.IN_REVIEW).distinct()
+    products, more_products = capped_choices(reviewed.order_by("name").only("pk", "name", "team"))
     context = {
-        "items": ordered,
+        "items": paged.items,
+        "paged": paged,
         "filters": filters,
         "filter_problems": form.problems,
-        "my_open": open_items.filter(assignee=request.user).count(),
-        "by_product": open_items.values("revision__product_id", "revision__product__name")
-        .annotate(n=Count("id")).order_by("revision__product__name"),
-        "by_severity": open_items.values("severity").annotate(n=Count("id")).order_by("severity"),
-        "by_topic": open_items.values("topic").annotate(n=Count("id")).order_by("topic"),
-        "by_assignee": open_items.values("assignee__username", "assignee_id").annotate(n=Count("id"))
-        .order_by("assignee__username"),
-        "products": products_for(request.user),
+        **_open_facets(request.user),
+        "products": products,
+        "more_products": more_products,
+        "chosen_product": reviewed.filter(pk=chosen["product"]).first() if "product" in chosen else None,
+        "without_product": form.query_without("product"),
         "severities": SEVERITIES,
         "topics": TOPICS,
     }
     template = "reviews/_dashboard_items.html" if request.htmx else "reviews/dashboard.html"
     return render(request, template, context, status=form.status)
+
+
+def _open_facets(user) -> dict:
+    """The open items of the revisions in review counted by product, severity, topic and assignee: summed from
+    each revision's tally (reviews.models.ReviewTally, kept by every review write), a row per revision, rather
+    than counted from the items on every look."""
+    tallies = ReviewTally.objects.filter(revision__state=Revision.State.IN_REVIEW,
+                                         revision__product__team__in=teams_of(user))
+    by_product = list(tallies.filter(open_items__gt=0).order_by("-open_items", "revision__product__name")
+                      .values_list("revision__product_id", "revision__product__name", "open_items")[:FACET_PRODUCTS])
+    by_severity: Counter = Counter()
+    by_topic: Counter = Counter()
+    by_assignee: Counter = Counter()
+    for groups in tallies.values_list("groups", flat=True):
+        for severity, topic, assignee_id, n in groups:
+            by_severity[severity] += n
+            by_topic[topic] += n
+            by_assignee[assignee_id] += n
+    people = dict(get_user_model().objects.filter(pk__in=[pk for pk in by_assignee if pk])
+                  .values_list("pk", "username"))
+    return {
+        "my_open": by_assignee.get(user.pk, 0),
+        "unassigned_open": by_assignee.get(None, 0),
+        "by_product": [{"product_id": pk, "name": name, "n": n} for pk, name, n in by_product],
+        "by_severity": sorted(by_severity.items(), key=lambda pair: SEVERITIES.index(pair[0])
+                              if pair[0] in SEVERITIES else 99),
+        "by_topic": sorted(by_topic.items()),
+        "by_assignee": sorted(({"id": pk, "username": people.get(pk) if pk else None, "n": n}
+                               for pk, n in by_assignee.items()), key=lambda row: (row["username"] is None,
+                                                                                   row["username"] or "")),
+    }
+
+
+@login_required
+@require_POST
+def draft_submit(request, product_id: int):
+    """Submits the product's draft for review (reviews.services.revision_submit)."""
+    product = get_product_for_user(request.user, product_id)
+    draft = product.draft
+    if draft is None:
+        messages.error(request, "There is no draft to submit.")
+        return redirect(product)
+    try:
+        revision = services.revision_submit(revision=draft, user=request.user)
+    except DesignError as error:
+        loose = [problem.message for problem in error.problems if not problem.path]  # no question holds them
+        messages.error(request, f"Revision {draft.number} can't be submitted yet: " + (
+            "; ".join(loose) + "." if loose else
+            f"fix the {len(error.problems)} problem(s) listed beside the questions."))
+        return redirect("draft_edit", product.pk)
+    except lifecycle.IllegalTransition as refused:
+        messages.error(request, str(refused))
+        return redirect(product)
+    messages.success(request, f"Revision {revision.number} submitted for review and frozen.")
+    return redirect(revision)
 
 
 def _digests(revision) -> dict[str, str]:
@@ -130,7 +195,8 @@ def revision_review(request, product_id: int, number: int):
     return render(request, "reviews/revision_review.html", {
         "product": revision.product, "revision": revision, "cards": raised, "resolved": resolved,
         "settled": settled, "previous": services._previous_submitted(revision),
-        "measurement_digests": _digests(revision)})
+        "measurement_digests": _digests(revision),
+        "closed_reason": "" if lifecycle.is_review_open(revision) else lifecycle.review_closed_reason(revision)})
 
 
 @login_required

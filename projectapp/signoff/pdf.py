@@ -330,8 +330,10 @@ def _finding_details(items: list[ReviewItem], digests: dict[str, str]) -> list[F
                       f"{' · ' + esc(basis) if basis else ''}"
                       f" — {esc(finding['title'])}", BODY),
             p(finding["explanation"], SMALL),
-            Paragraph(f"<b>Action:</b> {esc(finding['action'])}", SMALL),
         ]
+        if finding.get("product_impact"):  # findings submitted before the impact line existed have none
+            block.append(Paragraph(f"<b>For the product:</b> {esc(finding['product_impact'])}", SMALL))
+        block.append(Paragraph(f"<b>Action:</b> {esc(finding['action'])}", SMALL))
         cleared = outranked(finding, digests)
         if cleared:
             design_severity = finding.get("evidence", {}).get("design_severity")

@@ -28,8 +28,9 @@ from projectapp.designs.forms import MAX_DESIGN_FILE_BYTES
 from projectapp.designs.models import Product, Revision
 from projectapp.library import services as library
 from projectapp.reviews.models import ReviewItem
+from projectapp.reviews.services import revision_submit
 from projectapp.teams.models import Role, Team
-from tests.web.conftest import EXAMPLES, PASSWORD, make_user
+from tests.web.conftest import EXAMPLES, PASSWORD, make_user, signing_request
 
 # -- a test-only URLconf: the real site plus views that fail on purpose ----------------------------------------
 SECRET_DETAIL = "kestrel-7731 internal detail that must never reach a page"
@@ -124,12 +125,15 @@ class Site:
 
 
 def _signed_record(revision: Revision, user):
-    """A signed, archived record of the revision, when the sign-off app provides one (it builds the PDF)."""
-    try:
-        from projectapp.signoff.services import record_archive
-    except ImportError:
-        return None
-    return record_archive(revision=revision, user=user)
+    """The revision signed and archived, through the sign-off service (the team asks only its author to sign)."""
+    from projectapp.signoff.models import SignedRecord
+    from projectapp.signoff.services import revision_sign
+
+    team = revision.product.team
+    team.signoff_roles = ["author"]
+    team.save()
+    revision_sign(revision=revision, user=user, role="author", password=PASSWORD, request=signing_request())
+    return SignedRecord.objects.get(revision=revision)
 
 
 @pytest.fixture
@@ -140,7 +144,7 @@ def site(db, team, author):
     submitted = services.product_create(team=team, name="Orchard soil probe", user=author)
     services.design_import(product=submitted, text=(EXAMPLES / "orchard-probe.json").read_text(),
                            source="orchard-probe.json", user=author)
-    revision = services.revision_submit(revision=submitted.draft, user=author)
+    revision = revision_submit(revision=submitted.draft, user=author)
     services.draft_get_or_start(product=submitted, user=author)  # revision 2: the questionnaire URLs work too
     draft_product = services.product_create(team=team, name="Hive gateway", user=author)
     services.design_import(product=draft_product, text=(EXAMPLES / "hive-gateway.json").read_text(),
