@@ -110,9 +110,25 @@ def test_an_antenna_dragged_and_moved_and_turned_with_the_keyboard_keeps_fields_
     page.keyboard.press("Shift+ArrowUp")  # at the lid already: nothing changes, so nothing is saved
     assert number(page, "antennas[1].position_mm[2]") == 30
 
+    # Dragging MAIN's turn handle (the dot at its axis's end) to straight above its feed turns it along y.
+    handle = page.locator('[data-part="marker"][data-view="top"][data-name="MAIN"] [data-part="turn"]')
+    handle.scroll_into_view_if_needed()
+    box = handle.bounding_box()
+    above = page.evaluate(CLIENT_OF_MM, ["top", 20, 45])
+
+    def turn():
+        page.mouse.move(box["x"] + box["width"] / 2, box["y"] + box["height"] / 2)
+        page.mouse.down()
+        page.mouse.move(*above, steps=6)
+        page.mouse.up()
+
+    saved(page, turn)
+    assert [number(page, f"antennas[0].polarization[{axis}]") for axis in range(3)] == [0, 1, 0]
+
     # The draft kept it all.
     page.reload()
     assert number(page, "antennas[1].position_mm[0]") == pytest.approx(x_mm + 71, abs=1e-6)
     assert number(page, "antennas[1].position_mm[2]") == 30
     assert number(page, "antennas[1].polarization[1]") == pytest.approx(0.9659, abs=1e-4)
+    assert number(page, "antennas[0].polarization[1]") == 1
     assert "SEP-001" not in checklist_ids(page)

@@ -1,5 +1,6 @@
 // The draft page's placement editor: drag an antenna's marker on the top or side view, or focus it and use
-// the arrow keys (1 mm, Shift 10 mm); R turns its polarization axis in the view's plane by 15° (Shift+R 90°).
+// the arrow keys (1 mm, Shift 10 mm); R turns its polarization axis in the view's plane by 15° (Shift+R 90°), and
+// so does dragging the dot at the end of its axis.
 // Every mapping from drawing points to millimetres uses what the server drew with: each view's
 // data-origin-pt (where 0 mm lies) and data-scale-pt-per-mm, in the view's own coordinates. What changes is
 // written into the questionnaire's x/y/z fields, and a change event on them runs the section's ordinary
@@ -93,13 +94,29 @@
     if (!view || position.length !== 3) return;
     event.preventDefault();
     marker.focus();
-    const start = pointerPt(view, event);
-    drag = {marker: marker, view: view, start: start, position: position, moved: null};
+    const axis = readVector(marker, "polarization", numbers(marker.dataset.polarization));
+    const turning = event.target.closest('[data-part="turn"]') !== null && axis.length === 3;
+    drag = {marker: marker, view: view, position: position, axis: axis, turning: turning, moved: null};
     marker.setPointerCapture(event.pointerId);
+  }
+
+  // Dragging the turn handle (the dot at an axis's end) points the axis at the pointer, in 15° steps.
+  function turnTo(event) {
+    const view = drag.view;
+    const point = pointerPt(view, event);
+    const centreX = view.origin[0] + drag.position[view.axes[0]] * view.scale;
+    const centreY = view.origin[1] + drag.position[view.axes[1]] * view.scale;
+    if (Math.hypot(point.x - centreX, point.y - centreY) < 4) return;
+    const degrees = Math.round(Math.atan2(point.y - centreY, point.x - centreX) * 180 / Math.PI / 15) * 15;
+    const now = Math.atan2(drag.axis[view.axes[1]], drag.axis[view.axes[0]]) * 180 / Math.PI;
+    const axisGroup = drag.marker.querySelector('[data-part="axis"]');
+    if (axisGroup) axisGroup.setAttribute("transform", "rotate(" + (degrees - now) + " " + centreX + " " + centreY + ")");
+    drag.moved = turned(drag.axis, view.axes, degrees - now);
   }
 
   function onPointerMove(event) {
     if (!drag) return;
+    if (drag.turning) { turnTo(event); return; }
     const moved = clamp(drag.marker, pointerMm(drag.view, event, drag.position));
     const view = drag.view;
     const dx = (moved[view.axes[0]] - drag.position[view.axes[0]]) * view.scale;
@@ -112,7 +129,8 @@
     if (!drag) return;
     const done = drag;
     drag = null;
-    if (done.moved) write(done.marker, "position_mm", done.moved, DECIMALS_MM);
+    if (done.moved && done.turning) write(done.marker, "polarization", done.moved, 4);
+    else if (done.moved) write(done.marker, "position_mm", done.moved, DECIMALS_MM);
   }
 
   function turned(vector, axes, degrees) {
