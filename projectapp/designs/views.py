@@ -149,9 +149,10 @@ def product_detail(request, product_id: int):
     })
 
 
-def _figures(state: ChecklistState, id_prefix: str) -> dict:
+def _figures(state: ChecklistState, id_prefix: str, editable: bool = False) -> dict:
     """The panel's drawing, charts and coverage. A figure that fails to draw (a defect in Earshot) is left
-    out and named in `failed_figures`; the page still comes up with the rest."""
+    out and named in `failed_figures`; the page still comes up with the rest. `editable`: the placement drawing
+    for the draft page's editor (antennas dragged and turned on it)."""
     svg = coverage_svg = None
     charts: list[str] = []
     coverage: list[dict] = []
@@ -172,7 +173,7 @@ def _figures(state: ChecklistState, id_prefix: str) -> dict:
         svg = attempt("placement drawing", lambda: placement_svg(
             design, pair_severities=pair_severities_from_findings(state.findings),
             frequency_mhz=design.lowest_mhz, id_prefix=id_prefix,
-            coexistence=coexistence_lines_from_findings(state.findings, design)))
+            coexistence=coexistence_lines_from_findings(state.findings, design), editable=editable))
         measurements = attempt("measurements", lambda: load_measurements(state))
         if measurements is None:  # an empty AttachedMeasurements still carries its far-field patterns
             measurements = ()
@@ -200,17 +201,18 @@ def _chart(build, measurement, design, *, id_prefix: str) -> str:
     return chart_svg(build(measurement, design, width_pt=560, height_pt=240), id_prefix=id_prefix)
 
 
-def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> dict:
-    """The panel's figures, drawn once per state of the revision (and version of the code that draws them)."""
-    key = fragments.cache_key("figures", state.revision.cache_identity, id_prefix)
+def _panel_context(state: ChecklistState, *, id_prefix: str = "placement", editable: bool = False) -> dict:
+    """The panel's figures, drawn once per state of the revision (and version of the code that draws them).
+    `editable`: the draft page's, whose placement drawing the author moves antennas on."""
+    key = fragments.cache_key("figures", state.revision.cache_identity, id_prefix, editable)
     figures = cache.get(key)
     if figures is None:
-        figures = _figures(state, id_prefix)
+        figures = _figures(state, id_prefix, editable)
         if not figures["failed_figures"]:  # a failure is not kept: the next look tries again
             cache.set(key, figures, timeout=30 * 24 * 3600)
     failed = bool(figures["failed_figures"]) or CHECK_FAILED in state.problems
     return {"state": state, fragments.NOT_KEPT: failed, "measurement_digests": measurement_digests(state.revision),
-            **figures, **coverage_panel.panel(figures["coverage"], coverage_panel.CoverageAssumptionsForm({}).read())}
+            "placement_editable": editable, **figures, **coverage_panel.panel(figures["coverage"], coverage_panel.CoverageAssumptionsForm({}).read())}
 
 
 def _section_item(section: questionnaire.Section, document: dict, problems: list[Problem], *, version: int,
@@ -269,7 +271,7 @@ def _draft_context(revision: Revision, state: ChecklistState, *, kept: dict | No
             "library_offers": _library_offers(revision),
             "presets": questionnaire.band_presets(), "measurements": _measurement_rows(revision, state.problems),
             "pattern_defaults": _pattern_defaults(revision),
-            "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, **_panel_context(state)}
+            "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, **_panel_context(state, editable=True)}
 
 
 def _measurement_rows(revision: Revision, problems: list[Problem]) -> list[dict]:
@@ -455,7 +457,8 @@ def draft_section_save(request, product_id: int, section: str):
     if request.htmx:
         state = checklist_for(draft)
         panel = fragments.shared("designs/_panel_oob.html", (draft, product),
-                                 lambda: {"product": product, "revision": draft, **_panel_context(state)},
+                                 lambda: {"product": product, "revision": draft,
+                                          **_panel_context(state, editable=True)},
                                  timeout=fragments.DAY)
         template = ("designs/draft_section_messages.html" if request.POST.get("answer") == "messages"
                     else "designs/draft_section_saved.html")
