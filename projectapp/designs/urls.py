@@ -29,6 +29,7 @@ urlpatterns = [
          name="revision_export"),
     path("products/<int:product_id>/revisions/<int:number>/placement.svg", views.revision_placement_svg,
          name="revision_placement_svg"),
+    path("teams/<int:team_id>/rule-set-upgrades/", views.team_upgrades, name="team_upgrades"),
     path("rules/", views.rule_list, name="rule_list"),
     path("terms/", views.term_list, name="term_list"),
 ]

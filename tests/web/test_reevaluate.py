@@ -11,6 +11,7 @@ import io
 
 import pytest
 from django.core.management import call_command
+from django.urls import reverse
 
 from projectapp.designs.models import Revision
 from projectapp.designs.upgrades import compare_checklists, comparison_for, finding_key
@@ -110,3 +111,41 @@ def test_a_team_filter_leaves_out_other_teams(submitted, other_team):
     store_older(submitted, lambda findings: findings.clear())
     code, out, _ = reevaluate("--team", other_team.name)
     assert code == 0 and "0 revision(s)" in out
+
+
+def test_the_revision_page_shows_the_comparison_and_offers_a_draft_under_the_current_rules(client, submitted, author):
+    store_older(submitted, lambda findings: findings.remove(next(f for f in findings if f["id"] == "SEP-001")))
+    client.force_login(author)
+    page = client.get(reverse("revision_detail", args=[submitted.product_id, 1])).content.decode()
+    assert f"Under the current rule set {RULESET_VERSION}" in page and "rule set 1.9.0" in page
+    assert "1 new, 0 gone, 0 changed" in page and "SEP-001" in page
+    assert "Start a draft from it" in page
+    response = client.post(reverse("draft_start", args=[submitted.product_id]), {"from": 1})
+    assert response.status_code == 302
+    draft = submitted.product.draft
+    assert draft.based_on_id == submitted.pk and draft.ruleset == RULESET_VERSION
+    assert Revision.objects.get(pk=submitted.pk).ruleset == OLDER  # the frozen record is untouched
+
+
+def test_a_reviewer_sees_the_comparison_but_no_draft_button(client, submitted, reviewer):
+    store_older(submitted, lambda findings: findings.clear())
+    client.force_login(reviewer)
+    page = client.get(reverse("revision_detail", args=[submitted.product_id, 1])).content.decode()
+    assert "Under the current rule set" in page and "Start a draft from it" not in page
+
+
+def test_the_team_page_lists_affected_revisions_signed_blockers_first(client, submitted, product, team, author,
+                                                                      reviewer, approver):
+    settle(submitted, reviewer, approver)
+    sign_all(submitted, author, reviewer, approver)
+    store_older(Revision.objects.get(pk=submitted.pk),
+                lambda findings: findings.remove(next(f for f in findings if f["id"] == "SEP-001")))
+    client.force_login(author)
+    page = client.get(reverse("team_upgrades", args=[team.pk])).content.decode()
+    assert product.name in page and "Start a draft from it" in page
+    assert "<strong>1</strong>" in page
+
+
+def test_the_team_page_of_another_team_is_404(client, team, outsider):
+    client.force_login(outsider)
+    assert client.get(reverse("team_upgrades", args=[team.pk])).status_code == 404
