@@ -128,3 +128,13 @@ def affected_revisions(revisions) -> list[AffectedRevision]:
             rows.append(AffectedRevision(revision, comparison))
     rows.sort(key=lambda row: not (row.revision.is_signed and row.comparison.new_blockers))
     return rows
+
+
+def changes_since_source(draft: Revision, checklist: dict[str, Any] | None) -> Comparison | None:
+    """A draft's live checklist against the stored checklist of the revision it was started from: what a
+    reviewer's measurement files (or any edit) changed, for the author to see."""
+    source = draft.based_on
+    if checklist is None or source is None or not isinstance(source.evaluation, dict):
+        return None
+    return compare_checklists({**source.evaluation, "ruleset": source.ruleset or source.evaluation.get("ruleset")},
+                              checklist)

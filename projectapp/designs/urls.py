@@ -23,6 +23,8 @@ urlpatterns = [
     path("products/<int:product_id>/revisions/<int:number>/", views.revision_detail, name="revision_detail"),
     path("products/<int:product_id>/revisions/<int:number>/withdraw/", views.revision_withdraw,
          name="revision_withdraw"),
+    path("products/<int:product_id>/revisions/<int:number>/measurement-draft/", views.measurement_draft_start,
+         name="measurement_draft_start"),
     path("products/<int:product_id>/revisions/<int:number>/coverage/", views.revision_coverage,
          name="revision_coverage"),
     path("products/<int:product_id>/revisions/<int:number>/design.json", views.revision_export,

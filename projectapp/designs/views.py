@@ -518,6 +518,7 @@ def revision_detail(request, product_id: int, number: int):
     # the draft's questionnaire); its forms carry the draft's version, so that is in the key too.
     can_measure = facts.is_draft and Role.REVIEWER in facts.roles and not is_author
     can_start_draft = not facts.is_draft and Role.AUTHOR in facts.roles  # "start a draft from it" (upgrades)
+    can_start_measurement_draft = not facts.is_draft and Role.REVIEWER in facts.roles
     revisions = Revision.objects.select_related("product", "submitted_by")
     draft = revisions.get(pk=facts.revision_id) if facts.is_draft else None
 
@@ -529,14 +530,36 @@ def revision_detail(request, product_id: int, number: int):
                      "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000} if can_measure else {}
         return {"product": revision.product, "revision": revision, "is_author": is_author,
                 "can_measure": can_measure, "can_start_draft": can_start_draft,
-                "upgrade": upgrades.comparison_for(revision), "design_text": services.document_export_text(revision=revision),
+                "can_start_measurement_draft": can_start_measurement_draft,
+                "upgrade": upgrades.comparison_for(revision),
+                "since_source": upgrades.changes_since_source(revision, state.checklist) if draft else None,
+                "design_text": services.document_export_text(revision=revision),
                 **measuring, **_panel_context(state)}
 
     # The revision's identity (state and version, which a reviewer's measurement forms carry), the product's and
     # the submitter's name, and what the reader may do: all the page shows. The rule-set comparison follows from
     # the frozen revision and the code (the stamp covers rules/).
     return fragments.page(request, "designs/revision_detail.html",
-                          (facts, facts.submitter_name, is_author, can_measure, can_start_draft), context)
+                          (facts, facts.submitter_name, is_author, can_measure, can_start_draft,
+                           can_start_measurement_draft), context)
+
+
+@login_required
+@require_POST
+def measurement_draft_start(request, product_id: int, number: int):
+    """A reviewer starts a draft from this revision to keep their measurement files (services)."""
+    revision = get_revision_for_user(request.user, product_id, number)
+    require_role(request.user, revision.product.team, Role.REVIEWER)
+    if revision.is_draft:
+        return redirect(revision)
+    try:
+        draft = services.measurement_draft_start(revision=revision, user=request.user)
+    except services.DraftExists as exists:
+        messages.info(request, f"Revision {exists.draft.number} is already a draft: add your measurement files to it.")
+        return redirect(exists.draft)
+    messages.success(request, f"Revision {draft.number} is a new draft copied from revision {revision.number}: add "
+                              "your measurement files; its checklist re-judges with them.")
+    return redirect(draft)
 
 
 @login_required
