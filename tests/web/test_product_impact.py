@@ -10,8 +10,8 @@ from django.urls import reverse
 from django.utils.html import escape
 from pypdf import PdfReader
 
-from projectapp.designs import services
 from projectapp.designs.checklists import checklist_for
+from projectapp.reviews import services as review_services
 from projectapp.signoff.pdf import build_record_pdf
 from tests.web.conftest import EXAMPLES
 from tests.web.test_term_list import page
@@ -39,7 +39,7 @@ def test_the_checklist_shows_each_findings_impact_beside_its_explanation(client,
 
 
 def test_review_cards_and_the_item_page_show_the_impact(client, author, reviewer, product):
-    revision = services.revision_submit(revision=product.draft, user=author)
+    revision = review_services.revision_submit(revision=product.draft, user=author)
     items = list(revision.review_items.filter(kind="raised"))
     review = page(client, reviewer, reverse("revision_review", args=[product.pk, revision.number]))
     for item in items:
@@ -49,7 +49,7 @@ def test_review_cards_and_the_item_page_show_the_impact(client, author, reviewer
 
 
 def test_a_finding_stored_before_the_impact_line_existed_still_shows(client, author, reviewer, product):
-    revision = services.revision_submit(revision=product.draft, user=author)
+    revision = review_services.revision_submit(revision=product.draft, user=author)
     item = revision.review_items.filter(kind="raised").first()
     old = {key: value for key, value in item.finding.items() if key != "product_impact"}
     type(item).objects.filter(pk=item.pk).update(finding=old)  # as a revision submitted earlier stored it
@@ -62,7 +62,7 @@ def _text(content: bytes) -> str:
 
 
 def test_the_pdf_record_has_one_impact_line_per_finding_in_detail(author, product):
-    revision = services.revision_submit(revision=product.draft, user=author)
+    revision = review_services.revision_submit(revision=product.draft, user=author)
     text = _text(build_record_pdf(revision, fingerprint="0" * 64))
     items = list(revision.review_items.filter(kind="raised"))
     assert text.count("Fortheproduct:") == len(items)

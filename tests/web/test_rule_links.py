@@ -7,6 +7,7 @@ from django.template import Context, Template
 from django.urls import reverse
 
 from projectapp.designs import services
+from projectapp.reviews import services as review_services
 from projectapp.reviews.services import review_item_comment, review_item_decide
 from rules.registry import registered_rules
 from tests.web.conftest import EXAMPLES
@@ -34,7 +35,7 @@ def test_the_checklist_links_every_findings_rule(client, author, product):
 
 def test_review_cards_the_item_page_the_dashboard_and_the_sign_off_page_link_rule_ids(client, author, reviewer,
                                                                                       product):
-    revision = services.revision_submit(revision=product.draft, user=author)
+    revision = review_services.revision_submit(revision=product.draft, user=author)
     items = list(revision.review_items.filter(kind="raised"))
     expected = {f"rule-{item.rule_id}" for item in items}
     review = set(rule_anchors(page(client, reviewer, reverse("revision_review", args=[product.pk, 1]))))
@@ -47,7 +48,7 @@ def test_review_cards_the_item_page_the_dashboard_and_the_sign_off_page_link_rul
 
 
 def test_the_audit_trail_links_the_rule_ids_in_its_summaries_and_escapes_the_rest(client, author, reviewer, product):
-    revision = services.revision_submit(revision=product.draft, user=author)
+    revision = review_services.revision_submit(revision=product.draft, user=author)
     item = revision.review_items.filter(kind="raised", severity="warning").first()
     review_item_decide(item=item, user=reviewer, disposition="discussion", justification="", expected_version=1)
     review_item_comment(item=item, user=reviewer, text=f"<b>see {item.rule_id}</b> and ZZZ-999")
@@ -58,7 +59,7 @@ def test_the_audit_trail_links_the_rule_ids_in_its_summaries_and_escapes_the_res
 
 
 def test_the_comparison_links_new_and_resolved_findings(client, author, product):
-    services.revision_submit(revision=product.draft, user=author)
+    review_services.revision_submit(revision=product.draft, user=author)
     draft = services.draft_get_or_start(product=product, user=author)
     document = json.loads((EXAMPLES / "hive-gateway.json").read_text())
     document["antennas"][1]["position_mm"] = [115, 10, 12]  # 100 mm apart: SEP-001 resolved
@@ -66,7 +67,7 @@ def test_the_comparison_links_new_and_resolved_findings(client, author, product)
     document["enclosure"]["material"] = "mixed"  # ENC-001 new
     services.design_import(product=product, text=json.dumps(document), source="moved.json", user=author,
                            read_version=draft.version)
-    services.revision_submit(revision=product.draft, user=author)
+    review_services.revision_submit(revision=product.draft, user=author)
     html = page(client, author, reverse("revision_compare", args=[product.pk]) + "?from=1&to=2")
     assert {"rule-ENC-001", "rule-SEP-001", "rule-RFX-001"} <= set(rule_anchors(html))
 

@@ -6,8 +6,9 @@ import pytest
 from django.urls import reverse
 from django.utils.html import escape
 
-from projectapp.designs import questionnaire, services
+from projectapp.designs import questionnaire
 from projectapp.designs.templatetags.terms import KEY_TERMS
+from projectapp.reviews import services as review_services
 from rules.coverage import TABLE_COLUMNS
 from rules.glossary import glossary, terms
 
@@ -108,7 +109,7 @@ def test_band_table_and_evidence_keys_link_to_their_terms(client, author, produc
 def test_every_link_to_a_term_on_the_pages_lands_on_an_entry(client, author, reviewer, product):
     known = {entry.anchor for entry in terms().values()}
     seen = set(term_anchors(page(client, author, reverse("draft_edit", args=[product.pk]))))
-    revision = services.revision_submit(revision=product.draft, user=author)
+    revision = review_services.revision_submit(revision=product.draft, user=author)
     for url in (reverse("revision_detail", args=[product.pk, revision.number]),
                 reverse("revision_review", args=[product.pk, revision.number]),
                 reverse("signoff_page", args=[product.pk, revision.number]),
