@@ -13,13 +13,21 @@ from django.contrib.auth.decorators import login_required
 from django.core.cache import cache
 from django.db import DatabaseError
 from django.http import HttpResponse
-from django.shortcuts import redirect, render
+from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
 from django.views.decorators.http import require_GET, require_http_methods, require_POST
 from django_htmx.http import HttpResponseClientRedirect, reswap
 
 from projectapp import fragments, paging
-from projectapp.designs import coverage_panel, library_use, lifecycle, pattern_facts, questionnaire, services
+from projectapp.designs import (
+    coverage_panel,
+    library_use,
+    lifecycle,
+    pattern_facts,
+    questionnaire,
+    services,
+    upgrades,
+)
 from projectapp.designs.access import (
     get_product_for_user,
     get_revision_for_user,
@@ -512,6 +520,8 @@ def revision_detail(request, product_id: int, number: int):
     # Reviewers (the engineers who measure) keep measurement files with a draft from this page (authors do it on
     # the draft's questionnaire); its forms carry the draft's version, so that is in the key too.
     can_measure = facts.is_draft and Role.REVIEWER in facts.roles and not is_author
+    can_start_draft = not facts.is_draft and Role.AUTHOR in facts.roles  # "start a draft from it" (upgrades)
+    can_start_measurement_draft = not facts.is_draft and Role.REVIEWER in facts.roles
     revisions = Revision.objects.select_related("product", "submitted_by")
     draft = revisions.get(pk=facts.revision_id) if facts.is_draft else None
 
@@ -522,13 +532,48 @@ def revision_detail(request, product_id: int, number: int):
                      "pattern_defaults": _pattern_defaults(revision),
                      "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000} if can_measure else {}
         return {"product": revision.product, "revision": revision, "is_author": is_author,
-                "can_measure": can_measure, "design_text": services.document_export_text(revision=revision),
+                "can_measure": can_measure, "can_start_draft": can_start_draft,
+                "can_start_measurement_draft": can_start_measurement_draft,
+                "upgrade": upgrades.comparison_for(revision),
+                "since_source": upgrades.changes_since_source(revision, state.checklist) if draft else None,
+                "design_text": services.document_export_text(revision=revision),
                 **measuring, **_panel_context(state)}
 
     # The revision's identity (state and version, which a reviewer's measurement forms carry), the product's and
-    # the submitter's name, and what the reader may do: all the page shows.
+    # the submitter's name, and what the reader may do: all the page shows. The rule-set comparison follows from
+    # the frozen revision and the code (the stamp covers rules/).
     return fragments.page(request, "designs/revision_detail.html",
-                          (facts, facts.submitter_name, is_author, can_measure), context)
+                          (facts, facts.submitter_name, is_author, can_measure, can_start_draft,
+                           can_start_measurement_draft), context)
+
+
+@login_required
+@require_POST
+def measurement_draft_start(request, product_id: int, number: int):
+    """A reviewer starts a draft from this revision to keep their measurement files (services)."""
+    revision = get_revision_for_user(request.user, product_id, number)
+    require_role(request.user, revision.product.team, Role.REVIEWER)
+    if revision.is_draft:
+        return redirect(revision)
+    try:
+        draft = services.measurement_draft_start(revision=revision, user=request.user)
+    except services.DraftExists as exists:
+        messages.info(request, f"Revision {exists.draft.number} is already a draft: add your measurement files to it.")
+        return redirect(exists.draft)
+    messages.success(request, f"Revision {draft.number} is a new draft copied from revision {revision.number}: add "
+                              "your measurement files; its checklist re-judges with them.")
+    return redirect(draft)
+
+
+@login_required
+@require_GET
+def team_upgrades(request, team_id: int):
+    """The team's frozen revisions that the current rule set would judge differently (designs.upgrades)."""
+    team = get_object_or_404(teams_of(request.user), pk=team_id)  # another team's: 404
+    rows = upgrades.affected_revisions(Revision.objects.filter(product__team=team))
+    return render(request, "designs/team_upgrades.html",
+                  {"team": team, "rows": rows, "ruleset": RULESET_VERSION,
+                   "can_start_draft": has_role(request.user, team, Role.AUTHOR)})
 
 
 @login_required
