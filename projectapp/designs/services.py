@@ -185,6 +185,21 @@ def draft_get_or_start(*, product: Product, user, source: Revision | None = None
     product_create), always under the product's row lock, which also keeps `Product.latest_revision` true.
     Raises DraftExists when `source` is given and the product already has a draft."""
     require_role(user, product.team, Role.AUTHOR)
+    return _draft_start(product=product, user=user, source=source)
+
+
+@transaction.atomic
+def measurement_draft_start(*, revision: Revision, user) -> Revision:
+    """The engineer's measurement path: a reviewer who measured a prototype starts a draft from the revision in
+    review (or a signed one) to keep their measurement files with it, without the author. Reviewers change only a
+    draft's measurements (require_measurement_role), so the design stays the author's; the draft's checklist
+    re-judges with the files, and its page shows the author what changed against the revision it came from.
+    Raises DraftExists when the product already has a draft (the reviewer adds files to that one)."""
+    require_role(user, revision.product.team, Role.REVIEWER)
+    return _draft_start(product=revision.product, user=user, source=revision, purpose="measurement draft")
+
+
+def _draft_start(*, product: Product, user, source: Revision | None, purpose: str = "draft") -> Revision:
     product = Product.objects.select_for_update(no_key=True).get(pk=product.pk)  # as designs.lifecycle locks
     draft = product.draft
     if draft is not None:
@@ -205,7 +220,7 @@ def draft_get_or_start(*, product: Product, user, source: Revision | None = None
         _copy_measurements(source=origin, target=draft, user=user)
     files = draft.measurement_files.count()
     audit_record(product=product, revision=draft, actor=user, action=AuditEvent.Action.DRAFT_STARTED,
-                 summary=f"Started draft revision {number}" + (f", copied from revision {origin.number}"
+                 summary=f"Started {purpose} revision {number}" + (f", copied from revision {origin.number}"
                                                                + (f" with {files} measurement file(s)" if files else "")
                                                                if origin else ""),
                  draft_version=draft.version)

@@ -13,13 +13,21 @@ from django.contrib.auth.decorators import login_required
 from django.core.cache import cache
 from django.db import DatabaseError
 from django.http import HttpResponse
-from django.shortcuts import redirect, render
+from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
 from django.views.decorators.http import require_GET, require_http_methods, require_POST
 from django_htmx.http import HttpResponseClientRedirect, reswap
 
 from projectapp import fragments, paging
-from projectapp.designs import coverage_panel, library_use, lifecycle, pattern_facts, questionnaire, services
+from projectapp.designs import (
+    coverage_panel,
+    library_use,
+    lifecycle,
+    pattern_facts,
+    questionnaire,
+    services,
+    upgrades,
+)
 from projectapp.designs.access import (
     get_product_for_user,
     get_revision_for_user,
@@ -149,9 +157,10 @@ def product_detail(request, product_id: int):
     })
 
 
-def _figures(state: ChecklistState, id_prefix: str) -> dict:
+def _figures(state: ChecklistState, id_prefix: str, editable: bool = False) -> dict:
     """The panel's drawing, charts and coverage. A figure that fails to draw (a defect in Earshot) is left
-    out and named in `failed_figures`; the page still comes up with the rest."""
+    out and named in `failed_figures`; the page still comes up with the rest. `editable`: the placement drawing
+    for the draft page's editor (antennas dragged and turned on it)."""
     svg = coverage_svg = None
     charts: list[str] = []
     coverage: list[dict] = []
@@ -172,7 +181,7 @@ def _figures(state: ChecklistState, id_prefix: str) -> dict:
         svg = attempt("placement drawing", lambda: placement_svg(
             design, pair_severities=pair_severities_from_findings(state.findings),
             frequency_mhz=design.lowest_mhz, id_prefix=id_prefix,
-            coexistence=coexistence_lines_from_findings(state.findings, design)))
+            coexistence=coexistence_lines_from_findings(state.findings, design), editable=editable))
         measurements = attempt("measurements", lambda: load_measurements(state))
         if measurements is None:  # an empty AttachedMeasurements still carries its far-field patterns
             measurements = ()
@@ -200,17 +209,18 @@ def _chart(build, measurement, design, *, id_prefix: str) -> str:
     return chart_svg(build(measurement, design, width_pt=560, height_pt=240), id_prefix=id_prefix)
 
 
-def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> dict:
-    """The panel's figures, drawn once per state of the revision (and version of the code that draws them)."""
-    key = fragments.cache_key("figures", state.revision.cache_identity, id_prefix)
+def _panel_context(state: ChecklistState, *, id_prefix: str = "placement", editable: bool = False) -> dict:
+    """The panel's figures, drawn once per state of the revision (and version of the code that draws them).
+    `editable`: the draft page's, whose placement drawing the author moves antennas on."""
+    key = fragments.cache_key("figures", state.revision.cache_identity, id_prefix, editable)
     figures = cache.get(key)
     if figures is None:
-        figures = _figures(state, id_prefix)
+        figures = _figures(state, id_prefix, editable)
         if not figures["failed_figures"]:  # a failure is not kept: the next look tries again
             cache.set(key, figures, timeout=30 * 24 * 3600)
     failed = bool(figures["failed_figures"]) or CHECK_FAILED in state.problems
     return {"state": state, fragments.NOT_KEPT: failed, "measurement_digests": measurement_digests(state.revision),
-            **figures, **coverage_panel.panel(figures["coverage"], coverage_panel.CoverageAssumptionsForm({}).read())}
+            "placement_editable": editable, **figures, **coverage_panel.panel(figures["coverage"], coverage_panel.CoverageAssumptionsForm({}).read())}
 
 
 def _section_item(section: questionnaire.Section, document: dict, problems: list[Problem], *, version: int,
@@ -269,7 +279,7 @@ def _draft_context(revision: Revision, state: ChecklistState, *, kept: dict | No
             "library_offers": _library_offers(revision),
             "presets": questionnaire.band_presets(), "measurements": _measurement_rows(revision, state.problems),
             "pattern_defaults": _pattern_defaults(revision),
-            "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, **_panel_context(state)}
+            "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, **_panel_context(state, editable=True)}
 
 
 def _measurement_rows(revision: Revision, problems: list[Problem]) -> list[dict]:
@@ -455,7 +465,8 @@ def draft_section_save(request, product_id: int, section: str):
     if request.htmx:
         state = checklist_for(draft)
         panel = fragments.shared("designs/_panel_oob.html", (draft, product),
-                                 lambda: {"product": product, "revision": draft, **_panel_context(state)},
+                                 lambda: {"product": product, "revision": draft,
+                                          **_panel_context(state, editable=True)},
                                  timeout=fragments.DAY)
         template = ("designs/draft_section_messages.html" if request.POST.get("answer") == "messages"
                     else "designs/draft_section_saved.html")
@@ -509,6 +520,8 @@ def revision_detail(request, product_id: int, number: int):
     # Reviewers (the engineers who measure) keep measurement files with a draft from this page (authors do it on
     # the draft's questionnaire); its forms carry the draft's version, so that is in the key too.
     can_measure = facts.is_draft and Role.REVIEWER in facts.roles and not is_author
+    can_start_draft = not facts.is_draft and Role.AUTHOR in facts.roles  # "start a draft from it" (upgrades)
+    can_start_measurement_draft = not facts.is_draft and Role.REVIEWER in facts.roles
     revisions = Revision.objects.select_related("product", "submitted_by")
     draft = revisions.get(pk=facts.revision_id) if facts.is_draft else None
 
@@ -519,13 +532,48 @@ def revision_detail(request, product_id: int, number: int):
                      "pattern_defaults": _pattern_defaults(revision),
                      "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000} if can_measure else {}
         return {"product": revision.product, "revision": revision, "is_author": is_author,
-                "can_measure": can_measure, "design_text": services.document_export_text(revision=revision),
+                "can_measure": can_measure, "can_start_draft": can_start_draft,
+                "can_start_measurement_draft": can_start_measurement_draft,
+                "upgrade": upgrades.comparison_for(revision),
+                "since_source": upgrades.changes_since_source(revision, state.checklist) if draft else None,
+                "design_text": services.document_export_text(revision=revision),
                 **measuring, **_panel_context(state)}
 
     # The revision's identity (state and version, which a reviewer's measurement forms carry), the product's and
-    # the submitter's name, and what the reader may do: all the page shows.
+    # the submitter's name, and what the reader may do: all the page shows. The rule-set comparison follows from
+    # the frozen revision and the code (the stamp covers rules/).
     return fragments.page(request, "designs/revision_detail.html",
-                          (facts, facts.submitter_name, is_author, can_measure), context)
+                          (facts, facts.submitter_name, is_author, can_measure, can_start_draft,
+                           can_start_measurement_draft), context)
+
+
+@login_required
+@require_POST
+def measurement_draft_start(request, product_id: int, number: int):
+    """A reviewer starts a draft from this revision to keep their measurement files (services)."""
+    revision = get_revision_for_user(request.user, product_id, number)
+    require_role(request.user, revision.product.team, Role.REVIEWER)
+    if revision.is_draft:
+        return redirect(revision)
+    try:
+        draft = services.measurement_draft_start(revision=revision, user=request.user)
+    except services.DraftExists as exists:
+        messages.info(request, f"Revision {exists.draft.number} is already a draft: add your measurement files to it.")
+        return redirect(exists.draft)
+    messages.success(request, f"Revision {draft.number} is a new draft copied from revision {revision.number}: add "
+                              "your measurement files; its checklist re-judges with them.")
+    return redirect(draft)
+
+
+@login_required
+@require_GET
+def team_upgrades(request, team_id: int):
+    """The team's frozen revisions that the current rule set would judge differently (designs.upgrades)."""
+    team = get_object_or_404(teams_of(request.user), pk=team_id)  # another team's: 404
+    rows = upgrades.affected_revisions(Revision.objects.filter(product__team=team))
+    return render(request, "designs/team_upgrades.html",
+                  {"team": team, "rows": rows, "ruleset": RULESET_VERSION,
+                   "can_start_draft": has_role(request.user, team, Role.AUTHOR)})
 
 
 @login_required

@@ -73,8 +73,12 @@ def drawn(monkeypatch):
     return calls
 
 
-def test_two_readers_of_one_cached_page_each_get_their_own_token_and_name(submitted_product, author, reviewer,
-                                                                          drawn):
+def test_two_readers_of_one_cached_page_each_get_their_own_token_and_name(submitted_product, author, team, drawn):
+    from tests.web.conftest import make_user
+
+    # Same roles: a frozen revision's page offers authors "start a draft from it" and reviewers a measurement
+    # draft, so the roles are part of its key.
+    reviewer = make_user("reviewer", team, "author")
     url = submitted_product.latest.get_absolute_url()
     first, second = signed_in(author, enforce_csrf=True), signed_in(reviewer, enforce_csrf=True)
     page_first = first.get(url).content.decode()
