@@ -41,6 +41,8 @@ class AuditEvent(models.Model):
         PART_RESTORED = "part-restored", "Restored a library part"
         PART_FILE_ADDED = "part-file-added", "Added a file to a library part"
         PART_FILE_REMOVED = "part-file-removed", "Removed a file from a library part"
+        STEP_CHANGED = "step-changed", "Updated a process step"
+        EVIDENCE_ADDED = "evidence-added", "Attached evidence"
 
     # A design or review event belongs to a product; a parts-library event to its team alone, with
     # `subject` naming the library entry ("library-entry:<id>").

@@ -2,7 +2,7 @@ from django import forms
 
 from projectapp.filters import FilterForm, choice_field, id_field
 from projectapp.paging import page_field
-from projectapp.reviews.models import Disposition
+from projectapp.reviews.models import Disposition, StepStatus
 from rules.findings import SEVERITIES, TOPICS
 
 
@@ -20,6 +20,20 @@ class AssignForm(forms.Form):
     def __init__(self, *args, people, **kwargs):
         super().__init__(*args, **kwargs)
         self.fields["assignee"].queryset = people
+
+
+class StepForm(forms.Form):
+    owner = forms.ModelChoiceField(queryset=None, required=False, empty_label="nobody")
+    planned_on = forms.DateField(required=False, label="Planned date",
+                                 widget=forms.DateInput(attrs={"type": "date"}),
+                                 error_messages={"invalid": "expected a date as YYYY-MM-DD"})
+    status = forms.ChoiceField(choices=StepStatus.choices)
+    reference = forms.CharField(required=False, max_length=200, label="Lab's or operator's reference")
+    version = forms.IntegerField(widget=forms.HiddenInput)
+
+    def __init__(self, *args, people, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.fields["owner"].queryset = people
 
 
 class ConfirmForm(forms.Form):

@@ -2,11 +2,13 @@
 
 A decision carried from an earlier revision counts once someone confirms it here; a blocker needs a waiver that
 rests on an approver's authority (granted on it as a blocker, or confirmed here by an approver:
-ReviewItem.waiver_authority); a warning needs a disposition that settles it (SETTLED). Notes need nothing. The
+ReviewItem.waiver_authority); a warning needs a disposition that settles it (SETTLED). Notes need nothing, nor
+does a step outside the team (reviews.steps: certification, RF exposure), whatever its severity: it is tracked. The
 sign-off app asks this module and adds only what is its own (signatures, a newer signed revision).
 """
 
 from projectapp.reviews.models import SETTLED, Disposition, ReviewItem
+from projectapp.reviews.steps import is_external_step
 from projectapp.teams.models import Membership, Role
 
 
@@ -30,6 +32,8 @@ def item_obstacles(revision) -> list[str]:
     obstacles = []
     approvers = approver_ids(revision.product.team)
     for item in revision.review_items.filter(kind=ReviewItem.Kind.RAISED).order_by("id").with_provenance():
+        if is_external_step(topic=item.topic, rule_id=item.rule_id):
+            continue  # a step outside the team is tracked (ProcessStep), not settled here: it never blocks signing
         label = f"{item.rule_id} {item.title}"
         if item.is_carried_unconfirmed and item.severity in ("blocker", "warning"):
             obstacles.append(f"{label}: the decision carried from revision {item.carried_from.number} "

@@ -195,3 +195,84 @@ class ReviewTally(models.Model):
 
     def __str__(self) -> str:
         return f"{self.open_items} open item(s) of revision {self.revision_id}"
+
+
+class StepStatus(models.TextChoices):
+    PLANNED = "planned", "Planned"
+    IN_PROGRESS = "in-progress", "In progress"
+    PASSED = "passed", "Passed"
+    FAILED = "failed", "Failed"
+
+
+class ProcessStep(models.Model):
+    """A step outside the team that a finding names (reviews.steps): who owns it, when it is planned, where it
+    stands and the lab's or operator's reference. It never blocks sign-off of the design review (reviews.gate
+    skips its item); it carries forward to the next revision with its status and history, and is frozen once
+    signing starts: the record shows it as it stood at signing."""
+
+    revision = models.ForeignKey(Revision, on_delete=models.PROTECT, related_name="process_steps")
+    item = models.OneToOneField(ReviewItem, on_delete=models.PROTECT, related_name="process_step")
+    owner = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
+                              related_name="+")
+    planned_on = models.DateField(null=True, blank=True)
+    status = models.CharField(max_length=12, choices=StepStatus.choices, default=StepStatus.PLANNED)
+    reference = models.CharField(max_length=200, blank=True)  # the lab's report number, the operator's case id
+    # Every change as [iso time, username, revision number, {field: [before, after]}], carried forward whole.
+    history = models.JSONField(default=list)
+    carried_from = models.ForeignKey(Revision, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
+    version = models.PositiveIntegerField(default=1)
+    updated_at = models.DateTimeField(auto_now=True)
+
+    class Meta:
+        ordering = ["revision", "item_id"]
+
+    def __str__(self) -> str:
+        return f"step {self.item.rule_id} ({self.get_status_display()}) of revision {self.revision.number}"
+
+    def save(self, *args, **kwargs):
+        if self.revision_id and not lifecycle.review_open_in_database(self.revision_id):
+            raise SignedRevisionError("the steps of a revision whose review is closed are frozen")
+        super().save(*args, **kwargs)
+
+
+MAX_ATTACHMENT_BYTES = 10_000_000  # a scanned approval letter or a lab report; larger belongs in the lab's system
+
+
+def attachment_upload_to(instance: "EvidenceAttachment", filename: str) -> str:
+    return f"evidence/product-{instance.revision.product_id}/rev-{instance.revision.number}/{instance.sha256[:16]}-{filename}"
+
+
+class EvidenceAttachment(models.Model):
+    """A file a decision or a step rests on (an operator's approval letter, a lab report), kept with its SHA-256
+    and size. Served only to the team as a download, never inline; frozen once the review closes."""
+
+    revision = models.ForeignKey(Revision, on_delete=models.PROTECT, related_name="evidence")
+    item = models.ForeignKey(ReviewItem, on_delete=models.PROTECT, null=True, blank=True, related_name="evidence")
+    step = models.ForeignKey(ProcessStep, on_delete=models.PROTECT, null=True, blank=True, related_name="evidence")
+    name = models.CharField(max_length=120)
+    file = models.FileField(upload_to=attachment_upload_to)
+    size_bytes = models.PositiveIntegerField()
+    sha256 = models.CharField(max_length=64)
+    uploaded_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, related_name="+")
+    uploaded_at = models.DateTimeField(auto_now_add=True)
+
+    class Meta:
+        ordering = ["revision", "id"]
+
+    def __str__(self) -> str:
+        return self.name
+
+    def save(self, *args, **kwargs):
+        if not lifecycle.review_open_in_database(self.revision_id):
+            raise SignedRevisionError("the evidence of a revision whose review is closed is frozen")
+        super().save(*args, **kwargs)
+
+    def delete(self, *args, **kwargs):
+        raise SignedRevisionError("evidence is kept: it is part of the review's record")
+
+    @property
+    def supports(self) -> str:
+        """What the file is evidence for, in the record's words."""
+        item = self.step.item if self.step_id else self.item
+        kind = "step" if self.step_id else "decision"
+        return f"{kind} on {item.rule_id} {item.title}" if item else kind

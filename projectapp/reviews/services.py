@@ -15,9 +15,11 @@ makes the write wait and then be refused, and a signature waits for a write in p
 Nothing lands after the first signature, or on a withdrawn revision.
 """
 
+import hashlib
 from typing import Any
 
 from django.core.exceptions import PermissionDenied
+from django.core.files.base import ContentFile
 from django.db import transaction
 from django.db.models import Count, F
 from django.utils import timezone
@@ -28,14 +30,19 @@ from projectapp.designs import lifecycle
 from projectapp.designs.models import Revision
 from projectapp.reviews.gate import approver_ids  # noqa: F401 (the PDF and the views read it from here)
 from projectapp.reviews.models import (
+    MAX_ATTACHMENT_BYTES,
     NEEDS_JUSTIFICATION,
     OPEN_ITEMS,
     SEVERITY_RANK,
     Comment,
     Disposition,
+    EvidenceAttachment,
+    ProcessStep,
     ReviewItem,
     ReviewTally,
+    StepStatus,
 )
+from projectapp.reviews.steps import is_external_step
 from projectapp.teams.access import has_role, require_role
 from projectapp.teams.models import Membership, Role
 
@@ -181,6 +188,7 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
                                       severity=before.severity, title=before.title, finding=before.finding,
                                       disposition=before.disposition, justification=before.justification))
     ReviewItem.objects.bulk_create(created)
+    process_steps_create(revision=revision, items=created, previous=previous)
     review_tallies_refresh(revision_ids=[revision.pk])
     raised = sum(1 for item in created if item.kind == ReviewItem.Kind.RAISED)
     carried = sum(1 for item in created if item.carried_from_id)
@@ -191,6 +199,67 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
                    f"decisions{graver}), {resolved} resolved since revision {previous.number if previous else '—'}",
            changes={"review_items": [None, raised]})
     return created
+
+
+def process_steps_create(*, revision: Revision, items: list[ReviewItem], previous: Revision | None) -> None:
+    """A process step for each raised item that names a step outside the team (reviews.steps), taking over the
+    previous revision's step for the same finding whole: owner, date, status, reference and history."""
+    earlier = {}
+    if previous is not None:
+        earlier = {(step.item.rule_id, step.item.subjects_key): step
+                   for step in ProcessStep.objects.filter(revision=previous).select_related("item")}
+    steps = []
+    for item in items:
+        if item.kind != ReviewItem.Kind.RAISED or not is_external_step(topic=item.topic, rule_id=item.rule_id):
+            continue
+        step = ProcessStep(revision=revision, item=item)
+        before = earlier.get((item.rule_id, item.subjects_key))
+        if before is not None:
+            step.owner_id, step.planned_on, step.status = before.owner_id, before.planned_on, before.status
+            step.reference, step.history, step.carried_from = before.reference, before.history, previous
+        steps.append(step)
+    ProcessStep.objects.bulk_create(steps)
+
+
+@transaction.atomic
+def process_step_update(*, step: ProcessStep, user, owner, planned_on, status: str, reference: str,
+                        expected_version: int) -> ProcessStep:
+    """Records who owns an external step, when it is planned, where it stands and the lab's or operator's
+    reference. Any team member whose role may review; a stale version raises ReviewConflict."""
+    lifecycle.lock(step.revision_id)
+    step = ProcessStep.objects.select_related("revision__product__team", "item", "owner").get(pk=step.pk)
+    team = step.revision.product.team
+    if not (can_review(user, step.revision) or has_role(user, team, Role.AUTHOR)):
+        raise PermissionDenied("Updating a process step needs the author, reviewer or approver role.")
+    if not lifecycle.is_review_open(step.revision):
+        raise PermissionDenied(lifecycle.review_closed_reason(step.revision))
+    if status not in StepStatus.values:
+        raise ReviewInputError("status", f"status: expected one of {', '.join(StepStatus.values)}")
+    reference = reference.strip()
+    if len(reference) > 200:
+        raise ReviewInputError("reference", "reference: at most 200 characters")
+    if owner is not None and not Membership.objects.filter(team=team, user=owner).exists():
+        raise ReviewInputError("owner", "owner: expected a member of the team")
+    if step.version != expected_version:
+        raise ReviewConflict(step)
+    after = {"owner": _username(owner), "planned_on": planned_on.isoformat() if planned_on else None,
+             "status": status, "reference": reference}
+    before = {"owner": _username(step.owner), "planned_on": step.planned_on.isoformat() if step.planned_on else None,
+              "status": step.status, "reference": step.reference}
+    changes = {key: [before[key], after[key]] for key in after if before[key] != after[key]}
+    if not changes:
+        return step
+    history = [*step.history, [_iso(timezone.now()), user.get_username(), step.revision.number, changes]]
+    updated = ProcessStep.objects.filter(pk=step.pk, version=expected_version).update(
+        owner=owner, planned_on=planned_on, status=status, reference=reference, history=history,
+        version=F("version") + 1, updated_at=timezone.now())
+    current = ProcessStep.objects.select_related("revision__product__team", "item", "owner").get(pk=step.pk)
+    if not updated:
+        raise ReviewConflict(current)
+    _audit(item=current.item, revision=current.revision, user=user, action=AuditEvent.Action.STEP_CHANGED,
+           summary=f"{current.item.rule_id} step: {current.get_status_display()}"
+                   + (f" ({reference})" if reference else ""), changes=changes)
+    return current
 
 
 @transaction.atomic
@@ -322,3 +391,42 @@ def review_item_comment(*, item: ReviewItem, user, text: str) -> Comment:
     _audit(item=item, revision=item.revision, user=user, action=AuditEvent.Action.COMMENT,
            summary=f"{item.rule_id}: {text[:200]}", changes={"comment": [None, text]})
     return comment
+
+
+def attachment_name(name: str) -> str:
+    """The name an uploaded file is kept and offered under: its last path part, letters, digits and ._-, only."""
+    base = name.replace("\\", "/").rsplit("/", 1)[-1].strip().lstrip(".")
+    return "".join(ch if ch.isalnum() or ch in "._-" else "-" for ch in base)[:120]
+
+
+@transaction.atomic
+def evidence_attach(*, user, name: str, content: bytes, item: ReviewItem | None = None,
+                    step: ProcessStep | None = None) -> EvidenceAttachment:
+    """Keeps a file a decision (item) or a step rests on, with its SHA-256 and size, while the review is open."""
+    if (item is None) == (step is None):
+        raise ValueError("evidence belongs to one decision or one step")
+    target_item = step.item if step is not None else item
+    assert target_item is not None
+    locked = _lock_revision(target_item)
+    team = locked.revision.product.team
+    if not (can_review(user, locked.revision) or (step is not None and has_role(user, team, Role.AUTHOR))):
+        raise PermissionDenied("Attaching evidence needs the reviewer or approver role (the author too, on a step).")
+    if not lifecycle.is_review_open(locked.revision):
+        raise PermissionDenied(lifecycle.review_closed_reason(locked.revision))
+    safe = attachment_name(name)
+    if not safe:
+        raise ReviewInputError("file", "file: expected a file with a name")
+    if not content:
+        raise ReviewInputError("file", f"file: {safe} is empty")
+    if len(content) > MAX_ATTACHMENT_BYTES:
+        raise ReviewInputError("file", f"file: expected at most {MAX_ATTACHMENT_BYTES // 1_000_000} MB, "
+                                       f"got {len(content) / 1_000_000:.1f} MB")
+    attachment = EvidenceAttachment(revision=locked.revision, item=None if step else locked, step=step, name=safe,
+                                    size_bytes=len(content), sha256=hashlib.sha256(content).hexdigest(),
+                                    uploaded_by=user)
+    attachment.file.save(safe, ContentFile(content), save=False)
+    attachment.save()
+    _audit(item=locked, revision=locked.revision, user=user, action=AuditEvent.Action.EVIDENCE_ADDED,
+           summary=f"Attached {safe} to the {'step' if step else 'decision'} on {locked.rule_id}",
+           changes={"evidence": [None, {"name": safe, "sha256": attachment.sha256, "size_bytes": len(content)}]})
+    return attachment

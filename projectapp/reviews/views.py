@@ -12,7 +12,9 @@ from django.contrib.auth import get_user_model
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
 from django.db.models import Case, Value, When
+from django.http import FileResponse, Http404
 from django.shortcuts import get_object_or_404, redirect, render
+from django.urls import reverse
 from django.utils.http import url_has_allowed_host_and_scheme
 from django.views.decorators.http import require_GET, require_POST
 
@@ -31,8 +33,9 @@ from projectapp.reviews.forms import (
     ConfirmForm,
     DashboardFilterForm,
     DecisionForm,
+    StepForm,
 )
-from projectapp.reviews.models import OPEN_ITEMS, ReviewItem, ReviewTally
+from projectapp.reviews.models import OPEN_ITEMS, EvidenceAttachment, ProcessStep, ReviewItem, ReviewTally
 from projectapp.reviews.provenance import decision_lines
 from projectapp.teams.access import teams_of
 from rules.design import DesignError
@@ -188,13 +191,15 @@ def revision_review(request, product_id: int, number: int):
     items.sort(key=lambda item: (item.kind, severity_rank.get(item.severity, 9),
                                  TOPICS.index(item.topic) if item.topic in TOPICS else 99, item.pk))
     approvers = services.approver_ids(revision.product.team)
+    steps = {step.item_id: step for step in ProcessStep.objects.filter(revision=revision).select_related("owner")}
     raised = [_card_context(request, item, approvers=approvers) for item in items
-              if item.kind == ReviewItem.Kind.RAISED]
+              if item.kind == ReviewItem.Kind.RAISED and item.pk not in steps]
+    step_cards = [_step_context(request, steps[item.pk], item=item) for item in items if item.pk in steps]
     resolved = [item for item in items if item.kind == ReviewItem.Kind.RESOLVED]
     settled = sum(1 for card in raised if card["item"].is_settled)
     return render(request, "reviews/revision_review.html", {
         "product": revision.product, "revision": revision, "cards": raised, "resolved": resolved,
-        "settled": settled, "previous": services._previous_submitted(revision),
+        "settled": settled, "previous": services._previous_submitted(revision), "step_cards": step_cards,
         "measurement_digests": _digests(revision),
         "closed_reason": "" if lifecycle.is_review_open(revision) else lifecycle.review_closed_reason(revision)})
 
@@ -338,3 +343,92 @@ def revision_compare(request, product_id: int):
     return render(request, "reviews/compare.html", {"product": product, "numbers": numbers, "older": older,
                                                     "newer": newer, "comparison": comparison,
                                                     "filter_problems": form.problems}, status=form.status)
+
+
+def _step_people(revision: Revision):
+    return get_user_model().objects.filter(memberships__team=revision.product.team).distinct().order_by("username")
+
+
+def _step_context(request, step: ProcessStep, *, item: ReviewItem | None = None, **extra) -> dict:
+    form = extra.pop("step_form", None) or StepForm(people=_step_people(step.revision), initial={
+        "owner": step.owner_id, "planned_on": step.planned_on, "status": step.status, "reference": step.reference,
+        "version": step.version})
+    return {"step": step, "item": item or step.item, "step_form": form,
+            "can_edit": lifecycle.is_review_open(step.revision), **extra}
+
+
+@login_required
+@require_POST
+def step_update(request, step_id: int):
+    step = get_object_or_404(ProcessStep.objects.select_related("revision__product__team", "item", "owner")
+                             .filter(revision__product__team__in=teams_of(request.user)), pk=step_id)
+    form = StepForm(request.POST, people=_step_people(step.revision))
+    status, extra = 200, {}
+    if not form.is_valid():
+        status = 400
+        extra = {"step_form": form, "error": "; ".join(f"{name}: {' '.join(errors)}"
+                                                      for name, errors in form.errors.items())}
+    else:
+        data = form.cleaned_data
+        try:
+            step = services.process_step_update(step=step, user=request.user, owner=data["owner"],
+                                                planned_on=data["planned_on"], status=data["status"],
+                                                reference=data["reference"], expected_version=data["version"])
+            extra = {"saved": True}
+        except services.ReviewConflict as conflict:
+            step, status = conflict.current, 409
+            extra = {"step_form": form, "error": f"Someone changed this step while you were editing: it is now "
+                                                 f"'{conflict.current.get_status_display()}'. Your entry is kept "
+                                                 "in the form; save again to replace theirs."}
+            form.data = form.data.copy()
+            form.data["version"] = str(conflict.current.version)
+        except services.ReviewInputError as error:
+            status, extra = 400, {"step_form": form, "error": str(error)}
+        except PermissionDenied as error:
+            if not request.htmx:
+                raise
+            status, extra = 403, {"error": str(error) or "Not allowed."}
+    if request.htmx:
+        return render(request, "reviews/_step_card.html", _step_context(request, step, **extra), status=status)
+    if extra.get("error"):
+        messages.error(request, extra["error"])
+    return redirect(reverse("revision_review", args=[step.revision.product_id, step.revision.number])
+                    + f"#step-{step.pk}")
+
+
+@login_required
+@require_POST
+def evidence_upload(request, item_id: int):
+    """A file for the decision on an item, or for its step when the item is tracked as one."""
+    item = get_item_for_user(request.user, item_id)
+    step = ProcessStep.objects.filter(item=item).first()
+    upload = request.FILES.get("file")
+    if upload is None:
+        messages.error(request, "file: expected a file to attach")
+    elif upload.size > services.MAX_ATTACHMENT_BYTES:
+        messages.error(request, f"file: expected at most {services.MAX_ATTACHMENT_BYTES // 1_000_000} MB")
+    else:
+        try:
+            services.evidence_attach(user=request.user, name=upload.name, content=upload.read(),
+                                     item=None if step else item, step=step)
+            messages.success(request, "Evidence attached.")
+        except services.ReviewInputError as error:
+            messages.error(request, str(error))
+    target = reverse("revision_review", args=[item.revision.product_id, item.revision.number])
+    return redirect(target + (f"#step-{step.pk}" if step else f"#item-{item.pk}"))
+
+
+@login_required
+@require_GET
+def evidence_download(request, attachment_id: int):
+    attachment = get_object_or_404(EvidenceAttachment.objects.filter(
+        revision__product__team__in=teams_of(request.user)), pk=attachment_id)
+    try:
+        handle = attachment.file.open("rb")
+    except FileNotFoundError:
+        raise Http404("The stored file is missing.") from None
+    # Always a download of opaque bytes: an uploaded HTML or SVG file must never run in the site's origin.
+    response = FileResponse(handle, as_attachment=True, filename=attachment.name,
+                            content_type="application/octet-stream")
+    response["X-Content-Type-Options"] = "nosniff"
+    return response

@@ -26,6 +26,7 @@ from django.db import transaction
 from projectapp.designs import lifecycle
 from projectapp.designs.models import Revision
 from projectapp.reviews import gate
+from projectapp.reviews.models import EvidenceAttachment, ProcessStep
 from projectapp.signoff.models import MEANINGS, Signature, SignedRecord, Supersession
 from projectapp.teams.access import has_role
 from projectapp.teams.models import Role
@@ -101,6 +102,14 @@ def record_fingerprint(revision: Revision) -> str:
         "signatures": [[s.role, s.signer.username, s.signer_name, s.signed_at.isoformat()]
                        for s in revision.signatures.order_by("id").select_related("signer")],
     }
+    steps = [[step.item.rule_id, step.item.subjects_key, step.status, step.owner.username if step.owner else None,
+              step.planned_on.isoformat() if step.planned_on else None, step.reference]
+             for step in ProcessStep.objects.filter(revision=revision).select_related("item", "owner").order_by("id")]
+    if steps:  # records signed before steps existed keep their fingerprint
+        content["steps"] = steps
+    evidence = list(EvidenceAttachment.objects.filter(revision=revision).order_by("id").values_list("name", "sha256"))
+    if evidence:
+        content["evidence"] = [list(pair) for pair in evidence]
     canonical = json.dumps(content, sort_keys=True, separators=(",", ":"), ensure_ascii=False)
     return hashlib.sha256(canonical.encode("utf-8")).hexdigest()
 

@@ -10,4 +10,5 @@ urlpatterns = [
     path("archive/verify/", views.verify, name="archive_verify"),
     path("archive/<int:record_id>/", views.record_detail, name="record_detail"),
     path("archive/<int:record_id>/download/", views.record_download, name="record_download"),
+    path("archive/<int:record_id>/pack/", views.record_pack, name="record_pack"),
 ]

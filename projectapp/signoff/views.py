@@ -5,7 +5,7 @@ from django.contrib.auth import get_user_model
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
 from django.db.models import Q
-from django.http import FileResponse, Http404
+from django.http import FileResponse, Http404, HttpResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.views.decorators.http import require_GET, require_http_methods, require_POST
 
@@ -14,6 +14,7 @@ from projectapp.designs.access import get_revision_for_user, products_for
 from projectapp.designs.models import Revision
 from projectapp.filters import capped_choices
 from projectapp.signoff import services
+from projectapp.signoff.export_pack import export_pack_build, pack_file_name
 from projectapp.signoff.forms import ArchiveFilterForm, SignForm, VerifyForm
 from projectapp.signoff.models import Signature, SignedRecord
 from projectapp.teams.access import teams_of
@@ -154,3 +155,13 @@ def verify(request):
                    "superseded_by": record.superseded_by if record else None,
                    "name": form.cleaned_data["pdf"].name}
     return render(request, "signoff/verify.html", {"form": form, "outcome": outcome})
+
+
+@login_required
+@require_GET
+def record_pack(request, record_id: int):
+    """The export pack of a signed revision (signoff.export_pack), for an operator or a test house."""
+    record = get_object_or_404(records_for(request.user), pk=record_id)
+    response = HttpResponse(export_pack_build(record), content_type="application/zip")
+    response["Content-Disposition"] = f'attachment; filename="{pack_file_name(record)}"'
+    return response

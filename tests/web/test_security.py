@@ -27,8 +27,8 @@ from projectapp.designs import questionnaire, services
 from projectapp.designs.forms import MAX_DESIGN_FILE_BYTES
 from projectapp.designs.models import Product, Revision
 from projectapp.library import services as library
-from projectapp.reviews.models import ReviewItem
-from projectapp.reviews.services import revision_submit
+from projectapp.reviews.models import ProcessStep, ReviewItem
+from projectapp.reviews.services import evidence_attach, revision_submit
 from projectapp.teams.models import Role, Team
 from tests.web.conftest import EXAMPLES, PASSWORD, make_user, signing_request
 
@@ -158,7 +158,9 @@ def site(db, team, author):
                                     .read_bytes(), read_version=1, user=author)
     kwargs = {"product_id": submitted.pk, "number": revision.number, "item_id": item.pk,
               "section": questionnaire.SECTIONS[0].slug, "team_id": team.pk, "entry_id": entry.pk,
-              "file_id": stored.pk}
+              "file_id": stored.pk, "step_id": ProcessStep.objects.filter(revision=revision).order_by("pk")[0].pk,
+              "attachment_id": evidence_attach(user=author, name="lab.pdf", content=b"report", step=ProcessStep
+                                               .objects.filter(revision=revision).order_by("pk")[0]).pk}
     record = _signed_record(revision, author)
     if record is not None:
         kwargs["record_id"] = record.pk
@@ -272,6 +274,7 @@ HOSTILE = {
     "product.name": "\x00", "modem.rx_ports": "9" * 400, "modem.gain_limits_dbi.B3\x00": "1e308",
     "ground_plane_mm[0]": "1e-308", "ground_plane_mm[1]": "1e-308", "antennas[0].name": "\x00",
     "antennas[0].position_mm[0]": "1e308", "deployment.body_distance_mm": "9" * 400,
+    "owner": "²", "planned_on": "2026-02-30", "status": "\x00", "reference": "\x00" * 300,
 }
 
 
