@@ -14,6 +14,7 @@ import hashlib
 from django.conf import settings
 from django.db import models
 from django.urls import reverse
+from django.utils import timezone
 
 from projectapp.designs import lifecycle
 from projectapp.designs.models import Revision
@@ -170,7 +171,10 @@ class Comment(models.Model):
     item = models.ForeignKey(ReviewItem, on_delete=models.PROTECT, related_name="comments")
     author = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
     text = models.TextField()
-    created_at = models.DateTimeField(auto_now_add=True)
+    # Comments carry forward with their items: a copy on the next revision's item keeps the time it was written
+    # and the revision it was written on (so not auto_now_add, which would stamp the copy's time).
+    created_at = models.DateTimeField(default=timezone.now)
+    written_on = models.ForeignKey(Revision, on_delete=models.PROTECT, related_name="+", null=True)
 
     class Meta:
         ordering = ["created_at", "id"]

@@ -188,6 +188,7 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
                                       severity=before.severity, title=before.title, finding=before.finding,
                                       disposition=before.disposition, justification=before.justification))
     ReviewItem.objects.bulk_create(created)
+    comments_carry(items=created, earlier=earlier)
     process_steps_create(revision=revision, items=created, previous=previous)
     review_tallies_refresh(revision_ids=[revision.pk])
     raised = sum(1 for item in created if item.kind == ReviewItem.Kind.RAISED)
@@ -199,6 +200,18 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
                    f"decisions{graver}), {resolved} resolved since revision {previous.number if previous else '—'}",
            changes={"review_items": [None, raised]})
     return created
+
+
+def comments_carry(*, items: list[ReviewItem], earlier: dict[tuple[str, str], ReviewItem]) -> None:
+    """Each raised item takes the discussion of the previous revision's item for the same finding, each comment
+    keeping its author, time and the revision it was written on ("@ines your call" reaches the item she decides)."""
+    by_earlier = {before.pk: item for item in items if item.kind == ReviewItem.Kind.RAISED
+                  and (before := earlier.get((item.rule_id, item.subjects_key))) is not None}
+    copies = [Comment(item=by_earlier[comment.item_id], author_id=comment.author_id, text=comment.text,
+                      created_at=comment.created_at, written_on_id=comment.written_on_id or comment.item.revision_id)
+              for comment in Comment.objects.filter(item_id__in=by_earlier).select_related("item")
+              .order_by("created_at", "id")]
+    Comment.objects.bulk_create(copies)
 
 
 def process_steps_create(*, revision: Revision, items: list[ReviewItem], previous: Revision | None) -> None:
@@ -387,7 +400,7 @@ def review_item_comment(*, item: ReviewItem, user, text: str) -> Comment:
     text = text.strip()
     if not text:
         raise ReviewInputError("text", "text: expected a comment, got nothing")
-    comment = Comment.objects.create(item=item, author=user, text=text)
+    comment = Comment.objects.create(item=item, author=user, text=text, written_on=item.revision)
     _audit(item=item, revision=item.revision, user=user, action=AuditEvent.Action.COMMENT,
            summary=f"{item.rule_id}: {text[:200]}", changes={"comment": [None, text]})
     return comment

@@ -210,7 +210,7 @@ def item_detail(request, item_id: int):
     item = get_item_for_user(request.user, item_id)
     return render(request, "reviews/item_detail.html", {
         **_card_context(request, item),
-        "comments": item.comments.select_related("author"),
+        "comments": item.comments.select_related("author", "written_on"),
         "comment_form": CommentForm(),
         "events": item.audit_events.select_related("actor"),
         "product": item.revision.product,
