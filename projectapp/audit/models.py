@@ -43,6 +43,7 @@ class AuditEvent(models.Model):
         PART_FILE_REMOVED = "part-file-removed", "Removed a file from a library part"
         STEP_CHANGED = "step-changed", "Updated a process step"
         EVIDENCE_ADDED = "evidence-added", "Attached evidence"
+        REVIEWERS_SET = "reviewers-set", "Set the default reviewers"
 
     # A design or review event belongs to a product; a parts-library event to its team alone, with
     # `subject` naming the library entry ("library-entry:<id>").

@@ -36,6 +36,16 @@ class StepForm(forms.Form):
         self.fields["owner"].queryset = people
 
 
+class TopicReviewersForm(forms.Form):
+    """A default reviewer per topic (a field per topic, named by it); nobody leaves the topic's items unassigned."""
+
+    def __init__(self, *args, people, **kwargs):
+        super().__init__(*args, **kwargs)
+        for topic in TOPICS:
+            self.fields[topic] = forms.ModelChoiceField(queryset=people, required=False, empty_label="nobody",
+                                                        label=topic.replace("-", " ").capitalize())
+
+
 class ConfirmForm(forms.Form):
     version = forms.IntegerField(widget=forms.HiddenInput)
 

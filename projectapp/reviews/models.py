@@ -280,3 +280,19 @@ class EvidenceAttachment(models.Model):
         item = self.step.item if self.step_id else self.item
         kind = "step" if self.step_id else "decision"
         return f"{kind} on {item.rule_id} {item.title}" if item else kind
+
+
+class TopicReviewer(models.Model):
+    """A team's default reviewer for one topic: submitting a revision assigns each raised item of that topic to
+    them (unless the item carries an assignee from the previous revision)."""
+
+    team = models.ForeignKey("teams.Team", on_delete=models.CASCADE, related_name="topic_reviewers")
+    topic = models.CharField(max_length=40)
+    reviewer = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
+
+    class Meta:
+        constraints = [models.UniqueConstraint(fields=["team", "topic"], name="one_default_reviewer_per_topic")]
+
+    def __str__(self) -> str:
+        return f"{self.topic}: {self.reviewer} ({self.team})"
+

@@ -41,10 +41,12 @@ from projectapp.reviews.models import (
     ReviewItem,
     ReviewTally,
     StepStatus,
+    TopicReviewer,
 )
 from projectapp.reviews.steps import is_external_step
 from projectapp.teams.access import has_role, require_role
 from projectapp.teams.models import Membership, Role
+from rules.findings import TOPICS
 
 
 class ReviewConflict(Exception):
@@ -155,6 +157,7 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
         earlier = {(item.rule_id, item.subjects_key): item
                    for item in previous.review_items.filter(kind=ReviewItem.Kind.RAISED)
                    .with_provenance()}
+    defaults = dict(TopicReviewer.objects.filter(team_id=revision.product.team_id).values_list("topic", "reviewer_id"))
     created = []
     seen: set[tuple[str, str]] = set()
     not_carried = 0
@@ -166,8 +169,9 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
         item = ReviewItem(revision=revision, rule_id=rule_id, subjects_key=subjects_key, topic=finding["topic"],
                           severity=finding["severity"], title=finding["title"][:300], finding=finding)
         before = earlier.get((rule_id, subjects_key))
+        item.assignee_id = defaults.get(item.topic)
         if before is not None:
-            item.assignee = before.assignee
+            item.assignee_id = before.assignee_id or item.assignee_id
             carry = before.disposition != Disposition.OPEN and not severity_rose(now=item.severity, before=before)
             if before.disposition != Disposition.OPEN:
                 item.previous_decision = decision_snapshot(before, revision_number=previous.number, carried=carry)
@@ -193,11 +197,13 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
     review_tallies_refresh(revision_ids=[revision.pk])
     raised = sum(1 for item in created if item.kind == ReviewItem.Kind.RAISED)
     carried = sum(1 for item in created if item.carried_from_id)
+    assigned = sum(1 for item in created if item.kind == ReviewItem.Kind.RAISED and item.assignee_id)
     resolved = len(created) - raised
     graver = f"; {not_carried} not carried because the finding is graver now" if not_carried else ""
     _audit(item=None, revision=revision, user=user, action=AuditEvent.Action.REVIEW_OPENED,
            summary=f"Opened the review of revision {revision.number}: {raised} items ({carried} carried from earlier "
-                   f"decisions{graver}), {resolved} resolved since revision {previous.number if previous else '—'}",
+                   f"decisions{graver}, {assigned} assigned), {resolved} resolved since revision "
+                   f"{previous.number if previous else '—'}",
            changes={"review_items": [None, raised]})
     return created
 
@@ -443,3 +449,32 @@ def evidence_attach(*, user, name: str, content: bytes, item: ReviewItem | None 
            summary=f"Attached {safe} to the {'step' if step else 'decision'} on {locked.rule_id}",
            changes={"evidence": [None, {"name": safe, "sha256": attachment.sha256, "size_bytes": len(content)}]})
     return attachment
+
+
+@transaction.atomic
+def topic_reviewers_set(*, team, user, reviewers: dict[str, Any]) -> None:
+    """The team's default reviewer per topic (None: nobody). An approver's to set; each must be a member who
+    may review. Assigns future submissions only: items already raised keep their assignee."""
+    require_role(user, team, Role.APPROVER)
+    members = set(Membership.objects.filter(team=team, role__in=[Role.REVIEWER, Role.APPROVER])
+                  .values_list("user_id", flat=True))
+    before = dict(TopicReviewer.objects.filter(team=team).values_list("topic", "reviewer__username"))
+    after = {}
+    for topic, person in reviewers.items():
+        if topic not in TOPICS:
+            raise ReviewInputError(topic, f"{topic}: expected one of the checklist's topics")
+        if person is not None and person.pk not in members:
+            raise ReviewInputError(topic, f"{topic}: {person.username} can't review in this team")
+        if person is None:
+            TopicReviewer.objects.filter(team=team, topic=topic).delete()
+        else:
+            TopicReviewer.objects.update_or_create(team=team, topic=topic, defaults={"reviewer": person})
+            after[topic] = person.username
+    changes = {topic: [before.get(topic), after.get(topic)] for topic in TOPICS
+               if before.get(topic) != after.get(topic)}
+    if changes:
+        audit_record(team=team, subject=f"team:{team.pk}", actor=user, action=AuditEvent.Action.REVIEWERS_SET,
+                     summary="Default reviewers: " + "; ".join(f"{topic} {new or 'nobody'}"
+                                                             for topic, (_, new) in changes.items()),
+                     changes=changes)
+

@@ -15,5 +15,6 @@ urlpatterns = [
     path("reviews/items/<int:item_id>/comment/", views.item_comment, name="review_item_comment"),
     path("products/<int:product_id>/revisions/<int:number>/review/", views.revision_review, name="revision_review"),
     path("products/<int:product_id>/audit/", views.product_audit, name="product_audit"),
+    path("teams/<int:team_id>/reviewers/", views.team_reviewers, name="team_reviewers"),
     path("products/<int:product_id>/compare/", views.revision_compare, name="revision_compare"),
 ]

@@ -16,7 +16,7 @@ from django.http import FileResponse, Http404
 from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
 from django.utils.http import url_has_allowed_host_and_scheme
-from django.views.decorators.http import require_GET, require_POST
+from django.views.decorators.http import require_GET, require_http_methods, require_POST
 
 from projectapp import paging
 from projectapp.audit.models import AuditEvent
@@ -34,10 +34,19 @@ from projectapp.reviews.forms import (
     DashboardFilterForm,
     DecisionForm,
     StepForm,
+    TopicReviewersForm,
 )
-from projectapp.reviews.models import OPEN_ITEMS, EvidenceAttachment, ProcessStep, ReviewItem, ReviewTally
+from projectapp.reviews.models import (
+    OPEN_ITEMS,
+    EvidenceAttachment,
+    ProcessStep,
+    ReviewItem,
+    ReviewTally,
+    TopicReviewer,
+)
 from projectapp.reviews.provenance import decision_lines
-from projectapp.teams.access import teams_of
+from projectapp.teams.access import has_role, teams_of
+from projectapp.teams.models import Role
 from rules.design import DesignError
 from rules.findings import SEVERITIES, TOPICS
 
@@ -100,6 +109,7 @@ def dashboard(request):
         "without_product": form.query_without("product"),
         "severities": SEVERITIES,
         "topics": TOPICS,
+        "teams": teams_of(request.user).order_by("name"),
     }
     template = "reviews/_dashboard_items.html" if request.htmx else "reviews/dashboard.html"
     return render(request, template, context, status=form.status)
@@ -432,3 +442,39 @@ def evidence_download(request, attachment_id: int):
                             content_type="application/octet-stream")
     response["X-Content-Type-Options"] = "nosniff"
     return response
+
+
+def _reviewer_people(team):
+    return get_user_model().objects.filter(
+        memberships__team=team, memberships__role__in=[Role.REVIEWER, Role.APPROVER]).distinct().order_by("username")
+
+
+@login_required
+@require_http_methods(["GET", "POST"])
+def team_reviewers(request, team_id: int):
+    """The team's default reviewer per topic: any member sees them, an approver sets them."""
+    team = get_object_or_404(teams_of(request.user), pk=team_id)  # another team's: 404
+    can_edit = has_role(request.user, team, Role.APPROVER)
+    current = {row.topic: row.reviewer for row in TopicReviewer.objects.filter(team=team).select_related("reviewer")}
+    status = 200
+    if request.method == "POST":
+        if not can_edit:
+            raise PermissionDenied("Only an approver sets the team's default reviewers.")
+        form = TopicReviewersForm(request.POST, people=_reviewer_people(team))
+        if form.is_valid():
+            try:
+                services.topic_reviewers_set(team=team, user=request.user, reviewers=form.cleaned_data)
+            except services.ReviewInputError as error:
+                form.add_error(None, str(error))
+                status = 400
+            else:
+                messages.success(request, "Default reviewers saved; they are assigned at the next submission.")
+                return redirect("team_reviewers", team_id=team.pk)
+        else:
+            status = 400
+    else:
+        form = TopicReviewersForm(initial=current, people=_reviewer_people(team))
+    rows = [(topic, form[topic], current.get(topic)) for topic in TOPICS]
+    return render(request, "reviews/team_reviewers.html",
+                  {"team": team, "form": form, "rows": rows, "can_edit": can_edit}, status=status)
+
