@@ -13,6 +13,7 @@ from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
+from rules.design import INPUTS
 from rules.findings import BASES, EVIDENCE_KEYS, SEVERITIES, TOPICS, Finding, Flag, round_evidence
 
 if TYPE_CHECKING:
@@ -48,6 +49,7 @@ class Rule:
     check: CheckFunction
     added_in: str | None = None  # the rule set that introduced it (None: before rule set 2)
     changed_in: str | None = None  # the last rule set that changed what it says
+    needs: tuple[str, ...] = INPUTS  # the design inputs it reads (rules.design.INPUTS); all unless declared
 
     def run(self, context: "CheckContext") -> Iterator[Finding]:
         for flag in self.check(context):
@@ -90,12 +92,16 @@ RETIRED: tuple[RetiredRule, ...] = ()
 
 def rule(
     *, id: str, topic: str, severities: Iterable[str], title: str, rationale: str, sources: Iterable[str],
-    added_in: str | None = None, changed_in: str | None = None,
+    added_in: str | None = None, changed_in: str | None = None, needs: Iterable[str] | None = None,
 ) -> Callable[[CheckFunction], CheckFunction]:
     """Registers a check function under a stable id. The function takes one argument, `context`.
-    `added_in` and `changed_in` name the rule set that introduced the rule or last changed its meaning."""
+    `added_in` and `changed_in` name the rule set that introduced the rule or last changed its meaning.
+    `needs` names the design inputs it reads (rules.design.INPUTS): on a partial design (a draft being filled
+    in) it runs only when all of them are there. A rule that declares none needs every input, so it waits until
+    the design is complete; tests/rules/test_partial.py checks each declaration against what the rule reads."""
     severities = tuple(severities)
     sources = tuple(sources)
+    declared = INPUTS if needs is None else tuple(needs)
 
     def register(function: CheckFunction) -> CheckFunction:
         where = f"{function.__module__}.{function.__name__}"
@@ -109,10 +115,14 @@ def rule(
             raise RuleDefinitionError(f"{where}: severities {severities} should come from {SEVERITIES}")
         if not sources:
             raise RuleDefinitionError(f"{where}: a rule names its sources ('common practice' counts)")
+        unknown = [name for name in declared if name not in INPUTS]
+        if unknown:
+            raise RuleDefinitionError(f"{where}: needs {unknown} are not inputs of rules.design.INPUTS")
         parameters = list(inspect.signature(function).parameters.values())
         if [parameter.name for parameter in parameters] != ["context"]:
             raise RuleDefinitionError(f"{where}: a check takes exactly one parameter, 'context'")
-        _RULES[id] = Rule(id, topic, severities, title, rationale, sources, function, added_in, changed_in)
+        _RULES[id] = Rule(id, topic, severities, title, rationale, sources, function, added_in, changed_in,
+                          declared)
         return function
 
     return register

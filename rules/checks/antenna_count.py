@@ -20,6 +20,7 @@ TS_38_300 = "3GPP TS 38.300 §16.13"
         "Cat 4 and up have no single-antenna exception."
     ),
     sources=(TS_36_306, TS_38_300, "3GPP TS 36.101 §7 (receiver requirements with two antenna ports)"),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.operator_single_antenna_approval"),
 )
 def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -91,6 +92,7 @@ def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
     title="No main (transmit and receive) antenna",
     rationale="The module transmits through its main port; a design of only receive antennas cannot attach.",
     sources=(TS_36_306,),
+    needs=("antennas",),
 )
 def no_main_antenna(context: CheckContext) -> Iterator[Flag]:
     antennas = context.cellular_antennas
@@ -117,6 +119,7 @@ def no_main_antenna(context: CheckContext) -> Iterator[Flag]:
         "antennas serve other radios and are not counted."
     ),
     sources=(TS_36_306,),
+    needs=("modem.category", "modem.rx_ports", "antennas"),
 )
 def unused_antennas(context: CheckContext) -> Iterator[Flag]:
     antennas = context.cellular_antennas

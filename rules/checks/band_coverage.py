@@ -16,6 +16,7 @@ from rules.registry import rule
         "unspecified and usually poor."
     ),
     sources=("3GPP TS 36.101 Table 5.5-1", "3GPP TS 38.101-1 Table 5.2-1"),
+    needs=("antennas", "antennas[].ranges_mhz", "modem.bands"),
 )
 def band_outside_rated_range(context: CheckContext) -> Iterator[Flag]:
     for antenna in context.cellular_antennas:
@@ -51,6 +52,7 @@ def band_outside_rated_range(context: CheckContext) -> Iterator[Flag]:
     title="Band coverage can't be checked: rated ranges not given",
     rationale="Without the antenna's rated frequency ranges the engine cannot tell whether it serves the bands.",
     sources=("common practice",),
+    needs=("antennas", "antennas[].ranges_mhz", "modem.bands"),
 )
 def rated_ranges_unknown(context: CheckContext) -> Iterator[Flag]:
     for antenna in context.cellular_antennas:

@@ -12,6 +12,7 @@ from rules.registry import rule
     title="Carrier acceptance still to do",
     rationale="Each operator runs its own acceptance on a device before it may join its network.",
     sources=("each operator's device acceptance requirements",),
+    needs=("modem.bands",),
 )
 def carrier_acceptance(context: CheckContext) -> Iterator[Flag]:
     bands = ", ".join(band.name for band in context.design.modem.bands)
@@ -32,6 +33,7 @@ def carrier_acceptance(context: CheckContext) -> Iterator[Flag]:
     title="Industry certification still to do",
     rationale="Operators usually require the device's industry certification (conformance testing) first.",
     sources=("3GPP TS 36.521-1 / TS 38.521-1 (UE conformance)", "the certification scheme of each region"),
+    needs=(),
 )
 def industry_certification(context: CheckContext) -> Iterator[Flag]:
     yield Flag(
@@ -51,6 +53,7 @@ def industry_certification(context: CheckContext) -> Iterator[Flag]:
     title="Regulatory approval still to do",
     rationale="Each market's regulator must approve the product (radio, EMC, safety, RF exposure).",
     sources=("the radio regulation of each market",),
+    needs=(),
 )
 def regulatory_approval(context: CheckContext) -> Iterator[Flag]:
     yield Flag(

@@ -46,6 +46,9 @@ def outside_enclosure_mm(context: CheckContext, antenna: Antenna) -> float:
     ),
     sources=(WHEELER, "common practice (quarter-wave minimum spacing)", "3GPP TS 36.101 Table 5.5-1",
              "design.md rule set 2 (measurement outranks geometry)"),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.bands", "antennas[].position_mm",
+           "antennas[].polarization", "antennas[].mounting", "enclosure.size_mm", "measurements",
+           "antennas[].ranges_mhz", "antennas[].efficiency_pct"),
 )
 def receive_antennas_too_close(context: CheckContext) -> Iterator[Flag]:
     if context.rx_usable < 2:
@@ -197,6 +200,7 @@ def _measured_verdict(context: CheckContext, first: str, second: str) -> _Verdic
     title="Spacing can't be judged: feed position not given",
     rationale="Spacing rules need every receive antenna's feed point.",
     sources=("common practice",),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.bands", "antennas[].position_mm"),
 )
 def position_unknown(context: CheckContext) -> Iterator[Flag]:
     if context.rx_usable < 2 or len(context.cellular_antennas) < 2:
@@ -228,6 +232,8 @@ def position_unknown(context: CheckContext) -> Iterator[Flag]:
         "origin, so a spacing that passes on it proves nothing. The pair is listed instead of passing silently."
     ),
     sources=("common practice",),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.bands", "antennas[].position_mm",
+           "antennas[].polarization", "antennas[].mounting", "enclosure.size_mm"),
 )
 def spacing_rests_on_outside_position(context: CheckContext) -> Iterator[Flag]:
     if context.rx_usable < 2:
@@ -272,6 +278,8 @@ def _internal_cellular(context: CheckContext) -> list[Antenna]:
         "note."
     ),
     sources=("common practice (quarter-wave ground length)", "design.md rule set 2 (measurement outranks geometry)"),
+    needs=("antennas", "antennas[].mounting", "ground_plane_mm", "modem.bands", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def ground_plane_short(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -346,6 +354,7 @@ def ground_plane_short(context: CheckContext) -> Iterator[Flag]:
     title="Ground plane size not given",
     rationale="The ground length decides how well an embedded antenna works at low frequencies.",
     sources=("common practice",),
+    needs=("antennas", "antennas[].mounting", "ground_plane_mm", "modem.bands"),
 )
 def ground_plane_unknown(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -388,6 +397,7 @@ PRACTICAL_SHARE_OF_BOUND = 0.5
         "Bode 1945; Fano, J. Franklin Inst. 249, 1950",
         "common practice (designs reach about half of the bound)",
     ),
+    needs=("antennas", "antennas[].mounting", "ground_plane_mm", "modem.bands", "antennas[].efficiency_pct"),
 )
 def device_too_small_for_bandwidth(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -474,6 +484,7 @@ def device_too_small_for_bandwidth(context: CheckContext) -> Iterator[Flag]:
         "mixed enclosure detune a nearby antenna and block some directions."
     ),
     sources=("common practice",),
+    needs=("antennas", "antennas[].mounting", "enclosure.material"),
 )
 def internal_antenna_in_metal(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -507,6 +518,7 @@ def internal_antenna_in_metal(context: CheckContext) -> Iterator[Flag]:
         "say); every spacing judged from it is then wrong too, so it is flagged rather than accepted."
     ),
     sources=("common practice",),
+    needs=("antennas", "antennas[].mounting", "antennas[].position_mm", "enclosure.size_mm"),
 )
 def feed_outside_enclosure(context: CheckContext) -> Iterator[Flag]:
     size = context.design.enclosure_size_mm

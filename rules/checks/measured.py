@@ -69,6 +69,7 @@ def _cellular_ports(context: CheckContext, measurement: LoadedMeasurement) -> li
     ),
     sources=("power conservation: a passive network's S-matrix has no singular value above 1",
              "common practice (1 % tolerance for measurement noise)"),
+    needs=("measurements", "modem.bands"),
 )
 def not_passive(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:
@@ -117,6 +118,7 @@ def not_passive(context: CheckContext) -> Iterator[Flag]:
         "it is nearly half (45 %). The worst point over the frequencies the antenna must serve is what counts."
     ),
     sources=("common practice (VSWR 3:1 for embedded antennas)", "VSWR = (1 + |S_ii|) / (1 - |S_ii|)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct"),
 )
 def poor_match(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:
@@ -156,6 +158,7 @@ def poor_match(context: CheckContext) -> Iterator[Flag]:
     title="A measurement does not cover a band",
     rationale="A band the measurement does not span is unmeasured: nothing can be said about it from the file.",
     sources=("common practice",),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct"),
 )
 def measurement_misses_band(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:
@@ -208,6 +211,7 @@ def _pairs(context: CheckContext) -> Iterator[PairWindow]:
         "envelope correlation. Judged over every frequency either antenna serves in the band."
     ),
     sources=("common practice (10 dB isolation)", "coupled power = 10^(-isolation / 10)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct"),
 )
 def poor_isolation(context: CheckContext) -> Iterator[Flag]:
     for measurement, (i, first), (j, second), band, window in _pairs(context):
@@ -246,6 +250,8 @@ def poor_isolation(context: CheckContext) -> Iterator[Flag]:
         "but never clears anything, and a far-field measurement decides."
     ),
     sources=(BLANCH, HALLBJORNER, "common practice (ECC below 0.5 for LTE MIMO)", MRC_MODEL),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def high_correlation(context: CheckContext) -> Iterator[Flag]:
     for result, first, second, band in _sparameter_results(context):
@@ -292,6 +298,8 @@ def _sparameter_results(context: CheckContext) -> Iterator[tuple[MeasuredCorrela
         "decides. Small IoT antennas at 20-50 % efficiency are where this matters most."
     ),
     sources=(BLANCH, HALLBJORNER),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def optimistic_correlation(context: CheckContext) -> Iterator[Flag]:
     worst_by_pair: dict[tuple[str, str], list[tuple[MeasuredCorrelation, Band]]] = {}
@@ -332,6 +340,8 @@ def optimistic_correlation(context: CheckContext) -> Iterator[Flag]:
         "antenna can't be efficient whatever its losses. Frequencies where the data is not passive give no bound."
     ),
     sources=("power conservation over the S-matrix (common practice)", "common practice (25 % efficiency)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def low_measured_efficiency_bound(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:

@@ -43,6 +43,8 @@ def _environment_words(item: LoadedPattern) -> str:
         "Judged over each band's downlink (TDD: the band) at the pattern's frequencies inside it."
     ),
     sources=(VAUGHAN_ANDERSEN, TAGA, "common practice (ECC below 0.5 for LTE MIMO)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def high_pattern_correlation(context: CheckContext) -> Iterator[Flag]:
     for first, second in _pattern_pairs(context):
@@ -77,6 +79,8 @@ def high_pattern_correlation(context: CheckContext) -> Iterator[Flag]:
         "records it, and names the bands the patterns do not reach."
     ),
     sources=(VAUGHAN_ANDERSEN, TAGA),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def pattern_correlation_summary(context: CheckContext) -> Iterator[Flag]:
     for first, second in _pattern_pairs(context):
@@ -136,6 +140,8 @@ def pattern_correlation_summary(context: CheckContext) -> Iterator[Flag]:
         "efficiency is below 25 % in a band, as for an entered one; otherwise a note with the figures."
     ),
     sources=(TAGA, "common practice (25 % efficiency)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def pattern_efficiency(context: CheckContext) -> Iterator[Flag]:
     for item in context.far_fields:

@@ -33,6 +33,8 @@ def efficiency_basis(antennas: list[Antenna]) -> str:
         "transmit and are not limited."
     ),
     sources=("the module's regulatory approval (grant or declaration of conformity)",),
+    needs=("antennas", "modem.bands", "modem.gain_limits_dbi", "antennas[].peak_gain_dbi",
+           "antennas[].cable_loss_db"),
 )
 def gain_above_approval(context: CheckContext) -> Iterator[Flag]:
     modem = context.design.modem
@@ -73,6 +75,7 @@ def gain_above_approval(context: CheckContext) -> Iterator[Flag]:
     rationale=("Without the transmitting antenna's peak gain in a band the approval limit there can't be checked; "
                "a per-band gain that leaves out a limited band leaves that band unjudged."),
     sources=("common practice",),
+    needs=("antennas", "modem.bands", "modem.gain_limits_dbi", "antennas[].peak_gain_dbi"),
 )
 def gain_unknown(context: CheckContext) -> Iterator[Flag]:
     modem = context.design.modem
@@ -153,6 +156,8 @@ def design_peak(context: CheckContext, direction: str) -> Peak:
     sources=("3GPP TS 36.306 Tables 4.1-1, 4.1A-1, 4.1C-1", "3GPP TS 38.306 §4.1.2",
              "3GPP TS 36.213 (LTE-M HD-FDD timing; peaks from memory)",
              "common practice (TDD pattern DDDSU, S = 10:2:2)"),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.bands", "modem.full_duplex",
+           "deployment.required_dl_kbps", "deployment.required_ul_kbps"),
 )
 def throughput_above_peak(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -193,6 +198,7 @@ def throughput_above_peak(context: CheckContext) -> Iterator[Flag]:
         "near there."
     ),
     sources=("common practice", "loss = -10 log10(efficiency)"),
+    needs=("antennas", "modem.bands", "antennas[].efficiency_pct", "antennas[].efficiency_source"),
 )
 def low_entered_efficiency(context: CheckContext) -> Iterator[Flag]:
     selected = {band.name for band in context.design.modem.bands}
@@ -232,6 +238,8 @@ def low_entered_efficiency(context: CheckContext) -> Iterator[Flag]:
         "correlation where a trustworthy measurement gives one, else the coverage analysis's assumed value."
     ),
     sources=("common practice (diversity branches within 3 dB)", MRC_MODEL),
+    needs=("modem.category", "modem.rx_ports", "antennas", "measurements", "modem.bands", "antennas[].ranges_mhz",
+           "antennas[].efficiency_pct", "antennas[].efficiency_source"),
 )
 def efficiency_imbalance(context: CheckContext) -> Iterator[Flag]:
     if context.rx_connected < 2:

@@ -22,6 +22,7 @@ DEFERENCE = (
         "(SAR or power density) rather than a simple distance statement."
     ),
     sources=("common practice (20 cm exposure distance)", "local RF exposure regulation"),
+    needs=("deployment.body_distance_mm",),
 )
 def people_close(context: CheckContext) -> Iterator[Flag]:
     distance_mm = context.design.deployment.body_distance_mm
@@ -47,6 +48,7 @@ def people_close(context: CheckContext) -> Iterator[Flag]:
     title="Distance to people not given: RF exposure undetermined",
     rationale="Whether an exposure evaluation is needed depends on how close people come in normal use.",
     sources=("common practice", "local RF exposure regulation"),
+    needs=("deployment.body_distance_mm",),
 )
 def distance_unknown(context: CheckContext) -> Iterator[Flag]:
     if context.design.deployment.body_distance_mm is None:
