@@ -701,7 +701,9 @@ class PartialDesign:
     problems: tuple[Problem, ...]
     unanswered: tuple[Problem, ...]
     missing: Mapping[str, tuple[str, ...]]
-    identified_antennas: tuple[Antenna, ...] = ()  # antennas with a readable name and role (for drawing them)
+    # The antennas with a readable name and role, each value of its own that has a problem None (or its
+    # default): for drawing what there is, never for judging.
+    identified_antennas: tuple[Antenna, ...] = ()
 
     @property
     def complete(self) -> bool:
@@ -724,19 +726,15 @@ class PartialDesign:
 
     def shown(self) -> Design:
         """The design for drawing it: what is there, each withheld value as not given (None, or the contract's
-        default), and the antennas that have a name and role even when the list as a whole is withheld. Never
-        for judging: a rule needs to know a value is missing."""
-        antennas = self.design.antennas if self.has("antennas") else self.identified_antennas
-        unwithheld = [replace(antenna, **{name: _shown_default(name) for name in _dataclass_fields(antenna)
-                                          if is_withheld(getattr(antenna, name))}) for antenna in antennas]
-        design = replace(self.design, antennas=tuple(unwithheld))
+        default), and every antenna that has a name and role with the values of its own that could be read (an
+        antenna with a mistyped position is drawn as not placed; the others stay where they are). Never for
+        judging: a rule needs to know a value is missing, and a pair rule needs every antenna's."""
+        design = replace(self.design, antennas=self.identified_antennas)
         return replace(design, **{name: _shown_default(name) for name in _dataclass_fields(design)
                                   if name != "modem" and is_withheld(getattr(design, name))})
 
 
-_SHOWN_DEFAULTS: Mapping[str, Any] = {"product_name": "", "enclosure_material": "plastic", "mounting": "internal",
-                                      "measurements": (), "efficiency_pct": {}, "peak_gain_dbi_per_band": {},
-                                      "cable_loss_db": 0.0, "efficiency_source": "datasheet"}
+_SHOWN_DEFAULTS: Mapping[str, Any] = {"product_name": "", "enclosure_material": "plastic", "measurements": ()}
 
 
 def _shown_default(name: str) -> Any:
@@ -798,8 +796,6 @@ def parse_design_partial(document: Any) -> PartialDesign:
         base = replace(base, modem=Modem(None, ()))  # withheld just below
     identified = tuple(parts.antennas or ())
     design = withhold(base, set(missing))
-    if "antennas" in missing:
-        identified = withhold(replace(base, antennas=identified), set(missing) - {"antennas"}).antennas
     return PartialDesign(design, tuple(others), tuple(unanswered),
                          {name: tuple(dict.fromkeys(paths)) for name, paths in missing.items()}, identified)
 

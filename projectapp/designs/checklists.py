@@ -23,8 +23,8 @@ from projectapp import fragments
 from projectapp.designs.access import utc_naive
 from projectapp.designs.models import Revision
 from rules.coverage import analyse_coverage
-from rules.design import Design, DesignError, Problem, parse_design
-from rules.evaluate import evaluate
+from rules.design import Design, DesignError, PartialDesign, Problem, parse_design, parse_design_partial
+from rules.evaluate import evaluate, evaluate_partial
 from rules.measurements import LoadedMeasurement, attach_measurements
 
 logger = logging.getLogger(__name__)
@@ -34,11 +34,18 @@ CHECK_FAILED = Problem("", "this design could not be checked: an error in Earsho
 
 @dataclass
 class ChecklistState:
+    """What a revision's page shows of its checklist. `design` is the whole parsed design (None while a draft
+    is incomplete: nothing may judge or draw on it as if it were whole); `partial` is a draft's partial design,
+    for drawing what there is. `problems` are the parser's problems and `unanswered` the required values a draft
+    has not given yet (a draft's checklist then holds what could be judged, and what waits)."""
+
     revision: Revision
     design: Design | None = None
     checklist: dict[str, Any] | None = None
     problems: list[Problem] = field(default_factory=list)
     measurements: tuple[LoadedMeasurement, ...] = ()
+    partial: PartialDesign | None = None
+    unanswered: list[Problem] = field(default_factory=list)
 
     @property
     def findings(self) -> list[dict[str, Any]]:
@@ -47,6 +54,18 @@ class ChecklistState:
     @property
     def summary(self) -> dict[str, int]:
         return self.checklist["summary"] if self.checklist else {}
+
+    @property
+    def is_partial(self) -> bool:
+        """A draft's checklist of what could be judged so far (the design is not complete)."""
+        return bool(self.checklist) and self.checklist.get("complete") is False
+
+    @property
+    def shown_design(self) -> Design | None:
+        """The design to draw: the whole one, or what a draft has so far."""
+        if self.design is not None:
+            return self.design
+        return self.partial.shown() if self.partial is not None else None
 
 
 def measurement_reader(revision: Revision):
@@ -83,25 +102,55 @@ def frozen_state_key(revision_id: int, submitted_at: datetime | None) -> str:
 
 
 def checklist_for(revision: Revision) -> ChecklistState:
+    if revision.is_draft:
+        return _draft_checklist(revision)
     state = ChecklistState(revision)
     try:
         state.design = parse_design(revision.document)
-        if revision.is_draft:  # a frozen revision's checklist is stored; its files are read only when drawn
-            key = fragments.cache_key("checklist", state_key(revision))  # the code stamp covers the rules
-            state.checklist = cache.get(key)
-            if state.checklist is None:
-                state.measurements = attach_measurements(state.design, measurement_reader(revision))
-                state.checklist = evaluate(state.design, state.measurements).as_dict()
-                cache.set(key, state.checklist, timeout=24 * 3600)
     except DesignError as error:
         state.problems = error.problems
+    except DatabaseError:
+        raise
+    except Exception:
+        logger.exception("checking revision %s failed", revision.pk)
+        state.design, state.problems = None, [CHECK_FAILED]
+    state.checklist = revision.evaluation
+    return state
+
+
+def _draft_checklist(revision: Revision) -> ChecklistState:
+    """A draft's live checklist: of the whole design when it is complete (exactly what submitting it would
+    freeze), else of what can be judged so far (rules.evaluate.evaluate_partial), with the unanswered values,
+    the problems and the checks still waiting. Kept in the cache per state of the draft."""
+    state = ChecklistState(revision)
+    try:
+        partial = parse_design_partial(revision.document)
+        state.partial = partial
+        key = fragments.cache_key("checklist", state_key(revision))  # the code stamp covers the rules
+        state.checklist = cache.get(key)
+        if state.checklist is None:
+            measurements: tuple[LoadedMeasurement, ...] = ()
+            if partial.has("measurements") and partial.design.measurements:
+                try:
+                    measurements = attach_measurements(partial.design, measurement_reader(revision))
+                except DesignError as error:  # a file that can't be read: the checks that need it wait
+                    partial = partial.without("measurements", error.problems)
+            if partial.complete:
+                state.measurements = measurements
+                state.checklist = evaluate(partial.design, measurements).as_dict()
+            else:
+                state.checklist = evaluate_partial(partial, measurements).as_dict()
+            cache.set(key, state.checklist, timeout=24 * 3600)
+        if state.is_partial:
+            state.problems = [Problem(item["path"], item["message"]) for item in state.checklist["problems"]]
+            state.unanswered = [Problem(item["path"], item["message"]) for item in state.checklist["unanswered"]]
+        else:
+            state.design = partial.design
     except DatabaseError:
         raise  # the request can't go on without its database; that is not this design's doing
     except Exception:
         logger.exception("checking revision %s failed", revision.pk)
-        state.design, state.checklist, state.problems = None, None, [CHECK_FAILED]
-    if not revision.is_draft:
-        state.checklist = revision.evaluation
+        state.design, state.checklist, state.problems, state.partial = None, None, [CHECK_FAILED], None
     return state
 
 
@@ -122,9 +171,17 @@ def load_measurements(state: ChecklistState) -> tuple[LoadedMeasurement, ...]:
     return state.measurements
 
 
+def _category_label(state: ChecklistState) -> str:
+    if state.design is not None:
+        return state.design.modem.category.label
+    if state.partial is not None and state.partial.has("modem.category"):
+        return state.partial.design.modem.category.label
+    return ""
+
+
 def summaries(revisions: list[Revision]) -> dict[int, dict[str, Any]]:
-    """Per revision id, what a list shows of it: the category, the finding counts (None when the design
-    can't be checked yet) and how many problems stand in the way. Kept in the cache per state."""
+    """Per revision id, what a list shows of it: the category, the finding counts (None until the design is
+    complete) and how many problems and unanswered questions stand in the way. Kept in the cache per state."""
     keys = {revision.pk: fragments.cache_key("summary", state_key(revision)) for revision in revisions}
     found = cache.get_many(list(keys.values()))
     result, missing = {}, {}
@@ -136,16 +193,17 @@ def summaries(revisions: list[Revision]) -> dict[int, dict[str, Any]]:
         try:
             state = checklist_for(revision)
             summary = {
-                "category": state.design.modem.category.label if state.design else "",
-                "counts": state.summary if state.checklist else None,
+                "category": _category_label(state),
+                "counts": state.summary if state.checklist and not state.is_partial else None,
                 "problems": len(state.problems),
+                "unanswered": len(state.unanswered),
                 "failed": state.problems == [CHECK_FAILED],
             }
         except DatabaseError:
             raise
         except Exception:  # the row says so; the list still shows every other design
             logger.exception("summarising revision %s failed", revision.pk)
-            summary = {"category": "", "counts": None, "problems": 0, "failed": True}
+            summary = {"category": "", "counts": None, "problems": 0, "unanswered": 0, "failed": True}
         result[revision.pk] = summary
         if not summary["failed"]:  # a failure is not kept: the next look tries again
             missing[key] = summary

@@ -9,17 +9,17 @@ parser then explains it, and nothing is silently dropped.
 import copy
 import re
 import tomllib
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from functools import cache
 from pathlib import Path
-from typing import Any
+from typing import Any, Protocol
 
 from django.http import QueryDict
 
 from projectapp.typed_values import read_number, read_ranges, show_number, show_ranges
 from rules.catalog import bands, categories
-from rules.design import ENVIRONMENTS, MATERIALS, MOUNTINGS, ROLES, Problem, find_band
+from rules.design import ENVIRONMENTS, MATERIALS, MOUNTINGS, ROLES, find_band
 
 
 @dataclass(frozen=True)
@@ -251,11 +251,11 @@ def _read_question(question: Question, data: QueryDict, prefix: str) -> Any:
     if question.kind == "bool":
         return data.get(name) in ("on", "true", "1")
     if question.kind in ("number", "integer"):
-        return read_number(get(name))
+        return read_number(get(name), question.unit)
     if question.kind == "ranges":
-        return read_ranges(get(name))
+        return read_ranges(get(name), question.unit or "MHz")
     if question.kind == "vector":
-        values = [read_number(get(f"{name}[{index}]")) for index in range(len(question.parts))]
+        values = [read_number(get(f"{name}[{index}]"), question.unit) for index in range(len(question.parts))]
         return None if all(value is None for value in values) else values
     if question.kind == "bands":
         return [find_band(name_).name if find_band(name_) else name_ for name_ in map(storable, data.getlist(name))]
@@ -263,7 +263,7 @@ def _read_question(question: Question, data: QueryDict, prefix: str) -> Any:
         result = {}
         for key in data:
             if key.startswith(name + "."):
-                value = read_number(get(key))
+                value = read_number(get(key), question.unit)
                 if value is not None:
                     result[storable(key[len(name) + 1:])] = value
         return result or None
@@ -383,15 +383,35 @@ class Field:
 
     @property
     def input_id(self) -> str:
-        return "q-" + re.sub(r"[^A-Za-z0-9]+", "-", self.name).strip("-")
+        return input_id(self.name)
 
 
-def _errors_for(path: str, problems: list[Problem]) -> list[str]:
-    return [problem.message for problem in problems
-            if problem.path == path or problem.path.startswith((path + "[", path + "."))]
+def input_id(name: str) -> str:
+    """The id of a question's input (its first part's, for a vector: `-0` etc. appended)."""
+    return "q-" + re.sub(r"[^A-Za-z0-9]+", "-", name).strip("-")
 
 
-def _field(question: Question, name: str, value: Any, problems: list[Problem], selected_bands: list[str],
+class WordedProblem(Protocol):
+    """A parser problem as the page words it (projectapp.designs.problem_words.Worded)."""
+
+    path: str
+
+    @property
+    def beside_field(self) -> str: ...
+
+    @property
+    def in_checklist(self) -> str: ...
+
+
+def _covers(name: str, path: str) -> bool:
+    return path == name or path.startswith((name + "[", name + "."))
+
+
+def _errors_for(path: str, problems: Sequence[WordedProblem]) -> list[str]:
+    return [problem.beside_field for problem in problems if _covers(path, problem.path)]
+
+
+def _field(question: Question, name: str, value: Any, problems: Sequence[WordedProblem], selected_bands: list[str],
            technology: str | None) -> Field:
     item = Field(question, name, value, _errors_for(name, problems))
     if question.kind == "vector":
@@ -429,8 +449,9 @@ def _field(question: Question, name: str, value: Any, problems: list[Problem], s
     return item
 
 
-def section_fields(section: Section, document: Mapping[str, Any], problems: list[Problem]) -> Any:
-    """The section's fields; for the antenna section, one list of fields per antenna row."""
+def section_fields(section: Section, document: Mapping[str, Any], problems: Sequence[WordedProblem]) -> Any:
+    """The section's fields, each with its problems in words (problem_words); for the antenna section, one
+    list of fields per antenna row."""
     selected = [str(name) for name in get_path(document, "modem.bands") or [] if isinstance(name, str)]
     category = categories().get(str(get_path(document, "modem.category")))
     technology = category.technology if category else None
@@ -446,10 +467,9 @@ def section_fields(section: Section, document: Mapping[str, Any], problems: list
             for question in section.questions]
 
 
-def section_problems(section: Section, problems: list[Problem], shown: list[Field]) -> list[str]:
+def section_problems(section: Section, problems: Sequence[WordedProblem], shown: list[Field]) -> list[str]:
     """Problems of this section that no field shows (for example 'antennas: expected a list')."""
     names = [item.name for item in shown]
-    return [str(problem) for problem in problems
+    return [problem.in_checklist for problem in problems
             if problem.path.split(".")[0].split("[")[0] in section.roots
-            and not any(problem.path == name or problem.path.startswith((name + "[", name + "."))
-                        for name in names)]
+            and not any(_covers(name, problem.path) for name in names)]

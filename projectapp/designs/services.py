@@ -28,10 +28,12 @@ from rules.touchstone import parse_touchstone
 
 
 def blank_document(*, product_name: str) -> dict[str, Any]:
+    """A new product's design: its name and nothing chosen for it. The category, the bands and the hardware
+    revision are the author's answers (a new draft shows them as still to answer, not as errors)."""
     return {
         "format": FORMAT,
-        "product": {"name": product_name, "revision": "1"},
-        "modem": {"category": "cat-m1", "bands": []},
+        "product": {"name": product_name},
+        "modem": {},
         "antennas": [],
     }
 

@@ -20,7 +20,7 @@ from django.views.decorators.http import require_GET, require_http_methods, requ
 from django_htmx.http import HttpResponseClientRedirect, reswap
 
 from projectapp import fragments
-from projectapp.designs import library_use, questionnaire, services
+from projectapp.designs import library_use, problem_words, questionnaire, services
 from projectapp.designs.access import (
     get_product_for_user,
     get_revision_for_user,
@@ -63,11 +63,12 @@ from projectapp.library.models import Entry
 from projectapp.teams.access import has_role, require_role, teams_where
 from projectapp.teams.models import Role
 from rules.coverage import TABLE_COLUMNS
-from rules.design import DesignError, Problem, parse_design
+from rules.design import DesignError, Problem, parse_design_partial
 from rules.registry import RETIRED, RULESET_VERSION, registered_rules
 from rules.touchstone import TouchstoneError
 
 logger = logging.getLogger(__name__)
+SPACING_RULE = "SEP-001"  # the rule whose findings colour the drawing's pair lines
 
 
 @login_required
@@ -147,11 +148,20 @@ def _figures(state: ChecklistState, id_prefix: str) -> dict:
             failed.append(what)
             return None
 
-    if state.design is not None and state.checklist is not None:
+    record = f"design revision {state.revision.number}"
+    shown = state.shown_design
+    if state.is_partial and shown is not None and state.checklist is not None:
+        # A draft not complete yet: what it has is drawn, judged only where its spacing checks could run.
+        checklist = state.checklist
+        spacing_waits = any(item["id"] == SPACING_RULE for item in checklist.get("waiting", ()))
+        svg = attempt("placement drawing", lambda: placement_svg(
+            shown, pair_severities=None if spacing_waits else pair_severities_from_findings(state.findings),
+            frequency_mhz=checklist.get("judged_at_mhz"), id_prefix=id_prefix, record=record))
+    elif state.design is not None and state.checklist is not None:
         design = state.design
         svg = attempt("placement drawing", lambda: placement_svg(
             design, pair_severities=pair_severities_from_findings(state.findings),
-            frequency_mhz=design.lowest_mhz, id_prefix=id_prefix))
+            frequency_mhz=design.lowest_mhz, id_prefix=id_prefix, record=record))
         measurements = attempt("measurements", lambda: load_measurements(state)) or ()
         coverage = attempt("coverage estimate", lambda: coverage_rows(state)) or []
         if coverage:
@@ -180,7 +190,8 @@ def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> di
         if not figures["failed_figures"]:  # a failure is not kept: the next look tries again
             cache.set(key, figures, timeout=30 * 24 * 3600)
     failed = bool(figures["failed_figures"]) or CHECK_FAILED in state.problems
-    return {"state": state, "coverage_columns": TABLE_COLUMNS, fragments.NOT_KEPT: failed, **figures}
+    todo = problem_words.todo(state.revision.document, state.checklist) if state.is_partial else None
+    return {"state": state, "coverage_columns": TABLE_COLUMNS, fragments.NOT_KEPT: failed, "todo": todo, **figures}
 
 
 def _section_item(section: questionnaire.Section, document: dict, problems: list[Problem], *, version: int,
@@ -188,7 +199,8 @@ def _section_item(section: questionnaire.Section, document: dict, problems: list
     """One questionnaire section as _section.html shows it: its fields, problems no field holds, the draft
     version its values were read at, the library parts it can be filled from, and a conflict if its last save
     met someone else's change."""
-    fields = questionnaire.section_fields(section, document, problems)
+    worded = [problem_words.worded(problem, document) for problem in problems]
+    fields = questionnaire.section_fields(section, document, worded)
     flat = [item for row in fields for item in row] if section is questionnaire.ANTENNAS else fields
     notes: list = []
     if section is questionnaire.ANTENNAS:
@@ -197,7 +209,7 @@ def _section_item(section: questionnaire.Section, document: dict, problems: list
     elif isinstance(document.get("modem"), dict) and isinstance(document["modem"].get("library"), dict):
         notes = [document["modem"]["library"]]
     return {"section": section, "fields": fields, "flat": flat, "version": version, "conflict": conflict,
-            "loose_problems": questionnaire.section_problems(section, problems, flat),
+            "loose_problems": questionnaire.section_problems(section, worded, flat),
             "library": library.get(section.slug, []), "rows": list(zip(fields, notes + [None] * len(fields),
                                                                         strict=False))
             if section is questionnaire.ANTENNAS else [], "note": notes[0] if notes and section is
@@ -238,7 +250,8 @@ def _draft_context(revision: Revision, state: ChecklistState, *, kept: dict | No
     return {"product": revision.product, "revision": revision, "sections": sections,
             "library_offers": _library_offers(revision),
             "presets": questionnaire.band_presets(), "measurements": _measurement_rows(revision),
-            "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, **_panel_context(state)}
+            "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, "editing": True,
+            **_panel_context(state)}
 
 
 def _measurement_rows(revision: Revision) -> list[dict]:
@@ -284,11 +297,7 @@ def draft_start(request, product_id: int):
 
 
 def _problems_of(document: dict) -> list[Problem]:
-    try:
-        parse_design(document)
-    except DesignError as error:
-        return error.problems
-    return []
+    return list(parse_design_partial(document).problems)
 
 
 @login_required
@@ -356,7 +365,8 @@ def draft_section_save(request, product_id: int, section: str):
     if request.htmx:
         state = checklist_for(draft)
         panel = fragments.shared("designs/_panel_oob.html", ("panel", state_key(draft), product.pk),
-                                 lambda: {"product": product, "revision": draft, **_panel_context(state)},
+                                 lambda: {"product": product, "revision": draft, "editing": True,
+                                          **_panel_context(state)},
                                  timeout=fragments.DAY)
         template = ("designs/draft_section_messages.html" if request.POST.get("answer") == "messages"
                     else "designs/draft_section_saved.html")

@@ -112,8 +112,8 @@ def test_a_typo_in_one_position_withholds_positions_and_keeps_everything_else():
     assert "CNT-001" not in waiting(checklist) and "GND-001" not in waiting(checklist)
     # every antenna's position is withheld, not only the mistyped one's: a pair rule judges them all
     assert all(isinstance(item.position_mm, Withheld) for item in partial.design.antennas)
-    shown = partial.shown()
-    assert [item.position_mm for item in shown.antennas] == [None, None]
+    shown = partial.shown()  # drawn: MAIN where it is, DIV not placed
+    assert [item.position_mm for item in shown.antennas] == [(20, 20, 10), None]
 
 
 def test_switching_lte_to_nr_withholds_the_bands_but_still_counts_receive_antennas():
