@@ -1,7 +1,10 @@
 """Every write to products and revisions goes through these functions (keyword-only, `<entity>_<action>`)."""
 
+import copy
 import json
+import re
 from collections.abc import Mapping
+from dataclasses import dataclass
 from typing import Any
 
 from django.core.exceptions import PermissionDenied
@@ -207,6 +210,80 @@ def draft_section_save(*, revision: Revision, section: questionnaire.Section, an
     _require_fresh(draft, section.slug, read_version)
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.SECTION_SAVED,
                   summary=f"Saved {section.title} of draft revision {draft.number}")
+
+
+_REMOVED_ROW = re.compile(r"^antennas\[(\d+)\]$")
+
+
+@dataclass(frozen=True)
+class RemovedAntennas:
+    """Antennas one change removed from a draft, as its audit event recorded them: what "Undo remove" restores."""
+
+    event_id: int
+    version: int
+    rows: tuple[tuple[int, dict[str, Any]], ...]  # (row it was at, the antenna as it was)
+
+    @property
+    def names(self) -> list[str]:
+        return [str(antenna.get("name") or f"antenna {index + 1}") for index, antenna in self.rows]
+
+
+def _removed_by(event: AuditEvent) -> tuple[tuple[int, dict[str, Any]], ...]:
+    rows = []
+    for path, pair in (event.changes or {}).items():
+        match = _REMOVED_ROW.match(path)
+        if match and isinstance(pair, list) and len(pair) == 2 and isinstance(pair[0], dict) and pair[1] is None:
+            rows.append((int(match.group(1)), pair[0]))
+    return tuple(sorted(rows, key=lambda row: row[0]))
+
+
+def _absent(document: Any, antenna: dict[str, Any]) -> bool:
+    names = {row.get("name") for row in _list(document.get("antennas") if isinstance(document, dict) else None)
+             if isinstance(row, dict)}
+    return antenna.get("name") not in names
+
+
+def draft_antennas_removed(*, revision: Revision) -> RemovedAntennas | None:
+    """The antennas the draft's last change to its antennas removed, if that change removed any and they are
+    not back: the page's "Undo remove" offer. Read from the audit trail, so it holds after a reload and names
+    exactly what was stored."""
+    version = int((revision.section_versions or {}).get(questionnaire.ANTENNAS.slug, 0))
+    if not version:
+        return None
+    event = (AuditEvent.objects.filter(revision=revision, draft_version=version).order_by("-id")
+             .only("id", "changes", "draft_version").first())
+    rows = _removed_by(event) if event is not None else ()
+    rows = tuple(row for row in rows if _absent(revision.document, row[1]))
+    return RemovedAntennas(event.pk, version, rows) if event is not None and rows else None
+
+
+@transaction.atomic
+def draft_antennas_restore(*, revision: Revision, answers: Mapping[str, Any], event_id: int, read_version: int,
+                           user) -> tuple[Revision, list[str]]:
+    """Undo remove: puts back the antennas a change removed (its audit event `event_id`, of this draft), each at
+    the row it had (or the end), with what was typed in the section meanwhile kept. One versioned, audited
+    write like any save of the section; refused (DraftConflict) if the antennas changed after `read_version`,
+    and (ValueError) when there is nothing of that change to put back (an antenna of that name is in the design
+    again, or the event removed none)."""
+    require_role(user, revision.product.team, Role.AUTHOR)
+    draft = _locked_draft(revision)
+    event = AuditEvent.objects.filter(revision=draft, pk=event_id).first()
+    section = questionnaire.ANTENNAS
+    document = questionnaire.apply_answers(draft.document, section, answers)
+    rows = [row for row in (_removed_by(event) if event is not None else ()) if _absent(document, row[1])]
+    if not rows:
+        raise ValueError("nothing to restore: that change removed no antenna, or each one it removed is back "
+                         "(an antenna of the same name is in the design)")
+    _require_fresh(draft, section.slug, read_version)
+    antennas = _list(document.get("antennas"))
+    for index, antenna in rows:
+        antennas.insert(min(index, len(antennas)), copy.deepcopy(antenna))
+    document["antennas"] = antennas
+    names = [str(antenna.get("name")) for _, antenna in rows]
+    draft = _store(draft=draft, document=document, user=user, action=AuditEvent.Action.SECTION_SAVED,
+                   summary=f"Restored antenna {', '.join(names)} (removed in version {event.draft_version}) in draft "
+                           f"revision {draft.number}")
+    return draft, names
 
 
 @transaction.atomic

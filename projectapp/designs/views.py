@@ -195,10 +195,12 @@ def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> di
 
 
 def _section_item(section: questionnaire.Section, document: dict, problems: list[Problem], *, version: int,
-                  library: dict[str, list[Entry]], conflict: services.DraftConflict | None = None) -> dict:
+                  library: dict[str, list[Entry]], conflict: services.DraftConflict | None = None,
+                  undo: services.RemovedAntennas | None = None, focus: str = "") -> dict:
     """One questionnaire section as _section.html shows it: its fields, problems no field holds, the draft
-    version its values were read at, the library parts it can be filled from, and a conflict if its last save
-    met someone else's change."""
+    version its values were read at, the library parts it can be filled from, a conflict if its last save
+    met someone else's change, the antennas its last change removed (for "Undo remove") and the element that
+    should have the keyboard focus after a row action or preset (`focus`, an id)."""
     worded = [problem_words.worded(problem, document) for problem in problems]
     fields = questionnaire.section_fields(section, document, worded)
     flat = [item for row in fields for item in row] if section is questionnaire.ANTENNAS else fields
@@ -213,7 +215,8 @@ def _section_item(section: questionnaire.Section, document: dict, problems: list
             "library": library.get(section.slug, []), "rows": list(zip(fields, notes + [None] * len(fields),
                                                                         strict=False))
             if section is questionnaire.ANTENNAS else [], "note": notes[0] if notes and section is
-            questionnaire.PRODUCT else None}
+            questionnaire.PRODUCT else None, "undo": undo if section is questionnaire.ANTENNAS else None,
+            "focus": focus}
 
 
 def _library_choices(product) -> dict[str, list[Entry]]:
@@ -243,9 +246,10 @@ def _library_offers(revision: Revision) -> list[library_use.Offer]:
 def _draft_context(revision: Revision, state: ChecklistState, *, kept: dict | None = None) -> dict:
     """The draft page's context; `kept` replaces one section's item (a conflict shown with what was typed)."""
     library = _library_choices(revision.product)
+    undo = services.draft_antennas_removed(revision=revision)  # named by the draft's version, as the page is
     sections = [kept if kept and kept["section"] is section
                 else _section_item(section, revision.document, state.problems, version=revision.version,
-                                   library=library)
+                                   library=library, undo=undo)
                 for section in questionnaire.SECTIONS]
     return {"product": revision.product, "revision": revision, "sections": sections,
             "library_offers": _library_offers(revision),
@@ -348,6 +352,15 @@ def draft_section_save(request, product_id: int, section: str):
                 messages.success(request, f"Filled from library part {pick.cleaned_data['entry'].name}"
                                  + (f"; copied {', '.join(copied)} into the measurements (check the port map)."
                                     if copied else "."))
+        elif extras.cleaned_data.get("action", "").startswith("restore:"):
+            if current is not questionnaire.ANTENNAS:
+                return _not_saved(request, product, current, "action: only the antennas section restores a "
+                                                             "removed antenna; nothing was stored", status=400)
+            draft, restored = services.draft_antennas_restore(
+                revision=draft, answers=request.POST, event_id=extras.restore_event, read_version=form.read_version,
+                user=request.user)
+            if not request.htmx:
+                messages.success(request, f"Restored {', '.join(restored)}.")
         else:
             draft = services.draft_section_save(revision=draft, section=current, answers=request.POST,
                                                 read_version=form.read_version, user=request.user)
@@ -370,14 +383,37 @@ def draft_section_save(request, product_id: int, section: str):
                                  timeout=fragments.DAY)
         template = ("designs/draft_section_messages.html" if request.POST.get("answer") == "messages"
                     else "designs/draft_section_saved.html")
+        messages_only = request.POST.get("answer") == "messages"  # no inputs sent back
         return render(request, template, {
             "product": product, "revision": draft, "presets": questionnaire.band_presets(),
             "current": _section_item(current, draft.document, state.problems, version=draft.version,
-                                     library={} if request.POST.get("answer") == "messages"  # no inputs sent back
-                                     else _library_choices(product)),
+                                     library={} if messages_only else _library_choices(product),
+                                     undo=None if messages_only else services.draft_antennas_removed(revision=draft),
+                                     focus="" if messages_only else _focus_after(extras, draft.document)),
             "panel": fragments.personal(panel, request)})
     messages.success(request, f"{current.title} saved.")
     return redirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
+
+
+def _focus_after(extras: SectionActionForm, document: dict) -> str:
+    """Where the keyboard focus belongs once a row action or a preset has redrawn the section: the new or
+    copied row's name, the Undo button after a removal, the preset just used, the bands after dropping some.
+    (Any other change keeps the focus on the element that had it: static/earshot/earshot.js.)"""
+    action, preset = extras.cleaned_data.get("action") or "", extras.cleaned_data.get("preset") or ""
+    rows = document.get("antennas") if isinstance(document.get("antennas"), list) else []
+    if action == "add" and rows:
+        return questionnaire.input_id(f"antennas[{len(rows) - 1}].name")
+    if action.startswith("duplicate:") and extras.row is not None and extras.row + 1 < len(rows):
+        return questionnaire.input_id(f"antennas[{extras.row + 1}].name")
+    if action.startswith("remove:"):
+        return "undo-remove"
+    if action.startswith("restore:"):
+        return "section-antennas-title"
+    if action == "drop-bands":
+        return questionnaire.input_id("modem.bands") + "-label"
+    if preset:
+        return f"preset-{preset}"
+    return ""
 
 
 GONE_MESSAGE = ("{product} has no draft any more (it was submitted for review): nothing was stored. Start a new "

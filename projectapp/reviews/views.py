@@ -9,6 +9,7 @@ from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
 from django.db.models import Count, Q
 from django.shortcuts import get_object_or_404, redirect, render
+from django.urls import reverse
 from django.utils.http import url_has_allowed_host_and_scheme
 from django.views.decorators.http import require_GET, require_POST
 
@@ -124,7 +125,7 @@ def revision_review(request, product_id: int, number: int):
     settled = sum(1 for card in raised if card["item"].is_settled)
     return render(request, "reviews/revision_review.html", {
         "product": revision.product, "revision": revision, "cards": raised, "resolved": resolved,
-        "settled": settled, "previous": services._previous_submitted(revision)})
+        "counts": (settled, len(raised)), "previous": services._previous_submitted(revision)})
 
 
 @login_required
@@ -141,10 +142,22 @@ def item_detail(request, item_id: int):
     })
 
 
+def settled_count(revision) -> tuple[int, int]:
+    """How many of a revision's raised items are settled, of how many (the review page's count)."""
+    raised = [item for item in ReviewItem.objects.filter(revision=revision, kind=ReviewItem.Kind.RAISED)
+              .only("disposition", "carried_from_id", "carried_confirmed")]
+    return sum(1 for item in raised if item.is_settled), len(raised)
+
+
 def _answer(request, item: ReviewItem, *, status: int = 200, **extra):
-    """The item's card for htmx; a redirect back to the form's page otherwise."""
+    """The item's card for htmx (on the review page, with its settled count out of band, so the count follows
+    each decision); a redirect back to the form's page otherwise."""
     if request.htmx:
-        return render(request, "reviews/_item_card.html", _card_context(request, item, **extra), status=status)
+        context = _card_context(request, item, **extra)
+        review_url = reverse("revision_review", args=[item.revision.product_id, item.revision.number])
+        if (request.htmx.current_url_abs_path or "").split("?")[0] == review_url:
+            context["oob_counts"] = settled_count(item.revision)
+        return render(request, "reviews/item_card_answer.html", context, status=status)
     if status == 403:
         raise PermissionDenied(extra.get("error"))
     message = extra.get("conflict_message") or extra.get("error")
