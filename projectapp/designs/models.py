@@ -84,7 +84,7 @@ class Revision(models.Model):
         ]
 
     def __str__(self) -> str:
-        return f"{self.product} revision {self.number} ({self.get_status_display().lower()})"
+        return f"{self.product} design revision {self.number} ({self.get_status_display().lower()})"
 
     def save(self, *args, **kwargs):
         stored = self._stored_status()

@@ -184,7 +184,7 @@ def draft_get_or_start(*, product: Product, user) -> Revision:
         _copy_measurements(source=latest, target=draft, user=user)
     files = draft.measurement_files.count()
     audit_record(product=product, revision=draft, actor=user, action=AuditEvent.Action.DRAFT_STARTED,
-                 summary=f"Started draft revision {number}" + (f", copied from revision {latest.number}"
+                 summary=f"Started draft design revision {number}" + (f", copied from design revision {latest.number}"
                                                                + (f" with {files} measurement file(s)" if files else "")
                                                                if latest else ""),
                  draft_version=draft.version)
@@ -209,7 +209,7 @@ def draft_section_save(*, revision: Revision, section: questionnaire.Section, an
         return draft
     _require_fresh(draft, section.slug, read_version)
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.SECTION_SAVED,
-                  summary=f"Saved {section.title} of draft revision {draft.number}")
+                  summary=f"Saved {section.title} of draft design revision {draft.number}")
 
 
 _REMOVED_ROW = re.compile(r"^antennas\[(\d+)\]$")
@@ -282,7 +282,7 @@ def draft_antennas_restore(*, revision: Revision, answers: Mapping[str, Any], ev
     names = [str(antenna.get("name")) for _, antenna in rows]
     draft = _store(draft=draft, document=document, user=user, action=AuditEvent.Action.SECTION_SAVED,
                    summary=f"Restored antenna {', '.join(names)} (removed in version {event.draft_version}) in draft "
-                           f"revision {draft.number}")
+                           f"design revision {draft.number}")
     return draft, names
 
 
@@ -294,7 +294,7 @@ def draft_save_document(*, revision: Revision, document: dict[str, Any], user,
     draft = _locked_draft(revision)
     _require_fresh(draft, ALL_PARTS, read_version)
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.SECTION_SAVED,
-                  summary=f"Saved the design document of draft revision {draft.number}")
+                  summary=f"Saved the design document of draft design revision {draft.number}")
 
 
 @transaction.atomic
@@ -306,7 +306,7 @@ def revision_submit(*, revision: Revision, user) -> Revision:
     require_role(user, revision.product.team, Role.AUTHOR)
     revision = Revision.objects.select_for_update().get(pk=revision.pk)
     if not revision.is_draft:
-        raise DesignError([Problem("", f"revision {revision.number} was already submitted")])
+        raise DesignError([Problem("", f"design revision {revision.number} was already submitted")])
     design = parse_design(revision.document)
     measurements = attach_measurements(design, measurement_reader(revision))
     evaluation = evaluate(design, measurements)
@@ -340,7 +340,7 @@ def design_import(*, product: Product, text: str | bytes, source: str, user,
     _require_fresh(draft, ALL_PARTS, read_version)
     attach_measurements(design, measurement_reader(draft))
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.IMPORTED,
-                  summary=f"Imported {source[:120]} into draft revision {draft.number}")
+                  summary=f"Imported {source[:120]} into draft design revision {draft.number}")
 
 
 def document_export_text(*, revision: Revision) -> str:
@@ -393,7 +393,7 @@ def measurement_add(*, revision: Revision, name: str, content: bytes, user) -> M
         measurement.file.save(name, ContentFile(content), save=False)
         measurement.save()
         _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_ADDED,
-               summary=f"Added {name} to draft revision {draft.number}",
+               summary=f"Added {name} to draft design revision {draft.number}",
                file_changes={FILE_KEY: [None, _describe_file(measurement)]})
     return measurement
 
@@ -418,7 +418,7 @@ def measurement_map_ports(*, revision: Revision, name: str, ports: list[str | No
         return draft
     _require_fresh(draft, questionnaire.MEASUREMENTS_PART, read_version)
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_MAPPED,
-                  summary=f"Mapped the ports of {name} in draft revision {draft.number}")
+                  summary=f"Mapped the ports of {name} in draft design revision {draft.number}")
 
 
 @transaction.atomic
@@ -438,7 +438,7 @@ def measurement_remove(*, revision: Revision, name: str, user, read_version: int
         return
     _require_fresh(draft, questionnaire.MEASUREMENTS_PART, read_version)
     _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_REMOVED,
-           summary=f"Removed {name} from draft revision {draft.number}",
+           summary=f"Removed {name} from draft design revision {draft.number}",
            file_changes={FILE_KEY: [_describe_file(files[0]), None]} if files else None)
     for measurement in files:
         stored = measurement.file.name
@@ -521,7 +521,7 @@ def draft_library_fill(*, revision: Revision, section: questionnaire.Section, an
                                                    antenna=str(filled_row.get("name")), user=user)
     draft = _store(draft=draft, document=document, user=user, action=AuditEvent.Action.LIBRARY_FILLED,
                    summary=f"Filled {where} from library part {entry.name} version {entry.version} in draft "
-                           f"revision {draft.number}" + (f", with {len(copied)} file(s)" if copied else ""),
+                           f"design revision {draft.number}" + (f", with {len(copied)} file(s)" if copied else ""),
                    file_changes=file_changes)
     return draft, copied
 
@@ -554,4 +554,4 @@ def draft_library_apply(*, revision: Revision, kind: str, antenna: str | None, e
     where = "the modem" if antenna is None else f"antenna {antenna}"
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.LIBRARY_APPLIED,
                   summary=f"Applied library part {current.name} version {noted} → {current.version} to {where} of "
-                          f"draft revision {draft.number}", file_changes=file_changes)
+                          f"draft design revision {draft.number}", file_changes=file_changes)

@@ -295,8 +295,8 @@ def draft_edit(request, product_id: int):
 def draft_start(request, product_id: int):
     product = get_product_for_user(request.user, product_id)
     draft = services.draft_get_or_start(product=product, user=request.user)
-    messages.success(request, f"Revision {draft.number} is a new draft"
-                     + (f", copied from revision {draft.based_on.number}." if draft.based_on else "."))
+    messages.success(request, f"Design revision {draft.number} is a new draft"
+                     + (f", copied from design revision {draft.based_on.number}." if draft.based_on else "."))
     return redirect("draft_edit", product.pk)
 
 
@@ -460,11 +460,11 @@ def draft_submit(request, product_id: int):
         revision = services.revision_submit(revision=draft, user=request.user)
     except DesignError as error:
         loose = [problem.message for problem in error.problems if not problem.path]  # no question holds them
-        messages.error(request, f"Revision {draft.number} can't be submitted yet: " + (
+        messages.error(request, f"Design revision {draft.number} can't be submitted yet: " + (
             "; ".join(loose) + "." if loose else
             f"fix the {len(error.problems)} problem(s) listed beside the questions."))
         return redirect("draft_edit", product.pk)
-    messages.success(request, f"Revision {revision.number} submitted for review and frozen.")
+    messages.success(request, f"Design revision {revision.number} submitted for review and frozen.")
     return redirect(revision)
 
 
@@ -534,7 +534,7 @@ def design_import(request, product_id: int):
         except services.DraftConflict as error:
             conflict, draft, read_version = error, error.revision, error.revision.version
         else:
-            messages.success(request, f"{upload.name} imported into draft revision {draft.number}.")
+            messages.success(request, f"{upload.name} imported into draft design revision {draft.number}.")
             return redirect("draft_edit", product.pk)
     return render(request, "designs/import.html", {"product": product, "form": form, "problems": problems,
                                                    "draft": draft, "read_version": read_version,

@@ -828,7 +828,7 @@ def correlation_chart(measurement: LoadedMeasurement, design: Design, *, width_p
 
 
 def _product(design: Design) -> str:
-    return design.product_name + (f", revision {design.product_revision}" if design.product_revision else "")
+    return design.product_name + (f", hardware revision {design.product_revision}" if design.product_revision else "")
 
 
 # -- coverage ---------------------------------------------------------------------------------------------------

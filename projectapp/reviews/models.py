@@ -121,7 +121,7 @@ class ReviewItem(models.Model):
         ]
 
     def __str__(self) -> str:
-        return f"{self.rule_id} {self.subjects_key or '—'} (revision {self.revision.number})"
+        return f"{self.rule_id} {self.subjects_key or '—'} (design revision {self.revision.number})"
 
     def save(self, *args, **kwargs):
         if self.revision_id and is_signing_started(self.revision_id):

@@ -177,8 +177,8 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
     resolved = len(created) - raised
     graver = f"; {not_carried} not carried because the finding is graver now" if not_carried else ""
     _audit(item=None, revision=revision, user=user, action=AuditEvent.Action.SUBMITTED,
-           summary=f"Submitted revision {revision.number}: {raised} items ({carried} carried from earlier "
-                   f"decisions{graver}), {resolved} resolved since revision {previous.number if previous else '—'}",
+           summary=f"Submitted design revision {revision.number}: {raised} items ({carried} carried from earlier "
+                   f"decisions{graver}), {resolved} resolved since design revision {previous.number if previous else '—'}",
            changes={"status": ["draft", "submitted"], "ruleset": [None, revision.ruleset]})
     return created
 

@@ -58,7 +58,7 @@ def readiness(revision: Revision) -> Readiness:
     state = Readiness(revision, required_roles=list(revision.product.team.signoff_roles))
     state.signed_roles = list(revision.signatures.values_list("role", flat=True))
     if revision.is_draft:
-        state.obstacles.append(f"Revision {revision.number} is a draft: submit it for review first.")
+        state.obstacles.append(f"Design revision {revision.number} is a draft: submit it for review first.")
         return state
     newer = None if hasattr(revision, "signed_record") else newer_record(revision)
     if newer is not None:
@@ -69,7 +69,7 @@ def readiness(revision: Revision) -> Readiness:
     for item in items:
         label = f"{item.rule_id} {item.title}"
         if item.is_carried_unconfirmed and item.severity in ("blocker", "warning"):
-            state.obstacles.append(f"{label}: the decision carried from revision {item.carried_from.number} "
+            state.obstacles.append(f"{label}: the decision carried from design revision {item.carried_from.number} "
                                    "is not confirmed yet.")
         elif item.severity == "blocker" and item.disposition != Disposition.WAIVED:
             state.obstacles.append(f"{label}: a blocker must be waived by an approver "
@@ -128,8 +128,8 @@ def newer_record(revision: Revision) -> SignedRecord | None:
 
 
 def newer_record_obstacle(revision: Revision, newer: SignedRecord) -> str:
-    return (f"Revision {newer.revision.number} of {revision.product.name} is already signed and archived, so "
-            f"revision {revision.number} can no longer be signed: its record would compete with the newer one as "
+    return (f"Design revision {newer.revision.number} of {revision.product.name} is already signed and archived, so "
+            f"design revision {revision.number} can no longer be signed: its record would compete with the newer one as "
             "the current record. To go back to this design, start a new revision from it.")
 
 
@@ -165,7 +165,7 @@ def _revision_sign_checked(*, revision: Revision, user, role: str) -> Signature:
         raise PermissionDenied(f"Signing as {role} needs the {role} role in {team.name}.")
     state = readiness(revision)
     if not state.ready:
-        raise SigningError(f"Revision {revision.number} can't be signed yet: {len(state.obstacles)} item(s) stand "
+        raise SigningError(f"Design revision {revision.number} can't be signed yet: {len(state.obstacles)} item(s) stand "
                            "in the way.")
     if role in state.signed_roles:
         raise SigningError(f"role: the {role} signature is already recorded")
@@ -176,7 +176,7 @@ def _revision_sign_checked(*, revision: Revision, user, role: str) -> Signature:
         meaning=MEANINGS[Role(role)])
     AuditEvent.objects.create(product=revision.product, revision=revision, actor=user,
                               action=AuditEvent.Action.SIGNED,
-                              summary=f"Signed revision {revision.number} as {role} ({signature.meaning.split(':')[0]})",
+                              summary=f"Signed design revision {revision.number} as {role} ({signature.meaning.split(':')[0]})",
                               changes={"signature": [None, role]})
     if not [r for r in team.signoff_roles if r not in (*state.signed_roles, role)]:
         record_archive(revision=revision, user=user)
@@ -196,7 +196,7 @@ def record_build(*, revision: Revision) -> tuple[str, bytes]:
         logger.exception("the PDF record of %s could not be built", revision)
         earlier = revision.signatures.count() > 1  # the signature being refused is already in the count
         raise RecordBuildError(
-            f"The PDF record of revision {revision.number} could not be built ({type(error).__name__}), so your "
+            f"The PDF record of design revision {revision.number} could not be built ({type(error).__name__}), so your "
             "signature was not recorded and nothing changed"
             + (": the signatures already given stand." if earlier else ": the review is still open.")
             + " The server log has the cause for whoever runs Earshot; sign again once it is fixed.") from error
@@ -218,7 +218,7 @@ def record_archive(*, revision: Revision, user) -> SignedRecord:
         Supersession.objects.create(older=older, newer=record)
     AuditEvent.objects.create(product=revision.product, revision=revision, actor=user,
                               action=AuditEvent.Action.ARCHIVED,
-                              summary=f"Archived the signed record of revision {revision.number} "
+                              summary=f"Archived the signed record of design revision {revision.number} "
                                       f"(SHA-256 {sha256[:16]}…)", changes={"sha256": [None, sha256]})
     return record
 

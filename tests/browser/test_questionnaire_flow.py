@@ -173,7 +173,7 @@ def test_an_author_fills_the_questionnaire_and_the_checklist_follows_each_answer
     page.get_by_label("Name", exact=True).fill("Gate opener")
     page.get_by_label("Description").fill("Cat 1 gate controller with a main and a diversity antenna.")
     page.get_by_role("button", name="Create with an empty draft").click()
-    expect(page.get_by_role("heading", name="Draft revision 1")).to_be_visible()
+    expect(page.get_by_role("heading", name="Draft design revision 1")).to_be_visible()
     expect(page.get_by_role("status")).to_contain_text("Gate opener created with an empty draft.")
     product = Product.objects.get(name="Gate opener")
     draft_url = live_server.url + reverse("draft_edit", args=[product.pk])
@@ -236,8 +236,8 @@ def test_an_author_fills_the_questionnaire_and_the_checklist_follows_each_answer
 
     page.get_by_role("button", name="Submit for review").click()
     expect(page).to_have_url(live_server.url + reverse("revision_detail", args=[product.pk, 1]))
-    expect(page.get_by_role("heading", name="Revision 1")).to_contain_text("Submitted for review")
-    expect(page.get_by_role("status")).to_contain_text("Revision 1 submitted for review and frozen.")
+    expect(page.get_by_role("heading", name="Design revision 1")).to_contain_text("Submitted for review")
+    expect(page.get_by_role("status")).to_contain_text("Design revision 1 submitted for review and frozen.")
     expect(page.locator(".pagehead")).to_contain_text("· frozen")
     # The frozen checklist: no longer live, the same counts as the last draft state, no questionnaire.
     expect(page.locator("#checklist-title")).to_have_text("Checklist")
@@ -292,7 +292,7 @@ def test_a_reviewer_opening_the_draft_lands_on_the_read_only_revision(page, live
     page.goto(live_server.url + reverse("draft_edit", args=[hive_gateway.pk]))
 
     expect(page).to_have_url(live_server.url + reverse("revision_detail", args=[hive_gateway.pk, 1]))
-    expect(page.get_by_role("heading", name="Revision 1")).to_contain_text("Draft")
+    expect(page.get_by_role("heading", name="Design revision 1")).to_contain_text("Draft")
     expect(page.locator("#checklist")).to_contain_text("SEP-001")
     expect(page.locator("form.qsection")).to_have_count(0)
     expect(page.locator("main").locator("input:not([type=hidden]), select, textarea")).to_have_count(0)
