@@ -938,7 +938,7 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
     group.add(String(MARGIN_PT, _baseline(top - 13), _fit_text(title, FONT_BOLD, 13, width_pt - 2 * MARGIN_PT),
                      fontName=FONT_BOLD, fontSize=13, fillColor=INK))
     product = _product_words(design, record)
-    subtitle = f"{product} · positions in mm in the enclosure frame · pair lines coloured by spacing finding"
+    subtitle = f"{product} · positions in mm in the enclosure frame"  # the legend explains the pair lines
     group.add(String(MARGIN_PT, _baseline(top - 29), _fit_text(subtitle, FONT, 8.5, width_pt - 2 * MARGIN_PT),
                      fontName=FONT, fontSize=8.5, fillColor=MUTED))
     top -= HEADER_PT + 12
