@@ -461,11 +461,25 @@ def draft_submit(request, product_id: int):
     except DesignError as error:
         loose = [problem.message for problem in error.problems if not problem.path]  # no question holds them
         messages.error(request, f"Design revision {draft.number} can't be submitted yet: " + (
-            "; ".join(loose) + "." if loose else
-            f"fix the {len(error.problems)} problem(s) listed beside the questions."))
+            "; ".join(loose) + "." if loose else _still_to_do(draft.document)))
         return redirect("draft_edit", product.pk)
     messages.success(request, f"Design revision {revision.number} submitted for review and frozen.")
     return redirect(revision)
+
+
+def _still_to_do(document: dict) -> str:
+    """What stands between a draft and submitting it, in the words of the checklist's to-do list."""
+    partial = parse_design_partial(document)
+    unanswered = [problem_words.unanswered(problem, document).in_checklist for problem in partial.unanswered]
+    parts = []
+    if unanswered:
+        shown = "; ".join(unanswered[:5]) + (f"; and {len(unanswered) - 5} more" if len(unanswered) > 5 else "")
+        parts.append(f"{len(unanswered)} question{'s' if len(unanswered) != 1 else ''} to answer ({shown})")
+    if partial.problems:
+        count = len(partial.problems)
+        parts.append(f"{count} answer{'s' if count != 1 else ''} to fix (beside the questions)")
+    return " and ".join(parts) + "; the checklist's to-do list links to each." if parts else \
+        "a measurement file can't be used; see the measurements."
 
 
 @login_required

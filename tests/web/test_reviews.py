@@ -345,3 +345,22 @@ def test_a_decision_made_on_a_carried_item_shows_who_made_it_and_what_was_carrie
     card = " ".join(response.content.decode().split())
     assert "Decided by approver" in card and "in design revision 1" in card
     assert "Carried from design revision 1; confirmed here by approver" in card
+
+
+def test_on_the_review_page_a_decision_updates_the_settled_count_out_of_band(client, reviewed, reviewer):
+    item = item_of(reviewed, "EFF-001")
+    review_url = reverse("revision_review", args=[reviewed.pk, 1])
+    total = ReviewItem.objects.filter(revision__product=reviewed, kind=ReviewItem.Kind.RAISED).count()
+    client.force_login(reviewer)
+    assert f"0 of {total} items settled" in client.get(review_url).content.decode()
+    response = post(client, reviewer, "review_item_decide", item,
+                    {"disposition": "change", "justification": "", "version": item.version},
+                    HTTP_HX_CURRENT_URL=f"http://testserver{review_url}", **HTMX)
+    page = response.content.decode()
+    assert f'<span id="review-counts" aria-live="polite" hx-swap-oob="true">1 of {total} items settled</span>' in page
+    # From the item's own page (no count there) the card comes alone.
+    item = item_of(reviewed, "EFF-001")
+    response = post(client, reviewer, "review_item_decide", item,
+                    {"disposition": "discussion", "justification": "", "version": item.version},
+                    HTTP_HX_CURRENT_URL=f"http://testserver{reverse('review_item', args=[item.pk])}", **HTMX)
+    assert "review-counts" not in response.content.decode()
