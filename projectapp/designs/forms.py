@@ -118,6 +118,14 @@ class LibraryApplyForm(LibraryTargetForm):
         self.fields["apply"].choices = [(key, key) for key in keys]
 
 
+class PanelPartForm(forms.Form):
+    """A part of the draft's page fetched on its own (`?part=figures`: the drawing, charts and coverage that a
+    save's answer leaves to the next request)."""
+
+    part = forms.ChoiceField(required=False, choices=[("", ""), ("figures", "figures")], error_messages={
+        "invalid_choice": "expected figures or nothing"})
+
+
 class SectionActionForm(forms.Form):
     """What a questionnaire section may post beside its answers: an antenna row action and a region preset."""
 

@@ -46,6 +46,7 @@ from projectapp.designs.forms import (
     LibraryEntryForm,
     LibraryTargetForm,
     MeasurementFileForm,
+    PanelPartForm,
     PortMapForm,
     ProductForm,
     SectionActionForm,
@@ -69,6 +70,7 @@ from rules.touchstone import TouchstoneError
 
 logger = logging.getLogger(__name__)
 SPACING_RULE = "SEP-001"  # the rule whose findings colour the drawing's pair lines
+FIGURES_DUE = "figures-due"  # a save's answer asks the page to fetch the new drawing (_panel.html)
 
 
 @login_required
@@ -181,17 +183,23 @@ def _chart(build, measurement, design, *, id_prefix: str) -> str:
     return chart_svg(build(measurement, design, width_pt=560, height_pt=240), id_prefix=id_prefix)
 
 
-def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> dict:
-    """The panel's figures, drawn once per state of the revision (and version of the code that draws them)."""
-    key = fragments.cache_key("figures", state_key(state.revision), id_prefix)
-    figures = cache.get(key)
-    if figures is None:
-        figures = _figures(state, id_prefix)
-        if not figures["failed_figures"]:  # a failure is not kept: the next look tries again
-            cache.set(key, figures, timeout=30 * 24 * 3600)
-    failed = bool(figures["failed_figures"]) or CHECK_FAILED in state.problems
+def _panel_context(state: ChecklistState, *, id_prefix: str = "placement", figures: bool = True) -> dict:
+    """The panel's checklist and band table, and (`figures`) its drawing, charts and coverage, drawn once per
+    state of the revision (and version of the code that draws them). A save's answer leaves the figures out:
+    the page fetches them with the next request (draft_edit, part=figures), so the checklist follows an
+    answer without waiting for the drawing (benchmarks/section_save.py)."""
+    drawn: dict = {"placement_svg": None, "chart_svgs": [], "coverage": [], "coverage_svg": None,
+                   "failed_figures": []}
+    if figures:
+        key = fragments.cache_key("figures", state_key(state.revision), id_prefix)
+        drawn = cache.get(key)
+        if drawn is None:
+            drawn = _figures(state, id_prefix)
+            if not drawn["failed_figures"]:  # a failure is not kept: the next look tries again
+                cache.set(key, drawn, timeout=30 * 24 * 3600)
+    failed = bool(drawn["failed_figures"]) or CHECK_FAILED in state.problems
     todo = problem_words.todo(state.revision.document, state.checklist) if state.is_partial else None
-    return {"state": state, "coverage_columns": TABLE_COLUMNS, fragments.NOT_KEPT: failed, "todo": todo, **figures}
+    return {"state": state, "coverage_columns": TABLE_COLUMNS, fragments.NOT_KEPT: failed, "todo": todo, **drawn}
 
 
 def _section_item(section: questionnaire.Section, document: dict, problems: list[Problem], *, version: int,
@@ -282,6 +290,15 @@ def draft_edit(request, product_id: int):
                                                            "is_author": is_author})
     if not is_author:
         return redirect("revision_detail", product.pk, draft.number)
+    part = PanelPartForm(request.GET)
+    if not part.is_valid():
+        return HttpResponse("; ".join(f"{name}: {error}" for name, errors in part.errors.items() for error in errors),
+                            status=400, content_type="text/plain; charset=utf-8")
+    if part.cleaned_data["part"] == "figures":  # after a save: the drawing, charts and coverage of the draft now
+        return HttpResponse(fragments.personal(fragments.shared(
+            "designs/draft_figures.html", ("figures-oob", state_key(draft), product.pk),
+            lambda: {"product": product, "revision": draft, **_panel_context(checklist_for(draft))},
+            timeout=fragments.DAY), request))
     # The page carries the draft's version in every form (what each save names as read), so it is part of
     # the key; the state key names the content, which the checklist and figures are cached by.
     return fragments.page(request, "designs/draft_edit.html",
@@ -379,18 +396,20 @@ def draft_section_save(request, product_id: int, section: str):
         state = checklist_for(draft)
         panel = fragments.shared("designs/_panel_oob.html", ("panel", state_key(draft), product.pk),
                                  lambda: {"product": product, "revision": draft, "editing": True,
-                                          **_panel_context(state)},
+                                          **_panel_context(state, figures=False)},
                                  timeout=fragments.DAY)
         template = ("designs/draft_section_messages.html" if request.POST.get("answer") == "messages"
                     else "designs/draft_section_saved.html")
         messages_only = request.POST.get("answer") == "messages"  # no inputs sent back
-        return render(request, template, {
+        response = render(request, template, {
             "product": product, "revision": draft, "presets": questionnaire.band_presets(),
             "current": _section_item(current, draft.document, state.problems, version=draft.version,
                                      library={} if messages_only else _library_choices(product),
                                      undo=None if messages_only else services.draft_antennas_removed(revision=draft),
                                      focus="" if messages_only else _focus_after(extras, draft.document)),
             "panel": fragments.personal(panel, request)})
+        response["HX-Trigger"] = FIGURES_DUE  # the page's #figures-loader fetches the drawing of this state
+        return response
     messages.success(request, f"{current.title} saved.")
     return redirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
 

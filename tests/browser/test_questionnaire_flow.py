@@ -61,9 +61,11 @@ def answer(page: Page, name: str):
     return page.locator(f'[name="{name}"]')
 
 
-# Every htmx save swaps the section's form (outerHTML) and, out of band, each block of the panel. Before a change
-# the current elements get an expando property; the server's replacements don't have it, so the save has
-# landed once the panel no longer carries it and htmx has finished swapping and settling.
+# Every htmx save swaps the section's form (outerHTML) and, out of band, the checklist and band table; its
+# answer's HX-Trigger has #figures-loader fetch the drawing, charts and coverage at once (that request is
+# under way before the answer is swapped in). Before a change the current elements get an expando property;
+# the server's replacements don't have it, so the save has landed once the panel no longer carries it and
+# htmx has no request in flight and has finished swapping and settling.
 MARK_STALE = """() => {
   for (const element of document.querySelectorAll('form.qsection, #panel-checklist')) element.earshotStale = true;
 }"""

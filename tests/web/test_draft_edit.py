@@ -64,8 +64,10 @@ def test_a_typo_keeps_the_checklist_the_drawing_and_the_band_table(client, produ
     page = save(client, product, "antennas", {**data, "answer": "messages"}, **HTMX).content.decode()
     assert "Feed point position, y: &quot;1O&quot; is not a number" in page
     assert "DIV · Feed point position, y: &quot;1O&quot; is not a number" in page  # in the to-do list
-    assert "Feed point positions: " in page and "<svg" in page and 'id="bands"' in page and "B20" in page
+    assert "Feed point positions: " in page and 'id="bands"' in page and "B20" in page
     assert re.search(r"count-note\">\d+ note", page)
+    figures = client.get(reverse("draft_edit", args=[product.pk]) + "?part=figures", **HTMX).content.decode()
+    assert "<svg" in figures and "DIV (receive, internal) is not placed" in figures  # MAIN still drawn in place
 
 
 def test_undo_remove_puts_the_antenna_back_through_the_versioned_save(client, product, author):
@@ -175,3 +177,22 @@ def test_a_second_author_sees_the_offer_of_the_first_authors_removal(client, pro
     page = client.get(reverse("draft_edit", args=[product.pk])).content.decode()
     assert "Removed MAIN with its values." in page
     assert json.loads(json.dumps(document_of(product)))["antennas"][0]["name"] == "DIV"
+
+
+def test_a_saves_answer_leaves_the_drawing_to_the_request_it_triggers(client, product, author, reviewer, outsider):
+    client.force_login(author)
+    response = save(client, product, "deployment", {"deployment.body_distance_mm": "400", "answer": "messages"},
+                    **HTMX)
+    assert response["HX-Trigger"] == "figures-due"
+    assert 'id="panel-checklist" hx-swap-oob="true"' in response.content.decode()
+    assert "<svg" not in response.content.decode()  # the checklist does not wait for the drawing
+    figures = client.get(reverse("draft_edit", args=[product.pk]) + "?part=figures", **HTMX)
+    assert figures.status_code == 200 and 'id="panel-placement" hx-swap-oob="true"' in figures.content.decode()
+    assert "<svg" in figures.content.decode() and "MAIN to DIV 45 mm apart, blocker" in figures.content.decode()
+    page = client.get(reverse("draft_edit", args=[product.pk])).content.decode()
+    assert 'id="figures-loader"' in page and "<svg" in page  # the page itself draws at once
+    assert client.get(reverse("draft_edit", args=[product.pk]) + "?part=everything").status_code == 400
+    client.force_login(outsider)
+    assert client.get(reverse("draft_edit", args=[product.pk]) + "?part=figures").status_code == 404
+    client.force_login(reviewer)
+    assert client.get(reverse("draft_edit", args=[product.pk]) + "?part=figures").status_code == 302
