@@ -6,7 +6,9 @@ each on a 2° grid (91 theta x 180 phi) at 5 frequencies, 81,900 rows per file, 
 
 Two comparisons (targets from the issue that introduced far-field patterns):
 - reading all eight files with rules.farfield (text read, strict parse, grid checks) against
-  `numpy.loadtxt` on the same files (target: no longer);
+  `numpy.loadtxt` on the same files (target: no longer). Beside them, without a target, the pure-numpy ways of
+  parsing the same text from memory (the engine gets text, not a path): `numpy.loadtxt` on it, and
+  `numpy.fromstring(sep=",")` on the body with its line ends made commas;
 - the envelope correlation of all 28 pairs, as the engine computes it (one Gram matrix per frequency),
   against the reading time (target: under a tenth).
 
@@ -14,6 +16,7 @@ Run from the repository root: `.venv/bin/python benchmarks/far_field.py [--repea
 """
 
 import argparse
+import io
 import sys
 import tempfile
 from itertools import combinations
@@ -57,6 +60,19 @@ def read_loadtxt(paths: list[Path]) -> list:
     return [np.loadtxt(path, delimiter=",", skiprows=COMMENT_LINES + 1) for path in paths]
 
 
+def read_loadtxt_text(paths: list[Path]) -> list:
+    return [np.loadtxt(io.StringIO(path.read_text(encoding="utf-8")), delimiter=",", skiprows=COMMENT_LINES + 1)
+            for path in paths]
+
+
+def read_fromstring(paths: list[Path]) -> list:
+    tables = []
+    for path in paths:
+        body = path.read_text(encoding="utf-8").split("\n", COMMENT_LINES + 1)[-1]
+        tables.append(np.fromstring(body.replace("\n", ","), sep=",").reshape(-1, 7))
+    return tables
+
+
 def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--repeats", type=int, default=5, help="timed runs of each measurement (default 5)")
@@ -72,11 +88,13 @@ def main() -> int:
                       for table, pattern in zip(tables, patterns, strict=True))
 
         # Interleave the two readers so that a busy machine slows both alike.
-        ours_s, theirs_s = [], []
+        ours_s, theirs_s, text_s, fromstring_s = [], [], [], []
         for _ in range(repeats):
             ours_s.append(best_of(1, lambda: read_ours(paths)))
             theirs_s.append(best_of(1, lambda: read_loadtxt(paths)))
-        ours, theirs = min(ours_s), min(theirs_s)
+            text_s.append(best_of(1, lambda: read_loadtxt_text(paths)))
+            fromstring_s.append(best_of(1, lambda: read_fromstring(paths)))
+        ours, theirs, from_text, from_string = min(ours_s), min(theirs_s), min(text_s), min(fromstring_s)
         matrix_s = best_of(repeats, lambda: correlation_matrix(patterns, ISOTROPIC_ENVIRONMENT))
         pairwise_s = best_of(repeats, lambda: [envelope_correlation(a, b) for a, b in combinations(patterns, 2)])
         matrix = correlation_matrix(patterns, ISOTROPIC_ENVIRONMENT)
@@ -92,6 +110,8 @@ def main() -> int:
         ("numpy.loadtxt(path)", f"{theirs:.3f}", "1.00", "", ""),
         ("rules.farfield.parse_far_field", f"{ours:.3f}", f"{read_ratio:.2f}", f"<= {READ_TARGET_RATIO:.2f}",
          verdict(read_ratio, READ_TARGET_RATIO, strictly_below=False)),
+        ("numpy.loadtxt(StringIO(text)), no checks", f"{from_text:.3f}", f"{from_text / theirs:.2f}", "", ""),
+        ("numpy.fromstring(body, sep=','), no checks", f"{from_string:.3f}", f"{from_string / theirs:.2f}", "", ""),
     ])
     print()
     pairs = len(paths) * (len(paths) - 1) // 2

@@ -26,7 +26,7 @@ and gains in dB.
 import math
 import tomllib
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from functools import cache
 from typing import Any
 
@@ -436,6 +436,16 @@ class PublishedSingleBranch:
 
 
 @dataclass(frozen=True)
+class Enhancement:
+    """The part of a category's coverage target that only coverage enhancement (repetition) reaches."""
+
+    category: str
+    legacy_mcl_db: float  # the coverage the target was set beyond
+    feature: str  # what the operator must enable for the deepest of it
+    source: str
+
+
+@dataclass(frozen=True)
 class EntryLoss:
     environment: str
     loss_db: float
@@ -461,6 +471,7 @@ class CoverageData:
     single_branch: PublishedSingleBranch
     entry_losses: Mapping[str, EntryLoss]
     assumptions: Assumptions
+    enhancements: Mapping[str, Enhancement] = field(default_factory=dict)
 
 
 def _number(table: Mapping[str, Any], key: str, where: str) -> float:
@@ -521,6 +532,17 @@ def parse_coverage_data(tables: Mapping[str, Any]) -> CoverageData:
     if missing:
         raise CoverageDataError(f"coverage.toml: no entry loss for {', '.join(missing)}")
 
+    enhancements: dict[str, Enhancement] = {}
+    for category_id, table in tables.get("enhancement", {}).items():
+        where = f"enhancement.{category_id}"
+        if category_id not in targets:
+            raise CoverageDataError(f"coverage.toml [{where}]: no coverage target for {category_id}")
+        legacy_db = _number(table, "legacy_mcl_db", where)
+        if legacy_db >= min(targets[category_id].ul_mcl_db, targets[category_id].dl_mcl_db):
+            raise CoverageDataError(f"coverage.toml [{where}]: legacy_mcl_db should be below the category's targets")
+        enhancements[category_id] = Enhancement(category_id, legacy_db, _text(table, "feature", where),
+                                                _text(table, "source", where))
+
     defaults = tables.get("defaults", {})
     names = ("mobile_height_m", "outage_probability", "reference_distance_km", "base_gain_db", "assumed_ecc",
              "assumed_efficiency_ratio")
@@ -537,7 +559,7 @@ def parse_coverage_data(tables: Mapping[str, Any]) -> CoverageData:
     if not isinstance(los, bool):
         raise CoverageDataError("coverage.toml [defaults]: los should be true or false")
     return CoverageData(targets, published, losses,
-                        Assumptions(scenario=scenario, los=los, sources=sources, **numbers))
+                        Assumptions(scenario=scenario, los=los, sources=sources, **numbers), enhancements)
 
 
 @cache

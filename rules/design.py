@@ -71,6 +71,12 @@ PATH_LIMITS: Mapping[str, Limit] = {  # `[]` stands for any index
     "antennas[].polarization": Limit(-1e6, 1e6,
                                      "a direction in any unit: components within a million either way, the largest "
                                      "at least 0.001, so lengths and angles stay finite", least_magnitude=0.001),
+    "deployment.radiated_targets_dbm.trp": Limit(
+        -30.0, 40.0, "a total radiated power from -30 dBm (far below any operator's target, 10 to 23 dBm) to 40 dBm "
+                     "(above power class 1's 31 dBm with any antenna gain)"),
+    "deployment.radiated_targets_dbm.tis": Limit(
+        -150.0, -50.0, "a total isotropic sensitivity from -150 dBm (beyond NB-IoT's deepest coverage) to -50 dBm "
+                       "(worse than any operator accepts), the range of a conducted sensitivity"),
 }
 # Text: the longest each field may be. A name is stored in database columns and printed on the record:
 # the product and file names match their columns (designs.Product.name, designs.MeasurementFile.name);
@@ -193,6 +199,10 @@ class Deployment:
     required_dl_kbps: float | None = None
     required_ul_kbps: float | None = None
     body_distance_mm: float | None = None
+    # Radiated targets per band, copied by the team from its operators' requirements (deployment.
+    # radiated_targets_dbm): total radiated power (at least) and total isotropic sensitivity (at most).
+    trp_targets_dbm: Mapping[str, float] = field(default_factory=dict)
+    tis_targets_dbm: Mapping[str, float] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -613,7 +623,9 @@ def _read(document: Any, *, lenient: bool) -> tuple[_Reader, _Parts | None]:
     deployment = Deployment()
     if root.get("deployment") is not None:
         raw = reader.object(root["deployment"], "deployment", ("environment", "required_dl_kbps",
-                                                               "required_ul_kbps", "body_distance_mm")) or {}
+                                                               "required_ul_kbps", "body_distance_mm",
+                                                               "radiated_targets_dbm")) or {}
+        trp_targets, tis_targets = _parse_radiated_targets(reader, raw.get("radiated_targets_dbm"))
         deployment = Deployment(
             environment=reader.choice(raw.get("environment"), "deployment.environment", ENVIRONMENTS, None),
             required_dl_kbps=reader.number(raw.get("required_dl_kbps"), "deployment.required_dl_kbps",
@@ -622,6 +634,8 @@ def _read(document: Any, *, lenient: bool) -> tuple[_Reader, _Parts | None]:
                                            minimum=0, unit="kbps"),
             body_distance_mm=reader.number(raw.get("body_distance_mm"), "deployment.body_distance_mm",
                                            minimum=0, unit="mm"),
+            trp_targets_dbm=trp_targets,
+            tis_targets_dbm=tis_targets,
         )
 
     known = antennas if lenient or antennas_complete else None
@@ -656,7 +670,7 @@ INPUTS: tuple[str, ...] = (
     "antennas",  # the list itself: how many, each one's name and role
     *ANTENNA_FIELD_INPUTS,
     "deployment.environment", "deployment.required_dl_kbps", "deployment.required_ul_kbps",
-    "deployment.body_distance_mm",
+    "deployment.body_distance_mm", "deployment.radiated_targets_dbm",
     "measurements",  # the entries (files, port maps, patterns); they name antennas, so they need "antennas"
 )
 # The required values a person answers; their absence is "not answered yet" rather than a problem (so is a
@@ -667,6 +681,11 @@ _INPUT_FIELDS: Mapping[str, str] = {  # an input's attribute on Design, Modem, A
     "product.name": "product_name", "product.revision": "product_revision",
     "enclosure.size_mm": "enclosure_size_mm", "enclosure.material": "enclosure_material",
     "ground_plane_mm": "ground_plane_mm", "antennas": "antennas", "measurements": "measurements",
+}
+
+
+_DEPLOYMENT_FIELDS: Mapping[str, tuple[str, ...]] = {  # an input held in fields of other names
+    "deployment.radiated_targets_dbm": ("trp_targets_dbm", "tis_targets_dbm"),
 }
 
 
@@ -764,8 +783,8 @@ def withhold(design: Design, withheld: set[str]) -> Design:
     elif antenna_changes:
         antennas = tuple(replace(antenna, **antenna_changes) for antenna in design.antennas)
     deployment = design.deployment
-    deployment_changes = {name.removeprefix("deployment."): marker(name) for name in INPUTS
-                          if name.startswith("deployment.") and name in withheld}
+    deployment_changes = {field_name: marker(name) for name in INPUTS if name.startswith("deployment.")
+                          and name in withheld for field_name in _DEPLOYMENT_FIELDS.get(name, (name[11:],))}
     if deployment_changes:
         deployment = replace(deployment, **deployment_changes)
     changes: dict[str, Any] = {_INPUT_FIELDS[name]: marker(name) for name in _INPUT_FIELDS
@@ -935,6 +954,24 @@ def _parse_antennas(reader: _Reader, value: Any) -> tuple[list[Antenna] | None, 
             library=library,
         ))
     return antennas, complete
+
+
+RADIATED_QUANTITIES = ("trp", "tis")
+
+
+def _parse_radiated_targets(reader: _Reader, value: Any) -> tuple[dict[str, float], dict[str, float]]:
+    """`{"trp": {band: dBm}, "tis": {band: dBm}}`, either part optional; each band's target bounded by
+    PATH_LIMITS (a TRP is at least, a TIS at most, what the operator asks)."""
+    path = "deployment.radiated_targets_dbm"
+    if value is None:
+        return {}, {}
+    raw = reader.object(value, path, RADIATED_QUANTITIES)
+    if raw is None:
+        return {}, {}
+    trp, tis = (reader.band_map(raw.get(quantity), f"{path}.{quantity}",
+                                lambda item, item_path: reader.number(item, item_path, unit="dBm"))
+                for quantity in RADIATED_QUANTITIES)
+    return trp, tis
 
 
 def _parse_gain(reader: _Reader, value: Any, path: str) -> tuple[float | None, dict[str, float]]:

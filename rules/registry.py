@@ -23,7 +23,9 @@ if TYPE_CHECKING:
 # 2.0.0: every finding has a basis; measurement outranks geometry (SEP-001, GND-001 cleared by measurement);
 # correlation over the downlink, far-field patterns (ECC-003, ECC-004, EFF-004), passivity (MEA-001),
 # optimistic S-parameter ECC (ECC-002), efficiency imbalance (EFF-003), feed outside the enclosure (ENC-002,
-# SEP-003), per-band peak gain (GAI-001), GNSS and WLAN antennas kept out of the cellular rules.
+# SEP-003), per-band peak gain (GAI-001), GNSS and WLAN antennas kept out of the cellular rules; coexistence with
+# them (COX-001, COX-002), radiated estimates against the team's targets (OTA-001..003), the RedCap 1Rx barring
+# note (CNT-004), coverage enhancement for deep LTE-M / NB-IoT (COV-002).
 RULESET_VERSION = "2.0.0"
 RULE_ID_PATTERN = re.compile(r"^[A-Z]{3}-\d{3}$")
 

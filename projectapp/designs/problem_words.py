@@ -289,6 +289,7 @@ INPUT_LABELS = {
     "antennas[].efficiency_source": "Efficiency source", "antennas[].library": "Antenna library notes",
     "deployment.environment": "Environment", "deployment.required_dl_kbps": "Sustained downlink need",
     "deployment.required_ul_kbps": "Sustained uplink need", "deployment.body_distance_mm": "Closest distance to people",
+    "deployment.radiated_targets_dbm": "Radiated targets (TRP, TIS)",
     "measurements": "Measurements",
 }
 

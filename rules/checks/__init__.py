@@ -4,13 +4,15 @@ from rules.checks import (
     antenna_count,
     band_coverage,
     certification,
+    coexistence,
     coverage,
     layout,
     measured,
     patterns,
+    radiated,
     radio,
     usage,
 )
 
-__all__ = ["antenna_count", "band_coverage", "certification", "coverage", "layout", "measured", "patterns", "radio",
-           "usage"]
+__all__ = ["antenna_count", "band_coverage", "certification", "coexistence", "coverage", "layout", "measured", "patterns",
+           "radiated", "radio", "usage"]

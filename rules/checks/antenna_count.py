@@ -8,6 +8,7 @@ from rules.registry import rule
 
 TS_36_306 = "3GPP TS 36.306 Table 4.1-1"
 TS_38_300 = "3GPP TS 38.300 §16.13"
+REDCAP_1RX = "3GPP TS 38.331 cellBarredRedCap1Rx (Rel-17 SIB1)"
 
 
 @rule(
@@ -139,4 +140,40 @@ def unused_antennas(context: CheckContext) -> Iterator[Flag]:
         action="Remove the extra antenna(s), or record what else they serve (another radio, a future module).",
         subjects=tuple(extras),
         evidence={"required": usable, "fitted": len(antennas)},
+    )
+
+
+@rule(
+    id="CNT-004", added_in="2.0.0", topic="antenna-count", severities=("note",),
+    title="RedCap with one receive branch: operators can bar such devices",
+    rationale=(
+        "A RedCap device tells the network how many receive branches it has, and each cell broadcasts whether it "
+        "admits RedCap devices with one (TS 38.331 cellBarredRedCap1Rx): an operator may bar them while admitting two-"
+        "branch ones, for the coverage and capacity a branch costs. Every RedCap design that runs one receive branch "
+        "(a one-port module, or one cellular antenna connected) gets this note, whatever else it is flagged for."
+    ),
+    sources=(REDCAP_1RX, TS_38_300),
+    needs=("modem.category", "modem.rx_ports", "antennas"),
+)
+def redcap_one_branch(context: CheckContext) -> Iterator[Flag]:
+    modem = context.design.modem
+    if modem.category.single_antenna != "module":
+        return
+    if modem.rx_ports != 1 and context.rx_connected != 1:
+        return
+    why = ("the module has one receive port" if modem.rx_ports == 1 else
+           "one cellular antenna reaches the module's receive ports")
+    yield Flag(
+        severity="note",
+        title="RedCap with one receive branch: operators can bar 1Rx devices from a cell",
+        explanation=(
+            f"The design runs {modem.category.label} with one receive branch ({why}). Each cell broadcasts whether it "
+            f"admits RedCap devices with one receive branch ({REDCAP_1RX}); an operator may bar them where it admits "
+            "two-branch ones, and a barred device can't camp on that cell at all."
+        ),
+        action=("Confirm with each target operator that it admits 1Rx RedCap devices on the bands and in the areas the "
+                "product needs, or fit a second receive branch."),
+        evidence={"required": context.rx_required, "fitted": context.rx_connected, "rx_branches": 1,
+                  "rx_ports": modem.rx_ports},
+        references=(REDCAP_1RX, TS_38_300),
     )

@@ -3,7 +3,7 @@
 from collections.abc import Iterator
 
 from rules.context import CheckContext
-from rules.coverage import TR_38_901, CoverageAnalysis, analyse_coverage
+from rules.coverage import TR_38_901, CoverageAnalysis, analyse_coverage, coverage_data
 from rules.findings import Flag
 from rules.registry import rule
 
@@ -129,8 +129,8 @@ def single_antenna_coverage(context: CheckContext) -> Iterator[Flag]:
     )
     redcap = ""
     if category.single_antenna == "module":
-        redcap = (" With one receive branch in use the device reports itself as a 1Rx RedCap UE, and an "
-                  f"operator can bar such devices from a cell ({REDCAP_1RX}): confirm the operators allow it.")
+        redcap = (" With one receive branch in use the device is a 1Rx RedCap UE, which an operator can bar from a "
+                  f"cell ({REDCAP_1RX}): see CNT-004.")
     yield Flag(
         severity="warning" if warn else "note",
         title=(f"One receive antenna: about {cost.headline_db:.1f} dB less downlink in {worst.band}; "
@@ -194,4 +194,76 @@ def single_antenna_coverage(context: CheckContext) -> Iterator[Flag]:
         references=(TR_38_901, SINGLE_BRANCH, worst.target.ul_source, worst.target.dl_source, MRC,
                     "common practice (70 % area share threshold)")
         + ((REDCAP_1RX,) if redcap else ()),
+        basis=coverage_basis(context, worst),
+    )
+
+
+def coverage_basis(context: CheckContext, analysis: CoverageAnalysis) -> str:
+    """What a coverage finding rests on: `measured` when it used an ECC measured in this product or the main antenna's
+    efficiency measured in it, `datasheet` when it used an efficiency from a datasheet, else `design` (the category's
+    targets and the assumptions of coverage.toml)."""
+    main = next((antenna for antenna in context.cellular_antennas if antenna.transmits), None)
+    efficiency_used = main is not None and bool(main.efficiency_pct.get(analysis.band))
+    if analysis.ecc_source.startswith("measured") or (efficiency_used and main is not None
+                                                       and main.efficiency_source == "measured"):
+        return "measured"
+    return "datasheet" if efficiency_used else "design"
+
+
+DEEP_ENVIRONMENTS = ("deep-indoor", "underground")
+
+
+@rule(
+    id="COV-002", added_in="2.0.0", topic="coverage", severities=("note",),
+    title="Deep-indoor or underground LTE-M / NB-IoT relies on coverage enhancement the operator must enable",
+    rationale=(
+        "LTE-M's 155.7 dB and NB-IoT's 164 dB coverage targets lie 15 and 20 dB beyond the legacy coverage they were "
+        "set against (TR 36.888, TR 45.820), and the extra comes from repeating transmissions: the deepest of it (CE "
+        "mode B for LTE-M, the highest coverage-enhancement level for NB-IoT) only where the operator has enabled it. "
+        "A deep-indoor or underground deployment counts on that depth, so it gets a note naming it, with the "
+        "coverage budget's margin with and without the enhancement."
+    ),
+    sources=("3GPP TR 36.888 and TR 45.820 (coverage targets, from memory)", TR_38_901,
+             "3GPP TS 36.331 (CE mode B, CE levels; from memory)"),
+)
+def relies_on_coverage_enhancement(context: CheckContext) -> Iterator[Flag]:
+    design = context.design
+    category = design.modem.category
+    enhancement = coverage_data().enhancements.get(category.id)
+    environment = design.deployment.environment
+    if enhancement is None or environment not in DEEP_ENVIRONMENTS:
+        return
+    analyses = analyse_coverage(context)
+    target_db = analyses[0].target.ul_mcl_db
+    enhancement_db = target_db - enhancement.legacy_mcl_db
+    judged = [analysis for analysis in analyses if analysis.margin_db(1) is not None]
+    evidence: dict[str, object] = {
+        "environment": environment, "entry_loss_db": analyses[0].entry_loss_db, "mcl_db": target_db,
+        "legacy_mcl_db": enhancement.legacy_mcl_db, "enhancement_db": enhancement_db,
+        "band": None, "margin_db": None, "margin_without_enhancement_db": None,
+    }
+    if judged:
+        worst = min(judged, key=lambda analysis: analysis.margin_db(1) or 0.0)
+        margin_db = worst.margin_db(1) or 0.0
+        evidence |= {"band": worst.band, "margin_db": margin_db, "margin_without_enhancement_db": margin_db - enhancement_db,
+                     "reference_distance_km": worst.reference_distance_km, "model": worst.geometry.scenario}
+        margins = (f" At {worst.reference_distance_km:g} km by {worst.model_label}, after the {worst.entry_loss_db:g} dB "
+                   f"entry loss, the budget leaves {margin_db:+.1f} dB in {worst.band} (the least of the selected bands) "
+                   f"with the full target, and {margin_db - enhancement_db:+.1f} dB without the enhancement.")
+    else:
+        margins = " No selected band lies where TR 38.901 applies, so no margin is shown."
+    yield Flag(
+        severity="note",
+        title=f"{environment.capitalize()} {category.label} relies on coverage enhancement the operator must enable",
+        explanation=(
+            f"The product is for {environment} use ({analyses[0].entry_loss_db:g} dB entry loss: "
+            f"{analyses[0].entry_loss_source}). {category.label}'s {target_db:g} dB coverage target lies "
+            f"{enhancement_db:g} dB beyond the {enhancement.legacy_mcl_db:g} dB it was set against ({enhancement.source}); "
+            f"it is reached by repeating transmissions, and the deepest of it needs {enhancement.feature}, which the "
+            f"operator must enable.{margins} Repetitions also cost battery and latency."
+        ),
+        action=(f"Ask each operator whether {enhancement.feature.split(' (')[0]} is enabled on the bands and areas the "
+                "product needs, and budget battery life for the repetitions deep coverage takes."),
+        evidence=evidence,
+        references=(enhancement.source, TR_38_901, "3GPP TS 36.331 (CE mode B, CE levels; from memory)"),
     )

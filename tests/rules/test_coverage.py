@@ -686,3 +686,14 @@ def test_a_clean_single_receive_design_still_raises_only_notes():
     efficiencies = {"B3": 50, "B8": 40, "B20": 35}
     evaluation = run(design("cat-m1", antennas=[antenna("A", efficiency_pct=efficiencies)]))
     assert evaluation.summary["warning"] == 0 and evaluation.summary["blocker"] == 0
+
+
+@pytest.mark.parametrize(("extra", "basis"), [
+    ({}, "design"),  # the category's targets and coverage.toml's assumptions only
+    ({"efficiency_pct": {"B3": 50, "B8": 45, "B20": 40}}, "datasheet"),  # efficiency_source defaults to datasheet
+    ({"efficiency_pct": {"B3": 50, "B8": 45, "B20": 40}, "efficiency_source": "measured"}, "measured"),
+])
+def test_cov001_rests_on_what_its_budget_used(extra, basis):
+    # design-file.md, rule set 2: measured in this product > datasheet > design.
+    [finding] = findings_of(run(design("cat-1", antennas=[antenna("A", **extra)])), "coverage")
+    assert finding.id == "COV-001" and finding.basis == basis

@@ -351,6 +351,42 @@ def test_a_sensitivity_outside_a_plausible_range_is_named_with_its_band():
                for problem in problems)
 
 
+def test_it_reads_radiated_targets_per_quantity_and_band():
+    # TRP and TIS targets are the team's copy of its operator's requirements (design-file.md, rule set 2).
+    deployment = parse_design(design(deployment={"radiated_targets_dbm": {
+        "trp": {"B3": 20, "b8": 18.5}, "tis": {"B20": -98}}})).deployment
+    assert deployment.trp_targets_dbm == {"B3": 20.0, "B8": 18.5}
+    assert deployment.tis_targets_dbm == {"B20": -98.0}
+    assert parse_design(design()).deployment.trp_targets_dbm == {}
+
+
+def test_one_quantity_of_radiated_targets_may_be_left_out_and_unknown_ones_are_ignored():
+    parsed = parse_design(design(deployment={"radiated_targets_dbm": {"tis": {"B3": -100}, "eirp": {"B3": 20}}}))
+    assert parsed.deployment.trp_targets_dbm == {} and parsed.deployment.tis_targets_dbm == {"B3": -100.0}
+    assert parsed.ignored_paths == ("deployment.radiated_targets_dbm.eirp",)
+
+
+@pytest.mark.parametrize(("targets", "expected"), [
+    ([20], "deployment.radiated_targets_dbm: expected an object, got a list of 1"),
+    ({"trp": 20}, "deployment.radiated_targets_dbm.trp: expected an object of band to number, got a number"),
+    ({"trp": {"B99": 20}}, 'deployment.radiated_targets_dbm.trp.B99: unknown band "B99"'),
+    ({"trp": {"B3": "20"}}, 'deployment.radiated_targets_dbm.trp.B3: expected a number in dBm, got "20"'),
+    ({"trp": {"B3": 41}}, "deployment.radiated_targets_dbm.trp.B3: expected a number at least -30 and at most 40 dBm"),
+    ({"tis": {"B3": -49}}, "deployment.radiated_targets_dbm.tis.B3: expected a number at least -150 and at most -50"),
+    ({"tis": {"B3": -151}}, "deployment.radiated_targets_dbm.tis.B3: expected a number at least -150"),
+    ({"tis": {"B3": True}}, "deployment.radiated_targets_dbm.tis.B3: expected a number in dBm, got true"),
+])
+def test_bad_radiated_targets_are_named_by_path(targets, expected):
+    assert_explained(lambda d: d["deployment"].update(radiated_targets_dbm=targets), expected)
+
+
+def test_radiated_targets_at_the_edges_of_their_limits_parse():
+    deployment = parse_design(design(deployment={"radiated_targets_dbm": {
+        "trp": {"B3": -30, "B8": 40}, "tis": {"B3": -150, "B8": -50}}})).deployment
+    assert deployment.trp_targets_dbm == {"B3": -30.0, "B8": 40.0}
+    assert deployment.tis_targets_dbm == {"B3": -150.0, "B8": -50.0}
+
+
 def test_nb_iot_cannot_be_full_duplex():
     assert any(problem.startswith("modem.full_duplex: NB-IoT is half-duplex only")
                for problem in problems_of(design("cat-nb1", modem={"full_duplex": True})))
@@ -410,6 +446,23 @@ def test_values_at_the_edges_of_the_limits_are_judged_by_every_rule():
     assert not evaluate(parse_design(document)).rule_failures
     document["ground_plane_mm"] = [100_000, 100_000]
     assert not evaluate(parse_design(document)).rule_failures
+    # GNSS and WLAN antennas at the far corners or on top of the main one, radiated targets and sensitivities at
+    # their edges, a band whose harmonic reaches GNSS and one beside WLAN: the coexistence and radiated rules too.
+    document["modem"] = {"category": "cat-4", "bands": ["B13", "B41"], "power_class": 1,
+                         "conducted_sensitivity_dbm": {"B13": -150, "B41": -50}}
+    document["antennas"][0]["efficiency_pct"] = {"B13": 0, "B41": 100}
+    document["antennas"][0]["cable_loss_db"] = 40
+    document["antennas"] += [
+        antenna("G", "gnss", position=(-100_000, 100_000, 0), ranges_mhz=[[1, 100_000]]),
+        antenna("W", "wlan", position=(100_000, -100_000, 100_000), polarization=(1e6, -1e6, 1e6),
+                ranges_mhz=[[1, 100_000]]),
+        antenna("W2", "wlan", position=(-100_000, -100_000, -100_000), polarization=(0.001, 0, 0)),
+    ]
+    document["deployment"]["radiated_targets_dbm"] = {"trp": {"B13": -30, "B41": 40}, "tis": {"B13": -150, "B41": -50}}
+    evaluation = evaluate(parse_design(document))
+    assert not evaluation.rule_failures
+    assert {finding.topic for finding in evaluation.findings} >= {"coexistence", "ota"}
+    json.dumps(evaluation.as_dict(), allow_nan=False)  # every number finite
 
 
 def test_every_limit_states_why():

@@ -27,6 +27,7 @@ from rules.registry import registered_rules, rule
 from rules.withheld import Unavailable, Withheld
 from tests.rules.design_builders import antenna, design
 from tests.rules.test_design import CONTRACT_KEYS, JSON_VALUES, nested
+from tests.rules.test_severity_policy import FAR_FIELDS, close_pair, dipole_file, two_port
 
 EXAMPLES = sorted((Path(__file__).parents[2] / "rules" / "examples").glob("*.json"))
 
@@ -222,13 +223,47 @@ def samples() -> list[tuple[str, object, tuple, tuple]]:
                                     deployment={"required_dl_kbps": 900}),
         "cat 1 on an operator's approval": design("cat-1", modem={"operator_single_antenna_approval": True}),
     }
+    built |= {
+        "only receive antennas, no distance to people": design("cat-1", antennas=[
+            antenna("R1", "receive"), antenna("R2", "receive", (200, 20, 10))], deployment=None),
+        "targets without their inputs": design("cat-1", antennas=[antenna("A", efficiency_pct={"B3": 50})],
+                                               deployment={"radiated_targets_dbm": {"trp": {"B8": 20},
+                                                                                   "tis": {"B3": -100}}}),
+    }
     for name, document in built.items():
         document = {key: value for key, value in document.items() if value is not None}
         found.append((name, parse_design(document), (), ()))
+    # Measured pairs (tests/rules/test_severity_policy.py's files): a correlated pair (a = b = 0.46 across B20 and
+    # B8's downlink: ECC 0.54, Blanch 2003), a file not passive in B20 (singular value 1.1), far-field patterns of
+    # two parallel dipoles (correlated), a file that stops short of B3, and a poor match (a = 0.87, b = 0.05:
+    # 1 - a² - b² = 24 % at most radiated, below the 25 % of the severity policy).
+    files = {"pair.s2p": two_port([(780, 960, 0.46, 0.46)]), "bad.s2p": two_port([(780, 870, 0.6, 0.5)]),
+             "short.s2p": two_port([(700, 1000, 0.4, 0.2)]).split("1005 ")[0].rsplit("\n", 1)[0] + "\n",
+             "poor.s2p": two_port([(780, 960, 0.87, 0.05)]),
+             "a.csv": dipole_file((1, 0, 0), (20, 20, 10)), "b.csv": dipole_file((1, 0, 0), (75, 20, 10))}
+    measured = {
+        "correlated pair": [{"file": "pair.s2p", "ports": ["A", "B"]}],
+        "not passive": [{"file": "bad.s2p", "ports": ["A", "B"]}],
+        "patterns": FAR_FIELDS,
+        "short sweep": [{"file": "short.s2p", "ports": ["A", "B"]}],
+        "poor match": [{"file": "poor.s2p", "ports": ["A", "B"]}],
+    }
+    for name, entries in measured.items():
+        document = close_pair((1, 0, 0), efficiency={"B3": 60, "B8": 30, "B20": 20}, measurements=entries)
+        parsed = parse_design(document)
+        attached = attach_measurements(parsed, files.__getitem__)
+        found.append((name, parsed, tuple(attached), tuple(attached.far_fields)))
     return found
 
 
 SAMPLES = samples()
+
+
+def test_the_samples_reach_every_rule():
+    """So that the declarations below are checked where each rule says something."""
+    fired = {finding.id for _, parsed, measurements, far_fields in SAMPLES
+             for checked in registered_rules() for finding in checked.run(CheckContext(parsed, measurements, far_fields))}
+    assert {checked.id for checked in registered_rules()} - fired == set(), "add a sample for the others"
 
 
 @pytest.mark.parametrize("checked", registered_rules(), ids=lambda checked: checked.id)

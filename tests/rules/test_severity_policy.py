@@ -10,6 +10,10 @@ import math
 import numpy as np
 import pytest
 
+from rules.catalog import Band
+from rules.checks.coexistence import victims_of
+from rules.coexistence import harmonic_hits, near_ranges
+from rules.design import parse_design
 from rules.measurements import LoadedMeasurement
 from rules.touchstone import parse_touchstone
 from tests.rules.design_builders import antenna, design, findings_of, run, severities_of
@@ -57,7 +61,9 @@ def test_it_accepts_one_antenna_for_single_receive_categories(category):
 def test_it_blocks_redcap_module_with_two_branches_and_one_antenna():
     # TS 38.300 §16.13: a RedCap UE has one or two receive branches; the module says which.
     evaluation = run(design("nr-redcap", bands=["n3", "n8", "n20"], modem={"rx_ports": 2}))
-    assert severities_of(evaluation, "antenna-count") == ["blocker"]
+    # ...and, running one branch as fitted, the note that operators can bar 1Rx RedCap devices (CNT-004)
+    assert [(f.id, f.severity) for f in findings_of(evaluation, "antenna-count")] == [
+        ("CNT-001", "blocker"), ("CNT-004", "note")]
 
 
 def test_it_notes_extra_antennas_a_single_receive_category_wont_use():
@@ -618,7 +624,7 @@ def test_main_and_receive_efficiency_more_than_3_db_apart_costs_combining_gain()
 
 def test_redcap_names_the_modules_declared_branches_and_a_one_branch_configuration():
     evaluation = run(design("nr-redcap", bands=["n3", "n8", "n20"], modem={"rx_ports": 2}))
-    [finding] = findings_of(evaluation, "antenna-count")
+    [finding] = [f for f in findings_of(evaluation, "antenna-count") if f.id == "CNT-001"]
     assert "module declares 2 receive branch" in finding.explanation
     assert "one receive branch" in finding.action and "Cat 1bis" not in finding.action
 
@@ -626,3 +632,92 @@ def test_redcap_names_the_modules_declared_branches_and_a_one_branch_configurati
 def test_a_pair_already_crossed_is_not_told_to_turn():
     [finding] = findings_of(run(pair(55, (0, 1, 0))), "separation")
     assert "already 90 degrees apart" in finding.action and "turn one" not in finding.action
+
+
+# -- rule set 2: coexistence and radiated estimates (design.md, issue 12) -----------------------------------------
+
+def gnss_antenna(ranges_mhz=((1559, 1610),)):
+    return antenna("G", "gnss", (120, 70, 10), (0, 0, 1), ranges_mhz=[list(item) for item in ranges_mhz])
+
+
+def wlan_antenna(ranges_mhz=((2400, 2484),)):
+    return antenna("W", "wlan", (120, 70, 10), (0, 1, 0), ranges_mhz=[list(item) for item in ranges_mhz])
+
+
+def test_a_gnss_antenna_and_a_band_whose_uplink_harmonic_overlaps_l1_is_a_coexistence_warning():
+    # B13 UL 777-787 MHz (TS 36.101 Table 5.5-1): 2nd harmonic 1554-1574 MHz on L1/E1 1559-1610 (TR 36.816).
+    [finding] = findings_of(run(design("cat-m1", bands=["B13"], antennas=[antenna("A"), gnss_antenna()])),
+                            "coexistence")
+    assert (finding.id, finding.severity, finding.evidence["order"]) == ("COX-001", "warning", 2)
+    # Without the GNSS antenna nothing receives there.
+    assert findings_of(run(design("cat-m1", bands=["B13"])), "coexistence") == []
+
+
+def test_l5_e5a_is_judged_only_when_the_gnss_antenna_is_rated_for_it():
+    # No catalog band's harmonic reaches 1164-1192 MHz (an uplink at 582-596 or 388-397.3 MHz would): a band with a
+    # 585-590 MHz uplink doubles to 1170-1180 MHz.
+    band = Band("X", "LTE", (585.0, 590.0), (600.0, 610.0), "FDD", "test")
+    l1_only = parse_design(design(antennas=[antenna("A"), gnss_antenna()])).antennas[1]
+    dual = parse_design(design(antennas=[antenna("A"), gnss_antenna(((1164, 1192), (1559, 1610)))])).antennas[1]
+    assert [item.label for item in victims_of(l1_only) if harmonic_hits(band, item, [2, 3])] == []
+    assert [item.label for item in victims_of(dual) if harmonic_hits(band, item, [2, 3])] == ["GNSS L5/E5a"]
+
+
+def test_a_wlan_antenna_and_a_band_edge_within_20_mhz_of_the_ism_band_is_a_coexistence_warning():
+    # B7 UL 2500-2570 MHz: 16.5 MHz above 2483.5 (TR 36.816); B38 2570-2620 MHz is 86.5 MHz away.
+    found = findings_of(run(design("cat-4", bands=["B7", "B38"], antennas=[
+        antenna("A", ranges_mhz=[[2400, 2700]]), antenna("B", "receive", (140, 20, 10), (0, 1, 0),
+                                                         ranges_mhz=[[2400, 2700]]), wlan_antenna()])), "coexistence")
+    assert [(f.id, f.severity, f.subjects, f.evidence["guard_mhz"]) for f in found] == [
+        ("COX-002", "warning", ("A", "W", "B7"), 16.5)]
+
+
+def test_5ghz_wlan_is_judged_only_when_the_wlan_antenna_is_rated_for_it():
+    # No catalog band comes within 20 MHz of 5150-5895 MHz (n79 ends at 5000): a band at 5100-5140 MHz is 10 MHz away.
+    band = Band("X", "NR", (5100.0, 5140.0), (5100.0, 5140.0), "TDD", "test")
+    two_four = parse_design(design(antennas=[antenna("A"), wlan_antenna()])).antennas[1]
+    dual = parse_design(design(antennas=[antenna("A"), wlan_antenna(((2400, 2484), (5150, 5895)))])).antennas[1]
+    assert [item.label for item in victims_of(two_four) if near_ranges(band, item, 20.0)] == []
+    assert [item.label for item in victims_of(dual) if near_ranges(band, item, 20.0)] == ["WLAN 5 GHz"]
+
+
+def test_an_estimated_trp_below_the_teams_target_is_an_ota_warning():
+    # 23 dBm (power class 3, TS 36.101 Table 6.2.2-1) + 10 log10(0.40) = 19.02 dBm, against 20 dBm.
+    document = design(antennas=[antenna("A", efficiency_pct={"B3": 40})],
+                      deployment={"radiated_targets_dbm": {"trp": {"B3": 20}}})
+    [finding] = findings_of(run(document), "ota")
+    assert (finding.id, finding.severity, finding.evidence["quantity"]) == ("OTA-001", "warning", "trp")
+    assert finding.evidence["estimate_dbm"] == pytest.approx(23 + 10 * math.log10(0.4), abs=0.005)
+
+
+def test_an_estimated_tis_worse_than_the_teams_target_is_an_ota_warning():
+    # -102 dBm conducted - 10 log10(0.40) = -98.02 dBm, worse than -100 dBm.
+    document = design(antennas=[antenna("A", efficiency_pct={"B3": 40})],
+                      modem={"conducted_sensitivity_dbm": {"B3": -102}},
+                      deployment={"radiated_targets_dbm": {"tis": {"B3": -100}}})
+    [finding] = findings_of(run(document), "ota")
+    assert (finding.id, finding.severity, finding.evidence["quantity"]) == ("OTA-002", "warning", "tis")
+    assert finding.evidence["estimate_dbm"] == pytest.approx(-102 - 10 * math.log10(0.4), abs=0.005)
+
+
+def test_redcap_with_one_receive_branch_gets_the_operator_barring_note():
+    # TS 38.331 cellBarredRedCap1Rx: a one-port module, or one antenna on a module that could use two.
+    for modem in ({"rx_ports": 1}, {}, {"rx_ports": 2}):
+        [note] = [f for f in run(design("nr-redcap", bands=["n3", "n8", "n20"], modem=modem)).findings
+                  if f.id == "CNT-004"]
+        assert note.severity == "note" and "cellBarredRedCap1Rx" in note.explanation
+    two = design("nr-redcap", bands=["n3"], antennas=[antenna("A"), antenna("B", "receive", (140, 20, 10), (0, 1, 0))])
+    assert [f for f in run(two).findings if f.id == "CNT-004"] == []
+
+
+def test_deep_indoor_lte_m_and_nb_iot_get_the_coverage_enhancement_note():
+    # TR 36.888: 155.7 dB = 140.7 + 15 dB; TR 45.820: 164 dB = 144 + 20 dB (from memory), reached by repetition.
+    for category, environment, enhancement_db in (("cat-m1", "deep-indoor", 15.0), ("cat-nb1", "underground", 20.0)):
+        [note] = [f for f in run(design(category, deployment={"environment": environment})).findings
+                  if f.id == "COV-002"]
+        assert note.severity == "note" and note.evidence["enhancement_db"] == pytest.approx(enhancement_db)
+        assert note.evidence["margin_without_enhancement_db"] == pytest.approx(
+            note.evidence["margin_db"] - enhancement_db, abs=0.01)
+    for category, environment in (("cat-m1", "indoor"), ("cat-1", "deep-indoor")):
+        assert [f for f in run(design(category, deployment={"environment": environment})).findings
+                if f.id == "COV-002"] == []
