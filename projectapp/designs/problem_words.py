@@ -220,9 +220,11 @@ def _sentence(problem: Problem, document: Any, place: _Place) -> str:
         return f"{_quoted(value)} is already the name of antenna {int(match.group(1)) + 1}"
     if match := re.match(r"^unknown band (.+?); accepted: ", message):
         return f"{_quoted(value)} is not a band Earshot knows (LTE bands are B1, B3, …; NR bands n1, n78, …)"
-    if match := re.match(r"^(\S+) is an (LTE|NR) band; category (\S+) uses (LTE|NR) bands", message):
-        return (f"{match.group(1)} is an {match.group(2)} band; {_category_label(match.group(3))} uses "
-                f"{match.group(4)} bands ({'n1, n3, …' if match.group(4) == 'NR' else 'B1, B3, …'})")
+    if match := re.match(r"^(.+?) (?:is an|are) (LTE|NR) bands?; category (\S+) uses (LTE|NR) bands", message):
+        verb = "are" if "," in match.group(1) else "is an"
+        return (f"{match.group(1)} {verb} {match.group(2)} band{'s' if verb == 'are' else ''}; "
+                f"{_category_label(match.group(3))} uses {match.group(4)} bands "
+                f"({'n1, n3, …' if match.group(4) == 'NR' else 'B1, B3, …'})")
     if match := re.match(r"^unknown category (.+?); accepted: ", message):
         return f"{_quoted(value)} is not a UE category Earshot knows"
     if re.match(r"^expected a list of \[low, high\] ranges in MHz, got", message):
@@ -241,6 +243,24 @@ def _sentence(problem: Problem, document: Any, place: _Place) -> str:
 def _out_of_range(got: str, bounds: str, unit: str) -> str:
     bounds = re.sub(r"-?[\d.]+(?:e[-+]?\d+)?", lambda match: _number_text(match.group()), bounds)
     return f"{_in_unit(got, unit)} is out of range: expected a number {bounds}{f' {unit}' if unit else ''}"
+
+
+_OTHER_TECHNOLOGY = re.compile(r"^(\S+) is an (LTE|NR) band; (category \S+ uses (?:LTE|NR) bands.*)$")
+
+
+def grouped(problems: list[Problem]) -> list[Problem]:
+    """The problems with the bands of the wrong technology (a category switched from LTE to NR leaves every
+    B-band ticked) said once for all of them, where the first of them was: one line, not eleven."""
+    wrong = [(problem, match) for problem in problems
+             if problem.path.startswith("modem.bands[") and (match := _OTHER_TECHNOLOGY.match(problem.message))]
+    if len(wrong) < 2:
+        return list(problems)
+    first, match = wrong[0]
+    names = ", ".join(item[1].group(1) for item in wrong)
+    together = Problem("modem.bands", f"{names} are {match.group(2)} bands; {match.group(3)}")
+    dropped = {item[0] for item in wrong}
+    return [together if problem is first else problem for problem in problems
+            if problem is first or problem not in dropped]
 
 
 _ITEM = re.compile(r"; item (\d+) is ")
@@ -314,7 +334,8 @@ def todo(document: Any, checklist: dict[str, Any]) -> dict[str, list[Any]]:
     the inputs checks wait for (each input once, with the number of checks that need it)."""
     unanswered_items = [unanswered(Problem(item["path"], item["message"]), document)
                         for item in checklist.get("unanswered", ())]
-    problem_items = [worded(Problem(item["path"], item["message"]), document) for item in checklist.get("problems", ())]
+    problem_items = [worded(problem, document) for problem in grouped(
+        [Problem(item["path"], item["message"]) for item in checklist.get("problems", ())])]
     by_input: dict[str, list[str]] = {}
     for rule in checklist.get("waiting", ()):
         for name in rule["waiting_for"]:

@@ -209,7 +209,7 @@ def _section_item(section: questionnaire.Section, document: dict, problems: list
     version its values were read at, the library parts it can be filled from, a conflict if its last save
     met someone else's change, the antennas its last change removed (for "Undo remove") and the element that
     should have the keyboard focus after a row action or preset (`focus`, an id)."""
-    worded = [problem_words.worded(problem, document) for problem in problems]
+    worded = [problem_words.worded(problem, document) for problem in problem_words.grouped(problems)]
     fields = questionnaire.section_fields(section, document, worded)
     flat = [item for row in fields for item in row] if section is questionnaire.ANTENNAS else fields
     notes: list = []

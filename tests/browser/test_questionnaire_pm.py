@@ -55,7 +55,7 @@ def test_switching_the_category_to_nr_keeps_the_checklist_and_offers_to_drop_the
     offer = page.locator("#section-product .band-offer")
     expect(offer).to_contain_text("B3, B8, B20 are bands this category can't use")
     expect(page.locator("#checklist .counts")).to_be_visible()
-    expect(page.locator("#checklist-todo")).to_contain_text("Bands: B3 is an LTE band; NR RedCap uses NR bands")
+    expect(page.locator("#checklist-todo")).to_contain_text("Bands: B3, B8, B20 are LTE bands; NR RedCap uses NR bands")
     expect(page.locator("#checklist")).to_contain_text("CRT-002")
     expect(page.locator("#placement svg")).to_be_visible()  # the drawing stays, pairs not judged meanwhile
     expect(page.locator("#placement svg desc")).to_contain_text("MAIN to DIV 45 mm apart, not judged yet")

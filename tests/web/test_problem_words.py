@@ -3,7 +3,7 @@ name, the typed value quoted; the parser's path kept for the command line (rules
 
 import pytest
 
-from projectapp.designs.problem_words import INPUT_LABELS, input_label, label_of, todo, unanswered, worded
+from projectapp.designs.problem_words import INPUT_LABELS, grouped, input_label, label_of, todo, unanswered, worded
 from rules.design import INPUTS, parse_design, parse_design_partial
 from rules.evaluate import evaluate_partial
 from tests.rules.design_builders import antenna, design
@@ -97,3 +97,11 @@ def test_paths_outside_the_questions_still_get_a_label():
     assert label_of("measurements[0].ports[1]", {"measurements": [{"file": "pair.s2p"}]}) == (
         "Measurement pair.s2p", "Measurements, port 2")
     assert label_of("format", {}) == ("", "Format")
+
+
+def test_bands_of_the_other_technology_are_named_in_one_line():
+    document = two_antennas()
+    document["modem"]["category"] = "nr-redcap"
+    problems = grouped(list(parse_design_partial(document).problems))
+    assert [worded(problem, document).in_checklist for problem in problems] == [
+        "Bands: B3, B8, B20 are LTE bands; NR RedCap uses NR bands (n1, n3, …)"]
