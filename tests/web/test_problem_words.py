@@ -3,7 +3,15 @@ name, the typed value quoted; the parser's path kept for the command line (rules
 
 import pytest
 
-from projectapp.designs.problem_words import INPUT_LABELS, grouped, input_label, label_of, todo, unanswered, worded
+from projectapp.designs.problem_words import (
+    INPUT_LABELS,
+    grouped,
+    input_label,
+    label_of,
+    todo,
+    unanswered,
+    worded,
+)
 from rules.design import INPUTS, parse_design, parse_design_partial
 from rules.evaluate import evaluate_partial
 from tests.rules.design_builders import antenna, design
