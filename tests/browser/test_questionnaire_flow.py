@@ -281,12 +281,12 @@ def test_a_typo_is_shown_with_the_fields_label_and_nothing_else_is_hidden(page, 
     expect(distance).to_have_value("far")
     # In the checklist's to-do, with a link to the field; nothing else is hidden: the spacing blocker, the
     # drawing and the band table stay, and only the checks that read the distance wait (the RF exposure notes,
-    # and the coverage budget, which waits for a complete design).
+    # and the coverage rules, which wait for a complete design).
     to_fix = page.locator("#checklist .todo-problems a")
     expect(to_fix).to_have_text('Closest distance to people: "far" is not a number')
     expect(to_fix).to_have_attribute("href", "#q-deployment-body-distance-mm")
     expect(page.locator("#checklist .todo-waiting")).to_have_text(
-        "Closest distance to people: 3 checks (coverage, rf exposure)")
+        "Closest distance to people: 4 checks (coverage, rf exposure)")
     expect(sep_001(page)).to_have_class(re.compile(r"\bsev-blocker\b"))
     expect(page.locator("#placement svg desc")).to_contain_text("MAIN to DIV 45 mm apart, blocker")
     expect(page.locator("#bands")).to_contain_text("B20")
