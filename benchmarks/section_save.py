@@ -54,7 +54,7 @@ PASSWORD = "bench-pass-8Qe!"
 
 
 def page_form(document: dict) -> dict:
-    """The antenna section's inputs as the page shows them, as a browser posts them."""
+    """The antenna section's inputs as the page shows them, as a browser posts them (tests/web use it too)."""
     from projectapp.designs import questionnaire
 
     data: dict = {}

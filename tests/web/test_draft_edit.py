@@ -6,7 +6,8 @@ import re
 
 from django.urls import reverse
 
-from projectapp.designs import questionnaire, services
+from benchmarks.section_save import page_form
+from projectapp.designs import services
 from projectapp.designs.models import Product
 from projectapp.reviews.models import AuditEvent
 from tests.web.conftest import EXAMPLES, make_user
@@ -20,22 +21,8 @@ def save(client, product, section: str, data: dict, **extra):
 
 
 def antennas_form(document: dict) -> dict:
-    """The antenna section's inputs as the page shows them (questionnaire.section_fields), as a browser posts them."""
-    data: dict = {}
-    for row in questionnaire.section_fields(questionnaire.ANTENNAS, document, []):
-        for item in row:
-            kind = item.question.kind
-            if kind == "choice":
-                data[item.name] = next((value for value, _, selected in item.options if selected), "")
-            elif kind in ("vector", "band_numbers"):
-                data.update({name: value for _, name, value in item.parts})
-            elif kind == "polarization":
-                data[item.name + ".words"] = item.described.words
-                data[item.name + ".angle_deg"] = str(item.described.angle_deg or 0)
-                data.update({name: value for _, name, value in item.parts})
-            elif kind != "bool":
-                data[item.name] = item.value
-    return data
+    """The antenna section's inputs as the page shows them, as a browser posts them."""
+    return page_form(document)
 
 
 def document_of(product) -> dict:
