@@ -10,7 +10,9 @@ CPU time of this process (what a request costs the server) and in wall time (whi
 also counts the time spent waiting for a core).
 
 Target: the SVG of a 32-antenna design (the parser's cap, rules.design.MAX_ANTENNAS) in under 100 ms of
-server (CPU) time, median.
+server (CPU) time, median. A last row draws the same 32 antennas with four of them GNSS and WLAN antennas and a
+coexistence finding for every cellular antenna and each of them (112, of which the drawing shows the worst
+MAX_COEXISTENCE_LINES as dashed lines): the target holds for it too.
 
 Run from the repository root: `.venv/bin/python benchmarks/placement.py [--repeats N] [--counts 8,16,32]`.
 This script prints figures; it asserts nothing.
@@ -30,6 +32,7 @@ sys.path.insert(0, str(REPO_ROOT))  # run as a script, `benchmarks` and `project
 
 from benchmarks.engine import print_table  # noqa: E402
 from projectapp.figures.placement import (  # noqa: E402
+    coexistence_lines_from_findings,
     pair_severities_from_findings,
     placement_drawing,
     placement_svg,
@@ -70,6 +73,21 @@ def router_document(count: int) -> dict:
     }
 
 
+def with_radios(document: dict) -> tuple[dict, list[dict]]:
+    """The design with its last four antennas made two GNSS and two WLAN antennas, and a coexistence finding
+    (in the rules' shape: cellular antenna, victim antenna, band) for every cellular antenna and each of them."""
+    antennas = document["antennas"]
+    for index, antenna in enumerate(antennas[-4:]):
+        antenna["role"] = "gnss" if index < 2 else "wlan"
+        antenna["ranges_mhz"] = [[1559, 1610]] if index < 2 else [[2400, 2500]]
+    victims = antennas[-4:]
+    findings = [{"id": "COX-001", "topic": "coexistence", "severity": "warning" if (i + j) % 3 else "note",
+                 "subjects": [cellular["name"], victim["name"], "B13"],
+                 "evidence": {"band": "B13", "victim": "GNSS L1/E1" if victim["role"] == "gnss" else "WLAN 2.4 GHz"}}
+                for i, cellular in enumerate(antennas[:-4]) for j, victim in enumerate(victims)]
+    return document, findings
+
+
 def timed(function: Callable[[], object], repeats: int) -> tuple[float, float, float]:
     """(best CPU, median CPU, median wall) seconds."""
     cpu, wall = [], []
@@ -89,31 +107,39 @@ def main() -> int:
     options = parser.parse_args()
     counts = [int(count) for count in options.counts.split(",")]
 
-    rows = [("antennas", "pairs", "coloured pairs", "drawing CPU ms", "svg CPU best ms", "svg CPU median ms",
+    rows = [("antennas", "cellular pairs", "coloured pairs", "drawing CPU ms", "svg CPU best ms", "svg CPU median ms",
              "svg wall median ms", "svg kB")]
-    target_median = None
-    for count in counts:
-        design = parse_design(router_document(count))
-        severities = pair_severities_from_findings(evaluate(design).findings)
-        drawing = partial(placement_drawing, design, pair_severities=severities, frequency_mhz=design.lowest_mhz)
-        svg = partial(placement_svg, design, pair_severities=severities, frequency_mhz=design.lowest_mhz)
+    target_medians = []
+    cases = [(str(count), router_document(count), []) for count in counts]
+    if TARGET_COUNT in counts:
+        cases.append((f"{TARGET_COUNT}, 4 GNSS/WLAN", *with_radios(router_document(TARGET_COUNT))))
+    for label, document, extra_findings in cases:
+        design = parse_design(document)
+        findings = [finding.as_dict() for finding in evaluate(design).findings] + extra_findings
+        severities = pair_severities_from_findings(findings)
+        coexistence = coexistence_lines_from_findings(findings, design)
+        options_ = {"pair_severities": severities, "frequency_mhz": design.lowest_mhz, "coexistence": coexistence}
+        drawing = partial(placement_drawing, design, **options_)
+        svg = partial(placement_svg, design, **options_)
         svg()  # warm up: fonts, imports
         _, drawing_median, _ = timed(drawing, options.repeats)
         svg_best, svg_median, svg_wall = timed(svg, options.repeats)
         size_kb = len(svg().encode()) / 1000
+        count = len(design.antennas)
         if count == TARGET_COUNT:
-            target_median = svg_median
-        rows.append((str(count), str(count * (count - 1) // 2), str(len(severities)),
+            target_medians.append((label, svg_median))
+        cellular = sum(antenna.is_cellular for antenna in design.antennas)
+        rows.append((label, str(cellular * (cellular - 1) // 2), str(len(severities)),
                      f"{drawing_median * 1000:.1f}", f"{svg_best * 1000:.1f}", f"{svg_median * 1000:.1f}",
                      f"{svg_wall * 1000:.1f}", f"{size_kb:.0f}"))
     print_table(rows)
     print()
-    if target_median is None:
+    if not target_medians:
         print(f"target: the SVG of {TARGET_COUNT} antennas in under {TARGET_S * 1000:.0f} ms "
               f"(not measured: add {TARGET_COUNT} to --counts)")
-    else:
+    for label, target_median in target_medians:
         verdict = "met" if target_median < TARGET_S else "NOT met"
-        print(f"target: the SVG of {TARGET_COUNT} antennas in under {TARGET_S * 1000:.0f} ms of server time (CPU, "
+        print(f"target: the SVG of {label} antennas in under {TARGET_S * 1000:.0f} ms of server time (CPU, "
               f"median): {target_median * 1000:.1f} ms — {verdict}")
     return 0
 

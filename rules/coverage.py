@@ -774,6 +774,45 @@ TABLE_COLUMNS: tuple[tuple[str, str, str], ...] = (
 )
 
 
+# The coverage table as the revision page's panel and the PDF record show it: one column per band, rows in
+# groups by direction, each a key of CoverageAnalysis.as_dict(), a label and a unit.
+TABLE_GROUPS: tuple[tuple[str, tuple[tuple[str, str, str], ...]], ...] = (
+    ("Uplink: device to base station", (
+        ("ul_frequency_mhz", "lowest uplink frequency", "MHz"),
+        ("mcl_ul_db", "coverage target (maximum coupling loss)", "dB"),
+        ("max_output_dbm", "device output at its power class", "dBm"),
+        ("allowed_ul_db", "path loss the uplink can take", "dB"),
+        ("margin_ul_db", "margin at the reference distance", "dB"),
+    )),
+    ("Downlink: base station to device", (
+        ("frequency_mhz", "lowest downlink frequency", "MHz"),
+        ("mcl_dl_db", "coverage target (maximum coupling loss)", "dB"),
+        ("allowed_loss_two_db", "path loss it can take, 2 receive antennas", "dB"),
+        ("allowed_loss_one_db", "path loss it can take, 1 receive antenna", "dB"),
+        ("margin_dl_two_db", "margin at the reference distance, 2 antennas", "dB"),
+        ("margin_dl_one_db", "margin at the reference distance, 1 antenna", "dB"),
+    )),
+    ("One receive branch fewer (downlink only)", (
+        ("single_branch_cost_db", "cost: published single-branch figure", "dB"),
+        ("single_branch_cost_range_db", "range of the published figures", "dB"),
+        ("fading_bound_db", "bound: flat-Rayleigh MRC gain", "dB"),
+    )),
+    ("Losses and gains in both directions", (
+        ("entry_loss_db", "entry loss of the environment", "dB"),
+        ("antenna_loss_db", "main antenna's efficiency loss", "dB"),
+        ("cable_loss_db", "main antenna's cable loss", "dB"),
+        ("base_gain_db", "base station antenna gain", "dB"),
+    )),
+    ("Coverage", (
+        ("limiting_two", "direction that limits, 2 antennas", ""),
+        ("limiting_one", "direction that limits, 1 antenna", ""),
+        ("range_two_km", "range, 2 receive antennas", "km"),
+        ("range_one_km", "range, 1 receive antenna", "km"),
+        ("area_share_pct", "area 1 antenna covers, share of 2", "%"),
+    )),
+)
+
+
 def _main_and_second(design: Design) -> tuple[Antenna | None, Antenna | None]:
     """The antenna on the main port and the one a second receive path would use (the first other one,
     receive antennas before other main ones). GNSS and WLAN antennas are not receive branches."""

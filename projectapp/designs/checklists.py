@@ -11,6 +11,7 @@ problem, and a list shows the row as not checked; a rule that raises is already 
 import hashlib
 import json
 import logging
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Any
@@ -25,7 +26,7 @@ from projectapp.designs.models import Revision
 from rules.coverage import analyse_coverage
 from rules.design import Design, DesignError, PartialDesign, Problem, parse_design, parse_design_partial
 from rules.evaluate import evaluate, evaluate_partial
-from rules.measurements import LoadedMeasurement, attach_measurements
+from rules.measurements import AttachedMeasurements, LoadedMeasurement, LoadedPattern, attach_measurements
 
 logger = logging.getLogger(__name__)
 CHECK_FAILED = Problem("", "this design could not be checked: an error in Earshot, not in the design (it is "
@@ -77,6 +78,12 @@ def measurement_reader(revision: Revision):
         return files[name].read_text()
 
     return read_text
+
+
+def measurement_digests(revision: Revision) -> dict[str, str]:
+    """File name -> SHA-256 of the measurement files kept with a revision: what a finding that a measurement
+    cleared names beside each file (part of the revision's state, so the page-cache key already covers it)."""
+    return {measurement.name: measurement.sha256 for measurement in revision.measurement_files.all()}
 
 
 def state_key(revision: Revision) -> str:
@@ -154,21 +161,32 @@ def _draft_checklist(revision: Revision) -> ChecklistState:
     return state
 
 
-def coverage_rows(state: ChecklistState) -> list[dict[str, Any]]:
-    """The downlink budget per band with one and two receive antennas (rules.coverage), as dicts."""
+def coverage_rows(state: ChecklistState, **assumptions: Any) -> list[dict[str, Any]]:
+    """The uplink and downlink budget per band with one and two receive antennas (rules.coverage), as dicts;
+    `assumptions` are analyse_coverage()'s keywords (a what-if; OutsideValidity names one it can't take)."""
     if state.design is None:
         return []
-    return [analysis.as_dict() for analysis in analyse_coverage(state.design, load_measurements(state))]
+    return [analysis.as_dict() for analysis in analyse_coverage(state.design, load_measurements(state), **assumptions)]
 
 
 def load_measurements(state: ChecklistState) -> tuple[LoadedMeasurement, ...]:
     """The revision's measurements, read now if checklist_for() left them unread (frozen revisions)."""
-    if state.design is not None and state.design.measurements and not state.measurements:
+    # AttachedMeasurements once read (empty as a tuple when the design has far-field patterns only).
+    if state.design is not None and state.design.measurements and not isinstance(state.measurements,
+                                                                                 AttachedMeasurements):
         try:
             state.measurements = attach_measurements(state.design, measurement_reader(state.revision))
         except DesignError as error:
             state.problems = error.problems
     return state.measurements
+
+
+def cellular_patterns(measurements: Sequence[LoadedMeasurement], design: Design) -> list[LoadedPattern]:
+    """The far-field patterns of the cellular antennas among a design's measurements: those compared pair by
+    pair (GNSS and WLAN patterns are kept but not compared)."""
+    patterns = getattr(measurements, "far_fields", ())
+    names = {antenna.name for antenna in design.antennas if antenna.is_cellular}
+    return [pattern for pattern in patterns if pattern.antenna in names]
 
 
 def _category_label(state: ChecklistState) -> str:

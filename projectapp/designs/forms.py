@@ -187,3 +187,39 @@ class MeasurementFileForm(forms.Form):
     """A measurement file named by a form (to remove it)."""
 
     file = forms.CharField(max_length=120)
+
+
+class PatternForm(forms.Form):
+    """A far-field pattern's antenna, `absolute` tick and environment, as the upload and the change forms post
+    them. The numbers are read as typed (questionnaire.read_number) and judged by the design parser, which
+    names what it expects; the form only refuses what is not text of a sane length."""
+
+    ENVIRONMENT_CHOICES = (("isotropic", "isotropic"), ("taga", "taga"))
+    TAGA_FIELDS = ("mean_elevation_deg", "spread_deg", "xpr_db")
+
+    antenna = forms.CharField(max_length=64, error_messages={
+        "required": "antenna: expected the antenna this pattern belongs to",
+        "max_length": "antenna: expected an antenna name of at most 64 characters"})
+    absolute = forms.BooleanField(required=False)
+    environment = forms.ChoiceField(choices=ENVIRONMENT_CHOICES, required=False, error_messages={
+        "invalid_choice": "environment: expected isotropic (uniform 3-D) or taga (Taga's outdoor model)"})
+    mean_elevation_deg = forms.CharField(max_length=40, required=False, strip=True)
+    spread_deg = forms.CharField(max_length=40, required=False, strip=True)
+    xpr_db = forms.CharField(max_length=40, required=False, strip=True)
+
+    def environment_entry(self) -> dict:
+        """The environment as the design file holds it: {"model": "isotropic"} or Taga's with its numbers."""
+        if (self.cleaned_data.get("environment") or "isotropic") == "isotropic":
+            return {"model": "isotropic"}
+        return {"model": "taga", **{name: questionnaire.read_number(self.cleaned_data.get(name) or "")
+                                    for name in self.TAGA_FIELDS}}
+
+    def problems(self) -> str:
+        return "; ".join(f"{error}" if str(error).startswith(f"{name}:") else f"{name}: {error}"
+                         for name, errors in self.errors.items() for error in errors)
+
+
+class PatternChangeForm(PatternForm):
+    """The change form of a kept pattern also names its file."""
+
+    file = forms.CharField(max_length=120)

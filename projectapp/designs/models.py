@@ -114,10 +114,16 @@ def measurement_upload_to(instance: "MeasurementFile", filename: str) -> str:
 
 
 class MeasurementFile(models.Model):
-    """A Touchstone file kept with a revision; `name` is what the design document's measurements[].file says."""
+    """A measurement file kept with a revision: a Touchstone file or a far-field pattern (rules.farfield's CSV);
+    `name` is what the design document's measurements[].file says."""
+
+    class Kind(models.TextChoices):  # the contract's measurements[].kind
+        S_PARAMETERS = "s-parameters", "S-parameters (Touchstone)"
+        FAR_FIELD = "far-field", "far-field pattern"
 
     revision = models.ForeignKey(Revision, on_delete=models.CASCADE, related_name="measurement_files")
     name = models.CharField(max_length=120)
+    kind = models.CharField(max_length=16, choices=Kind.choices, default=Kind.S_PARAMETERS)
     file = models.FileField(upload_to=measurement_upload_to)
     size_bytes = models.PositiveIntegerField()
     sha256 = models.CharField(max_length=64)

@@ -8,6 +8,7 @@ follows the parser's message templates (rules/design.py, `_Reader`); a message t
 is shown as the parser wrote it, after the label, so nothing is ever hidden.
 """
 
+import json
 import re
 from dataclasses import dataclass
 from typing import Any
@@ -121,6 +122,8 @@ def anchor_of(path: str, document: Any) -> str:
         return f"{base}-{place.item_index or 0}" if kind == "vector" else base
     if kind == "band_numbers":
         return f"{base}-{place.part}" if place.part else f"{base}-label"
+    if kind == "number_or_bands":  # the figure for every band, or a band's own (_question.html)
+        return f"{base}-{place.part}" if place.part else base
     if kind == "bands":
         return f"{base}-label"
     return base
@@ -219,7 +222,12 @@ def _sentence(problem: Problem, document: Any, place: _Place) -> str:
     if match := re.match(r"^expected a unique name; .* is also antennas\[(\d+)\]$", message):
         return f"{_quoted(value)} is already the name of antenna {int(match.group(1)) + 1}"
     if match := re.match(r"^unknown band (.+?); accepted: ", message):
-        return f"{_quoted(value)} is not a band Earshot knows (LTE bands are B1, B3, …; NR bands n1, n78, …)"
+        return f"{_band_named(problem.path, match.group(1), value)} is not a band Earshot knows (LTE bands are B1, " \
+               "B3, …; NR bands n1, n78, …)"
+    if match := re.match(r"^(\S+) is a satellite \(NTN\) band; set modem.ntn to true", message):
+        return f"{match.group(1)} is a satellite (NTN) band: tick “{_label_of_key('modem.ntn')}” if it does"
+    if match := re.match(r"^expected a UE power class \((.+)\), got (.+)$", message):
+        return f"{_quoted(value)} is not a UE power class ({match.group(1)})"
     if match := re.match(r"^(.+?) (?:is an|are) (LTE|NR) bands?; category (\S+) uses (LTE|NR) bands", message):
         verb = "are" if "," in match.group(1) else "is an"
         return (f"{match.group(1)} {verb} {match.group(2)} band{'s' if verb == 'are' else ''}; "
@@ -238,6 +246,23 @@ def _sentence(problem: Problem, document: Any, place: _Place) -> str:
     if match := re.match(r"^expected an object, got (.+)$", message):
         return f"stored as {match.group(1)}, which the form can't show; answer it again"
     return message
+
+
+def _band_named(path: str, shown: str, value: Any) -> str:
+    """The unknown band as typed: the value at `path` (a band chosen), or the last key of the path when the
+    band is an object's key (a per-band figure: `peak_gain_dbi.B99`), which the parser's message quotes."""
+    try:
+        name = json.loads(shown)
+    except ValueError:
+        name = None
+    if isinstance(name, str) and path.endswith("." + name):
+        return _quoted(name)
+    return _quoted(value)
+
+
+def _label_of_key(key: str) -> str:
+    return next((question.label for section in questionnaire.SECTIONS for question in section.questions
+                 if question.key == key), key)
 
 
 def _out_of_range(got: str, bounds: str, unit: str) -> str:

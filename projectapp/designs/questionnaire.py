@@ -20,8 +20,8 @@ from django.http import QueryDict
 
 from projectapp.designs import polarization_words
 from projectapp.typed_values import read_number, read_ranges, show_number, show_ranges
-from rules.catalog import bands, categories
-from rules.design import ENVIRONMENTS, MATERIALS, MOUNTINGS, ROLES, find_band
+from rules.catalog import DEFAULT_POWER_CLASS, bands, categories, power_classes
+from rules.design import EFFICIENCY_SOURCES, ENVIRONMENTS, MATERIALS, MOUNTINGS, ROLES, find_band
 from rules.physics import quarter_wave_mm
 
 
@@ -29,7 +29,8 @@ from rules.physics import quarter_wave_mm
 class Question:
     key: str  # path relative to the section's root (an antenna row for antenna questions)
     label: str
-    kind: str  # text, choice, bool, number, integer, vector, polarization, ranges, bands, band_numbers
+    # text, choice, bool, number, integer, vector, polarization, ranges, bands, band_numbers, number_or_bands
+    kind: str
     help: str
     unit: str = ""
     choices: tuple[tuple[str, str], ...] = ()
@@ -37,6 +38,15 @@ class Question:
     blank_label: str = ""  # a choice question's "not given" option, if it may be left out
     default: str = ""  # what the parser assumes when the answer is left out (design-file.md defaults)
     reshapes: bool = False  # changing it changes which questions or options the section shows
+    whole_number: bool = False  # a choice stored as a JSON integer (the power class), not as text
+    # Categories the question applies to (None: all). A question that doesn't apply is neither shown nor read,
+    # so what is stored for it stays as it was.
+    categories: tuple[str, ...] | None = None
+
+    def applies_to(self, document: Any) -> bool:
+        if self.categories is None:
+            return True
+        return get_path(document, "modem.category") in self.categories
 
 
 @dataclass(frozen=True)
@@ -49,6 +59,25 @@ class Section:
 
 
 CATEGORY_CHOICES = tuple((category.id, f"{category.label}") for category in categories().values())
+# Each class with the conducted output it stands for (rules/data/power_classes.toml), so a PM can match the
+# datasheet's "Class 3 (23 dBm)" line.
+POWER_CLASS_CHOICES = tuple(
+    (str(number), f"class {number}: {power.max_output_dbm:g} dBm" + (" (most modules)" if number == DEFAULT_POWER_CLASS
+                                                                    else ""))
+    for number, power in sorted(power_classes().items()))
+LTE_M = ("cat-m1", "cat-m2")
+ROLE_CHOICES = (
+    ("main", "main (sends and receives)"),
+    ("receive", "receive (diversity, MIMO)"),
+    ("gnss", "GNSS (satellite navigation)"),
+    ("wlan", "WLAN (Wi-Fi, Bluetooth)"),
+)
+assert tuple(role for role, _ in ROLE_CHOICES) == ROLES, "every role the parser accepts, and only those"
+EFFICIENCY_SOURCE_CHOICES = (
+    ("datasheet", "antenna datasheet"),
+    ("measured", "measured in this product"),
+)
+assert tuple(source for source, _ in EFFICIENCY_SOURCE_CHOICES) == EFFICIENCY_SOURCES
 
 PRODUCT = Section(
     "product", "Product and modem",
@@ -74,6 +103,20 @@ PRODUCT = Section(
         Question("modem.gain_limits_dbi", "Maximum antenna gain allowed by the module's approval", "band_numbers",
                  "The module's regulatory approval (grant or declaration) lists the highest antenna gain per band "
                  "it was approved with. Copy them here; leave a band empty if no limit is given.", unit="dBi"),
+        Question("modem.power_class", "UE power class", "choice",
+                 "The module's maximum transmit power class, in its datasheet's RF characteristics (for example "
+                 "'Class 3, 23 dBm'). Most modules are class 3; some LTE-M and NB-IoT modules are class 5 "
+                 "(20 dBm). It sets the uplink budget and the radiated power estimate.",
+                 choices=POWER_CLASS_CHOICES, default=str(DEFAULT_POWER_CLASS), whole_number=True),
+        Question("modem.conducted_sensitivity_dbm", "Conducted receive sensitivity per band", "band_numbers",
+                 "The module datasheet's reference sensitivity at the antenna pad, per band (a negative number "
+                 "such as -101.5). Leave a band empty if the datasheet does not give it.", unit="dBm"),
+        Question("modem.full_duplex", "The module runs LTE-M in full duplex (FD-FDD)", "bool",
+                 "Most LTE-M modules are half-duplex (HD-FDD): they send and receive in turn, which caps the "
+                 "data rate. Tick only if the datasheet says full-duplex FDD.", categories=LTE_M),
+        Question("modem.ntn", "The module supports satellite (NTN) access", "bool",
+                 "Tick if the module can connect through satellites (non-terrestrial networks, 3GPP Rel-17 and "
+                 "later); only then can the satellite bands be chosen."),
     ),
     ("product", "modem"),
 )
@@ -101,9 +144,10 @@ ENCLOSURE = Section(
 ANTENNA_QUESTIONS = (
     Question("name", "Name", "text", "A short label, unique in the design (as on the schematic: ANT1, DIV)."),
     Question("role", "Role", "choice",
-             "'main' transmits and receives (the module's main port); 'receive' is an extra receive path "
-             "for diversity or MIMO; 'gnss' (satellite navigation) and 'wlan' (Wi-Fi, Bluetooth) serve other "
-             "radios and are not counted as cellular antennas.", choices=tuple((role, role) for role in ROLES)),
+             "What the antenna is for. 'main' sits on the module's main port: it sends and receives. 'receive' is "
+             "a second cellular path that only receives (diversity, MIMO). GNSS and WLAN antennas serve other "
+             "radios: not counted as cellular, but checked for interference from the cellular ones.",
+             choices=ROLE_CHOICES),
     Question("mounting", "Mounting", "choice",
              "'internal' sits inside the enclosure (chip, flex, PCB trace); 'external' is outside on a "
              "connector or cable.", choices=tuple((mounting, mounting) for mounting in MOUNTINGS),
@@ -119,11 +163,18 @@ ANTENNA_QUESTIONS = (
     Question("ranges_mhz", "Rated frequency ranges", "ranges",
              "The ranges on the antenna datasheet, in MHz, separated by commas: '698-960, 1710-2690'.",
              unit="MHz"),
-    Question("peak_gain_dbi", "Peak gain", "number",
-             "The highest peak gain on the antenna datasheet over the bands used.", unit="dBi"),
+    Question("peak_gain_dbi", "Peak gain", "number_or_bands",
+             "From the antenna datasheet's gain table: one figure for every band, or each band's own figure "
+             "(datasheets list peak gain per band; the approval limits are per band too). A band left empty "
+             "takes the figure for every band, if one is given.", unit="dBi"),
     Question("efficiency_pct", "Total efficiency per band", "band_numbers",
-             "Total efficiency from the antenna datasheet or a chamber measurement in this product, per band.",
-             unit="%"),
+             "Total efficiency per band, in percent: from the antenna datasheet or a chamber measurement in "
+             "this product.", unit="%"),
+    Question("efficiency_source", "Where the efficiency comes from", "choice",
+             "A datasheet figure is measured on the maker's reference board and is usually better than in "
+             "the product. Choose 'measured' only for figures measured with the antenna in this product: "
+             "they then count as measured evidence in the checklist.", choices=EFFICIENCY_SOURCE_CHOICES,
+             default="datasheet"),
     Question("size_mm", "Element size", "vector", "The antenna element's bounding box from its datasheet.",
              unit="mm", parts=("length", "width", "height")),
     Question("cable_loss_db", "Cable loss", "number",
@@ -133,8 +184,8 @@ ANTENNA_QUESTIONS = (
 
 ANTENNAS = Section(
     "antennas", "Antennas",
-    "Every cellular antenna the product carries. Add a row per antenna; positions and polarization let "
-    "the checklist judge spacing.",
+    "Every antenna the product carries: the cellular ones, and GNSS or WLAN antennas that sit beside them. "
+    "Add a row per antenna; positions and polarization let the checklist judge spacing.",
     ANTENNA_QUESTIONS,
     ("antennas",),
 )
@@ -155,6 +206,14 @@ DEPLOYMENT = Section(
         Question("deployment.body_distance_mm", "Closest distance to people", "number",
                  "How close a person's body comes to the product in normal use (worn: 0; wall-mounted out of "
                  "reach: the distance to where people stand).", unit="mm"),
+        Question("deployment.radiated_targets_dbm.trp", "Radiated power target (TRP) per band", "band_numbers",
+                 "The least total radiated power the operator requires, per band, copied from its device "
+                 "requirements (for example 19 dBm). Leave empty where the operator sets none.", unit="dBm"),
+        Question("deployment.radiated_targets_dbm.tis", "Radiated sensitivity target (TIS) per band",
+                 "band_numbers",
+                 "The weakest total isotropic sensitivity the operator accepts, per band, from the same "
+                 "requirements (a negative number such as -98 dBm; the device must reach it or lower).",
+                 unit="dBm"),
     ),
     ("deployment",),
 )
@@ -218,17 +277,29 @@ def get_path(document: Any, path: str) -> Any:
 
 
 def _set(target: dict[str, Any], dotted: str, value: Any) -> None:
-    """Sets target['a']['b'] for 'a.b', creating objects on the way; None removes the key."""
+    """Sets target['a']['b'] for 'a.b', creating objects on the way; None removes the key, and an object
+    below the top level that this leaves empty goes too ('deployment.radiated_targets_dbm' once both its
+    questions are emptied)."""
     keys = dotted.split(".")
+    if value is None:
+        nodes = [target]
+        for key in keys[:-1]:
+            child = nodes[-1].get(key)
+            if not isinstance(child, dict):
+                return
+            nodes.append(child)
+        nodes[-1].pop(keys[-1], None)
+        for depth in range(len(nodes) - 1, 1, -1):  # nodes[depth] is the object at keys[depth - 1]
+            if nodes[depth]:
+                break
+            nodes[depth - 1].pop(keys[depth - 1], None)
+        return
     node = target
     for key in keys[:-1]:
         if not isinstance(node.get(key), dict):
             node[key] = {}
         node = node[key]
-    if value is None:
-        node.pop(keys[-1], None)
-    else:
-        node[keys[-1]] = value
+    node[keys[-1]] = value
 
 
 _UNSTORABLE = re.compile("[\x00\ud800-\udfff]")
@@ -251,6 +322,8 @@ def _read_question(question: Question, data: QueryDict, prefix: str) -> Any:
         return text or None
     if question.kind == "choice":
         choice = get(name)
+        if question.whole_number and choice.isdecimal() and len(choice) < 4:
+            return int(choice)
         return choice or None
     if question.kind == "bool":
         return data.get(name) in ("on", "true", "1")
@@ -264,14 +337,29 @@ def _read_question(question: Question, data: QueryDict, prefix: str) -> Any:
     if question.kind == "bands":
         return [find_band(name_).name if find_band(name_) else name_ for name_ in map(storable, data.getlist(name))]
     if question.kind == "band_numbers":
-        result = {}
-        for key in data:
-            if key.startswith(name + "."):
-                value = read_number(get(key), question.unit)
-                if value is not None:
-                    result[storable(key[len(name) + 1:])] = value
-        return result or None
+        return _read_band_numbers(data, name, question.unit)
+    if question.kind == "number_or_bands":
+        # Band figures win; a figure for every band typed beside them fills the bands left empty, so that
+        # nothing typed is dropped and the document holds one form (a number or an object of band to number).
+        every_band = read_number(get(name), question.unit)
+        per_band = _read_band_numbers(data, name, question.unit)
+        if per_band is None:
+            return every_band
+        if every_band is not None:
+            shown = [key[len(name) + 1:] for key in data if key.startswith(name + ".")]
+            per_band = {**{storable(band): every_band for band in shown}, **per_band}
+        return per_band
     raise ValueError(f"unknown question kind {question.kind}")
+
+
+def _read_band_numbers(data: QueryDict, name: str, unit: str) -> dict[str, Any] | None:
+    result = {}
+    for key in data:
+        if key.startswith(name + "."):
+            value = read_number(storable(data.get(key, "")), unit)
+            if value is not None:
+                result[storable(key[len(name) + 1:])] = value
+    return result or None
 
 
 def _read_polarization(question: Question, data: QueryDict, name: str, stored: Any) -> Any:
@@ -299,7 +387,11 @@ def _read_polarization(question: Question, data: QueryDict, name: str, stored: A
 def _is_shown_default(question: Question, value: Any, stored: Any) -> bool:
     """A left-out answer comes back as the default the form shows for it: it stays left out, so saving an
     untouched section stores nothing new."""
-    return stored is None and bool(question.default) and value == question.default
+    if stored is not None:
+        return False
+    if question.kind == "bool":
+        return value is False  # an unticked box the document never had stays out of it
+    return bool(question.default) and value is not None and str(value) == question.default
 
 
 def apply_section(document: Mapping[str, Any], section: Section, data: QueryDict) -> dict[str, Any]:
@@ -312,6 +404,8 @@ def apply_section(document: Mapping[str, Any], section: Section, data: QueryDict
         updated["antennas"] = _read_antennas(updated.get("antennas"), data)
         return updated
     for question in section.questions:
+        if not question.applies_to(document):  # not shown, so not posted: what is stored stays
+            continue
         value = _read_question(question, data, "")
         if _is_shown_default(question, value, get_path(updated, question.key)):
             continue
@@ -542,6 +636,11 @@ def _field(question: Question, name: str, value: Any, problems: Sequence[WordedP
         values = value if isinstance(value, dict) else {}
         shown = list(dict.fromkeys([*selected_bands, *values]))
         item.parts = [(band, f"{name}.{band}", show_number(values.get(band))) for band in shown]
+    elif question.kind == "number_or_bands":
+        values = value if isinstance(value, dict) else {}
+        shown = list(dict.fromkeys([*selected_bands, *values]))
+        item.parts = [(band, f"{name}.{band}", show_number(values.get(band))) for band in shown]
+        item.value = "" if isinstance(value, dict) else show_number(value)
     elif question.kind == "ranges":
         item.value = show_ranges(value)
     elif question.kind in ("number", "integer"):
@@ -566,7 +665,7 @@ def section_fields(section: Section, document: Mapping[str, Any], problems: Sequ
                                 selected, technology) for question in ANTENNA_QUESTIONS])
         return rows
     return [_field(question, question.key, get_path(document, question.key), problems, selected, technology)
-            for question in section.questions]
+            for question in section.questions if question.applies_to(document)]
 
 
 def section_problems(section: Section, problems: Sequence[WordedProblem], shown: list[Field]) -> list[str]:

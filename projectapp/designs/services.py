@@ -23,8 +23,17 @@ from projectapp.reviews.models import AuditEvent
 from projectapp.reviews.services import review_items_create
 from projectapp.teams.access import has_role, require_role
 from projectapp.teams.models import Role, Team
-from rules.design import FORMAT, DesignError, Problem, decode_design_text, parse_design, storage_problems
+from rules.design import (
+    CELLULAR_ROLES,
+    FORMAT,
+    DesignError,
+    Problem,
+    decode_design_text,
+    parse_design,
+    storage_problems,
+)
 from rules.evaluate import evaluate
+from rules.farfield import parse_far_field
 from rules.measurements import attach_measurements
 from rules.registry import RULESET_VERSION
 from rules.touchstone import parse_touchstone
@@ -161,7 +170,7 @@ def _copy_measurements(*, source: Revision, target: Revision, user) -> None:
     for measurement in source.measurement_files.all():
         with measurement.file.open("rb") as handle:
             content = handle.read()
-        copy = MeasurementFile(revision=target, name=measurement.name, size_bytes=len(content),
+        copy = MeasurementFile(revision=target, name=measurement.name, kind=measurement.kind, size_bytes=len(content),
                                sha256=MeasurementFile.digest(content), uploaded_by=measurement.uploaded_by or user)
         copy.file.save(measurement.name, ContentFile(content), save=False)
         copy.save()
@@ -373,12 +382,7 @@ def measurement_add(*, revision: Revision, name: str, content: bytes, user) -> M
     or ValueError (naming what was expected) for a file that can't be kept.
     """
     require_measurement_role(user, revision)
-    name = _safe_file_name(name)
-    if not name.lower().endswith(MEASUREMENT_SUFFIXES):
-        raise ValueError(f"{name or 'file'}: expected a Touchstone file named .s1p to .s8p or .ts")
-    if len(content) > MAX_MEASUREMENT_BYTES:
-        raise ValueError(f"{name}: expected at most {MAX_MEASUREMENT_BYTES // 1_000_000} MB, "
-                         f"got {len(content) / 1_000_000:.1f} MB")
+    name = _upload_name(name, content, MEASUREMENT_SUFFIXES, "a Touchstone file named .s1p to .s8p or .ts")
     network = parse_touchstone(content.decode("utf-8", errors="replace"), source=name)
     with transaction.atomic():
         draft = _locked_draft(revision)  # adds to the document as it is now: nothing another save wrote is lost
@@ -396,6 +400,17 @@ def measurement_add(*, revision: Revision, name: str, content: bytes, user) -> M
                summary=f"Added {name} to draft design revision {draft.number}",
                file_changes={FILE_KEY: [None, _describe_file(measurement)]})
     return measurement
+
+
+def _upload_name(name: str, content: bytes, suffixes: tuple[str, ...], expected: str) -> str:
+    """The name an upload is kept under, once its suffix and size are what a measurement file may have."""
+    name = _safe_file_name(name)
+    if not name.lower().endswith(suffixes):
+        raise ValueError(f"{name or 'file'}: expected {expected}")
+    if len(content) > MAX_MEASUREMENT_BYTES:
+        raise ValueError(f"{name}: expected at most {MAX_MEASUREMENT_BYTES // 1_000_000} MB, "
+                         f"got {len(content) / 1_000_000:.1f} MB")
+    return name
 
 
 def _list(value: Any) -> list[Any]:
@@ -444,6 +459,161 @@ def measurement_remove(*, revision: Revision, name: str, user, read_version: int
         stored = measurement.file.name
         measurement.delete()
         transaction.on_commit(lambda stored=stored, storage=measurement.file.storage: storage.delete(stored))
+
+
+# -- far-field patterns -------------------------------------------------------------------------------------
+
+PATTERN_SUFFIXES = (".csv",)
+# The parts of a far-field entry a person sets, as form fields name them, with the words a message uses.
+PATTERN_FIELDS = {"antenna": "antenna", "absolute": "absolute", "environment": "environment",
+                  "environment.model": "environment", "environment.mean_elevation_deg": "mean elevation",
+                  "environment.spread_deg": "elevation spread", "environment.xpr_db": "XPR"}
+
+
+def pattern_entry(*, name: str, antenna: Any, absolute: bool, environment: Mapping[str, Any] | None) -> dict[str, Any]:
+    """A far-field measurement entry as the design file holds it; the defaults (relative field, isotropic
+    environment) are left out, as a hand-written file would."""
+    entry: dict[str, Any] = {"kind": "far-field", "file": name, "antenna": antenna}
+    if absolute:
+        entry["absolute"] = True
+    if environment is not None and environment.get("model") != "isotropic":
+        entry["environment"] = dict(environment)
+    return entry
+
+
+def _entry_problems(document: dict[str, Any], indices: list[int], name: str) -> list[Problem]:
+    """The parser's problems with the far-field entries at `indices` of `document`, each named by its field
+    (`antenna`, `mean elevation (environment.mean_elevation_deg)`) for the form that set it; other parts of
+    the draft may be incomplete, which is not this change's concern."""
+    try:
+        parse_design(document)
+    except DesignError as error:
+        problems = error.problems
+    else:
+        return []
+    return _named_problems(problems, indices, suffix=f" ({name})")
+
+
+def _named_problems(problems: list[Problem], indices: list[int], *, suffix: str = "") -> list[Problem]:
+    """The problems at the entries `indices`, with the entry's path put in the words of the form's fields:
+    `elevation spread (environment.spread_deg)` rather than `measurements[2].environment.spread_deg`."""
+    found = []
+    for index in indices:
+        prefix = f"measurements[{index}]"
+        for problem in problems:
+            if problem.path == prefix or problem.path.startswith((prefix + ".", prefix + "[")):
+                field = problem.path[len(prefix) + 1:]
+                label = PATTERN_FIELDS.get(field, field or "entry")
+                where = label if label == field or not field else f"{label} ({field})"
+                found.append(Problem(where, problem.message + suffix))
+    return found
+
+
+def _comparison_problems(draft: Revision, document: dict[str, Any], indices: list[int],
+                         extra: Mapping[str, str]) -> list[Problem]:
+    """When the design is complete: whether the patterns at `indices` can be used beside the others
+    (rules.measurements: the same frequencies, grid and environment as the other cellular antennas'
+    patterns, an elevation spread the grid resolves). `extra` holds the text of files not kept yet."""
+    try:
+        design = parse_design(document)
+    except DesignError:
+        return []
+    kept = measurement_reader(draft)
+
+    def read_text(file_name: str) -> str:
+        return extra[file_name] if file_name in extra else kept(file_name)
+
+    try:
+        attach_measurements(design, read_text)
+    except DesignError as error:
+        return _named_problems(error.problems, indices)
+    return []
+
+
+def _far_field_indices(document: dict[str, Any], *, cellular_only: bool) -> list[int]:
+    roles = {a.get("name"): a.get("role") for a in _list(document.get("antennas")) if isinstance(a, dict)}
+    return [index for index, entry in enumerate(_list(document.get("measurements")))
+            if isinstance(entry, dict) and entry.get("kind") == "far-field"
+            and (not cellular_only or roles.get(entry.get("antenna")) in CELLULAR_ROLES)]
+
+
+def pattern_add(*, revision: Revision, name: str, content: bytes, antenna: str, absolute: bool,
+                environment: Mapping[str, Any] | None, user) -> MeasurementFile:
+    """Keeps one antenna's far-field pattern (rules.farfield's CSV) with a draft, with its entry in the design's
+    measurements (`kind: far-field`, the antenna, whether the field is absolute, the environment).
+
+    Nothing is stored unless the file parses (FarFieldError names the file and line), its entry passes the
+    design parser (DesignError, each problem named by the form field: antenna, environment, mean elevation,
+    elevation spread, XPR), and, when the design is complete, the pattern can be compared with the other
+    cellular antennas' patterns (same frequencies, grid and environment). Raises ValueError for a wrong name
+    or size, or a file of that name already kept."""
+    require_measurement_role(user, revision)
+    name = _upload_name(name, content, PATTERN_SUFFIXES, "a far-field pattern file named .csv")
+    text = content.decode("utf-8", errors="replace")
+    parse_far_field(text, source=name)
+    with transaction.atomic():
+        draft = _locked_draft(revision)
+        if draft.measurement_files.filter(name=name).exists():
+            raise ValueError(f"{name}: a file of that name is already kept with this draft; remove it first")
+        document = json.loads(json.dumps(draft.document))
+        entries = _list(document.get("measurements"))
+        document["measurements"] = [*entries, pattern_entry(name=name, antenna=antenna, absolute=absolute,
+                                                            environment=environment)]
+        index = len(entries)
+        problems = (_entry_problems(document, [index], name)
+                    or _comparison_problems(draft, document, [index], {name: text}))
+        if problems:
+            raise DesignError(problems)
+        measurement = MeasurementFile(revision=draft, name=name, kind=MeasurementFile.Kind.FAR_FIELD,
+                                      size_bytes=len(content), sha256=MeasurementFile.digest(content),
+                                      uploaded_by=user)
+        measurement.file.save(name, ContentFile(content), save=False)
+        measurement.save()
+        _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_ADDED,
+               summary=f"Added the far-field pattern {name} of {antenna} to draft design revision {draft.number}",
+               file_changes={FILE_KEY: [None, _describe_file(measurement)]})
+    return measurement
+
+
+@transaction.atomic
+def pattern_update(*, revision: Revision, name: str, antenna: str, absolute: bool,
+                   environment: Mapping[str, Any] | None, user, read_version: int | None = None) -> list[str]:
+    """Sets the antenna, `absolute` and environment of a kept far-field pattern. The cellular antennas'
+    patterns are compared pair by pair in one environment, so a new environment is set on each of them
+    (the files whose entries also changed are returned). Refuses, storing nothing: DesignError for an entry
+    the parser or the comparison refuses (named by form field), DraftConflict if the measurements changed
+    after `read_version` (None skips that check)."""
+    require_measurement_role(user, revision)
+    draft = _locked_draft(revision)
+    document = json.loads(json.dumps(draft.document))
+    entries = _list(document.get("measurements"))
+    index = next((i for i, entry in enumerate(entries) if isinstance(entry, dict) and entry.get("file") == name
+                  and entry.get("kind") == "far-field"), None)
+    if index is None:
+        raise ValueError(f"file: no far-field pattern named {name!r} is listed in the draft's measurements")
+    old_environment = entries[index].get("environment")
+    entries[index] = {**{key: value for key, value in entries[index].items()
+                         if key not in ("antenna", "absolute", "environment")},
+                      **pattern_entry(name=name, antenna=antenna, absolute=absolute, environment=environment)}
+    changed = [index]
+    new_environment = entries[index].get("environment")
+    if new_environment != old_environment and index in _far_field_indices(document, cellular_only=True):
+        for other in _far_field_indices(document, cellular_only=True):
+            if other != index and entries[other].get("environment") != new_environment:
+                entries[other] = {key: value for key, value in entries[other].items() if key != "environment"}
+                if new_environment is not None:
+                    entries[other]["environment"] = new_environment
+                changed.append(other)
+    if document == draft.document:
+        return []
+    _require_fresh(draft, questionnaire.MEASUREMENTS_PART, read_version)
+    problems = _entry_problems(document, changed, name) or _comparison_problems(draft, document, changed, {})
+    if problems:
+        raise DesignError(problems)
+    _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_MAPPED,
+           summary=f"Set the antenna and environment of the far-field pattern {name} in draft design revision "
+                   f"{draft.number}")
+    return [entries[other]["file"] for other in changed if other != index]
 
 
 # -- the team's parts library -----------------------------------------------------------------------------

@@ -20,7 +20,14 @@ from django.views.decorators.http import require_GET, require_http_methods, requ
 from django_htmx.http import HttpResponseClientRedirect, reswap
 
 from projectapp import fragments
-from projectapp.designs import library_use, problem_words, questionnaire, services
+from projectapp.designs import (
+    coverage_panel,
+    library_use,
+    pattern_facts,
+    problem_words,
+    questionnaire,
+    services,
+)
 from projectapp.designs.access import (
     get_product_for_user,
     get_revision_for_user,
@@ -30,10 +37,12 @@ from projectapp.designs.access import (
 from projectapp.designs.checklists import (
     CHECK_FAILED,
     ChecklistState,
+    cellular_patterns,
     checklist_for,
     coverage_rows,
     frozen_state_key,
     load_measurements,
+    measurement_digests,
     state_key,
     summaries,
 )
@@ -47,24 +56,32 @@ from projectapp.designs.forms import (
     LibraryTargetForm,
     MeasurementFileForm,
     PanelPartForm,
+    PatternChangeForm,
+    PatternForm,
     PortMapForm,
     ProductForm,
     SectionActionForm,
 )
-from projectapp.designs.models import Revision
+from projectapp.designs.models import MeasurementFile, Revision
 from projectapp.figures.charts import (
     chart_svg,
     correlation_chart,
     coverage_chart,
     isolation_chart,
+    pattern_correlation_chart,
     return_loss_chart,
 )
-from projectapp.figures.placement import pair_severities_from_findings, placement_svg
+from projectapp.figures.placement import (
+    coexistence_lines_from_findings,
+    pair_severities_from_findings,
+    placement_svg,
+)
 from projectapp.library.models import Entry
 from projectapp.teams.access import has_role, require_role, teams_where
 from projectapp.teams.models import Role
-from rules.coverage import TABLE_COLUMNS
-from rules.design import DesignError, Problem, parse_design_partial
+from rules.coverage import OutsideValidity
+from rules.design import CELLULAR_ROLES, DesignError, Problem, parse_design_partial
+from rules.farfield import FarFieldError
 from rules.registry import RETIRED, RULESET_VERSION, registered_rules
 from rules.touchstone import TouchstoneError
 
@@ -158,13 +175,17 @@ def _figures(state: ChecklistState, id_prefix: str) -> dict:
         spacing_waits = any(item["id"] == SPACING_RULE for item in checklist.get("waiting", ()))
         svg = attempt("placement drawing", lambda: placement_svg(
             shown, pair_severities=None if spacing_waits else pair_severities_from_findings(state.findings),
-            frequency_mhz=checklist.get("judged_at_mhz"), id_prefix=id_prefix, record=record))
+            frequency_mhz=checklist.get("judged_at_mhz"), id_prefix=id_prefix, record=record,
+            coexistence=coexistence_lines_from_findings(state.findings, shown)))
     elif state.design is not None and state.checklist is not None:
         design = state.design
         svg = attempt("placement drawing", lambda: placement_svg(
             design, pair_severities=pair_severities_from_findings(state.findings),
-            frequency_mhz=design.lowest_mhz, id_prefix=id_prefix, record=record))
-        measurements = attempt("measurements", lambda: load_measurements(state)) or ()
+            frequency_mhz=design.lowest_mhz, id_prefix=id_prefix, record=record,
+            coexistence=coexistence_lines_from_findings(state.findings, design)))
+        measurements = attempt("measurements", lambda: load_measurements(state))
+        if measurements is None:  # an empty AttachedMeasurements still carries its far-field patterns
+            measurements = ()
         coverage = attempt("coverage estimate", lambda: coverage_rows(state)) or []
         if coverage:
             coverage_svg = attempt("coverage chart", lambda: chart_svg(
@@ -175,6 +196,12 @@ def _figures(state: ChecklistState, id_prefix: str) -> dict:
                     _chart, build, measurement, design, id_prefix=f"chart-{file_index}-{chart_index}"))
                 if chart is not None:
                     charts.append(chart)
+        patterns = cellular_patterns(measurements, design)
+        if patterns:
+            chart = attempt("far-field correlation chart", lambda: chart_svg(pattern_correlation_chart(
+                patterns, design, width_pt=560, height_pt=240), id_prefix="chart-far-field"))
+            if chart is not None:
+                charts.append(chart)
     return {"placement_svg": svg, "chart_svgs": charts, "coverage": coverage, "coverage_svg": coverage_svg,
             "failed_figures": list(dict.fromkeys(failed))}
 
@@ -184,9 +211,9 @@ def _chart(build, measurement, design, *, id_prefix: str) -> str:
 
 
 def _panel_context(state: ChecklistState, *, id_prefix: str = "placement", figures: bool = True) -> dict:
-    """The panel's checklist and band table, and (`figures`) its drawing, charts and coverage, drawn once per
-    state of the revision (and version of the code that draws them). A save's answer leaves the figures out:
-    the page fetches them with the next request (draft_edit, part=figures), so the checklist follows an
+    """The panel's checklist and band table, and (`figures`) its drawing, charts and coverage panel, drawn once
+    per state of the revision (and version of the code that draws them). A save's answer leaves the figures
+    out: the page fetches them with the next request (draft_edit, part=figures), so the checklist follows an
     answer without waiting for the drawing (benchmarks/section_save.py)."""
     drawn: dict = {"placement_svg": None, "chart_svgs": [], "coverage": [], "coverage_svg": None,
                    "failed_figures": []}
@@ -199,7 +226,11 @@ def _panel_context(state: ChecklistState, *, id_prefix: str = "placement", figur
                 cache.set(key, drawn, timeout=30 * 24 * 3600)
     failed = bool(drawn["failed_figures"]) or CHECK_FAILED in state.problems
     todo = problem_words.todo(state.revision.document, state.checklist) if state.is_partial else None
-    return {"state": state, "coverage_columns": TABLE_COLUMNS, fragments.NOT_KEPT: failed, "todo": todo, **drawn}
+    context = {"state": state, fragments.NOT_KEPT: failed, "todo": todo,
+               "measurement_digests": measurement_digests(state.revision), **drawn}
+    if figures:
+        context.update(coverage_panel.panel(drawn["coverage"], coverage_panel.CoverageAssumptionsForm({}).read()))
+    return context
 
 
 def _section_item(section: questionnaire.Section, document: dict, problems: list[Problem], *, version: int,
@@ -261,22 +292,59 @@ def _draft_context(revision: Revision, state: ChecklistState, *, kept: dict | No
                 for section in questionnaire.SECTIONS]
     return {"product": revision.product, "revision": revision, "sections": sections,
             "library_offers": _library_offers(revision),
-            "presets": questionnaire.band_presets(), "measurements": _measurement_rows(revision),
+            "presets": questionnaire.band_presets(), "measurements": _measurement_rows(revision, state.problems),
+            "pattern_defaults": _pattern_defaults(revision),
             "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, "editing": True,
             **_panel_context(state)}
 
 
-def _measurement_rows(revision: Revision) -> list[dict]:
-    """Each kept file with its port map from the document, and the antenna names to choose from."""
+def _measurement_rows(revision: Revision, problems: list[Problem]) -> list[dict]:
+    """Each kept file with its entry from the document (a Touchstone file's port map; a pattern's antenna,
+    tick, environment, frequencies and grid), the parser's problems with that entry, and the antenna names to
+    choose from."""
     document = revision.document if isinstance(revision.document, dict) else {}
-    entries = {entry.get("file"): entry for entry in document.get("measurements", []) if isinstance(entry, dict)}
-    names = [a.get("name") for a in document.get("antennas", []) if isinstance(a, dict) and a.get("name")]
+    by_file = {entry.get("file"): (index, entry) for index, entry in enumerate(_list_in(document, "measurements"))
+               if isinstance(entry, dict)}
+    names = [a.get("name") for a in _list_in(document, "antennas") if isinstance(a, dict) and a.get("name")]
     rows = []
     for measurement in revision.measurement_files.all():
-        ports = entries.get(measurement.name, {}).get("ports") or []
-        rows.append({"file": measurement, "listed": measurement.name in entries,
-                     "ports": list(enumerate(ports)), "antennas": names})
+        index, entry = by_file.get(measurement.name, (None, {}))
+        prefix = f"measurements[{index}]"
+        row = {"file": measurement, "listed": index is not None, "antennas": names,
+               "far_field": measurement.kind == MeasurementFile.Kind.FAR_FIELD,
+               "problems": [problem for problem in problems if index is not None and (
+                   problem.path == prefix or problem.path.startswith((prefix + ".", prefix + "[")))]}
+        if row["far_field"]:
+            environment = entry.get("environment") if isinstance(entry.get("environment"), dict) else {}
+            row.update(antenna=entry.get("antenna"), absolute=entry.get("absolute") is True,
+                       environment=environment, environment_model=environment.get("model") or "isotropic",
+                       environment_words=pattern_facts.environment_words(entry),
+                       facts=pattern_facts.pattern_facts(measurement))
+        else:
+            row["ports"] = list(enumerate(entry.get("ports") or []))
+        rows.append(row)
     return rows
+
+
+def _list_in(document: dict, key: str) -> list:
+    value = document.get(key)
+    return value if isinstance(value, list) else []
+
+
+def _pattern_defaults(revision: Revision) -> dict:
+    """What the far-field upload form starts with: the environment the cellular antennas' patterns already
+    share (a new one must match it to be compared), else isotropic; the first antenna without a pattern."""
+    document = revision.document if isinstance(revision.document, dict) else {}
+    entries = [entry for entry in _list_in(document, "measurements")
+               if isinstance(entry, dict) and entry.get("kind") == "far-field"]
+    antennas = [a for a in _list_in(document, "antennas") if isinstance(a, dict) and a.get("name")]
+    roles = {a.get("name"): a.get("role") for a in antennas}
+    shared = next((entry["environment"] for entry in entries if roles.get(entry.get("antenna")) in CELLULAR_ROLES
+                   and isinstance(entry.get("environment"), dict)), {})
+    with_pattern = {entry.get("antenna") for entry in entries}
+    return {"environment": shared, "environment_model": shared.get("model") or "isotropic",
+            "antenna": next((a.get("name") for a in antennas if a.get("name") not in with_pattern), None),
+            "antennas": [a.get("name") for a in antennas]}
 
 
 @login_required
@@ -295,6 +363,11 @@ def draft_edit(request, product_id: int):
         return HttpResponse("; ".join(f"{name}: {error}" for name, errors in part.errors.items() for error in errors),
                             status=400, content_type="text/plain; charset=utf-8")
     if part.cleaned_data["part"] == "figures":  # after a save: the drawing, charts and coverage of the draft now
+        what_if = coverage_panel.CoverageAssumptionsForm(request.GET).read()
+        if what_if.cleaned:  # a coverage what-if on screen (the loader sends it) stays through the redraw
+            state = checklist_for(draft)
+            return render(request, "designs/draft_figures.html", {
+                "product": product, "revision": draft, **_panel_context(state), **_coverage_what_if(state, what_if)})
         return HttpResponse(fragments.personal(fragments.shared(
             "designs/draft_figures.html", ("figures-oob", state_key(draft), product.pk),
             lambda: {"product": product, "revision": draft, **_panel_context(checklist_for(draft))},
@@ -506,19 +579,54 @@ def _still_to_do(document: dict) -> str:
 def revision_detail(request, product_id: int, number: int):
     facts = revision_facts(request.user, product_id, number)
     is_author = facts.is_draft and Role.AUTHOR in facts.roles  # only a draft's page differs by role
+    # Reviewers (the engineers who measure) keep measurement files with a draft from this page (authors do it on
+    # the draft's questionnaire); its forms carry the draft's version, so that is in the key too.
+    can_measure = facts.is_draft and Role.REVIEWER in facts.roles and not is_author
     revisions = Revision.objects.select_related("product", "submitted_by")
     draft = revisions.get(pk=facts.revision_id) if facts.is_draft else None  # named by its content
 
     def context() -> dict:
         revision = draft or revisions.get(pk=facts.revision_id)
+        state = checklist_for(revision)
+        measuring = {"measurements": _measurement_rows(revision, state.problems),
+                     "pattern_defaults": _pattern_defaults(revision),
+                     "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000} if can_measure else {}
         return {"product": revision.product, "revision": revision, "is_author": is_author,
-                "design_text": services.document_export_text(revision=revision),
-                **_panel_context(checklist_for(revision))}
+                "can_measure": can_measure, "design_text": services.document_export_text(revision=revision),
+                **measuring, **_panel_context(state)}
 
     state = state_key(draft) if draft else frozen_state_key(facts.revision_id, facts.submitted_at)
     return fragments.page(request, "designs/revision_detail.html",
                           ("revision", state, product_id, facts.product_name, facts.status, facts.submitter_name,
-                           is_author), context)
+                           is_author, can_measure, draft.version if draft else None), context)
+
+
+@login_required
+@require_GET
+def revision_coverage(request, product_id: int, number: int):
+    """The coverage panel with the assumptions in the query string (a what-if: the checklist keeps the
+    defaults). With htmx the panel's block alone; without, a page holding it. A value the form or the path-loss
+    model refuses is named, and the defaults are used for it (400)."""
+    revision = get_revision_for_user(request.user, product_id, number)
+    form = coverage_panel.CoverageAssumptionsForm(request.GET).read()
+    context = {"product": revision.product, "revision": revision, **_coverage_what_if(checklist_for(revision), form)}
+    template = "designs/_coverage.html" if request.htmx else "designs/coverage.html"
+    return render(request, template, context, status=400 if form.problems else 200)
+
+
+def _coverage_what_if(state: ChecklistState, form: coverage_panel.CoverageAssumptionsForm) -> dict:
+    """The coverage panel's context with the form's assumptions (a what-if); one the path-loss model refuses is
+    named in the form's problems, and the defaults are used instead."""
+    environment = (state.design.deployment.environment if state.design else None) or "outdoor"
+    try:
+        rows = coverage_rows(state, **form.overrides(environment))
+    except OutsideValidity as refusal:
+        form.problems.append(f"{refusal.parameter}: {refusal}; the defaults are shown instead")
+        form.cleaned = {}
+        rows = coverage_rows(state)
+    return {"coverage_what_if": True, **coverage_panel.panel(rows, form),
+            "coverage_svg": chart_svg(coverage_chart(rows, width_pt=560, height_pt=240), id_prefix="coverage")
+            if rows else None}
 
 
 @login_required
@@ -578,12 +686,29 @@ def design_import(request, product_id: int):
 @login_required
 @require_GET
 def rule_list(request):
+    rules = registered_rules()
     return render(request, "designs/rule_list.html", {
-        "rules": registered_rules(), "retired": RETIRED, "ruleset": RULESET_VERSION})
+        "rules": rules, "retired": RETIRED, "ruleset": RULESET_VERSION,
+        "added": [rule for rule in rules if rule.added_in == RULESET_VERSION],
+        "changed": [rule for rule in rules if rule.changed_in == RULESET_VERSION and rule.added_in != RULESET_VERSION]})
 
 
 def _back_to_measurements(product) -> HttpResponse:
     return redirect(reverse("draft_edit", args=[product.pk]) + "#section-measurements")
+
+
+def _uploaded(request, product, field: str, expected: str):
+    """The file posted as `field` to the product's draft, or the answer to send instead: a message (nothing
+    stored) and back to the measurements, for no draft, no file or one over the size limit."""
+    upload = request.FILES.get(field)
+    if product.draft is None or upload is None:
+        messages.error(request, f"{field}: expected {expected} to upload to the draft")
+        return _back_to_measurements(product)
+    if upload.size > services.MAX_MEASUREMENT_BYTES:
+        messages.error(request, f"{upload.name}: expected at most {services.MAX_MEASUREMENT_BYTES // 1_000_000} MB, "
+                                f"got {upload.size / 1_000_000:.1f} MB; nothing was stored")
+        return _back_to_measurements(product)
+    return upload
 
 
 @login_required
@@ -591,14 +716,9 @@ def _back_to_measurements(product) -> HttpResponse:
 def measurement_upload(request, product_id: int):
     product = get_product_for_user(request.user, product_id)
     draft = product.draft
-    upload = request.FILES.get("touchstone")
-    if draft is None or upload is None:
-        messages.error(request, "touchstone: expected a Touchstone file (.s1p to .s8p) to upload to the draft")
-        return _back_to_measurements(product)
-    if upload.size > services.MAX_MEASUREMENT_BYTES:
-        messages.error(request, f"{upload.name}: expected at most {services.MAX_MEASUREMENT_BYTES // 1_000_000} MB, "
-                                f"got {upload.size / 1_000_000:.1f} MB; nothing was stored")
-        return _back_to_measurements(product)
+    upload = _uploaded(request, product, "touchstone", "a Touchstone file (.s1p to .s8p)")
+    if isinstance(upload, HttpResponse):
+        return upload
     try:
         measurement = services.measurement_add(revision=draft, name=upload.name, content=upload.read(),
                                                user=request.user)
@@ -612,7 +732,8 @@ def measurement_upload(request, product_id: int):
 
 
 def _measurement_conflict(request, product, conflict: services.DraftConflict, *, name: str, action: str,
-                          ports: list[str | None] | None = None) -> HttpResponse:
+                          ports: list[str | None] | None = None, pattern: dict | None = None,
+                          environment: dict | None = None) -> HttpResponse:
     """409: what others changed in the measurements, and the person's own change kept in a form that, posted
     again, replaces theirs."""
     draft = conflict.revision
@@ -620,7 +741,7 @@ def _measurement_conflict(request, product, conflict: services.DraftConflict, *,
     antennas = [a.get("name") for a in document.get("antennas", []) if isinstance(a, dict) and a.get("name")]
     return render(request, "designs/measurement_conflict.html", {
         "product": product, "revision": draft, "conflict": conflict, "name": name, "action": action,
-        "ports": list(enumerate(ports or [])), "antennas": antennas,
+        "ports": list(enumerate(ports or [])), "antennas": antennas, "pattern": pattern, "environment": environment,
         "is_author": has_role(request.user, product.team, Role.AUTHOR)}, status=409)
 
 
@@ -632,14 +753,13 @@ def _measurement_version(request, product) -> DraftVersionForm | None:
     return None
 
 
-@login_required
-@require_POST
-def measurement_ports(request, product_id: int):
-    product = get_product_for_user(request.user, product_id)
+def _kept_file_change(request, product, form_class):
+    """What a change to a kept measurement file posts, read: (draft, form, file name, version form); or the
+    answer to send instead (a message and back to the measurements) when any of it can't be used."""
     draft = product.draft
     if draft is not None:
         services.require_measurement_role(request.user, draft)
-    form = PortMapForm(request.POST)
+    form = form_class(request.POST)
     if not form.is_valid():
         messages.error(request, f"{form.problems()}; nothing was changed")
         return _back_to_measurements(product)
@@ -650,6 +770,17 @@ def measurement_ports(request, product_id: int):
     version = _measurement_version(request, product)
     if version is None:
         return _back_to_measurements(product)
+    return draft, form, name, version
+
+
+@login_required
+@require_POST
+def measurement_ports(request, product_id: int):
+    product = get_product_for_user(request.user, product_id)
+    read = _kept_file_change(request, product, PortMapForm)
+    if isinstance(read, HttpResponse):
+        return read
+    draft, form, name, version = read
     ports = form.ports
     try:
         services.measurement_map_ports(revision=draft, name=name, ports=ports, user=request.user,
@@ -688,6 +819,67 @@ def measurement_remove(request, product_id: int):
         except services.DraftGone:
             return render(request, "designs/gone.html", {"product": product}, status=409)
         messages.success(request, f"{name} removed from draft {draft.number}.")
+    return _back_to_measurements(product)
+
+
+@login_required
+@require_POST
+def measurement_pattern_upload(request, product_id: int):
+    """Keeps one antenna's far-field pattern with the draft: the file must parse and its antenna and environment
+    pass the design parser; otherwise a message names the file's line or the field, and nothing is stored."""
+    product = get_product_for_user(request.user, product_id)
+    draft = product.draft
+    if draft is not None:
+        services.require_measurement_role(request.user, draft)
+    upload = _uploaded(request, product, "pattern", "a far-field pattern file (.csv)")
+    if isinstance(upload, HttpResponse):
+        return upload
+    form = PatternForm(request.POST)
+    if not form.is_valid():
+        messages.error(request, f"{form.problems()}; nothing was stored")
+        return _back_to_measurements(product)
+    try:
+        measurement = services.pattern_add(
+            revision=draft, name=upload.name, content=upload.read(), antenna=form.cleaned_data["antenna"],
+            absolute=form.cleaned_data["absolute"], environment=form.environment_entry(), user=request.user)
+    except services.DraftGone:
+        return render(request, "designs/gone.html", {"product": product}, status=409)
+    except DesignError as error:
+        messages.error(request, "; ".join(str(problem) for problem in error.problems) + " — nothing was stored.")
+    except (FarFieldError, ValueError) as error:
+        messages.error(request, f"{error} — nothing was stored.")
+    else:
+        messages.success(request, f"{measurement.name} kept with draft {draft.number} as the far-field pattern of "
+                                  f"{form.cleaned_data['antenna']}.")
+    return _back_to_measurements(product)
+
+
+@login_required
+@require_POST
+def measurement_pattern_update(request, product_id: int):
+    """Changes a kept pattern's antenna, `absolute` tick or environment (the cellular antennas' patterns share
+    one environment, so a new one is set on each)."""
+    product = get_product_for_user(request.user, product_id)
+    read = _kept_file_change(request, product, PatternChangeForm)
+    if isinstance(read, HttpResponse):
+        return read
+    draft, form, name, version = read
+    try:
+        others = services.pattern_update(
+            revision=draft, name=name, antenna=form.cleaned_data["antenna"], absolute=form.cleaned_data["absolute"],
+            environment=form.environment_entry(), user=request.user, read_version=version.read_version)
+    except services.DraftConflict as conflict:
+        return _measurement_conflict(request, product, conflict, name=name, action="pattern",
+                                     pattern=form.cleaned_data, environment=form.environment_entry())
+    except services.DraftGone:
+        return render(request, "designs/gone.html", {"product": product}, status=409)
+    except (DesignError, ValueError) as error:
+        problems = error.problems if isinstance(error, DesignError) else [error]
+        messages.error(request, "; ".join(str(problem) for problem in problems) + "; nothing was changed")
+        return _back_to_measurements(product)
+    messages.success(request, f"{name} saved" + (f"; its environment is now also that of {', '.join(others)}, "
+                                                 "since patterns are compared in one environment" if others else "")
+                     + ".")
     return _back_to_measurements(product)
 
 

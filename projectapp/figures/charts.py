@@ -16,7 +16,7 @@ from dataclasses import dataclass
 from itertools import combinations
 
 import numpy as np
-from reportlab.graphics.shapes import Drawing, Group, Line, PolyLine, Rect, String
+from reportlab.graphics.shapes import Circle, Drawing, Group, Line, PolyLine, Rect, String
 from reportlab.lib import colors
 from reportlab.lib.attrmap import AttrMap, AttrMapValue
 from reportlab.lib.utils import simpleSplit
@@ -43,7 +43,8 @@ from rules import sparams
 from rules.catalog import Band
 from rules.context import merge_ranges, ranges_to_serve
 from rules.design import Design
-from rules.measurements import LoadedMeasurement
+from rules.farfield import correlation_matrix, environment_text
+from rules.measurements import LoadedMeasurement, LoadedPattern
 
 ACCENT = colors.HexColor("#1d6f6a")
 NOTE = SEVERITY_COLOURS["note"]
@@ -510,12 +511,14 @@ def _x_axis(low_mhz: float, high_mhz: float, left_pt: float, right_pt: float) ->
     return Axis(low_mhz, high_mhz, left_pt, right_pt, _ticks(low_mhz, high_mhz, step))
 
 
-def _frequency_chart(*, measurement: LoadedMeasurement, design: Design, title: str, subtitle: str,
+def _frequency_chart(*, frequencies_mhz: np.ndarray, design: Design, title: str, subtitle: str,
                      y_caption: str, curves: Sequence[_Curve], thresholds: Sequence[Threshold],
                      fixed_y: tuple[float, float] | None, value_format: Callable[[float], str],
-                     description: Callable[[bool, float], str], width_pt: float, height_pt: float) -> ChartDrawing:
-    frequencies_mhz = measurement.network.frequencies_mhz
-    low_mhz, high_mhz = float(frequencies_mhz[0]), float(frequencies_mhz[-1])
+                     description: Callable[[bool, float], str], width_pt: float, height_pt: float,
+                     markers: bool = False, x_range_mhz: tuple[float, float] | None = None) -> ChartDrawing:
+    """`markers`: a dot at every point, for data at a few frequencies (far-field patterns); `x_range_mhz`: the
+    frequency axis, when it should reach beyond the data (to show the bands the points fall in)."""
+    low_mhz, high_mhz = x_range_mhz or (float(frequencies_mhz[0]), float(frequencies_mhz[-1]))
     spans = _band_spans(design)
     outside = sorted({name for name, _, low, high in spans if high < low_mhz or low > high_mhz},
                      key=[band.name for band in design.modem.bands].index)
@@ -620,6 +623,8 @@ def _frequency_chart(*, measurement: LoadedMeasurement, design: Design, title: s
                 run = []
                 continue
             run += [round(x_axis.pt(frequency_mhz), 2), round(y_axis.clamped_pt(value), 2)]  # 0.01 pt: finer than print
+            if markers:
+                group.add(Circle(run[-2], run[-1], 2.6, fillColor=colour, strokeColor=WHITE, strokeWidth=0.6))
         _polyline(group, run, colour, dash)
         series.append(Series(curve.label, colour, dash, drawn_mhz, drawn, int(curve.values.shape[0])))
 
@@ -759,7 +764,7 @@ def return_loss_chart(measurement: LoadedMeasurement, design: Design, *, width_p
                 + _clipped_sentence(clipped, axis_top, "dB"))
 
     return _frequency_chart(
-        measurement=measurement, design=design, title=title, subtitle=subtitle,
+        frequencies_mhz=measurement.network.frequencies_mhz, design=design, title=title, subtitle=subtitle,
         y_caption="return loss (dB), higher is better", curves=curves, thresholds=RETURN_LOSS_THRESHOLDS_DB,
         fixed_y=None, value_format=_number_text, description=describe, width_pt=float(width_pt),
         height_pt=float(height_pt),
@@ -796,7 +801,7 @@ def _pair_chart(measurement: LoadedMeasurement, design: Design, *, quantity: str
                 f"antenna serves: {worst}" + _clipped_sentence(clipped, axis_top, unit))
 
     return _frequency_chart(
-        measurement=measurement, design=design, title=title, subtitle=subtitle, y_caption=y_caption,
+        frequencies_mhz=measurement.network.frequencies_mhz, design=design, title=title, subtitle=subtitle, y_caption=y_caption,
         curves=curves, thresholds=thresholds, fixed_y=fixed_y,
         value_format=_number_text if fixed_y is None else (lambda value: f"{value:.1f}"),
         description=describe, width_pt=width_pt, height_pt=height_pt,
@@ -827,6 +832,50 @@ def correlation_chart(measurement: LoadedMeasurement, design: Design, *, width_p
                        height_pt=float(height_pt))
 
 
+def pattern_correlation_chart(patterns: Sequence[LoadedPattern], design: Design, *, width_pt: float = 640,
+                              height_pt: float = 260) -> ChartDrawing:
+    """Envelope correlation from far-field patterns (rules.farfield, Vaughan & Andersen) of each pair of the
+    given patterns at the frequencies the files share, in their environment, on a 0..1 axis with the ECC-001
+    thresholds; a dot per frequency. The patterns must share frequencies, grid and environment (as
+    rules.measurements requires of the cellular antennas' patterns); fewer than two give a drawing that says so."""
+    _check_width(width_pt, height_pt)
+    title = "Envelope correlation from far-field patterns"
+    files = ", ".join(pattern.file for pattern in patterns)
+    if len(patterns) < 2:
+        subtitle = f"{_product(design)} · {files or 'no patterns'}"
+        message = "One far-field pattern: no pairs. Add the other antenna's pattern to see their correlation."
+        return _message_chart(title, subtitle, message, f"{title}. {message}", float(width_pt))
+    environment = patterns[0].environment
+    frequencies_mhz = patterns[0].frequencies_mhz
+    ecc = correlation_matrix([pattern.pattern for pattern in patterns], environment)
+    pairs = list(combinations(range(len(patterns)), 2))
+    curves = [_Curve(f"{patterns[i].antenna}–{patterns[j].antenna}", ecc[:, i, j]) for i, j in pairs]
+    short = ("isotropic" if environment.model == "isotropic" else
+             f"Taga: elevation {environment.mean_elevation_deg:g}° ± {environment.spread_deg:g}°, XPR "
+             f"{environment.xpr_db:g} dB")
+    subtitle = f"{_product(design)} · {files} · {frequencies_mhz.size} frequencies · {short}"
+    # The axis spans the points and the downlinks they are judged over, a little beyond, so edge points show.
+    low = min(float(frequencies_mhz[0]), *(band.dl_mhz[0] for band in design.modem.bands))
+    high = max(float(frequencies_mhz[-1]), *(band.dl_mhz[1] for band in design.modem.bands))
+    pad = 0.03 * (high - low) or 1.0
+
+    def describe(clipped: bool, axis_top: float) -> str:
+        values = "; ".join(
+            f"{curve.label}: " + ", ".join(f"{_number_text(float(frequency))} MHz {value:.2f} "
+                                           f"({_verdict(ECC_THRESHOLDS, float(value))})"
+                                           for frequency, value in zip(frequencies_mhz, curve.values, strict=True))
+            for curve in curves)
+        return (f"Envelope correlation (0 to 1, lower is better) of each pair of far-field patterns ({files}), "
+                f"integrated over the sphere in {environment_text(environment)}, at the files' frequencies. "
+                f"{_thresholds_sentence(ECC_THRESHOLDS)} Values: {values}.")
+
+    return _frequency_chart(
+        frequencies_mhz=frequencies_mhz, design=design, title=title, subtitle=subtitle,
+        y_caption="envelope correlation, lower is better", curves=curves, thresholds=ECC_THRESHOLDS,
+        fixed_y=(0.0, 1.0), value_format=lambda value: f"{value:.1f}", description=describe,
+        width_pt=float(width_pt), height_pt=float(height_pt), markers=True, x_range_mhz=(low - pad, high + pad))
+
+
 def _product(design: Design) -> str:
     return design.product_name + (f", hardware revision {design.product_revision}" if design.product_revision else "")
 
@@ -845,12 +894,17 @@ def _optional_number(row: Mapping, key: str) -> float | None:
     return float(value)
 
 
-def coverage_chart(rows: Sequence[Mapping], *, width_pt: float = 640, height_pt: float = 260) -> ChartDrawing:
-    """Maximum downlink range per band with one and with two receive antennas (km), grouped by band,
-    each group labelled with the area one antenna covers as a share of two antennas' (%).
+DIRECTION_WORDS = {"ul": "uplink", "dl": "downlink"}
+DIRECTION_SHORT = {"ul": "UL", "dl": "DL"}
 
-    `rows` are the coverage analysis' rows (rules/coverage.py `as_dict()`); only `COVERAGE_KEYS` are
-    read. A None range is outside the path-loss model's validity: its bar is drawn hatched, full height,
+
+def coverage_chart(rows: Sequence[Mapping], *, width_pt: float = 640, height_pt: float = 260) -> ChartDrawing:
+    """Maximum range per band with one and with two receive antennas (km), set by whichever direction limits,
+    grouped by band, each group labelled with the area one antenna covers as a share of two antennas' (%)
+    and, where the rows say (`limiting_one`, `limiting_two`), the direction that limits each case.
+
+    `rows` are the coverage analysis' rows (rules/coverage.py `as_dict()`); `COVERAGE_KEYS` must be there.
+    A None range is outside the path-loss model's validity: its bar is drawn hatched, full height,
     marked "n/a", with a note."""
     _check_width(width_pt, height_pt)
     width_pt, height_pt = float(width_pt), float(height_pt)
@@ -861,8 +915,11 @@ def coverage_chart(rows: Sequence[Mapping], *, width_pt: float = 640, height_pt:
             raise ValueError(f"coverage row {index} lacks {', '.join(missing)}")
         parsed.append((str(row["band"]), _optional_number(row, "range_one_km"),
                        _optional_number(row, "range_two_km"), _optional_number(row, "area_share_pct")))
-    title = "Downlink range with one and two receive antennas"
-    subtitle = "maximum range per band in km, from the coverage analysis"
+    limits = [(row.get("limiting_one"), row.get("limiting_two")) for row in rows]
+    show_limits = bool(limits) and all(one in DIRECTION_SHORT and two in DIRECTION_SHORT for one, two in limits)
+    title = "Range with one and two receive antennas"
+    subtitle = ("maximum range per band in km, set by the direction that limits (uplink or downlink), from the "
+                "coverage analysis")
     if not parsed:
         message = "No bands to chart."
         return _message_chart(title, subtitle, message, f"{title}. {message}", width_pt)
@@ -877,7 +934,8 @@ def coverage_chart(rows: Sequence[Mapping], *, width_pt: float = 640, height_pt:
             if any_missing else None)
     note_lines = _notes(note, width_pt)
 
-    bottom_rows_pt = (2 * TICK_ROW_PT + CAPTION_ROW_PT + len(legend) * LEGEND_ROW_PT
+    tick_rows = 3 if show_limits else 2
+    bottom_rows_pt = (tick_rows * TICK_ROW_PT + CAPTION_ROW_PT + len(legend) * LEGEND_ROW_PT
                       + len(note_lines) * NOTE_ROW_PT + MARGIN_PT - 2)
     fixed_pt = MARGIN_PT + HEADER_PT + VALUE_ROW_PT + bottom_rows_pt
     height_pt = float(math.ceil(max(height_pt, fixed_pt + MIN_PLOT_HEIGHT_PT)))
@@ -953,12 +1011,22 @@ def coverage_chart(rows: Sequence[Mapping], *, width_pt: float = 640, height_pt:
             share = share.removeprefix("area ")
         _string(group, centre, plot_bottom - TICK_ROW_PT - 3 - TICK_SIZE,
                 _fit_text(share, FONT, TICK_SIZE, group_width - 4), size=TICK_SIZE, colour=MUTED, anchor="middle")
+        if show_limits:
+            one, two = limits[index]
+            text = f"{DIRECTION_SHORT[one]} · {DIRECTION_SHORT[two]}" if one != two else f"{DIRECTION_SHORT[one]} limits"
+            if stringWidth(text, FONT, TICK_SIZE) > group_width - 4:
+                text = text.removesuffix(" limits")
+            _string(group, centre, plot_bottom - 2 * TICK_ROW_PT - 3 - TICK_SIZE,
+                    _fit_text(text, FONT, TICK_SIZE, group_width - 4), size=TICK_SIZE, colour=MUTED,
+                    anchor="middle")
     group.add(Line(plot_left, plot_bottom, plot_right, plot_bottom, strokeColor=INK, strokeWidth=0.7))
-    _string(group, (plot_left + plot_right) / 2, plot_bottom - 2 * TICK_ROW_PT - CAPTION_ROW_PT + 2.5,
-            "band · area: share of the two-antenna area that one antenna covers", size=CAPTION_SIZE,
-            anchor="middle")
+    caption = "band · area: share of the two-antenna area that one antenna covers"
+    if show_limits:
+        caption += " · which direction limits (1 antenna · 2 antennas)"
+    _string(group, (plot_left + plot_right) / 2, plot_bottom - tick_rows * TICK_ROW_PT - CAPTION_ROW_PT + 2.5,
+            _fit_text(caption, FONT, CAPTION_SIZE, plot_right - plot_left), size=CAPTION_SIZE, anchor="middle")
 
-    top = plot_bottom - 2 * TICK_ROW_PT - CAPTION_ROW_PT
+    top = plot_bottom - tick_rows * TICK_ROW_PT - CAPTION_ROW_PT
     _draw_legend(group, legend, top, width_pt)
     top -= len(legend) * LEGEND_ROW_PT
     for line in note_lines:
@@ -966,16 +1034,22 @@ def coverage_chart(rows: Sequence[Mapping], *, width_pt: float = 640, height_pt:
         top -= NOTE_ROW_PT
     drawing.add(group)
 
-    def described(band: str, one_km: float | None, two_km: float | None, share_pct: float | None) -> str:
+    def described(index: int, band: str, one_km: float | None, two_km: float | None, share_pct: float | None) -> str:
         ranges = ", ".join(f"{_km_text(value)} km with {count}" if value is not None
                            else f"no range with {count} (outside the model's validity)"
                            for count, value in (("one", one_km), ("two", two_km)))
         share = (f", one antenna covers {share_pct:.0f} % of the two-antenna area" if share_pct is not None
                  else ", no area share")
-        return f"{band}: {ranges}{share}"
+        limit = ""
+        if show_limits:
+            one, two = limits[index]
+            limit = (f", the {DIRECTION_WORDS[one]} limits with either" if one == two else
+                     f", the {DIRECTION_WORDS[one]} limits with one and the {DIRECTION_WORDS[two]} with two")
+        return f"{band}: {ranges}{share}{limit}"
 
-    description = ("Maximum downlink range per band with one and with two receive antennas, in km, from the "
-                   "coverage analysis. " + "; ".join(described(*row) for row in parsed) + ".")
+    description = ("Maximum range per band with one and with two receive antennas, in km, set by the direction "
+                   "that limits, from the coverage analysis. "
+                   + "; ".join(described(index, *row) for index, row in enumerate(parsed)) + ".")
     drawing.layout = ChartLayout(title=title, description=description, plot_box=plot_box, y=y_axis,
                                  bars=tuple(bars))
     return drawing

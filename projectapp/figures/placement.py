@@ -1,6 +1,8 @@
 """The placement drawing: where the antennas sit in the enclosure, which way they are polarized, how far
-the reactive near field and a quarter wave reach around each one at the lowest frequency, and every pair
-of antennas coloured by the worst spacing finding about it.
+the reactive near field and a quarter wave reach around each cellular antenna at the lowest frequency,
+every pair of cellular antennas coloured by the worst spacing finding about it, GNSS and WLAN antennas with
+their own symbols, and a dashed line for each cellular antenna and GNSS or WLAN antenna that a coexistence
+finding names.
 
 One reportlab `Drawing` serves both outputs: `placement_svg` turns it into an accessible inline <svg> for
 the page, and the PDF record places the same drawing as a flowable, so the two never disagree. Lengths
@@ -20,7 +22,7 @@ from typing import Any
 
 import numpy as np
 from reportlab.graphics import renderSVG
-from reportlab.graphics.shapes import Circle, Drawing, Group, Line, Polygon, Rect, String
+from reportlab.graphics.shapes import Circle, Drawing, Group, Line, Polygon, PolyLine, Rect, String
 from reportlab.lib import colors
 from reportlab.lib.attrmap import AttrMap, AttrMapValue
 from reportlab.lib.utils import simpleSplit
@@ -28,7 +30,7 @@ from reportlab.lib.validators import isAnything
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
 from rules import physics
-from rules.design import Antenna, Design
+from rules.design import CELLULAR_ROLES, Antenna, Design, find_band
 from rules.findings import SEVERITIES, Finding
 
 INK = colors.HexColor("#1f2a33")
@@ -86,6 +88,11 @@ MAX_NAME_CHARS = 24
 # drawing of every pair is a thicket (32 antennas have 496 pairs) and costs the page its speed; the
 # pairs with a spacing finding are drawn first, worst and nearest first, then the nearest others.
 MAX_DRAWN_PAIRS = 28
+# Coexistence lines drawn at most (worst first): a design with a few GNSS and WLAN antennas beside eight
+# cellular ones stays legible, and the placer's work stays bounded as above.
+MAX_COEXISTENCE_LINES = 16
+COEXISTENCE_DASH = [6, 3]
+COEXISTENCE_LABEL_CHARS = 40
 DRAWABLE_MM = 1e9  # a thousand kilometres: beyond any enclosure, within float precision of a millimetre
 
 Box = tuple[float, float, float, float]  # x0, y0, x1, y1
@@ -97,6 +104,23 @@ class PairLine:
     second: str
     distance_mm: float  # feed to feed, in three dimensions (the drawing shows its projection)
     severity: str | None  # worst separation finding about the pair; None when there is none; NOT_JUDGED
+
+
+@dataclass(frozen=True)
+class CoexistenceLine:
+    """A cellular antenna and a GNSS or WLAN antenna that coexistence findings name, with the worst severity,
+    the cellular bands and the victims (e.g. 'GNSS L1/E1') those findings give."""
+
+    cellular: str
+    victim: str
+    severity: str
+    bands: tuple[str, ...]
+    victims: tuple[str, ...]
+
+    @property
+    def label(self) -> str:
+        text = ", ".join(self.bands) + (" → " + ", ".join(self.victims) if self.victims else "")
+        return text if len(text) <= COEXISTENCE_LABEL_CHARS else text[:COEXISTENCE_LABEL_CHARS - 1] + "…"
 
 
 @dataclass(frozen=True)
@@ -113,10 +137,11 @@ class PlacementLayout:
     enclosure_given: bool
     placed: tuple[str, ...]
     unplaced: tuple[str, ...]
-    pairs: tuple[PairLine, ...]  # every pair of placed antennas
+    pairs: tuple[PairLine, ...]  # every pair of placed cellular antennas
     title: str
     description: str
     drawn_pairs: tuple[PairLine, ...] = ()  # the pairs with a line and a label (at most MAX_DRAWN_PAIRS)
+    coexistence: tuple[CoexistenceLine, ...] = ()  # the coexistence lines drawn (at most MAX_COEXISTENCE_LINES)
 
     @property
     def has_side_view(self) -> bool:
@@ -166,6 +191,56 @@ def pair_severities_from_findings(findings: Iterable[Finding | Mapping[str, Any]
         if current is None or SEVERITIES.index(severity) < SEVERITIES.index(current):
             worst[pair] = severity
     return worst
+
+
+def coexistence_lines_from_findings(findings: Iterable[Finding | Mapping[str, Any]],
+                                    design: Design) -> list[CoexistenceLine]:
+    """One line per cellular antenna and GNSS or WLAN antenna that `coexistence` findings name, worst first.
+
+    A finding's subjects name the antennas (and the band); a finding that names only the victim is drawn
+    from the transmitting (main) antennas, whose uplink is the aggressor, and one that names only a cellular
+    antenna to every antenna of the victim's radio (its evidence `victim`, e.g. 'GNSS L1/E1'). Stored
+    checklists work too (the findings' dict form); a finding that names an antenna the design doesn't have is
+    left out."""
+    roles = {antenna.name: antenna.role for antenna in design.antennas}
+    found: dict[tuple[str, str], tuple[str, list[str], list[str]]] = {}
+    for finding in findings:
+        if isinstance(finding, Finding):
+            topic, severity, subjects, evidence = (finding.topic, finding.severity, finding.subjects,
+                                                   finding.evidence)
+        else:
+            topic, severity = finding.get("topic"), finding.get("severity")
+            subjects, evidence = finding.get("subjects"), finding.get("evidence")
+        if topic != "coexistence" or severity not in SEVERITIES or not isinstance(subjects, (list, tuple)):
+            continue
+        evidence = evidence if isinstance(evidence, Mapping) else {}
+        if any(not isinstance(subject, str) or (subject not in roles and find_band(subject) is None)
+               for subject in subjects):
+            continue  # it names an antenna this design does not have (say, a renamed one): nothing to join
+        named = [subject for subject in subjects if subject in roles]
+        victim_text = evidence.get("victim") if isinstance(evidence.get("victim"), str) else ""
+        victim_role = "wlan" if victim_text.upper().startswith("WLAN") else "gnss" if victim_text else None
+        cellular = [name for name in named if roles[name] in CELLULAR_ROLES]
+        victims = [name for name in named if roles[name] not in CELLULAR_ROLES]
+        if not cellular:
+            cellular = [name for name, role in roles.items() if role == "main"]
+        if not victims and victim_role is not None:
+            victims = [name for name, role in roles.items() if role == victim_role]
+        band = evidence.get("band")
+        bands = [band] if isinstance(band, str) else [subject for subject in subjects
+                                                     if isinstance(subject, str) and subject not in roles]
+        for first in cellular:
+            for second in victims:
+                worst, known_bands, known_victims = found.get((first, second), (severity, [], []))
+                if SEVERITIES.index(severity) < SEVERITIES.index(worst):
+                    worst = severity
+                known_bands += [item for item in bands if item not in known_bands]
+                if victim_text and victim_text not in known_victims:
+                    known_victims.append(victim_text)
+                found[(first, second)] = (worst, known_bands, known_victims)
+    lines = [CoexistenceLine(first, second, severity, tuple(bands), tuple(victims))
+             for (first, second), (severity, bands, victims) in found.items()]
+    return sorted(lines, key=lambda line: SEVERITIES.index(line.severity))
 
 
 # -- small helpers ----------------------------------------------------------------------------------------
@@ -361,7 +436,8 @@ class _Label:
 
 
 def _marker(group: Group, x: float, y: float, role: str, mounting: str) -> Box:
-    """Square for the main antenna, diamond for a receive one; hollow when mounted outside."""
+    """Square for the main antenna, diamond for a receive one, circle for a GNSS antenna, triangle for a WLAN
+    one; hollow when mounted outside."""
     external = mounting == "external"
     fill = WHITE if external else INK
     stroke = INK if external else WHITE
@@ -370,6 +446,13 @@ def _marker(group: Group, x: float, y: float, role: str, mounting: str) -> Box:
     if role == "main":
         group.add(Rect(x - half, y - half, 2 * half, 2 * half, fillColor=fill, strokeColor=stroke,
                        strokeWidth=width))
+    elif role == "gnss":
+        half *= 1.15
+        group.add(Circle(x, y, half, fillColor=fill, strokeColor=stroke, strokeWidth=width))
+    elif role == "wlan":
+        half *= 1.3
+        group.add(Polygon([x, y + half, x + half, y - 0.75 * half, x - half, y - 0.75 * half], fillColor=fill,
+                          strokeColor=stroke, strokeWidth=width))
     else:
         half *= 1.35
         group.add(Polygon([x, y + half, x + half, y, x, y - half, x - half, y], fillColor=fill,
@@ -392,6 +475,12 @@ def _arrow(group: Group, x: float, y: float, dx: float, dy: float, half_pt: floa
                            base_x + dy * wing_pt, base_y - dx * wing_pt],
                           fillColor=colour, strokeColor=None))
     return start, end
+
+
+def _dashed(start: tuple[float, float], end: tuple[float, float], colour: colors.Color) -> PolyLine:
+    """A coexistence line. A PolyLine, not a Line: the SVG renderer closes a Line's path (Z), and a dash pattern
+    drawn there and back fills its own gaps."""
+    return PolyLine([*start, *end], strokeColor=colour, strokeWidth=1.5, strokeDashArray=COEXISTENCE_DASH)
 
 
 def _out_of_page(group: Group, x: float, y: float, dot: bool = False) -> Box:
@@ -573,7 +662,7 @@ def _rect_pt(view: _View, box_mm: Box) -> tuple[float, float, float, float]:
 
 def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: Sequence[Antenna],
               pairs: Sequence[PairLine], enclosure: Box | None, near_field_mm: float | None,
-              quarter_wave_mm: float | None, step_mm: float) -> None:
+              quarter_wave_mm: float | None, step_mm: float, coexistence: Sequence[CoexistenceLine] = ()) -> None:
     _grid(group, view, step_mm, step_mm, "x", "y")
     placer = _Placer(view.box)
     deferred: list[tuple[_Label, list[tuple[float, float]]]] = []
@@ -610,7 +699,9 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
               for antenna in placed}
     for antenna in placed:
         if near_field_mm is None or quarter_wave_mm is None:
-            break
+            break  # no band chosen yet: no circles
+        if not antenna.is_cellular:  # the circles are the cellular band's; GNSS and WLAN work far above it
+            continue
         x, y = points[antenna.name]
         group.add(Circle(x, y, quarter_wave_mm * view.scale, fillColor=None, strokeColor=MUTED,
                          strokeWidth=0.9, strokeDashArray=QUARTER_WAVE_DASH))
@@ -622,6 +713,11 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
         start, end = points[pair.first], points[pair.second]
         if start != end:
             group.add(Line(*start, *end, strokeColor=colour, strokeWidth=1.8))
+            placer.block_segment(start, end, 1.5, 1.0)
+    for line in coexistence:
+        start, end = points[line.cellular], points[line.victim]
+        if start != end:
+            group.add(_dashed(start, end, SEVERITY_COLOURS[line.severity]))
             placer.block_segment(start, end, 1.5, 1.0)
 
     for antenna in placed:
@@ -646,6 +742,14 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
                 centre_y = middle_y + along * (y2 - y1) + side * normal[1] * (label.height + 2)
                 anchors.append((centre_x - label.width / 2, centre_y - label.height / 2))
         anchors += _around(middle_x, middle_y, 8.0, label.width, label.height)
+        label.draw(labels, placer.place(label.width, label.height, anchors))
+    for line in coexistence:
+        colour = SEVERITY_COLOURS[line.severity]
+        label = _Label(line.label, FONT_ITALIC, 7.5, colour, border=colour)
+        (x1, y1), (x2, y2) = points[line.cellular], points[line.victim]
+        anchors = [((x1 + x2) / 2 + along * (x2 - x1) - label.width / 2,
+                    (y1 + y2) / 2 + along * (y2 - y1) - label.height / 2) for along in (0.15, -0.15, 0.3, 0.0)]
+        anchors += _around((x1 + x2) / 2, (y1 + y2) / 2, 8.0, label.width, label.height)
         label.draw(labels, placer.place(label.width, label.height, anchors))
     for label, anchors in deferred:
         label.draw(labels, placer.place(label.width, label.height, anchors))
@@ -697,7 +801,11 @@ class _Entry:
 
 
 def _legend_groups(frequency_mhz: float | None, near_field_mm: float | None, quarter_wave_mm: float | None,
+                   roles: frozenset[str] = frozenset(), coexistence: bool = False,
                    judged: bool = True) -> list[tuple[str, list[_Entry]]]:
+    """The legend; the GNSS, WLAN and coexistence entries only when the drawing has such antennas or lines; no
+    circles before a band is chosen (no frequency), and the pairs 'not judged yet' while a draft's spacing
+    checks wait (`judged` false)."""
     def zone(dash: list[float], tint: colors.Color | None) -> Callable[[Group, float, float], object]:
         return lambda group, x, y: group.add(Circle(x, y, 6.5, fillColor=tint, strokeColor=MUTED,
                                                     strokeWidth=0.9, strokeDashArray=dash))
@@ -717,27 +825,36 @@ def _legend_groups(frequency_mhz: float | None, near_field_mm: float | None, qua
         *(_Entry(pair_line(SEVERITY_COLOURS[severity]), severity) for severity in SEVERITIES),
         _Entry(pair_line(NO_FINDING_COLOUR), "no finding", "label: 3-D distance in mm"),
     ] if judged else [_Entry(pair_line(NOT_JUDGED_COLOUR), NOT_JUDGED, "the spacing checks wait for an answer")]
+    if coexistence:
+        pair_entries.append(_Entry(lambda group, x, y: group.add(_dashed((x - 11, y), (x + 11, y),
+                                                                         SEVERITY_COLOURS["warning"])),
+                                   "dashed: coexistence finding", "cellular bands → the GNSS or WLAN band"))
+    pairs_title = "Cellular antenna pairs, feed to feed"
     if frequency_mhz is None or near_field_mm is None or quarter_wave_mm is None:
-        return [_antenna_legend(), ("Outlines (circles follow once bands are chosen)", outlines),
-                ("Antenna pairs, feed to feed", pair_entries)]
+        return [_antenna_legend(roles), ("Outlines (circles follow once bands are chosen)", outlines),
+                (pairs_title, pair_entries)]
     frequency = f"{frequency_mhz:g} MHz"
     return [
-        _antenna_legend(),
-        (f"Around each antenna at {frequency}", [
+        _antenna_legend(roles),
+        (f"Around each {'cellular ' if roles - set(CELLULAR_ROLES) else ''}antenna at {frequency}", [
             _Entry(zone(NEAR_FIELD_DASH, NEAR_FIELD_TINT), f"λ/2π = {near_field_mm:.1f} mm at {frequency}",
                    "reactive near field"),
             _Entry(zone(QUARTER_WAVE_DASH, None), f"λ/4 = {quarter_wave_mm:.1f} mm at {frequency}",
                    "quarter wave, the usual minimum spacing"),
             *outlines,
         ]),
-        ("Antenna pairs, feed to feed", pair_entries),
+        (pairs_title, pair_entries),
     ]
 
 
-def _antenna_legend() -> tuple[str, list[_Entry]]:
+def _antenna_legend(roles: frozenset[str]) -> tuple[str, list[_Entry]]:
     return ("Antennas", [
         _Entry(lambda group, x, y: _marker(group, x, y, "main", "internal"), "main antenna, at its feed"),
         _Entry(lambda group, x, y: _marker(group, x, y, "receive", "internal"), "receive antenna"),
+        *([_Entry(lambda group, x, y: _marker(group, x, y, "gnss", "internal"), "GNSS antenna",
+                  "satellite navigation; not a cellular branch")] if "gnss" in roles else []),
+        *([_Entry(lambda group, x, y: _marker(group, x, y, "wlan", "internal"), "WLAN antenna",
+                  "Wi-Fi or Bluetooth; not a cellular branch")] if "wlan" in roles else []),
         _Entry(lambda group, x, y: _marker(group, x, y, "main", "external"), "hollow: external antenna"),
         _Entry(lambda group, x, y: _arrow(group, x, y, 1.0, 0.0, 11.0), "polarization axis",
                "projected; shorter when tilted out of view"),
@@ -821,7 +938,7 @@ def _product_words(design: Design, record: str) -> str:
 
 def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[PairLine], frequency_mhz: float | None,
                  near_field_mm: float | None, quarter_wave_mm: float | None, side_view: bool, all_pairs: int,
-                 record: str = "") -> str:
+                 coexistence: Sequence[CoexistenceLine] = (), all_coexistence: int = 0, record: str = "") -> str:
     product = _product_words(design, record)
     sentences = [f"Top view of the antenna placement of {product}: positions in mm in the enclosure frame, "
                  f"x to the right and y up."]
@@ -855,10 +972,16 @@ def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[Pair
         sentences.append(f"Lines are drawn for {len(pairs)} of the {all_pairs} pairs: those with a spacing "
                          f"finding, worst and nearest first, then the nearest others; the checklist lists "
                          f"every finding.")
-    if placed and frequency_mhz is None:
+    if coexistence:
+        sentences.append("Dashed lines join antennas a coexistence finding names: " + "; ".join(
+            f"{line.cellular} to {line.victim}, {line.label}, {line.severity}" for line in coexistence) + ".")
+    if all_coexistence > len(coexistence):
+        sentences.append(f"Coexistence lines are drawn for the {len(coexistence)} worst of {all_coexistence}.")
+    cellular_placed = any(antenna.is_cellular for antenna in placed)
+    if cellular_placed and frequency_mhz is None:
         sentences.append("No band is chosen yet, so no near-field or quarter-wave circles are drawn.")
-    elif placed:
-        sentences.append(f"Circles around each antenna show the reactive near field, λ/2π = "
+    elif cellular_placed:
+        sentences.append(f"Circles around each cellular antenna show the reactive near field, λ/2π = "
                          f"{near_field_mm:.1f} mm, and a quarter wave, λ/4 = {quarter_wave_mm:.1f} mm, at "
                          f"{frequency_mhz:g} MHz.")
     if side_view:
@@ -868,12 +991,14 @@ def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[Pair
 
 def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str], str] | None,
                       frequency_mhz: float | None, width_pt: float = 640, max_height_pt: float | None = None,
-                      record: str = "") -> PlacementDrawing:
+                      coexistence: Sequence[CoexistenceLine] = (), record: str = "") -> PlacementDrawing:
     """The placement drawing of a design, `width_pt` wide, judged at `frequency_mhz` (the lowest
     frequency in scope; None while a draft has no bands: no circles then). `pair_severities` maps a pair of
-    antenna names to its worst separation finding (see `pair_severities_from_findings`); a pair without an
-    entry is drawn as having none; None draws every pair as not judged yet (a draft whose spacing checks wait).
-    `record` names the record the drawing belongs to ("design revision 2"), beside the hardware revision.
+    antenna names to its worst separation finding (see `pair_severities_from_findings`); a pair of cellular
+    antennas without an entry is drawn as having none; None draws every pair as not judged yet (a draft whose
+    spacing checks wait). `coexistence` (see `coexistence_lines_from_findings`) adds a dashed line per pair it
+    names, the worst MAX_COEXISTENCE_LINES of those whose antennas are both placed. `record` names the record
+    the drawing belongs to ("design revision 2"), beside the hardware revision.
     `max_height_pt` (say, a PDF frame's height) shrinks the scale until the drawing fits, as far as
     the fixed rows (title, legend) allow.
 
@@ -887,8 +1012,16 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
     width_pt = float(width_pt)
     near_field_mm = physics.near_field_radius_mm(frequency_mhz) if frequency_mhz is not None else None
     quarter_wave_mm = physics.quarter_wave_mm(frequency_mhz) if frequency_mhz is not None else None
-    pairs = _pairs([antenna for antenna in design.antennas if antenna.position_mm is not None], pair_severities)
+    pairs = _pairs([antenna for antenna in design.antennas if antenna.position_mm is not None and antenna.is_cellular],
+                   pair_severities)
     drawn_pairs = _pairs_to_draw(pairs)
+    positioned = {antenna.name for antenna in design.antennas if antenna.position_mm is not None}
+    for line in coexistence:
+        if line.severity not in SEVERITY_COLOURS:
+            raise ValueError(f"unknown severity {line.severity!r} for {line.cellular} and {line.victim}; "
+                             f"expected one of {', '.join(SEVERITIES)}")
+    coexisting = [line for line in coexistence if line.cellular in positioned and line.victim in positioned]
+    drawn_coexistence = sorted(coexisting, key=lambda line: SEVERITIES.index(line.severity))[:MAX_COEXISTENCE_LINES]
     drawn = _drawable(design)
     placed = [antenna for antenna in drawn.antennas if antenna.position_mm is not None]
     unplaced = [antenna.name for antenna in drawn.antennas if antenna.position_mm is None]
@@ -897,8 +1030,9 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
     heights = {antenna.position_mm[2] for antenna in placed}  # type: ignore[index]
     side = _side_extent(drawn, placed) if len(heights) > 1 else None
 
-    legend = _legend_columns(width_pt, _legend_groups(frequency_mhz, near_field_mm, quarter_wave_mm,
-                                                      judged=pair_severities is not None))
+    legend = _legend_columns(width_pt, _legend_groups(
+        frequency_mhz, near_field_mm, quarter_wave_mm, frozenset(antenna.role for antenna in placed),
+        bool(drawn_coexistence), judged=pair_severities is not None))
     note_lines = simpleSplit(f"not placed: {', '.join(unplaced)} (no feed position given)", FONT_ITALIC, 8,
                              width_pt - 2 * MARGIN_PT) if unplaced else []
     if len(drawn_pairs) < len(pairs):
@@ -938,7 +1072,7 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
     group.add(String(MARGIN_PT, _baseline(top - 13), _fit_text(title, FONT_BOLD, 13, width_pt - 2 * MARGIN_PT),
                      fontName=FONT_BOLD, fontSize=13, fillColor=INK))
     product = _product_words(design, record)
-    subtitle = f"{product} · positions in mm in the enclosure frame"  # the legend explains the pair lines
+    subtitle = f"{product} · positions in mm in the enclosure frame"  # the legend explains the lines
     group.add(String(MARGIN_PT, _baseline(top - 29), _fit_text(subtitle, FONT, 8.5, width_pt - 2 * MARGIN_PT),
                      fontName=FONT, fontSize=8.5, fillColor=MUTED))
     top -= HEADER_PT + 12
@@ -947,7 +1081,7 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
                      ex0 - PANEL_PAD_PT / scale, ey0 - PANEL_PAD_PT / scale, scale)
     labels = Group()
     _top_view(group, labels, top_view, drawn, placed, drawn_pairs, enclosure, near_field_mm, quarter_wave_mm,
-              step_mm)
+              step_mm, drawn_coexistence)
     group.add(labels)
     top -= top_height_pt + TICK_ROW_PT
     scale_bar_mm = _scale_bar(group, panel_left_pt, top, scale, width_pt, panel_width_pt)
@@ -985,8 +1119,9 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
         pairs=tuple(pairs),
         title=f"Antenna placement of {design.product_name or 'this product'}",
         description=_description(design, placed, drawn_pairs, frequency_mhz, near_field_mm, quarter_wave_mm,
-                                 side is not None, len(pairs), record),
+                                 side is not None, len(pairs), drawn_coexistence, len(coexisting), record),
         drawn_pairs=tuple(drawn_pairs),
+        coexistence=tuple(drawn_coexistence),
     )
     return drawing
 
@@ -1027,7 +1162,7 @@ def _clean_prefix(id_prefix: str) -> str:
 
 def placement_svg(design: Design, *, pair_severities: Mapping[frozenset[str], str] | None,
                   frequency_mhz: float | None, width_pt: float = 640, id_prefix: str = "placement",
-                  record: str = "") -> str:
+                  coexistence: Sequence[CoexistenceLine] = (), record: str = "") -> str:
     """The placement drawing as a standalone <svg> element to inline in HTML.
 
     It has role="img" and is labelled by its <title> and <desc> (a sentence listing the antennas, their
@@ -1035,7 +1170,7 @@ def placement_svg(design: Design, *, pair_severities: Mapping[frozenset[str], st
     two drawings can share a page; it scales to its container, at most its natural width.
     """
     drawing = placement_drawing(design, pair_severities=pair_severities, frequency_mhz=frequency_mhz,
-                                width_pt=width_pt, record=record)
+                                width_pt=width_pt, coexistence=coexistence, record=record)
     layout: PlacementLayout = drawing.layout
     return accessible_svg(drawing, title=layout.title, description=layout.description, id_prefix=id_prefix)
 

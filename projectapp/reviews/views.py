@@ -93,6 +93,11 @@ def dashboard(request):
     return render(request, template, context, status=form.status)
 
 
+def _digests(revision) -> dict[str, str]:
+    """File name -> SHA-256 of the revision's measurement files, named beside a finding a measurement cleared."""
+    return dict(revision.measurement_files.values_list("name", "sha256"))
+
+
 def _card_context(request, item: ReviewItem, *, approvers: set[int] | None = None, **extra) -> dict:
     people = services.assignable_people(item.revision)
     if approvers is None:
@@ -125,7 +130,8 @@ def revision_review(request, product_id: int, number: int):
     settled = sum(1 for card in raised if card["item"].is_settled)
     return render(request, "reviews/revision_review.html", {
         "product": revision.product, "revision": revision, "cards": raised, "resolved": resolved,
-        "counts": (settled, len(raised)), "previous": services._previous_submitted(revision)})
+        "counts": (settled, len(raised)), "previous": services._previous_submitted(revision),
+        "measurement_digests": _digests(revision)})
 
 
 @login_required
@@ -139,6 +145,7 @@ def item_detail(request, item_id: int):
         "events": item.audit_events.select_related("actor"),
         "product": item.revision.product,
         "revision": item.revision,
+        "measurement_digests": _digests(item.revision),
     })
 
 
@@ -153,7 +160,7 @@ def _answer(request, item: ReviewItem, *, status: int = 200, **extra):
     """The item's card for htmx (on the review page, with its settled count out of band, so the count follows
     each decision); a redirect back to the form's page otherwise."""
     if request.htmx:
-        context = _card_context(request, item, **extra)
+        context = _card_context(request, item, measurement_digests=_digests(item.revision), **extra)
         review_url = reverse("revision_review", args=[item.revision.product_id, item.revision.number])
         if (request.htmx.current_url_abs_path or "").split("?")[0] == review_url:
             context["oob_counts"] = settled_count(item.revision)

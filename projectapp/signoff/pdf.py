@@ -38,10 +38,22 @@ from reportlab.platypus import (
 )
 from reportlab.platypus.flowables import Flowable
 
-from projectapp.designs.checklists import measurement_reader
+from projectapp.designs import coverage_panel
+from projectapp.designs.checklists import cellular_patterns, measurement_digests, measurement_reader
 from projectapp.designs.models import Revision
-from projectapp.figures.charts import correlation_chart, coverage_chart, isolation_chart, return_loss_chart
-from projectapp.figures.placement import pair_severities_from_findings, placement_drawing
+from projectapp.designs.templatetags.checklist import basis_words, outranked
+from projectapp.figures.charts import (
+    correlation_chart,
+    coverage_chart,
+    isolation_chart,
+    pattern_correlation_chart,
+    return_loss_chart,
+)
+from projectapp.figures.placement import (
+    coexistence_lines_from_findings,
+    pair_severities_from_findings,
+    placement_drawing,
+)
 from projectapp.reviews.models import ReviewItem
 from projectapp.reviews.provenance import decision_lines
 from projectapp.reviews.services import approver_ids
@@ -56,8 +68,9 @@ from projectapp.signoff.record_fonts import (
     register,
     text_width,
 )
-from rules.coverage import TABLE_COLUMNS, analyse_coverage
+from rules.coverage import analyse_coverage
 from rules.design import parse_design
+from rules.farfield import environment_text
 from rules.measurements import LoadedMeasurement, attach_measurements
 
 logger = logging.getLogger(__name__)
@@ -87,6 +100,8 @@ H3 = ParagraphStyle("h3", parent=BODY, fontName=SANS_BOLD, fontSize=10, leading=
                     spaceAfter=2)
 CELL = ParagraphStyle("cell", parent=SMALL)
 CELL_BOLD = ParagraphStyle("cellbold", parent=SMALL, fontName=SANS_BOLD)
+CELL_MUTED = ParagraphStyle("cellmuted", parent=CELL, textColor=MUTED, spaceBefore=0)
+MONO_SMALL = ParagraphStyle("monosmall", parent=SMALL, fontSize=6.5, leading=8)  # a SHA-256 breaks where it must
 # A row splits across pages only when it must, and never into a piece shorter than this (points).
 MIN_ROW_PIECE_PT = 30
 # Longer justifications are cut in the checklist table and printed whole under the findings in detail.
@@ -182,15 +197,22 @@ def _design_summary(design) -> list[Flowable]:
             f"people at {design.deployment.body_distance_mm:g} mm" if design.deployment.body_distance_mm is not None
             else ""]))],
     ]
-    rows = [["Name", "Role", "Mounting", "Feed x, y, z (mm)", "Axis", "Rated (MHz)", "Gain (dBi)", "Cable (dB)"]]
+    facts[5:5] = _modem_facts(design)
+    rows = [["Name", "Role", "Mounting", "Feed x, y, z (mm)", "Axis", "Rated (MHz)", "Cable (dB)"]]
+    figures = [["Name", "Peak gain (dBi)", "Total efficiency (%)", "Efficiency from"]]
     for antenna in design.antennas:
         rows.append([
-            antenna.name, antenna.role, antenna.mounting,
+            antenna.name, ROLE_WORDS.get(antenna.role, antenna.role), antenna.mounting,
             ", ".join(f"{v:g}" for v in antenna.position_mm) if antenna.position_mm else "—",
             ", ".join(f"{v:g}" for v in antenna.polarization) if antenna.polarization else "—",
             ", ".join(f"{lo:g}–{hi:g}" for lo, hi in antenna.ranges_mhz) if antenna.ranges_mhz else "—",
-            f"{antenna.peak_gain_dbi:g}" if antenna.peak_gain_dbi is not None else "—",
             f"{antenna.cable_loss_db:g}",
+        ])
+        figures.append([
+            antenna.name, _gain_text(antenna),
+            _per_band(antenna.efficiency_pct, "") or "not given",
+            EFFICIENCY_SOURCE_WORDS.get(antenna.efficiency_source, antenna.efficiency_source)
+            if antenna.efficiency_pct else "—",
         ])
     width = FRAME_WIDTH
     return [
@@ -198,8 +220,46 @@ def _design_summary(design) -> list[Flowable]:
         grid_table(facts, [55 * mm, width - 55 * mm], header=False),
         Spacer(1, 4 * mm),
         p("Antennas", H3),
-        grid_table(rows, [18 * mm, 16 * mm, 17 * mm, 28 * mm, 18 * mm, width - 135 * mm, 18 * mm, 20 * mm]),
+        grid_table(rows, [18 * mm, 30 * mm, 17 * mm, 28 * mm, 18 * mm, width - 131 * mm, 20 * mm]),
+        Spacer(1, 3 * mm),
+        p("Antenna figures per band", H3),
+        grid_table(figures, [18 * mm, 55 * mm, 55 * mm, width - 128 * mm]),
     ]
+
+
+ROLE_WORDS = {"main": "main (cellular, sends and receives)", "receive": "receive (cellular)",
+              "gnss": "GNSS (satellite navigation)", "wlan": "WLAN (Wi-Fi, Bluetooth)"}
+EFFICIENCY_SOURCE_WORDS = {"datasheet": "antenna datasheet", "measured": "measured in this product"}
+
+
+def _per_band(values, unit: str) -> str:
+    return ", ".join(f"{band} {value:g}{unit}" for band, value in values.items())
+
+
+def _gain_text(antenna) -> str:
+    """Peak gain as entered: one figure for every band, or each band's own (a band left out is not judged)."""
+    if antenna.peak_gain_dbi is not None:
+        return f"{antenna.peak_gain_dbi:g} in every band"
+    return _per_band(antenna.peak_gain_dbi_per_band, "") or "not given"
+
+
+def _modem_facts(design) -> list[list[str]]:
+    """Rule set 2's module and deployment figures: power class, sensitivity, LTE-M duplex, satellite access,
+    the team's radiated targets."""
+    modem = design.modem
+    facts = [
+        ["Power class", f"class {modem.power_class}: {modem.max_output_dbm:g} dBm conducted"],
+        ["Conducted sensitivity", _per_band(modem.conducted_sensitivity_dbm, " dBm") or "not given"],
+    ]
+    if modem.category.id in ("cat-m1", "cat-m2"):
+        facts.append(["LTE-M duplex", "full duplex (FD-FDD)" if modem.full_duplex else "half duplex (HD-FDD)"])
+    facts.append(["Satellite (NTN) access", "supported" if modem.ntn else "not declared"])
+    for label, name in (("Radiated target, TRP (at least)", "trp_targets_dbm"),
+                        ("Radiated target, TIS (at most)", "tis_targets_dbm")):
+        targets = getattr(design.deployment, name, None)
+        if targets:
+            facts.append([label, _per_band(targets, " dBm")])
+    return facts
 
 
 def _band_table(checklist: dict[str, Any]) -> list[Flowable]:
@@ -218,10 +278,11 @@ def _band_table(checklist: dict[str, Any]) -> list[Flowable]:
 
 
 def _checklist(items: list[ReviewItem], approvers: set[int]) -> list[Flowable]:
-    rows = [["Severity", "Rule", "Finding", "Decision", "Justification"]]
+    rows = [["Severity, basis", "Rule", "Finding", "Decision", "Justification"]]
     for item in items:
-        severity = Paragraph(f'<font color="{SEVERITY_COLOURS[item.severity].hexval().replace("0x", "#")}">'
-                             f"<b>{esc(item.severity.upper())}</b></font>", CELL)
+        severity = [Paragraph(f'<font color="{SEVERITY_COLOURS[item.severity].hexval().replace("0x", "#")}">'
+                              f"<b>{esc(item.severity.upper())}</b></font>", CELL),
+                    p(basis_words(item.finding) or "—", CELL_MUTED)]
         # One paragraph per line: a line break inside a paragraph takes reportlab's slower layout path.
         decision = [Paragraph(f"<b>{esc(item.get_disposition_display())}</b>", CELL),
                     *[p(line.text) for line in decision_lines(item, approver_ids=approvers)]]
@@ -256,19 +317,29 @@ def _figure(what: str, build: Callable[[], Flowable | None]) -> list[Flowable]:
     return [] if drawing is None else [embed_drawing_text(drawing)]
 
 
-def _finding_details(items: list[ReviewItem]) -> list[Flowable]:
+def _finding_details(items: list[ReviewItem], digests: dict[str, str]) -> list[Flowable]:
     flowables: list[Flowable] = [p("Findings in detail", H2)]
     for item in items:
         finding = item.finding
         evidence = ", ".join(f"{key} {value}" for key, value in finding.get("evidence", {}).items()
                              if value is not None)
+        basis = basis_words(finding)
         block = [
             Paragraph(f"<b>{esc(finding['id'])}</b> · {esc(finding['severity'])} · {esc(finding['topic'])}"
                       f"{' · ' + esc(', '.join(finding.get('subjects', []))) if finding.get('subjects') else ''}"
+                      f"{' · ' + esc(basis) if basis else ''}"
                       f" — {esc(finding['title'])}", BODY),
             p(finding["explanation"], SMALL),
             Paragraph(f"<b>Action:</b> {esc(finding['action'])}", SMALL),
         ]
+        cleared = outranked(finding, digests)
+        if cleared:
+            design_severity = finding.get("evidence", {}).get("design_severity")
+            block.append(Paragraph(
+                "<b>Cleared by measurement</b>"
+                + (f" (from the design alone: {esc(design_severity)})" if isinstance(design_severity, str) else "")
+                + ": " + "; ".join(esc(entry["name"]) + (f", SHA-256 {esc(entry['sha256'])}" if entry["sha256"] else "")
+                                   for entry in cleared), SMALL))
         if evidence:
             block.append(Paragraph(f"<b>Evidence:</b> {esc(evidence)}", SMALL))
         block.append(Paragraph(f"<b>Sources:</b> {esc('; '.join(finding.get('references', [])))}", MUTED_SMALL))
@@ -280,10 +351,37 @@ def _finding_details(items: list[ReviewItem]) -> list[Flowable]:
     return flowables
 
 
-def _measurement_charts(measurements: Sequence[LoadedMeasurement], design) -> list[Flowable]:
-    if not measurements:
+def _measurement_files(revision: Revision, measurements: Sequence[LoadedMeasurement]) -> list[list[Any]]:
+    """One row per kept file: name, kind, what it measured, SHA-256 (what a reader checks a copy against)."""
+    patterns = {pattern.file: pattern for pattern in getattr(measurements, "far_fields", ())}
+    touchstone = {measurement.file: measurement for measurement in measurements}
+    rows: list[list[Any]] = [["File", "Kind", "Measured", "SHA-256"]]
+    for kept in revision.measurement_files.all():
+        if kept.name in patterns:
+            pattern = patterns[kept.name]
+            grid = pattern.pattern
+            what = (f"{pattern.antenna}; {'absolute (realized gain)' if pattern.absolute else 'relative field'}; "
+                    f"{environment_text(pattern.environment)}; {grid.frequencies_mhz.size} frequencies "
+                    f"({', '.join(f'{value:g}' for value in grid.frequencies_mhz[:8])}"
+                    f"{', …' if grid.frequencies_mhz.size > 8 else ''} MHz); grid {grid.theta_step_deg:g}° × "
+                    f"{grid.phi_step_deg:g}°")
+        elif kept.name in touchstone:
+            measurement = touchstone[kept.name]
+            what = "ports " + ", ".join(f"{index + 1} = {name or 'not connected'}"
+                                        for index, name in enumerate(measurement.ports))
+        else:
+            what = "kept, not named in the design"
+        rows.append([kept.name, kept.get_kind_display(), what, Paragraph(esc(kept.sha256), MONO_SMALL)])
+    return rows
+
+
+def _measurement_charts(revision: Revision, measurements: Sequence[LoadedMeasurement], design) -> list[Flowable]:
+    files = _measurement_files(revision, measurements)
+    if len(files) == 1:
         return []
-    flowables: list[Flowable] = [PageBreak(), p("Measurements", H2)]
+    flowables: list[Flowable] = [PageBreak(), p("Measurements", H2),
+                                 grid_table(files, [38 * mm, 24 * mm, FRAME_WIDTH - 122 * mm, 60 * mm]),
+                                 Spacer(1, 3 * mm)]
     for measurement in measurements:
         flowables.append(p(f"{measurement.file}: ports " + ", ".join(
             f"{index + 1} = {name or 'not connected'}" for index, name in enumerate(measurement.ports)), SMALL))
@@ -292,6 +390,11 @@ def _measurement_charts(measurements: Sequence[LoadedMeasurement], design) -> li
                             partial(build, measurement, design, width_pt=FRAME_WIDTH, height_pt=200))
             if drawn:
                 flowables += [CondPageBreak(215), *drawn, Spacer(1, 3 * mm)]
+    patterns = cellular_patterns(measurements, design)
+    if patterns:
+        drawn = _figure("far-field correlation chart", partial(pattern_correlation_chart, patterns, design,
+                                                               width_pt=FRAME_WIDTH, height_pt=200))
+        flowables += [CondPageBreak(215), *drawn, Spacer(1, 3 * mm)]
     return flowables
 
 
@@ -299,24 +402,30 @@ def _coverage(measurements: Sequence[LoadedMeasurement], design) -> list[Flowabl
     rows = [analysis.as_dict() for analysis in analyse_coverage(design, measurements)]
     if not rows:
         return []
-    table = [[f"{label} ({unit})" if unit else label for _, label, unit in TABLE_COLUMNS]]
-    table += [["—" if row.get(key) is None else row.get(key) for key, _, _ in TABLE_COLUMNS] for row in rows]
-    widths = [FRAME_WIDTH / len(TABLE_COLUMNS)] * len(TABLE_COLUMNS)
-    notes = [f"{row['band']}: {row['model_label']} ({row['model_source']}"
-             + (f"; {row['model_reason']}" if row["model_reason"] else "") + f"); downlink target {row['mcl_dl_db']} dB "
-             f"({row['mcl_dl_source']}); "
-             + (f"uplink target {row['mcl_ul_db']} dB ({row['mcl_ul_source']}), power class {row['power_class']} "
-                f"({row['max_output_dbm']} dBm); " if row["mcl_ul_db"] is not None else "no uplink (SDL); ")
-             + f"one receive branch fewer {row['single_branch_cost_db']} dB ({row['single_branch_source']}), "
-             f"flat-Rayleigh bound {row['fading_bound_db']} dB; entry loss {row['entry_loss_db']} dB "
-             f"({row['entry_loss_source']}); cable loss {row['cable_loss_db']} dB; ECC {row['ecc']} ({row['ecc_source']})."
-             for row in rows]
-    return [PageBreak(), p("Coverage with one and two receive antennas", H2),
-            p("Uplink and downlink budgets at each direction's lowest frequency; the direction with less margin "
-              "limits. Estimates with the stated assumptions.", MUTED_SMALL),
+    panel = coverage_panel.panel(rows, coverage_panel.CoverageAssumptionsForm({}).read())
+    tables: list[Flowable] = []
+    for start in range(0, len(rows), COVERAGE_BANDS_PER_TABLE):  # a table of at most so many bands fits the page
+        bands = rows[start:start + COVERAGE_BANDS_PER_TABLE]
+        table: list[list[Any]] = [["per band", "unit", *[row["band"] for row in bands]]]
+        for group in panel["coverage_groups"]:
+            table.append([Paragraph(f"<b>{esc(group['title'])}</b>", CELL), "", *[""] * len(bands)])
+            table += [[line["label"], line["unit"], *line["cells"][start:start + len(bands)]] for line in group["rows"]]
+        band_width = (FRAME_WIDTH - 72 * mm) / COVERAGE_BANDS_PER_TABLE
+        tables += [grid_table(table, [60 * mm, 12 * mm, *[band_width] * len(bands)]), Spacer(1, 3 * mm)]
+    return [PageBreak(), p("Coverage: uplink and downlink, with one and two receive antennas", H2),
+            *[p(sentence, SMALL) for sentence in panel["coverage_headline"]],
+            Spacer(1, 2 * mm),
             *_figure("coverage chart", lambda: coverage_chart(rows, width_pt=FRAME_WIDTH, height_pt=200)),
             Spacer(1, 3 * mm),
-            grid_table(table, widths), Spacer(1, 2 * mm), *[p(note, MUTED_SMALL) for note in notes]]
+            p(f"Each direction budgeted at its lowest frequency in the band; margins at {rows[0]['reference_distance_km']:g} "
+              "km. Budgetary estimates: median path loss without shadow fading; the operator's acceptance and "
+              "over-the-air tests decide.", MUTED_SMALL),
+            Spacer(1, 2 * mm), *tables,
+            p("Sources", H3),
+            *[Paragraph(f"<b>{esc(what)}:</b> {esc(source)}", MUTED_SMALL) for what, source in panel["coverage_sources"]]]
+
+
+COVERAGE_BANDS_PER_TABLE = 7
 
 
 CAUTIONS = [
@@ -344,6 +453,7 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
     rank = {"blocker": 0, "warning": 1, "note": 2}
     items.sort(key=lambda item: (rank.get(item.severity, 9), item.topic, item.rule_id, item.subjects_key))
     signatures = list(revision.signatures.select_related("signer").order_by("id"))
+    digests = measurement_digests(revision)
     product = revision.product
     grouped = " ".join(fingerprint[index:index + 4] for index in range(0, 32, 4))
     # The footer's line leaves room for "page 999 of 999"; a long product name is cut to fit (the cover
@@ -386,12 +496,13 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
         *_figure("placement drawing", lambda: placement_drawing(
             design, pair_severities=pair_severities_from_findings(checklist["findings"]),
             frequency_mhz=design.lowest_mhz, width_pt=FRAME_WIDTH, max_height_pt=PAGE_HEIGHT - 80 * mm,
+            coexistence=coexistence_lines_from_findings(checklist["findings"], design),
             record=f"design revision {revision.number}")),
         PageBreak(),
         *_checklist(items, approver_ids(product.team)),
         Spacer(1, 4 * mm),
-        *_finding_details(items),
-        *_measurement_charts(measurements, design),
+        *_finding_details(items, digests),
+        *_measurement_charts(revision, measurements, design),
         *_coverage(measurements, design),
         CondPageBreak(60 * mm),
         p("Signatures", H2),

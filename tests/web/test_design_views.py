@@ -322,8 +322,8 @@ def test_nul_and_lone_surrogates_in_an_import_are_named_and_nothing_is_stored(cl
     client_for(client, author)
     before = product.draft.document
     for json_escape, expected in (("\\u0000", "product.name: control character U+0000 not allowed"),
-                             ("\\ud800", "product.name: lone surrogate U+D800 not allowed"),
-                             ("\\u001b[32m", "product.name: control character U+001B not allowed")):
+                                  ("\\ud800", "product.name: lone surrogate U+D800 not allowed"),
+                                  ("\\u001b[32m", "product.name: control character U+001B not allowed")):
         text = json.dumps(hive()).replace("Tallow Creek hive gateway", f"Tallow{json_escape} hive gateway")
         response = client.post(reverse("design_import", args=[product.pk]), {"design_file": upload(text)})
         assert response.status_code == 400 and expected in response.content.decode(), json_escape
@@ -480,5 +480,29 @@ def test_a_design_with_rule_set_2_fields_opens_evaluates_and_exports(client, tea
     revision = Revision.objects.get(product=product, number=1)
     assert {finding["basis"] for finding in revision.evaluation["findings"]} <= {"design", "datasheet", "measured"}
     from projectapp.signoff.pdf import _design_summary
+    from projectapp.signoff.record_fonts import register
 
+    register()  # what build_record_pdf does first: the record's fonts
     assert _design_summary(parse_design(revision.document))  # the record's design table draws these antennas
+
+
+def test_the_rules_page_marks_what_the_current_rule_set_added_and_changed(client, author):
+    from rules.registry import registered_rules
+
+    client_for(client, author)
+    page = client.get(reverse("rule_list")).content.decode()
+    added = [rule for rule in registered_rules() if rule.added_in == RULESET_VERSION]
+    changed = [rule for rule in registered_rules() if rule.changed_in == RULESET_VERSION and rule not in added]
+    assert added and changed, "rule set 2.0.0 both added and changed rules (rules/registry.py)"
+    assert f"What rule set {RULESET_VERSION} changed" in page
+    assert f"New ({len(added)})" in page and f"Changed ({len(changed)})" in page
+    for rule in added:
+        row = page[page.index(f'id="rule-{rule.id}"'):][:400]
+        assert f"new in {RULESET_VERSION}" in row, rule.id
+    for rule in changed:
+        row = page[page.index(f'id="rule-{rule.id}"'):][:400]
+        assert f"changed in {RULESET_VERSION}" in row, rule.id
+    untouched = [rule for rule in registered_rules() if rule not in added and rule not in changed]
+    for rule in untouched:
+        row = page[page.index(f'id="rule-{rule.id}"'):page.index("</tr>", page.index(f'id="rule-{rule.id}"'))]
+        assert "new in" not in row and "changed in" not in row, rule.id

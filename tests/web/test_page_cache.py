@@ -30,8 +30,10 @@ class SectionForm(html.parser.HTMLParser):
         if tag == "form":
             self.inside = a.get("id") == self.form_id
         elif self.inside and tag == "input" and a.get("name") and a.get("type") not in ("submit", "button"):
-            if a.get("type") not in ("checkbox", "radio") or "checked" in a:
+            if a.get("type") not in ("checkbox", "radio"):
                 self.fields.append((a["name"], a.get("value") or ""))
+            elif "checked" in a:  # a ticked box without a value sends "on", as a browser does
+                self.fields.append((a["name"], a.get("value") or "on"))
         elif self.inside and tag == "select":
             self._select = (a["name"], None)
         elif self.inside and tag == "option" and self._select and (self._select[1] is None or "selected" in a):

@@ -380,3 +380,139 @@ def test_a_label_avoids_a_line_across_its_first_choice():
     # A line of no length (both ends at one point) blocks like a point.
     placer.block_segment((150.0, 150.0), (150.0, 150.0), 2.0, 1.0)
     assert placer.place(10.0, 10.0, [(145.0, 145.0), (170.0, 170.0)]) == (170.0, 170.0, 180.0, 180.0)
+
+
+# -- GNSS and WLAN antennas, coexistence lines (rule set 2) -----------------------------------------------------
+
+def radios_design(**extra) -> dict:
+    """A Cat 1 pair with a GNSS and a WLAN antenna beside it (design-file.md, rule set 2's roles)."""
+    return design("cat-1", antennas=[
+        antenna("MAIN", position=(20, 20, 10)),
+        antenna("DIV", "receive", position=(130, 20, 10), polarization=(0, 1, 0)),
+        antenna("GPS", "gnss", position=(60, 80, 10), polarization=(0, 0, 1), ranges_mhz=[[1559, 1610]]),
+        antenna("WIFI", "wlan", position=(100, 80, 10), polarization=(0, 1, 0), ranges_mhz=[[2400, 2500]]),
+    ], **extra)
+
+
+def coexistence_findings() -> list[dict]:
+    """Hand-made coexistence findings in the shapes the rules give them: (cellular, victim, band) subjects, and a
+    victim named alone with its band (the uplink's transmitter, the main antenna, is then the aggressor)."""
+    return [
+        {"id": "COX-001", "topic": "coexistence", "severity": "warning", "subjects": ["MAIN", "GPS", "B13"],
+         "evidence": {"band": "B13", "victim": "GNSS L1/E1"}},
+        {"id": "COX-001", "topic": "coexistence", "severity": "warning", "subjects": ["GPS", "B14"],
+         "evidence": {"band": "B14", "victim": "GNSS L1/E1"}},
+        {"id": "COX-002", "topic": "coexistence", "severity": "warning", "subjects": ["DIV", "WIFI", "B40"],
+         "evidence": {"band": "B40", "victim": "WLAN 2.4 GHz"}},
+        {"id": "COX-002", "topic": "coexistence", "severity": "note", "subjects": ["GHOST", "WIFI", "B41"],
+         "evidence": {"band": "B41", "victim": "WLAN 2.4 GHz"}},
+    ]
+
+
+def render_with(document: dict, findings: list[dict]):
+    parsed = parse_design(document)
+    all_findings = [finding.as_dict() for finding in evaluate(parsed).findings] + findings
+    options = {"pair_severities": pair_severities_from_findings(all_findings), "frequency_mhz": parsed.lowest_mhz,
+               "coexistence": placement.coexistence_lines_from_findings(all_findings, parsed)}
+    layout = placement_drawing(parsed, **options).layout
+    return ET.fromstring(placement_svg(parsed, **options)), layout
+
+
+def test_gnss_and_wlan_antennas_get_their_own_symbols_and_legend_entries():
+    root, layout = render_with(radios_design(), [])
+    scale = layout.scale_pt_per_mm
+    gps_x, gps_y = layout.top_view_pt(60, 80)
+    markers = [c for c in circles(root) if c[2] == pytest.approx(placement.MARKER_HALF_PT * 1.15)
+               and (c[0], c[1]) == (pytest.approx(gps_x), pytest.approx(gps_y))]
+    assert markers and markers[0][3]["fill"] == "#1f2a33", "a filled circle marks the GNSS antenna"
+    wifi_x, _ = layout.top_view_pt(100, 80)
+    triangles = []
+    for polygon in root.iter(f"{SVG}polygon"):
+        points = [tuple(float(v) for v in point.split()) for point in polygon.get("points").split(",")]
+        if len(points) == 3 and style(polygon)["stroke"] == "#ffffff":  # a marker, outlined (arrowheads are not)
+            triangles.append(sum(x for x, _ in points) / 3)
+    assert pytest.approx(wifi_x) in triangles, "a triangle marks the WLAN antenna (the other: its legend entry)"
+    shown = texts(root)
+    assert {"GNSS antenna", "WLAN antenna"} <= set(shown)
+    assert "dashed: coexistence finding" not in shown, "no coexistence finding, no legend entry for one"
+    # The circles are the cellular band's: none around the GNSS and WLAN antennas.
+    near = [c for c in circles(root) if c[2] == pytest.approx(physics.near_field_radius_mm(LOWEST_MHZ) * scale)]
+    assert sorted((round(x, 2), round(y, 2)) for x, y, _, _ in near) == sorted(
+        (round(x, 2), round(y, 2)) for x, y in (layout.top_view_pt(20, 20), layout.top_view_pt(130, 20)))
+
+
+def test_spacing_lines_join_cellular_antennas_only():
+    root, layout = render_with(radios_design(), [])
+    assert [(pair.first, pair.second) for pair in layout.pairs] == [("MAIN", "DIV")]
+    assert not lines_between(root, layout.top_view_pt(20, 20), layout.top_view_pt(60, 80))
+    assert "GPS (gnss, internal) at x 60, y 80, z 10 mm" in root.find(f"{SVG}desc").text
+
+
+def test_coexistence_findings_become_dashed_lines_in_their_colour_with_bands_and_victim():
+    root, layout = render_with(radios_design(), coexistence_findings())
+    lines = {(line.cellular, line.victim): line for line in layout.coexistence}
+    assert set(lines) == {("MAIN", "GPS"), ("DIV", "WIFI")}, "GHOST is not in the design: left out"
+    assert lines["MAIN", "GPS"].bands == ("B13", "B14"), "the victim-only finding is drawn from the main antenna"
+    assert lines["MAIN", "GPS"].label == "B13, B14 → GNSS L1/E1"
+    main, gps = (tuple(round(value, 2) for value in layout.top_view_pt(*xy)) for xy in ((20, 20), (60, 80)))
+    [dashed] = [polyline for polyline in root.iter(f"{SVG}polyline")
+                if {tuple(round(float(v), 2) for v in point.split()) for point in polyline.get("points").split(",")}
+                == {main, gps}]
+    assert style(dashed)["stroke"] == WARNING and style(dashed)["stroke-dasharray"] == "6, 3"
+    assert not lines_between(root, layout.top_view_pt(20, 20), layout.top_view_pt(60, 80)), (
+        "an open polyline: a closed path would draw the dashes there and back and fill the gaps")
+    shown = texts(root)
+    assert "B13, B14 → GNSS L1/E1" in shown and "B40 → WLAN 2.4 GHz" in shown
+    assert "dashed: coexistence finding" in shown
+    description = root.find(f"{SVG}desc").text
+    assert "Dashed lines join antennas a coexistence finding names: MAIN to GPS, B13, B14 → GNSS L1/E1, warning" in (
+        description)
+
+
+def test_coexistence_lines_come_from_findings_or_their_dicts_and_keep_the_worst_severity():
+    parsed = parse_design(radios_design())
+    findings = coexistence_findings() + [{"id": "COX-002", "topic": "coexistence", "severity": "note",
+                                          "subjects": ["DIV", "WIFI", "B7"],
+                                          "evidence": {"band": "B7", "victim": "WLAN 2.4 GHz"}}]
+    lines = {(line.cellular, line.victim): line for line in placement.coexistence_lines_from_findings(findings, parsed)}
+    assert lines["DIV", "WIFI"].severity == "warning" and lines["DIV", "WIFI"].bands == ("B40", "B7")
+    from rules.findings import Finding
+
+    as_objects = [Finding(f["id"], f["topic"], f["severity"], "t", "e", "a", tuple(f["subjects"]), f["evidence"], ())
+                  for f in findings]
+    assert placement.coexistence_lines_from_findings(as_objects, parsed) == list(lines.values())
+    assert placement.coexistence_lines_from_findings([{"topic": "coexistence", "severity": "urgent",
+                                                       "subjects": ["MAIN", "GPS"]}], parsed) == []
+
+
+def test_coexistence_lines_are_capped_worst_first_and_the_drawing_says_so():
+    cellular = [antenna(f"RX{index}", "receive" if index else "main", position=(10 + 12 * index, 10, 10))
+                for index in range(9)]
+    victims = [antenna(f"G{index}", "gnss", position=(10 + 12 * index, 80, 10), ranges_mhz=[[1559, 1610]])
+               for index in range(3)]
+    document = design("cat-6", antennas=cellular + victims, enclosure={"size_mm": [150, 95, 30]})
+    findings = [{"id": "COX-001", "topic": "coexistence", "severity": "note" if index else "warning",
+                 "subjects": [cell["name"], victim["name"], "B13"], "evidence": {"band": "B13", "victim": "GNSS L1/E1"}}
+                for index, (cell, victim) in enumerate((c, v) for c in cellular for v in victims)]
+    root, layout = render_with(document, findings)
+    assert len(layout.coexistence) == placement.MAX_COEXISTENCE_LINES < len(findings)
+    assert layout.coexistence[0].severity == "warning"
+    assert f"Coexistence lines are drawn for the {placement.MAX_COEXISTENCE_LINES} worst of 27." in (
+        root.find(f"{SVG}desc").text)
+
+
+def test_the_engines_own_coexistence_findings_are_drawn_for_the_depot_gateway():
+    # rules/examples/depot-gateway.json: B13's 2nd uplink harmonic (777-787 MHz x 2 = 1554-1574 MHz, 3GPP TS 36.101
+    # Table 5.5-1) lands on GNSS L1/E1; B41 (2496 MHz) sits 12.5 MHz above WLAN's 2483.5 MHz (TR 36.816 names both)
+    import json
+
+    from tests.web.conftest import EXAMPLES
+
+    parsed = parse_design(json.loads((EXAMPLES / "depot-gateway.json").read_text()))
+    findings = evaluate(parsed).findings
+    lines = placement.coexistence_lines_from_findings(findings, parsed)
+    assert {(line.cellular, line.victim, line.bands) for line in lines} == {
+        ("MAIN", "GNSS", ("B13",)), ("MAIN", "WIFI", ("B41",)), ("DIV", "WIFI", ("B41",))}
+    layout = placement_drawing(parsed, pair_severities=pair_severities_from_findings(findings),
+                               frequency_mhz=parsed.lowest_mhz, coexistence=lines).layout
+    assert len(layout.coexistence) == 3 and [(p.first, p.second) for p in layout.pairs] == [("MAIN", "DIV")]

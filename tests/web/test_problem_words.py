@@ -70,7 +70,8 @@ def test_the_command_line_keeps_the_parsers_path_and_words():
 
 def test_a_message_without_its_own_words_is_shown_as_the_parser_wrote_it_after_the_label():
     document = two_antennas(modem={"category": "cat-nb1", "full_duplex": True, "bands": ["B20"]})
-    assert words_of(document)["modem.full_duplex"].startswith("Full duplex: NB-IoT is half-duplex only")
+    assert words_of(document)["modem.full_duplex"].startswith(
+        "The module runs LTE-M in full duplex (FD-FDD): NB-IoT is half-duplex only")
 
 
 def test_each_problem_points_at_the_input_to_fix():

@@ -12,7 +12,10 @@ register = template.Library()
 UNITS = (("_mhz", "MHz"), ("_mm", "mm"), ("_dbi", "dBi"), ("_db", "dB"), ("_deg", "°"), ("_kbps", "kbps"),
          ("_pct", "%"))
 LABELS = {"ecc": "envelope correlation (ECC)", "vswr": "VSWR", "ka": "ka (electrical size)", "q": "Q limit (McLean)",
-          "distance_wavelengths": "distance in wavelengths (λ)"}
+          "distance_wavelengths": "distance in wavelengths (λ)", "measured_ecc": "measured envelope correlation (ECC)",
+          "eccs": "envelope correlation (ECC) per band", "design_severity": "severity from the design alone",
+          "outranked_by": "outranked by (measured)", "xpr_db": "cross-polar ratio (XPR)"}
+UNITS = (*UNITS, ("_dbm", "dBm"))
 
 
 @register.filter
@@ -73,3 +76,34 @@ def num(value: Any) -> str:
     if isinstance(value, float):
         return f"{value:g}"
     return "" if value is None else str(value)
+
+
+# What a finding rests on (rule set 2's `basis`), in the words a product manager reads. A stored checklist of
+# rule set 1.x has no basis: nothing is shown for it.
+BASIS_WORDS = {"design": "from the design", "datasheet": "from datasheets", "measured": "measured"}
+
+
+@register.filter
+def basis_words(finding: Any) -> str:
+    basis = finding.get("basis") if isinstance(finding, dict) else None
+    return BASIS_WORDS.get(basis, "") if isinstance(basis, str) else ""
+
+
+@register.filter
+def outranked(finding: Any, digests: Any = None) -> list[dict[str, str | None]]:
+    """What outranked the design rule of a finding a measurement lowered (`outranked_by` in its evidence):
+    each entry with its file's SHA-256 when it names a kept measurement file (`digests`: file name ->
+    SHA-256), else the entry as the rule wrote it (a measured value entered in the design)."""
+    evidence = finding.get("evidence") if isinstance(finding, dict) else None
+    entries = evidence.get("outranked_by") if isinstance(evidence, dict) else None
+    if not isinstance(entries, list):
+        return []
+    known = digests if isinstance(digests, dict) else {}
+    return [{"name": str(entry), "sha256": known.get(entry)} for entry in entries]
+
+
+@register.simple_tag(takes_context=True)
+def outranking(context: Any, finding: Any) -> list[dict[str, str | None]]:
+    """`outranked` with the page's `measurement_digests`, when it has them (a list of cards across revisions
+    has none: the files are named without their SHA-256 there)."""
+    return outranked(finding, context.get("measurement_digests"))

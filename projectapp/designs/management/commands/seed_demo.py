@@ -42,6 +42,8 @@ PRODUCTS = [
      "pump-monitor.json", [], False),
     ("Field router", "Cat 4 router with a measured two-port S-parameter file.",
      "field-router.json", ["field-router-revA.s2p"], True),
+    ("Trail tracker", "Cat 1 tracker with a GNSS antenna; far-field patterns clear its close pair.",
+     "trail-tracker.json", [], False),
 ]
 
 
@@ -138,9 +140,21 @@ class Command(BaseCommand):
             for file_name in measurement_files:
                 services.measurement_add(revision=draft, name=file_name,
                                          content=(EXAMPLES / file_name).read_bytes(), user=author)
-            text = json.dumps(cold_chain_tracker()) if example is None else (EXAMPLES / example).read_text()
-            services.design_import(product=product, text=text, source=example or "cold-chain-tracker.json",
-                                   user=author)
+            document = cold_chain_tracker() if example is None else json.loads((EXAMPLES / example).read_text())
+            # A far-field pattern is kept against the antenna it belongs to: the design goes in first, then each
+            # pattern with its entry (services.pattern_add checks both).
+            patterns = [entry for entry in document.get("measurements", []) if entry.get("kind") == "far-field"]
+            if patterns:
+                document["measurements"] = [entry for entry in document["measurements"] if entry not in patterns]
+                if not document["measurements"]:
+                    del document["measurements"]
+            services.design_import(product=product, text=json.dumps(document),
+                                   source=example or "cold-chain-tracker.json", user=author)
+            for entry in patterns:
+                services.pattern_add(revision=product.draft, name=entry["file"], antenna=entry["antenna"],
+                                     content=(EXAMPLES / entry["file"]).read_bytes(),
+                                     absolute=entry.get("absolute", False), environment=entry.get("environment"),
+                                     user=author)
             if submit:
                 services.revision_submit(revision=product.draft, user=author)
             elif example is None and parts:
