@@ -16,3 +16,4 @@ bench:
 	.venv/bin/python benchmarks/pdf_record.py
 	.venv/bin/python benchmarks/placement.py
 	.venv/bin/python benchmarks/section_save.py
+	.venv/bin/python benchmarks/lists.py

@@ -71,10 +71,12 @@ INSTALLED_APPS = [
     "django_htmx",
     "axes",
     "projectapp.teams",
+    "projectapp.audit",
     "projectapp.library",
     "projectapp.designs",
     "projectapp.reviews",
     "projectapp.signoff",
+    "projectapp.demo",
 ]
 
 MIDDLEWARE = [

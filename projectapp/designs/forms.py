@@ -1,9 +1,13 @@
 from django import forms
 
 from projectapp.designs import questionnaire
-from projectapp.designs.models import Product
+from projectapp.designs.models import Product, Revision
+from projectapp.filters import FilterForm, choice_field, id_field, text_field
 from projectapp.library.models import Entry
+from projectapp.paging import page_field
 from projectapp.teams.models import Team
+from rules.catalog import categories
+from rules.findings import SEVERITIES
 
 MAX_DESIGN_FILE_BYTES = 1_000_000
 
@@ -187,6 +191,31 @@ class MeasurementFileForm(forms.Form):
     """A measurement file named by a form (to remove it)."""
 
     file = forms.CharField(max_length=120)
+
+
+class ProductFilterForm(FilterForm):
+    """The product list's filters: a name, a team, the latest revision's state, category or gravest finding."""
+
+    q = text_field()
+    team = id_field("a team's number")
+    state = choice_field(tuple(Revision.State.values))
+    category = choice_field(tuple(categories()))
+    raises = choice_field(SEVERITIES)
+    page = page_field()
+
+
+class DraftStartForm(forms.Form):
+    """Starting a draft: from the latest revision (no `from`), or from the numbered revision."""
+
+    from_ = id_field("a revision number")
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.fields["from"] = self.fields.pop("from_")  # `from` is a Python keyword, and the form's name
+
+
+class WithdrawForm(forms.Form):
+    reason = text_field()
 
 
 class PatternForm(forms.Form):

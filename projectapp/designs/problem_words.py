@@ -16,7 +16,7 @@ from typing import Any
 from projectapp.designs import questionnaire
 from projectapp.typed_values import is_ambiguous_grouping
 from rules.catalog import categories
-from rules.design import Problem
+from rules.design import Problem, parse_design_partial
 
 
 @dataclass(frozen=True)
@@ -368,3 +368,19 @@ def todo(document: Any, checklist: dict[str, Any]) -> dict[str, list[Any]]:
     waiting = [Waiting(name, input_label(name), len(topics), tuple(dict.fromkeys(t.replace("-", " ") for t in topics)))
                for name, topics in by_input.items()]
     return {"unanswered": unanswered_items, "problems": problem_items, "waiting": waiting}
+
+
+def still_to_do(document: dict) -> str:
+    """What stands between a draft and submitting it, in the words of the checklist's to-do list."""
+    partial = parse_design_partial(document)
+    asked = [unanswered(problem, document).in_checklist for problem in partial.unanswered]
+    parts = []
+    if asked:
+        shown = "; ".join(asked[:5]) + (f"; and {len(asked) - 5} more" if len(asked) > 5 else "")
+        parts.append(f"{len(asked)} question{'s' if len(asked) != 1 else ''} to answer ({shown})")
+    if partial.problems:
+        count = len(partial.problems)
+        parts.append(f"{count} answer{'s' if count != 1 else ''} to fix (beside the questions)")
+    return " and ".join(parts) + "; the checklist's to-do list links to each." if parts else \
+        "a measurement file can't be used; see the measurements."
+

@@ -38,6 +38,7 @@ class Question:
     blank_label: str = ""  # a choice question's "not given" option, if it may be left out
     default: str = ""  # what the parser assumes when the answer is left out (design-file.md defaults)
     reshapes: bool = False  # changing it changes which questions or options the section shows
+    term: str = ""  # the trade term it asks about (rules/data/terms.toml id): a "what is this?" beside it
     whole_number: bool = False  # a choice stored as a JSON integer (the power class), not as text
     # Categories the question applies to (None: all). A question that doesn't apply is neither shown nor read,
     # so what is stored for it stays as it was.
@@ -90,30 +91,36 @@ PRODUCT = Section(
         Question("modem.category", "UE category", "choice",
                  "The module's LTE or NR category, on the first page of its datasheet (for example 'Cat M1' or "
                  "'Cat 1bis'). It decides how many receive antennas the product needs.",
-                 choices=CATEGORY_CHOICES, reshapes=True),
+                 choices=CATEGORY_CHOICES, reshapes=True, term="ue-category"),
         Question("modem.bands", "Bands", "bands",
                  "The bands the product must work on: the intersection of what the module supports (datasheet, "
-                 "'supported bands') and what the target operators use. Start from a region preset and trim."),
+                 "'supported bands') and what the target operators use. Start from a region preset and trim.",
+                 term="band"),
         Question("modem.rx_ports", "Receive antenna ports on the module", "integer",
                  "How many antenna connectors or pads the module has for receiving, main included (datasheet, "
-                 "pin description: look for 'ANT_MAIN', 'ANT_DIV' or 'ANT_RX'). Leave empty if unsure."),
+                 "pin description: look for 'ANT_MAIN', 'ANT_DIV' or 'ANT_RX'). Leave empty if unsure.",
+                 term="receive-branch"),
         Question("modem.operator_single_antenna_approval", "An operator approved one antenna", "bool",
                  "Tick only if an operator has approved in writing running this category with a single "
-                 "antenna (relevant to Cat 1). Keep the approval with the design record."),
+                 "antenna (relevant to Cat 1). Keep the approval with the design record.",
+                 term="carrier-acceptance"),
         Question("modem.gain_limits_dbi", "Maximum antenna gain allowed by the module's approval", "band_numbers",
                  "The module's regulatory approval (grant or declaration) lists the highest antenna gain per band "
-                 "it was approved with. Copy them here; leave a band empty if no limit is given.", unit="dBi"),
+                 "it was approved with. Copy them here; leave a band empty if no limit is given.", unit="dBi",
+                 term="regulatory-approval"),
         Question("modem.power_class", "UE power class", "choice",
                  "The module's maximum transmit power class, in its datasheet's RF characteristics (for example "
                  "'Class 3, 23 dBm'). Most modules are class 3; some LTE-M and NB-IoT modules are class 5 "
                  "(20 dBm). It sets the uplink budget and the radiated power estimate.",
-                 choices=POWER_CLASS_CHOICES, default=str(DEFAULT_POWER_CLASS), whole_number=True),
+                 choices=POWER_CLASS_CHOICES, default=str(DEFAULT_POWER_CLASS), whole_number=True,
+                 term="power-class"),
         Question("modem.conducted_sensitivity_dbm", "Conducted receive sensitivity per band", "band_numbers",
                  "The module datasheet's reference sensitivity at the antenna pad, per band (a negative number "
-                 "such as -101.5). Leave a band empty if the datasheet does not give it.", unit="dBm"),
+                 "such as -101.5). Leave a band empty if the datasheet does not give it.", unit="dBm",
+                 term="conducted-sensitivity"),
         Question("modem.full_duplex", "The module runs LTE-M in full duplex (FD-FDD)", "bool",
                  "Most LTE-M modules are half-duplex (HD-FDD): they send and receive in turn, which caps the "
-                 "data rate. Tick only if the datasheet says full-duplex FDD.", categories=LTE_M),
+                 "data rate. Tick only if the datasheet says full-duplex FDD.", categories=LTE_M, term="duplex"),
         Question("modem.ntn", "The module supports satellite (NTN) access", "bool",
                  "Tick if the module can connect through satellites (non-terrestrial networks, 3GPP Rel-17 and "
                  "later); only then can the satellite bands be chosen."),
@@ -136,7 +143,7 @@ ENCLOSURE = Section(
         Question("ground_plane_mm", "Main board ground plane", "vector",
                  "Length and width of the main board's copper ground (usually the board outline). Embedded "
                  "antennas use it as their counterpoise, so its length matters at low frequencies.", unit="mm",
-                 parts=("length", "width")),
+                 parts=("length", "width"), term="ground-plane"),
     ),
     ("enclosure", "ground_plane_mm"),
 )
@@ -147,39 +154,39 @@ ANTENNA_QUESTIONS = (
              "What the antenna is for. 'main' sits on the module's main port: it sends and receives. 'receive' is "
              "a second cellular path that only receives (diversity, MIMO). GNSS and WLAN antennas serve other "
              "radios: not counted as cellular, but checked for interference from the cellular ones.",
-             choices=ROLE_CHOICES),
+             choices=ROLE_CHOICES, term="antenna-role"),
     Question("mounting", "Mounting", "choice",
              "'internal' sits inside the enclosure (chip, flex, PCB trace); 'external' is outside on a "
              "connector or cable.", choices=tuple((mounting, mounting) for mounting in MOUNTINGS),
              default="internal"),
     Question("position_mm", "Feed point position", "vector",
              "Where the antenna's feed point is, measured from the enclosure's corner on the mechanical "
-             "drawing.", unit="mm", parts=("x", "y", "z")),
+             "drawing.", unit="mm", parts=("x", "y", "z"), term="feed-point"),
     Question("polarization", "Polarization axis", "polarization",
              "Which way the antenna's main electric field points, along the enclosure's length, width or height "
              "(or at an angle in one of their planes). The antenna datasheet's radiation-pattern page or its "
              "maker can tell; for a chip or flex antenna it is usually along its long side. 'Another direction' "
-             "takes x, y, z numbers (1, 0, 0 is along the length).", parts=("x", "y", "z")),
+             "takes x, y, z numbers (1, 0, 0 is along the length).", parts=("x", "y", "z"), term="polarization"),
     Question("ranges_mhz", "Rated frequency ranges", "ranges",
              "The ranges on the antenna datasheet, in MHz, separated by commas: '698-960, 1710-2690'.",
              unit="MHz"),
     Question("peak_gain_dbi", "Peak gain", "number_or_bands",
              "From the antenna datasheet's gain table: one figure for every band, or each band's own figure "
              "(datasheets list peak gain per band; the approval limits are per band too). A band left empty "
-             "takes the figure for every band, if one is given.", unit="dBi"),
+             "takes the figure for every band, if one is given.", unit="dBi", term="dbi"),
     Question("efficiency_pct", "Total efficiency per band", "band_numbers",
              "Total efficiency per band, in percent: from the antenna datasheet or a chamber measurement in "
-             "this product.", unit="%"),
+             "this product.", unit="%", term="efficiency"),
     Question("efficiency_source", "Where the efficiency comes from", "choice",
              "A datasheet figure is measured on the maker's reference board and is usually better than in "
              "the product. Choose 'measured' only for figures measured with the antenna in this product: "
              "they then count as measured evidence in the checklist.", choices=EFFICIENCY_SOURCE_CHOICES,
-             default="datasheet"),
+             default="datasheet", term="basis"),
     Question("size_mm", "Element size", "vector", "The antenna element's bounding box from its datasheet.",
              unit="mm", parts=("length", "width", "height")),
     Question("cable_loss_db", "Cable loss", "number",
              "Loss of the cable or feed line between module and antenna (external antennas), from the cable's "
-             "datasheet: loss per metre times length.", unit="dB"),
+             "datasheet: loss per metre times length.", unit="dB", term="db-dbm"),
 )
 
 ANTENNAS = Section(
@@ -205,15 +212,16 @@ DEPLOYMENT = Section(
                  "The data rate the product must send, sustained (reports, images).", unit="kbps"),
         Question("deployment.body_distance_mm", "Closest distance to people", "number",
                  "How close a person's body comes to the product in normal use (worn: 0; wall-mounted out of "
-                 "reach: the distance to where people stand).", unit="mm"),
+                 "reach: the distance to where people stand).", unit="mm", term="rf-exposure"),
         Question("deployment.radiated_targets_dbm.trp", "Radiated power target (TRP) per band", "band_numbers",
                  "The least total radiated power the operator requires, per band, copied from its device "
-                 "requirements (for example 19 dBm). Leave empty where the operator sets none.", unit="dBm"),
+                 "requirements (for example 19 dBm). Leave empty where the operator sets none.", unit="dBm",
+                 term="trp"),
         Question("deployment.radiated_targets_dbm.tis", "Radiated sensitivity target (TIS) per band",
                  "band_numbers",
                  "The weakest total isotropic sensitivity the operator accepts, per band, from the same "
                  "requirements (a negative number such as -98 dBm; the device must reach it or lower).",
-                 unit="dBm"),
+                 unit="dBm", term="tis"),
     ),
     ("deployment",),
 )

@@ -10,17 +10,15 @@ from typing import Any
 from django.core.exceptions import PermissionDenied
 from django.core.files.base import ContentFile
 from django.db import transaction
-from django.utils import timezone
 
-from projectapp.designs import library_use, questionnaire
-from projectapp.designs.checklists import measurement_reader
+from projectapp.audit.models import AuditEvent
+from projectapp.audit.services import audit_record
+from projectapp.designs import library_use, lifecycle, questionnaire
+from projectapp.designs.checklists import count_revision, measurement_reader
 from projectapp.designs.document_changes import Changes, document_changes
 from projectapp.designs.models import MeasurementFile, Product, Revision
 from projectapp.library.models import Entry
 from projectapp.library.parts import ANTENNA, MODULE
-from projectapp.reviews.audit import audit_record
-from projectapp.reviews.models import AuditEvent
-from projectapp.reviews.services import review_items_create
 from projectapp.teams.access import has_role, require_role
 from projectapp.teams.models import Role, Team
 from rules.design import (
@@ -32,10 +30,8 @@ from rules.design import (
     parse_design,
     storage_problems,
 )
-from rules.evaluate import evaluate
 from rules.farfield import parse_far_field
 from rules.measurements import attach_measurements
-from rules.registry import RULESET_VERSION
 from rules.touchstone import parse_touchstone
 
 
@@ -85,7 +81,7 @@ FILE_KEY = "file"  # the audit path of a measurement file itself (its name, size
 
 def _locked_draft(revision: Revision) -> Revision:
     """The revision's row, locked until the transaction ends, read afresh: what this change builds on."""
-    current = Revision.objects.select_for_update().get(pk=revision.pk)
+    current = Revision.objects.select_for_update(no_key=True).get(pk=revision.pk)  # as designs.lifecycle locks
     if not current.is_draft:
         raise DraftGone(current)
     current.product = revision.product
@@ -148,7 +144,7 @@ def _store(*, draft: Revision, document: dict[str, Any], user, action: str, summ
     draft.save(update_fields=["document", "version", "section_versions", "updated_at"])
     audit_record(product=draft.product, revision=draft, actor=user, action=action, summary=summary,
                  changes=changes, draft_version=draft.version)
-    return draft
+    return count_revision(draft)
 
 
 def _describe_file(measurement: MeasurementFile) -> str:
@@ -161,8 +157,11 @@ def product_create(*, team: Team, name: str, description: str = "", user) -> Pro
     product = Product.objects.create(team=team, name=name, description=description, created_by=user)
     draft = Revision.objects.create(product=product, number=1, document=blank_document(product_name=name),
                                     created_by=user)
+    product.latest_revision = draft
+    product.save(update_fields=["latest_revision"])
     audit_record(product=product, revision=draft, actor=user, action=AuditEvent.Action.DRAFT_STARTED,
                  summary=f"Created {name} with an empty draft revision 1", draft_version=draft.version)
+    count_revision(draft)
     return product
 
 
@@ -176,28 +175,69 @@ def _copy_measurements(*, source: Revision, target: Revision, user) -> None:
         copy.save()
 
 
+class DraftExists(Exception):
+    """A product has one draft at a time: a new one can't be started from another revision meanwhile."""
+
+    def __init__(self, draft: Revision):
+        self.draft = draft
+        super().__init__(f"revision {draft.number} is already a draft: edit it, or submit it first")
+
+
 @transaction.atomic
-def draft_get_or_start(*, product: Product, user) -> Revision:
-    """The product's draft; if there is none, a new one copied from the latest revision."""
+def draft_get_or_start(*, product: Product, user, source: Revision | None = None) -> Revision:
+    """The product's draft; if there is none, a new one copied from `source` ("start a draft from it": any
+    revision of the product that is not a draft) or else from the latest revision. A draft is born here (or in
+    product_create), always under the product's row lock, which also keeps `Product.latest_revision` true.
+    Raises DraftExists when `source` is given and the product already has a draft."""
     require_role(user, product.team, Role.AUTHOR)
-    product = Product.objects.select_for_update().get(pk=product.pk)
+    return _draft_start(product=product, user=user, source=source)
+
+
+@transaction.atomic
+def measurement_draft_start(*, revision: Revision, user) -> Revision:
+    """The engineer's measurement path: a reviewer who measured a prototype starts a draft from the revision in
+    review (or a signed one) to keep their measurement files with it, without the author. Reviewers change only a
+    draft's measurements (require_measurement_role), so the design stays the author's; the draft's checklist
+    re-judges with the files, and its page shows the author what changed against the revision it came from.
+    Raises DraftExists when the product already has a draft (the reviewer adds files to that one)."""
+    require_role(user, revision.product.team, Role.REVIEWER)
+    return _draft_start(product=revision.product, user=user, source=revision, purpose="measurement draft")
+
+
+def _draft_start(*, product: Product, user, source: Revision | None, purpose: str = "draft") -> Revision:
+    product = Product.objects.select_for_update(no_key=True).get(pk=product.pk)  # as designs.lifecycle locks
     draft = product.draft
     if draft is not None:
+        if source is not None:
+            raise DraftExists(draft)
         return draft
     latest = product.latest
+    if source is not None and (source.product_id != product.pk or source.is_draft):
+        raise ValueError("from: expected a revision of this product that is not a draft")
+    origin = source or latest
     number = latest.number + 1 if latest else 1
-    document = json.loads(json.dumps(latest.document)) if latest else blank_document(product_name=product.name)
-    draft = Revision.objects.create(product=product, number=number, document=document, based_on=latest,
+    document = json.loads(json.dumps(origin.document)) if origin else blank_document(product_name=product.name)
+    draft = Revision.objects.create(product=product, number=number, document=document, based_on=origin,
                                     created_by=user)
-    if latest is not None:
-        _copy_measurements(source=latest, target=draft, user=user)
+    product.latest_revision = draft
+    product.save(update_fields=["latest_revision"])
+    if origin is not None:
+        _copy_measurements(source=origin, target=draft, user=user)
     files = draft.measurement_files.count()
     audit_record(product=product, revision=draft, actor=user, action=AuditEvent.Action.DRAFT_STARTED,
-                 summary=f"Started draft design revision {number}" + (f", copied from design revision {latest.number}"
-                                                               + (f" with {files} measurement file(s)" if files else "")
-                                                               if latest else ""),
+                 summary=f"Started {purpose} design revision {number}"
+                         + (f", copied from design revision {origin.number}"
+                            + (f" with {files} measurement file(s)" if files else "") if origin else ""),
                  draft_version=draft.version)
-    return draft
+    return count_revision(draft)
+
+
+@transaction.atomic
+def revision_withdraw(*, revision: Revision, user, reason: str = "") -> Revision:
+    """Takes a revision out of review on its author's word (designs.lifecycle.withdraw); its checklist and
+    decisions stay readable, and a later revision's review still carries them."""
+    require_role(user, revision.product.team, Role.AUTHOR)
+    return lifecycle.withdraw(revision=revision, user=user, reason=reason.strip()[:200])
 
 
 @transaction.atomic
@@ -304,33 +344,6 @@ def draft_save_document(*, revision: Revision, document: dict[str, Any], user,
     _require_fresh(draft, ALL_PARTS, read_version)
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.SECTION_SAVED,
                   summary=f"Saved the design document of draft design revision {draft.number}")
-
-
-@transaction.atomic
-def revision_submit(*, revision: Revision, user) -> Revision:
-    """Freezes a draft: the document, its checklist and the rule-set version, stored whole.
-
-    Raises DesignError (nothing changes) when the design can't be evaluated yet, or when a rule could not run.
-    """
-    require_role(user, revision.product.team, Role.AUTHOR)
-    revision = Revision.objects.select_for_update().get(pk=revision.pk)
-    if not revision.is_draft:
-        raise DesignError([Problem("", f"design revision {revision.number} was already submitted")])
-    design = parse_design(revision.document)
-    measurements = attach_measurements(design, measurement_reader(revision))
-    evaluation = evaluate(design, measurements)
-    if evaluation.rule_failures:  # an incomplete checklist is not frozen for people to sign
-        raise DesignError([Problem("", f"rule {failure.id} ({failure.title}) could not run on this design, so "
-                                       "the checklist is incomplete; that is an error in Earshot, logged for the "
-                                       "people who run it") for failure in evaluation.rule_failures])
-    revision.evaluation = evaluation.as_dict()
-    revision.ruleset = RULESET_VERSION
-    revision.status = Revision.Status.SUBMITTED
-    revision.submitted_by = user
-    revision.submitted_at = timezone.now()
-    revision.save()
-    review_items_create(revision=revision, user=user)
-    return revision
 
 
 @transaction.atomic

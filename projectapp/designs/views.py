@@ -12,21 +12,22 @@ from django.contrib import messages
 from django.contrib.auth.decorators import login_required
 from django.core.cache import cache
 from django.db import DatabaseError
-from django.db.models import OuterRef, Subquery
 from django.http import HttpResponse
-from django.shortcuts import redirect, render
+from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
 from django.views.decorators.http import require_GET, require_http_methods, require_POST
 from django_htmx.http import HttpResponseClientRedirect, reswap
 
-from projectapp import fragments
+from projectapp import fragments, paging
 from projectapp.designs import (
     coverage_panel,
     library_use,
+    lifecycle,
     pattern_facts,
     problem_words,
     questionnaire,
     services,
+    upgrades,
 )
 from projectapp.designs.access import (
     get_product_for_user,
@@ -40,14 +41,12 @@ from projectapp.designs.checklists import (
     cellular_patterns,
     checklist_for,
     coverage_rows,
-    frozen_state_key,
     load_measurements,
     measurement_digests,
-    state_key,
-    summaries,
 )
 from projectapp.designs.forms import (
     VERSION_MESSAGE,
+    DraftStartForm,
     DraftVersionForm,
     ImportForm,
     LibraryActionForm,
@@ -59,8 +58,10 @@ from projectapp.designs.forms import (
     PatternChangeForm,
     PatternForm,
     PortMapForm,
+    ProductFilterForm,
     ProductForm,
     SectionActionForm,
+    WithdrawForm,
 )
 from projectapp.designs.models import MeasurementFile, Revision
 from projectapp.figures.charts import (
@@ -77,11 +78,14 @@ from projectapp.figures.placement import (
     placement_svg,
 )
 from projectapp.library.models import Entry
-from projectapp.teams.access import has_role, require_role, teams_where
+from projectapp.teams.access import has_role, require_role, teams_of, teams_where
 from projectapp.teams.models import Role
+from rules.catalog import categories
 from rules.coverage import OutsideValidity
 from rules.design import CELLULAR_ROLES, DesignError, Problem, parse_design_partial
 from rules.farfield import FarFieldError
+from rules.findings import SEVERITIES
+from rules.glossary import glossary
 from rules.registry import RETIRED, RULESET_VERSION, registered_rules
 from rules.touchstone import TouchstoneError
 
@@ -93,32 +97,37 @@ FIGURES_DUE = "figures-due"  # a save's answer asks the page to fetch the new dr
 @login_required
 @require_GET
 def product_list(request):
-    newest = Revision.objects.filter(product=OuterRef("pk")).order_by("-number")
-    products = list(products_for(request.user).annotate(**{
-        f"latest_{name}": Subquery(newest.values(name)[:1]) for name in ("id", "number", "status", "updated_at")}))
-    can_create = teams_where(request.user, Role.AUTHOR).exists()
-    # Everything the page shows is named by these rows (a revision's counts follow from its id and when it
-    # was last saved), so the rendered page is kept per rows.
-    rows = tuple((product.pk, product.name, product.description, product.team.name, product.latest_id,
-                  product.latest_number, product.latest_status, str(product.latest_updated_at))
-                 for product in products)
-    return fragments.page(request, "designs/product_list.html", ("products", rows, can_create),
-                          lambda: _product_list_context(products, can_create))
+    """The person's products, a page at a time, filtered in the database on each product's latest revision: its
+    state and the counts it stored when it was saved or submitted (no design is evaluated here)."""
+    teams = teams_of(request.user)
+    form = ProductFilterForm(request.GET).read()
+    products = (products_for(request.user).select_related("latest_revision").order_by("name", "pk")
+                .defer("latest_revision__document", "latest_revision__evaluation",
+                       "latest_revision__section_versions"))
+    products = form.apply(products, {"team": "team_id", "state": "latest_revision__state",
+                                     "category": "latest_revision__category"})
+    if "q" in form.cleaned:
+        products = products.filter(name__icontains=form.cleaned["q"])
+    raises = form.cleaned.get("raises")
+    if raises:
+        products = products.filter(**{f"latest_revision__{COUNT_COLUMNS[raises]}__gt": 0})
+    paged = paging.paged(products, form)
+    on_page = list(paged.items)
+    # The record in force of each product on the page (its signed revision), when that is not the latest.
+    signed = {revision.product_id: revision for revision in Revision.objects.filter(
+        product__in=[product.pk for product in on_page], state=Revision.State.SIGNED).only("pk", "product_id",
+                                                                                             "number", "state")}
+    rows = [{"product": product, "latest": product.latest_revision,
+             "in_force": signed.get(product.pk) if signed.get(product.pk) != product.latest_revision else None}
+            for product in on_page]
+    return render(request, "designs/product_list.html", {
+        "rows": rows, "paged": paged, "filters": form.shown, "filter_problems": form.problems,
+        "can_create": teams_where(request.user, Role.AUTHOR).exists(), "teams": teams.order_by("name"),
+        "states": Revision.State.choices, "categories": categories().values(), "severities": SEVERITIES,
+    }, status=form.status)
 
 
-def _product_list_context(products, can_create: bool) -> dict:
-    rows = _product_rows(products)
-    return {"rows": rows, "can_create": can_create,
-            fragments.NOT_KEPT: any(row["summary"] and row["summary"].get("failed") for row in rows)}
-
-
-def _product_rows(products) -> list[dict]:
-    latest = {revision.pk: revision for revision in Revision.objects.filter(
-        pk__in=[product.latest_id for product in products if product.latest_id]).prefetch_related(
-        "measurement_files")}
-    found = summaries(list(latest.values()))
-    return [{"product": product, "latest": latest.get(product.latest_id), "summary": found.get(product.latest_id)}
-            for product in products]
+COUNT_COLUMNS = {"blocker": "blockers", "warning": "warnings", "note": "notes"}
 
 
 @login_required
@@ -140,18 +149,22 @@ def product_create(request):
 @require_GET
 def product_detail(request, product_id: int):
     product = get_product_for_user(request.user, product_id)
-    revisions = list(product.revisions.select_related("created_by", "submitted_by"))
+    revisions = list(product.revisions.select_related("created_by", "submitted_by", "based_on")
+                     .defer(*(f"{prefix}{name}" for prefix in ("", "based_on__")
+                              for name in ("document", "evaluation", "section_versions"))))
     return render(request, "designs/product_detail.html", {
         "product": product,
         "revisions": revisions,
+        "has_draft": any(revision.is_draft for revision in revisions),
         "is_author": has_role(request.user, product.team, Role.AUTHOR),
         "roles": product.team.roles_of(request.user),
     })
 
 
-def _figures(state: ChecklistState, id_prefix: str) -> dict:
+def _figures(state: ChecklistState, id_prefix: str, editable: bool = False) -> dict:
     """The panel's drawing, charts and coverage. A figure that fails to draw (a defect in Earshot) is left
-    out and named in `failed_figures`; the page still comes up with the rest."""
+    out and named in `failed_figures`; the page still comes up with the rest. `editable`: the placement drawing
+    for the draft page's editor (antennas dragged and turned on it)."""
     svg = coverage_svg = None
     charts: list[str] = []
     coverage: list[dict] = []
@@ -176,13 +189,13 @@ def _figures(state: ChecklistState, id_prefix: str) -> dict:
         svg = attempt("placement drawing", lambda: placement_svg(
             shown, pair_severities=None if spacing_waits else pair_severities_from_findings(state.findings),
             frequency_mhz=checklist.get("judged_at_mhz"), id_prefix=id_prefix, record=record,
-            coexistence=coexistence_lines_from_findings(state.findings, shown)))
+            coexistence=coexistence_lines_from_findings(state.findings, shown), editable=editable))
     elif state.design is not None and state.checklist is not None:
         design = state.design
         svg = attempt("placement drawing", lambda: placement_svg(
             design, pair_severities=pair_severities_from_findings(state.findings),
             frequency_mhz=design.lowest_mhz, id_prefix=id_prefix, record=record,
-            coexistence=coexistence_lines_from_findings(state.findings, design)))
+            coexistence=coexistence_lines_from_findings(state.findings, design), editable=editable))
         measurements = attempt("measurements", lambda: load_measurements(state))
         if measurements is None:  # an empty AttachedMeasurements still carries its far-field patterns
             measurements = ()
@@ -210,24 +223,26 @@ def _chart(build, measurement, design, *, id_prefix: str) -> str:
     return chart_svg(build(measurement, design, width_pt=560, height_pt=240), id_prefix=id_prefix)
 
 
-def _panel_context(state: ChecklistState, *, id_prefix: str = "placement", figures: bool = True) -> dict:
+def _panel_context(state: ChecklistState, *, id_prefix: str = "placement", figures: bool = True,
+                   editable: bool = False) -> dict:
     """The panel's checklist and band table, and (`figures`) its drawing, charts and coverage panel, drawn once
     per state of the revision (and version of the code that draws them). A save's answer leaves the figures
     out: the page fetches them with the next request (draft_edit, part=figures), so the checklist follows an
-    answer without waiting for the drawing (benchmarks/section_save.py)."""
+    answer without waiting for the drawing (benchmarks/section_save.py). `editable`: the draft page's, whose
+    placement drawing the author moves antennas on."""
     drawn: dict = {"placement_svg": None, "chart_svgs": [], "coverage": [], "coverage_svg": None,
                    "failed_figures": []}
     if figures:
-        key = fragments.cache_key("figures", state_key(state.revision), id_prefix)
+        key = fragments.cache_key("figures", state.revision.cache_identity, id_prefix, editable)
         drawn = cache.get(key)
         if drawn is None:
-            drawn = _figures(state, id_prefix)
+            drawn = _figures(state, id_prefix, editable)
             if not drawn["failed_figures"]:  # a failure is not kept: the next look tries again
                 cache.set(key, drawn, timeout=30 * 24 * 3600)
     failed = bool(drawn["failed_figures"]) or CHECK_FAILED in state.problems
     todo = problem_words.todo(state.revision.document, state.checklist) if state.is_partial else None
     context = {"state": state, fragments.NOT_KEPT: failed, "todo": todo,
-               "measurement_digests": measurement_digests(state.revision), **drawn}
+               "measurement_digests": measurement_digests(state.revision), "placement_editable": editable, **drawn}
     if figures:
         context.update(coverage_panel.panel(drawn["coverage"], coverage_panel.CoverageAssumptionsForm({}).read()))
     return context
@@ -295,7 +310,7 @@ def _draft_context(revision: Revision, state: ChecklistState, *, kept: dict | No
             "presets": questionnaire.band_presets(), "measurements": _measurement_rows(revision, state.problems),
             "pattern_defaults": _pattern_defaults(revision),
             "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, "editing": True,
-            **_panel_context(state)}
+            **_panel_context(state, editable=True)}
 
 
 def _measurement_rows(revision: Revision, problems: list[Problem]) -> list[dict]:
@@ -367,27 +382,60 @@ def draft_edit(request, product_id: int):
         if what_if.cleaned:  # a coverage what-if on screen (the loader sends it) stays through the redraw
             state = checklist_for(draft)
             return render(request, "designs/draft_figures.html", {
-                "product": product, "revision": draft, **_panel_context(state), **_coverage_what_if(state, what_if)})
+                "product": product, "revision": draft, **_panel_context(state, editable=True),
+                **_coverage_what_if(state, what_if)})
         return HttpResponse(fragments.personal(fragments.shared(
-            "designs/draft_figures.html", ("figures-oob", state_key(draft), product.pk),
-            lambda: {"product": product, "revision": draft, **_panel_context(checklist_for(draft))},
+            "designs/draft_figures.html", ("figures-oob", draft.cache_identity, product.pk),
+            lambda: {"product": product, "revision": draft, **_panel_context(checklist_for(draft), editable=True)},
             timeout=fragments.DAY), request))
     # The page carries the draft's version in every form (what each save names as read), so it is part of
     # the key; the state key names the content, which the checklist and figures are cached by.
     return fragments.page(request, "designs/draft_edit.html",
-                          ("draft", state_key(draft), draft.version, product.pk, product.name, draft.number,
-                           _library_stamp(product)),
+                          (draft, product, _library_stamp(product)),
                           lambda: _draft_context(draft, checklist_for(draft)), timeout=fragments.DAY)
 
 
 @login_required
 @require_POST
 def draft_start(request, product_id: int):
+    """A new draft copied from the latest revision, or (`from`) from any revision: "start a draft from it"."""
     product = get_product_for_user(request.user, product_id)
-    draft = services.draft_get_or_start(product=product, user=request.user)
+    require_role(request.user, product.team, Role.AUTHOR)
+    form = DraftStartForm(request.POST)
+    source = None
+    if not form.is_valid() or (form.cleaned_data["from"] is not None and not (
+            source := product.revisions.exclude(state=Revision.State.DRAFT)
+            .filter(number=form.cleaned_data["from"]).first())):
+        messages.error(request, "from: expected the number of a design revision of this product that is not a "
+                                "draft; no draft was started")
+        return redirect(product)
+    try:
+        draft = services.draft_get_or_start(product=product, user=request.user, source=source)
+    except services.DraftExists as exists:
+        messages.error(request, f"Design revision {exists.draft.number} is already a draft of {product.name}: edit "
+                                "it, or submit it, before starting another from an earlier design revision.")
+        return redirect(product)
     messages.success(request, f"Design revision {draft.number} is a new draft"
                      + (f", copied from design revision {draft.based_on.number}." if draft.based_on else "."))
     return redirect("draft_edit", product.pk)
+
+
+@login_required
+@require_POST
+def revision_withdraw(request, product_id: int, number: int):
+    revision = get_revision_for_user(request.user, product_id, number)
+    require_role(request.user, revision.product.team, Role.AUTHOR)
+    form = WithdrawForm(request.POST)
+    if not form.is_valid():
+        messages.error(request, "reason: " + "; ".join(form.errors.get("reason", [])) + "; nothing was withdrawn")
+        return redirect(revision.product)
+    try:
+        services.revision_withdraw(revision=revision, user=request.user, reason=form.cleaned_data["reason"])
+    except lifecycle.IllegalTransition as refused:
+        messages.error(request, str(refused))
+        return redirect(revision.product)
+    messages.success(request, f"Revision {revision.number} was withdrawn from review.")
+    return redirect(revision.product)
 
 
 def _problems_of(document: dict) -> list[Problem]:
@@ -467,9 +515,9 @@ def draft_section_save(request, product_id: int, section: str):
         return HttpResponseClientRedirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
     if request.htmx:
         state = checklist_for(draft)
-        panel = fragments.shared("designs/_panel_oob.html", ("panel", state_key(draft), product.pk),
+        panel = fragments.shared("designs/_panel_oob.html", ("no-figures", draft, product),
                                  lambda: {"product": product, "revision": draft, "editing": True,
-                                          **_panel_context(state, figures=False)},
+                                          **_panel_context(state, figures=False, editable=True)},
                                  timeout=fragments.DAY)
         template = ("designs/draft_section_messages.html" if request.POST.get("answer") == "messages"
                     else "designs/draft_section_saved.html")
@@ -541,40 +589,6 @@ def _section_conflict(request, section: questionnaire.Section, conflict: service
 
 
 @login_required
-@require_POST
-def draft_submit(request, product_id: int):
-    product = get_product_for_user(request.user, product_id)
-    draft = product.draft
-    if draft is None:
-        messages.error(request, "There is no draft to submit.")
-        return redirect(product)
-    try:
-        revision = services.revision_submit(revision=draft, user=request.user)
-    except DesignError as error:
-        loose = [problem.message for problem in error.problems if not problem.path]  # no question holds them
-        messages.error(request, f"Design revision {draft.number} can't be submitted yet: " + (
-            "; ".join(loose) + "." if loose else _still_to_do(draft.document)))
-        return redirect("draft_edit", product.pk)
-    messages.success(request, f"Design revision {revision.number} submitted for review and frozen.")
-    return redirect(revision)
-
-
-def _still_to_do(document: dict) -> str:
-    """What stands between a draft and submitting it, in the words of the checklist's to-do list."""
-    partial = parse_design_partial(document)
-    unanswered = [problem_words.unanswered(problem, document).in_checklist for problem in partial.unanswered]
-    parts = []
-    if unanswered:
-        shown = "; ".join(unanswered[:5]) + (f"; and {len(unanswered) - 5} more" if len(unanswered) > 5 else "")
-        parts.append(f"{len(unanswered)} question{'s' if len(unanswered) != 1 else ''} to answer ({shown})")
-    if partial.problems:
-        count = len(partial.problems)
-        parts.append(f"{count} answer{'s' if count != 1 else ''} to fix (beside the questions)")
-    return " and ".join(parts) + "; the checklist's to-do list links to each." if parts else \
-        "a measurement file can't be used; see the measurements."
-
-
-@login_required
 @require_GET
 def revision_detail(request, product_id: int, number: int):
     facts = revision_facts(request.user, product_id, number)
@@ -582,8 +596,10 @@ def revision_detail(request, product_id: int, number: int):
     # Reviewers (the engineers who measure) keep measurement files with a draft from this page (authors do it on
     # the draft's questionnaire); its forms carry the draft's version, so that is in the key too.
     can_measure = facts.is_draft and Role.REVIEWER in facts.roles and not is_author
+    can_start_draft = not facts.is_draft and Role.AUTHOR in facts.roles  # "start a draft from it" (upgrades)
+    can_start_measurement_draft = not facts.is_draft and Role.REVIEWER in facts.roles
     revisions = Revision.objects.select_related("product", "submitted_by")
-    draft = revisions.get(pk=facts.revision_id) if facts.is_draft else None  # named by its content
+    draft = revisions.get(pk=facts.revision_id) if facts.is_draft else None
 
     def context() -> dict:
         revision = draft or revisions.get(pk=facts.revision_id)
@@ -592,13 +608,48 @@ def revision_detail(request, product_id: int, number: int):
                      "pattern_defaults": _pattern_defaults(revision),
                      "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000} if can_measure else {}
         return {"product": revision.product, "revision": revision, "is_author": is_author,
-                "can_measure": can_measure, "design_text": services.document_export_text(revision=revision),
+                "can_measure": can_measure, "can_start_draft": can_start_draft,
+                "can_start_measurement_draft": can_start_measurement_draft,
+                "upgrade": upgrades.comparison_for(revision),
+                "since_source": upgrades.changes_since_source(revision, state.checklist) if draft else None,
+                "design_text": services.document_export_text(revision=revision),
                 **measuring, **_panel_context(state)}
 
-    state = state_key(draft) if draft else frozen_state_key(facts.revision_id, facts.submitted_at)
+    # The revision's identity (state and version, which a reviewer's measurement forms carry), the product's and
+    # the submitter's name, and what the reader may do: all the page shows. The rule-set comparison follows from
+    # the frozen revision and the code (the stamp covers rules/).
     return fragments.page(request, "designs/revision_detail.html",
-                          ("revision", state, product_id, facts.product_name, facts.status, facts.submitter_name,
-                           is_author, can_measure, draft.version if draft else None), context)
+                          (facts, facts.submitter_name, is_author, can_measure, can_start_draft,
+                           can_start_measurement_draft), context)
+
+
+@login_required
+@require_POST
+def measurement_draft_start(request, product_id: int, number: int):
+    """A reviewer starts a draft from this revision to keep their measurement files (services)."""
+    revision = get_revision_for_user(request.user, product_id, number)
+    require_role(request.user, revision.product.team, Role.REVIEWER)
+    if revision.is_draft:
+        return redirect(revision)
+    try:
+        draft = services.measurement_draft_start(revision=revision, user=request.user)
+    except services.DraftExists as exists:
+        messages.info(request, f"Revision {exists.draft.number} is already a draft: add your measurement files to it.")
+        return redirect(exists.draft)
+    messages.success(request, f"Revision {draft.number} is a new draft copied from revision {revision.number}: add "
+                              "your measurement files; its checklist re-judges with them.")
+    return redirect(draft)
+
+
+@login_required
+@require_GET
+def team_upgrades(request, team_id: int):
+    """The team's frozen revisions that the current rule set would judge differently (designs.upgrades)."""
+    team = get_object_or_404(teams_of(request.user), pk=team_id)  # another team's: 404
+    rows = upgrades.affected_revisions(Revision.objects.filter(product__team=team))
+    return render(request, "designs/team_upgrades.html",
+                  {"team": team, "rows": rows, "ruleset": RULESET_VERSION,
+                   "can_start_draft": has_role(request.user, team, Role.AUTHOR)})
 
 
 @login_required
@@ -691,6 +742,12 @@ def rule_list(request):
         "rules": rules, "retired": RETIRED, "ruleset": RULESET_VERSION,
         "added": [rule for rule in rules if rule.added_in == RULESET_VERSION],
         "changed": [rule for rule in rules if rule.changed_in == RULESET_VERSION and rule.added_in != RULESET_VERSION]})
+
+
+@login_required
+@require_GET
+def term_list(request):
+    return render(request, "designs/term_list.html", {"groups": glossary()})
 
 
 def _back_to_measurements(product) -> HttpResponse:

@@ -30,7 +30,7 @@ from reportlab.lib.validators import isAnything
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
 from rules import physics
-from rules.design import CELLULAR_ROLES, Antenna, Design, find_band
+from rules.design import CELLULAR_ROLES, UNIT_LIMITS, Antenna, Design, find_band
 from rules.findings import SEVERITIES, Finding
 
 INK = colors.HexColor("#1f2a33")
@@ -493,20 +493,128 @@ def _out_of_page(group: Group, x: float, y: float, dot: bool = False) -> Box:
 
 
 def _antenna_glyph(group: Group, placer: _Placer, antenna: Antenna, x: float, y: float,
-                   axes: tuple[int, int]) -> None:
-    """Polarization (projected onto the view's two axes) and the marker, blocked for label placement."""
+                   axes: tuple[int, int], marks: "_Marks | None" = None, view: str = "top") -> None:
+    """Polarization (projected onto the view's two axes) and the marker, blocked for label placement. In the
+    editable drawing they sit in the antenna's focusable group, with a pointer target around the marker, a
+    turn handle at the end of an axis drawn in the view, and a focus ring the page's stylesheet shows."""
+    target = marks.marker(group, antenna.name, view, axes) if marks is not None else group
+    if marks is not None:
+        target.add(Circle(x, y, EDITOR_HIT_PT, fillColor=TRANSPARENT, strokeColor=None))
     if antenna.polarization is not None:
         norm = math.hypot(*antenna.polarization)
         across = antenna.polarization[axes[0]] / norm
         up = antenna.polarization[axes[1]] / norm
         in_plane = math.hypot(across, up)
         if in_plane < IN_PLANE_MIN_FRACTION:
-            placer.block(_out_of_page(group, x, y), 6.0)
+            placer.block(_out_of_page(target, x, y), 6.0)
         else:
             # Foreshortened: an axis tilted out of the view plane draws shorter.
-            start, end = _arrow(group, x, y, across / in_plane, up / in_plane, ARROW_HALF_PT * in_plane)
+            axis = _part(target, marks, part="axis")
+            start, end = _arrow(axis, x, y, across / in_plane, up / in_plane, ARROW_HALF_PT * in_plane)
             placer.block_segment(start, end, 3.0, 6.0)
-    placer.block(_marker(group, x, y, antenna.role, antenna.mounting), 30.0)
+            if marks is not None:
+                handle = _part(axis, marks, part="turn")
+                handle.add(Circle(*end, TURN_HIT_PT, fillColor=TRANSPARENT, strokeColor=None))
+                handle.add(Circle(*end, TURN_HANDLE_PT, fillColor=WHITE, strokeColor=INK, strokeWidth=1.2))
+    placer.block(_marker(target, x, y, antenna.role, antenna.mounting), 30.0)
+    if marks is not None:
+        ring = _part(target, marks, part="focus-ring")
+        ring.add(Circle(x, y, FOCUS_RING_PT, fillColor=None, strokeColor=FOCUS_COLOUR, strokeWidth=2.2))
+
+
+# -- marks for the page's placement editor ---------------------------------------------------------------------
+
+EDITOR_HIT_PT = 10.0  # radius around a marker that takes the pointer (the marker is about 8 pt across)
+TURN_HANDLE_PT = 3.2
+TURN_HIT_PT = 7.0
+FOCUS_RING_PT = 12.0
+FOCUS_COLOUR = colors.HexColor("#1d6f6a")  # the page's accent (earshot.css --accent)
+TRANSPARENT = colors.Color(0, 0, 0, alpha=0)  # painted, so it takes the pointer, but unseen
+
+
+class _Tagged(Group):
+    """A group whose <g> carries `svg_attributes` in the page's SVG (data-*, tabindex, role, aria-*). Other
+    renderers, the PDF's among them, draw it as the plain group it is."""
+
+    _attrMap = AttrMap(BASE=Group, svg_attributes=AttrMapValue(isAnything, desc="attributes of the SVG <g>"))
+
+
+def _numbers(values: Iterable[float]) -> str:
+    return " ".join(f"{value + 0.0:.10g}" for value in values)
+
+
+def _part(group: Group, marks: "_Marks | None", **attributes: Any) -> Group:
+    """A group added to `group` to draw one part into: tagged `data-<key>` in the editable drawing, the group
+    itself otherwise."""
+    if marks is None:
+        return group
+    tagged = _Tagged(svg_attributes={f"data-{key.replace('_', '-')}": str(value) for key, value in attributes.items()})
+    group.add(tagged)
+    return tagged
+
+
+@dataclass(frozen=True)
+class _Marks:
+    """What the editable drawing tags for the draft page's placement editor (static/earshot/placement-edit.js):
+    each view's scale and origin, each antenna's parts with its row in the design (the questionnaire's
+    `antennas[i]`) and the box its feed may be moved in, each pair line's two antennas. With these the script
+    only maps pointer positions to millimetres and turns an axis; what it changes it writes into the
+    questionnaire's fields, whose save redraws this drawing and the checklist."""
+
+    antennas: Mapping[str, tuple[int, Antenna]]  # the design's own values (not the ones clamped for drawing)
+    bounds_mm: Mapping[str, tuple[float, float, float, float, float, float]]  # x0 y0 z0 x1 y1 z1
+    keys_id: str  # the page's text that says how to move and turn an antenna
+
+    @classmethod
+    def of(cls, design: Design, top: "_View", heights_mm: tuple[float, float], keys_id: str) -> "_Marks":
+        """An internal antenna's feed stays inside the enclosure box [0, size] (the rules flag one outside it,
+        ENC-002); an external antenna (on a cable, outside the box), or any antenna when no enclosure size is
+        given, stays inside what the views show, which grows around it with each save. Both within the parser's
+        limits for a length."""
+        limit = UNIT_LIMITS["_mm"]
+        shown = (top.across_min_mm, top.up_min_mm, heights_mm[0], top.across_max_mm, top.up_max_mm, heights_mm[1])
+        antennas, bounds = {}, {}
+        for index, antenna in enumerate(design.antennas):
+            antennas[antenna.name] = (index, antenna)
+            box = ((0.0, 0.0, 0.0, *design.enclosure_size_mm)
+                   if antenna.mounting == "internal" and design.enclosure_size_mm is not None else shown)
+            low = tuple(max(limit.low, value) for value in box[:3])
+            high = tuple(min(limit.high, value) for value in box[3:])
+            bounds[antenna.name] = (*low, *high)
+        return cls(antennas, bounds, keys_id)  # type: ignore[arg-type]
+
+    def index(self, name: str) -> int:
+        return self.antennas[name][0]
+
+    def pair(self, first: str, second: str) -> str:
+        return f"{self.index(first)} {self.index(second)}"
+
+    def view(self, group: Group, view: "_View", name: str, axes: str) -> Group:
+        return _part(group, self, view=name, axes=axes, origin_pt=_numbers(view.pt(0.0, 0.0)),
+                     scale_pt_per_mm=f"{view.scale:.10g}",
+                     extent_mm=_numbers((view.across_min_mm, view.up_min_mm, view.across_max_mm, view.up_max_mm)))
+
+    def marker(self, group: Group, name: str, view: str, axes: tuple[int, int]) -> Group:
+        index, antenna = self.antennas[name]
+        attributes = {
+            "data-part": "marker", "data-antenna": str(index), "data-view": view, "data-axes": f"{axes[0]} {axes[1]}",
+            "data-name": antenna.name, "data-role": antenna.role, "data-mounting": antenna.mounting,
+            "data-position-mm": _numbers(antenna.position_mm or ()), "data-bounds-mm": _numbers(self.bounds_mm[name]),
+            "tabindex": "0", "role": "button", "aria-roledescription": "movable antenna",
+            "aria-label": marker_label(antenna, view), "aria-describedby": self.keys_id,
+        }
+        if antenna.polarization is not None:
+            attributes["data-polarization"] = _numbers(antenna.polarization)
+        tagged = _Tagged(svg_attributes=attributes)
+        group.add(tagged)
+        return tagged
+
+
+def marker_label(antenna: Antenna, view: str) -> str:
+    """The accessible name of an antenna's marker in a view (the editor words it the same way as it moves)."""
+    position = ", ".join(f"{axis} {_mm_text(value)}" for axis, value in zip("xyz", antenna.position_mm or (), strict=False))
+    return (f"{antenna.name}, {antenna.role} antenna ({antenna.mounting}), at {position} mm, "
+            f"{_axis_text(antenna.polarization)}; {view} view")
 
 
 # -- the layout -------------------------------------------------------------------------------------------
@@ -570,8 +678,14 @@ def _enclosure_box(design: Design, placed: Sequence[Antenna]) -> Box | None:
     return (x0 - margin_mm, y0 - margin_mm, x1 + margin_mm, y1 + margin_mm)
 
 
-def _top_extent(design: Design, placed: Sequence[Antenna], enclosure: Box | None, zone_mm: float) -> Box:
+def _top_extent(design: Design, placed: Sequence[Antenna], enclosure: Box | None, zone_mm: float,
+                steady: bool = False) -> Box:
+    """What the top view must show. `steady` (the editable drawing) also keeps room for a cellular antenna's
+    circles anywhere in a given enclosure, so that moving an internal antenna never rescales the drawing."""
     boxes: list[Box] = [enclosure] if enclosure is not None else []
+    if steady and design.enclosure_size_mm is not None and any(antenna.is_cellular for antenna in placed):
+        length_mm, width_mm, _ = design.enclosure_size_mm
+        boxes.append((-zone_mm, -zone_mm, length_mm + zone_mm, width_mm + zone_mm))
     if design.ground_plane_mm is not None:
         boxes.append((0.0, 0.0, design.ground_plane_mm[0], design.ground_plane_mm[1]))
     for antenna in placed:
@@ -662,8 +776,9 @@ def _rect_pt(view: _View, box_mm: Box) -> tuple[float, float, float, float]:
 
 def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: Sequence[Antenna],
               pairs: Sequence[PairLine], enclosure: Box | None, near_field_mm: float | None,
-              quarter_wave_mm: float | None, step_mm: float, coexistence: Sequence[CoexistenceLine] = ()) -> None:
-    _grid(group, view, step_mm, step_mm, "x", "y")
+              quarter_wave_mm: float | None, step_mm: float, coexistence: Sequence[CoexistenceLine] = (),
+              marks: _Marks | None = None) -> None:
+    _grid(marks.view(group, view, "top", "x y") if marks is not None else group, view, step_mm, step_mm, "x", "y")
     placer = _Placer(view.box)
     deferred: list[tuple[_Label, list[tuple[float, float]]]] = []
 
@@ -703,31 +818,35 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
         if not antenna.is_cellular:  # the circles are the cellular band's; GNSS and WLAN work far above it
             continue
         x, y = points[antenna.name]
-        group.add(Circle(x, y, quarter_wave_mm * view.scale, fillColor=None, strokeColor=MUTED,
+        zones = _part(group, marks, antenna=marks.index(antenna.name), view="top", part="zone") if marks else group
+        zones.add(Circle(x, y, quarter_wave_mm * view.scale, fillColor=None, strokeColor=MUTED,
                          strokeWidth=0.9, strokeDashArray=QUARTER_WAVE_DASH))
-        group.add(Circle(x, y, near_field_mm * view.scale, fillColor=NEAR_FIELD_TINT, strokeColor=MUTED,
+        zones.add(Circle(x, y, near_field_mm * view.scale, fillColor=NEAR_FIELD_TINT, strokeColor=MUTED,
                          strokeWidth=0.9, strokeDashArray=NEAR_FIELD_DASH))
 
     for pair in pairs:
         colour = _pair_colour(pair.severity)
         start, end = points[pair.first], points[pair.second]
         if start != end:
-            group.add(Line(*start, *end, strokeColor=colour, strokeWidth=1.8))
+            line_group = _part(group, marks, pair=marks.pair(pair.first, pair.second), part="pair") if marks else group
+            line_group.add(Line(*start, *end, strokeColor=colour, strokeWidth=1.8))
             placer.block_segment(start, end, 1.5, 1.0)
     for line in coexistence:
         start, end = points[line.cellular], points[line.victim]
         if start != end:
-            group.add(_dashed(start, end, SEVERITY_COLOURS[line.severity]))
+            line_group = (_part(group, marks, pair=marks.pair(line.cellular, line.victim), part="coexistence")
+                          if marks else group)
+            line_group.add(_dashed(start, end, SEVERITY_COLOURS[line.severity]))
             placer.block_segment(start, end, 1.5, 1.0)
 
     for antenna in placed:
-        _antenna_glyph(group, placer, antenna, *points[antenna.name], axes=(0, 1))
+        _antenna_glyph(group, placer, antenna, *points[antenna.name], axes=(0, 1), marks=marks, view="top")
 
     for antenna in placed:
         label = _Label(_short(antenna.name), FONT_BOLD, 8.5, INK)
         x, y = points[antenna.name]
-        label.draw(labels, placer.place(label.width, label.height, _around(x, y, 7.0, label.width,
-                                                                               label.height)))
+        into = _part(labels, marks, antenna=marks.index(antenna.name), view="top", part="label") if marks else labels
+        label.draw(into, placer.place(label.width, label.height, _around(x, y, 7.0, label.width, label.height)))
     for pair in pairs:
         colour = _pair_colour(pair.severity)
         label = _Label(f"{_mm_text(pair.distance_mm)} mm", FONT_BOLD, 7.5, colour, border=colour)
@@ -742,7 +861,8 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
                 centre_y = middle_y + along * (y2 - y1) + side * normal[1] * (label.height + 2)
                 anchors.append((centre_x - label.width / 2, centre_y - label.height / 2))
         anchors += _around(middle_x, middle_y, 8.0, label.width, label.height)
-        label.draw(labels, placer.place(label.width, label.height, anchors))
+        into = _part(labels, marks, pair=marks.pair(pair.first, pair.second), part="distance") if marks else labels
+        label.draw(into, placer.place(label.width, label.height, anchors))
     for line in coexistence:
         colour = SEVERITY_COLOURS[line.severity]
         label = _Label(line.label, FONT_ITALIC, 7.5, colour, border=colour)
@@ -750,7 +870,9 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
         anchors = [((x1 + x2) / 2 + along * (x2 - x1) - label.width / 2,
                     (y1 + y2) / 2 + along * (y2 - y1) - label.height / 2) for along in (0.15, -0.15, 0.3, 0.0)]
         anchors += _around((x1 + x2) / 2, (y1 + y2) / 2, 8.0, label.width, label.height)
-        label.draw(labels, placer.place(label.width, label.height, anchors))
+        into = (_part(labels, marks, pair=marks.pair(line.cellular, line.victim), part="coexistence-label")
+                if marks else labels)
+        label.draw(into, placer.place(label.width, label.height, anchors))
     for label, anchors in deferred:
         label.draw(labels, placer.place(label.width, label.height, anchors))
 
@@ -761,9 +883,11 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
                           fontSize=10, fillColor=MUTED, textAnchor="middle"))
 
 
-def _side_view(group: Group, view: _View, design: Design, placed: Sequence[Antenna], step_mm: float) -> None:
+def _side_view(group: Group, view: _View, design: Design, placed: Sequence[Antenna], step_mm: float,
+               marks: _Marks | None = None) -> None:
     # Heights span little, so the z ticks may be closer than the x ticks.
-    _grid(group, view, step_mm, min(step_mm, _nice_at_least(MIN_Z_TICK_SPACING_PT / view.scale)), "x", "z")
+    _grid(marks.view(group, view, "side", "x z") if marks is not None else group, view, step_mm,
+          min(step_mm, _nice_at_least(MIN_Z_TICK_SPACING_PT / view.scale)), "x", "z")
     placer = _Placer(view.box)
     labels = Group()
     enclosure_label: tuple[_Label, list[tuple[float, float]]] | None = None
@@ -778,12 +902,12 @@ def _side_view(group: Group, view: _View, design: Design, placed: Sequence[Anten
     points = {antenna.name: view.pt(antenna.position_mm[0], antenna.position_mm[2])  # type: ignore[index]
               for antenna in placed}
     for antenna in placed:
-        _antenna_glyph(group, placer, antenna, *points[antenna.name], axes=(0, 2))
+        _antenna_glyph(group, placer, antenna, *points[antenna.name], axes=(0, 2), marks=marks, view="side")
     for antenna in placed:
         label = _Label(_short(antenna.name), FONT_BOLD, 8.5, INK)
         x, y = points[antenna.name]
-        label.draw(labels, placer.place(label.width, label.height, _around(x, y, 7.0, label.width,
-                                                                               label.height)))
+        into = _part(labels, marks, antenna=marks.index(antenna.name), view="side", part="label") if marks else labels
+        label.draw(into, placer.place(label.width, label.height, _around(x, y, 7.0, label.width, label.height)))
     if enclosure_label is not None:
         label, anchors = enclosure_label
         label.draw(labels, placer.place(label.width, label.height, anchors))
@@ -991,7 +1115,8 @@ def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[Pair
 
 def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str], str] | None,
                       frequency_mhz: float | None, width_pt: float = 640, max_height_pt: float | None = None,
-                      coexistence: Sequence[CoexistenceLine] = (), record: str = "") -> PlacementDrawing:
+                      coexistence: Sequence[CoexistenceLine] = (), record: str = "", editable: bool = False,
+                      keys_id: str = "placement-keys") -> PlacementDrawing:
     """The placement drawing of a design, `width_pt` wide, judged at `frequency_mhz` (the lowest
     frequency in scope; None while a draft has no bands: no circles then). `pair_severities` maps a pair of
     antenna names to its worst separation finding (see `pair_severities_from_findings`); a pair of cellular
@@ -1001,6 +1126,12 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
     the drawing belongs to ("design revision 2"), beside the hardware revision.
     `max_height_pt` (say, a PDF frame's height) shrinks the scale until the drawing fits, as far as
     the fixed rows (title, legend) allow.
+
+    `editable` draws it for the draft page's placement editor: a side view whenever an antenna is placed (so
+    heights can be changed there too), a top view that keeps room for circles anywhere in the enclosure (so
+    moving an antenna doesn't rescale it), and each view's scale and origin, each antenna's parts and each pair
+    line tagged for the page's SVG (`_Marks`); `keys_id` names the page's text on the keys. The PDF's drawing
+    is never editable.
 
     The result's `layout` (and `scale_pt_per_mm`) tell where things were drawn."""
     if frequency_mhz is not None and not (math.isfinite(frequency_mhz) and frequency_mhz > 0):
@@ -1026,9 +1157,10 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
     placed = [antenna for antenna in drawn.antennas if antenna.position_mm is not None]
     unplaced = [antenna.name for antenna in drawn.antennas if antenna.position_mm is None]
     enclosure = _enclosure_box(drawn, placed)
-    ex0, ey0, ex1, ey1 = _top_extent(drawn, placed, enclosure, max(near_field_mm or 0.0, quarter_wave_mm or 0.0))
+    ex0, ey0, ex1, ey1 = _top_extent(drawn, placed, enclosure, max(near_field_mm or 0.0, quarter_wave_mm or 0.0),
+                                     steady=editable)
     heights = {antenna.position_mm[2] for antenna in placed}  # type: ignore[index]
-    side = _side_extent(drawn, placed) if len(heights) > 1 else None
+    side = _side_extent(drawn, placed) if len(heights) > 1 or (editable and placed) else None
 
     legend = _legend_columns(width_pt, _legend_groups(
         frequency_mhz, near_field_mm, quarter_wave_mm, frozenset(antenna.role for antenna in placed),
@@ -1079,9 +1211,14 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
 
     top_view = _View(panel_left_pt, top - top_height_pt, panel_width_pt, top_height_pt,
                      ex0 - PANEL_PAD_PT / scale, ey0 - PANEL_PAD_PT / scale, scale)
+    marks = None
+    if editable:
+        heights_mm = ((side[0] - SIDE_PAD_PT / scale, side[1] + SIDE_PAD_PT / scale) if side is not None
+                      else (0.0, 0.0))
+        marks = _Marks.of(design, top_view, heights_mm, keys_id)
     labels = Group()
     _top_view(group, labels, top_view, drawn, placed, drawn_pairs, enclosure, near_field_mm, quarter_wave_mm,
-              step_mm, drawn_coexistence)
+              step_mm, drawn_coexistence, marks)
     group.add(labels)
     top -= top_height_pt + TICK_ROW_PT
     scale_bar_mm = _scale_bar(group, panel_left_pt, top, scale, width_pt, panel_width_pt)
@@ -1094,7 +1231,7 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
         top -= SIDE_HEADING_PT + 12
         side_view = _View(panel_left_pt, top - side_height_pt, panel_width_pt, side_height_pt,
                           top_view.across_min_mm, side[0] - SIDE_PAD_PT / scale, scale)
-        _side_view(group, side_view, drawn, placed, step_mm)
+        _side_view(group, side_view, drawn, placed, step_mm, marks)
         top -= side_height_pt + TICK_ROW_PT
 
     top -= GAP_PT
@@ -1155,6 +1292,17 @@ class _ExactColourSVGCanvas(renderSVG.SVGCanvas):
             self.style["fill"] = self._hex(color)
 
 
+class _TaggingSVGRenderer(renderSVG._SVGRenderer):
+    """The stock SVG renderer, writing a `_Tagged` group's attributes on its <g>. reportlab offers no hook for
+    attributes on a group; a group's <g> is the last child its parent has once the group is drawn."""
+
+    def drawGroup(self, group: Group) -> None:
+        parent = self._canvas.currGroup
+        super().drawGroup(group)
+        for name, value in (getattr(group, "svg_attributes", None) or {}).items():
+            parent.lastChild.setAttribute(name, value)
+
+
 def _clean_prefix(id_prefix: str) -> str:
     prefix = re.sub(r"[^A-Za-z0-9_-]+", "-", id_prefix).strip("-")
     return prefix if prefix[:1].isalpha() else f"p-{prefix}".rstrip("-")
@@ -1162,26 +1310,42 @@ def _clean_prefix(id_prefix: str) -> str:
 
 def placement_svg(design: Design, *, pair_severities: Mapping[frozenset[str], str] | None,
                   frequency_mhz: float | None, width_pt: float = 640, id_prefix: str = "placement",
-                  coexistence: Sequence[CoexistenceLine] = (), record: str = "") -> str:
+                  coexistence: Sequence[CoexistenceLine] = (), record: str = "", editable: bool = False) -> str:
     """The placement drawing as a standalone <svg> element to inline in HTML.
 
     It has role="img" and is labelled by its <title> and <desc> (a sentence listing the antennas, their
     positions, pair distances and findings, and the circle radii). Every id starts with `id_prefix`, so
     two drawings can share a page; it scales to its container, at most its natural width.
+
+    `editable` (the draft page) draws it for the placement editor (see `placement_drawing`): the <svg> is then
+    a group, not an image, since it holds a focusable marker per antenna and view, and it carries the
+    enclosure's size (`data-enclosure-mm`) and how many antennas the design has (`data-antennas`). Each marker
+    is described by the page's element `<id_prefix>-keys`, which says how to move and turn it.
     """
+    prefix = _clean_prefix(id_prefix)
     drawing = placement_drawing(design, pair_severities=pair_severities, frequency_mhz=frequency_mhz,
-                                width_pt=width_pt, coexistence=coexistence, record=record)
+                                width_pt=width_pt, coexistence=coexistence, record=record, editable=editable,
+                                keys_id=f"{prefix}-keys")
     layout: PlacementLayout = drawing.layout
-    return accessible_svg(drawing, title=layout.title, description=layout.description, id_prefix=id_prefix)
+    editor = None
+    if editable:
+        editor = {"data-placement-editor": "", "data-antennas": str(len(design.antennas))}
+        if design.enclosure_size_mm is not None:
+            editor["data-enclosure-mm"] = _numbers(design.enclosure_size_mm)
+    return accessible_svg(drawing, title=layout.title, description=layout.description, id_prefix=id_prefix,
+                          editor=editor)
 
 
-def accessible_svg(drawing: Drawing, *, title: str, description: str, id_prefix: str) -> str:
+def accessible_svg(drawing: Drawing, *, title: str, description: str, id_prefix: str,
+                   editor: Mapping[str, str] | None = None) -> str:
     """Any drawing as a standalone <svg> element to inline in HTML: role="img", labelled by its <title>
     and <desc>, every id prefixed with `id_prefix` (cleaned to a valid id start), palette colours written
-    exactly, and a width that follows its container up to the drawing's natural width."""
+    exactly, and a width that follows its container up to the drawing's natural width. With `editor` (the
+    attributes of an editable drawing) it is a group labelled by its title and described by its description,
+    holding focusable parts that an image may not."""
     canvas = _ExactColourSVGCanvas((drawing.width, drawing.height),
                                    fontHacks={font: dict(attrs) for font, attrs in _SVG_FONTS.items()})
-    renderSVG.draw(drawing, canvas, 0, 0, showBoundary=False)
+    _TaggingSVGRenderer().draw(renderSVG.renderScaledDrawing(drawing), canvas, 0, 0, showBoundary=False)
     prefix = _clean_prefix(id_prefix)
     svg = canvas.svg
 
@@ -1212,6 +1376,13 @@ def accessible_svg(drawing: Drawing, *, title: str, description: str, id_prefix:
     svg.setAttribute("width", "100%")
     svg.setAttribute("viewBox", f"0 0 {drawing.width:g} {drawing.height:g}")
     svg.setAttribute("style", f"max-width: {drawing.width:g}px; height: auto;")
-    svg.setAttribute("role", "img")
-    svg.setAttribute("aria-labelledby", f"{prefix}-title {prefix}-desc")
+    if editor is None:
+        svg.setAttribute("role", "img")
+        svg.setAttribute("aria-labelledby", f"{prefix}-title {prefix}-desc")
+    else:
+        svg.setAttribute("role", "group")
+        svg.setAttribute("aria-labelledby", f"{prefix}-title")
+        svg.setAttribute("aria-describedby", f"{prefix}-desc")
+        for name, value in editor.items():
+            svg.setAttribute(name, value)
     return svg.toxml()

@@ -254,7 +254,7 @@ def test_an_author_fills_the_questionnaire_and_the_checklist_follows_each_answer
 
     page.get_by_role("button", name="Submit for review").click()
     expect(page).to_have_url(live_server.url + reverse("revision_detail", args=[product.pk, 1]))
-    expect(page.get_by_role("heading", name="Design revision 1")).to_contain_text("Submitted for review")
+    expect(page.get_by_role("heading", name="Design revision 1")).to_contain_text("In review")
     expect(page.get_by_role("status")).to_contain_text("Design revision 1 submitted for review and frozen.")
     expect(page.locator(".pagehead")).to_contain_text("· frozen")
     # The frozen checklist: no longer live, the same counts as the last draft state, no questionnaire.

@@ -286,7 +286,7 @@ def test_a_rule_reading_an_input_it_did_not_declare_waits_instead_of_judging(mon
     from rules import registry
 
     @rule(id="TST-901", topic="certification", severities=("note",), title="reads bands undeclared",
-          rationale="a test", sources=("a test",), needs=())
+          rationale="a test", sources=("a test",), product_impact="a test", needs=())
     def undeclared(context):
         yield from ()
         assert context.design.modem.bands
@@ -304,7 +304,7 @@ def test_a_rule_must_name_inputs_that_exist():
 
     with pytest.raises(RuleDefinitionError, match="needs"):
         rule(id="TST-902", topic="certification", severities=("note",), title="t", rationale="t",
-             sources=("t",), needs=("modem.colour",))(lambda context: iter(()))
+             sources=("t",), product_impact="t", needs=("modem.colour",))(lambda context: iter(()))
 
 
 # -- any document -----------------------------------------------------------------------------------------

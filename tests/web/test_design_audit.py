@@ -5,8 +5,8 @@ writes nothing (the page cache relies on an unchanged state)."""
 from django.core.files.uploadedfile import SimpleUploadedFile
 from django.urls import reverse
 
-from projectapp.designs import checklists, services
-from projectapp.reviews.models import AuditEvent
+from projectapp.audit.models import AuditEvent
+from projectapp.designs import services
 from tests.web.conftest import EXAMPLES
 from tests.web.test_draft_versions import draft_of, page_form, save, signed_in
 
@@ -44,12 +44,12 @@ def test_a_section_save_records_who_which_section_and_each_changed_path(product,
 def test_saving_identical_values_writes_no_event_and_keeps_the_state(product, author):
     client = signed_in(author)
     draft = draft_of(product)
-    before = (len(design_events(product)), draft.version, checklists.state_key(draft))
+    before = (len(design_events(product)), draft.version, draft.cache_identity)
     for slug in ("product", "enclosure", "antennas", "deployment"):
         assert save(client, product, slug, page_form(client, product, slug),
                     HTTP_HX_REQUEST="true").status_code == 200
     draft = draft_of(product)
-    assert (len(design_events(product)), draft.version, checklists.state_key(draft)) == before
+    assert (len(design_events(product)), draft.version, draft.cache_identity) == before
 
 
 def test_uploads_port_maps_and_removals_by_a_reviewer_are_recorded(client, product, reviewer):

@@ -33,7 +33,7 @@ def save(client, product, slug: str, changes: dict[str, str], **extra):
 
 
 def document(product) -> dict:
-    return Revision.objects.get(product=product, status="draft").document
+    return Revision.objects.get(product=product, state="draft").document
 
 
 @pytest.fixture
@@ -131,7 +131,7 @@ def test_a_figure_for_every_band_beside_band_figures_fills_the_bands_left_empty(
 def test_a_per_band_gain_over_the_approval_limit_is_judged_for_that_band_only(author_client, product):
     # hive-gateway.json: the approval allows B3 5.0, B8 3.0, B20 3.0 dBi
     save(author_client, product, "antennas", gains("", "4.5", "3.4", "2.0"))
-    draft = Revision.objects.get(product=product, status="draft")
+    draft = Revision.objects.get(product=product, state="draft")
     from projectapp.designs.checklists import checklist_for
 
     gain = [finding for finding in checklist_for(draft).findings if finding["id"] == "GAI-001"]
@@ -240,7 +240,7 @@ def test_radiated_targets_entered_in_the_questionnaire_reach_the_radiated_estima
     save(author_client, product, "deployment", {"deployment.radiated_targets_dbm.trp.B3": "22"})
     from projectapp.designs.checklists import checklist_for
 
-    ota = [finding for finding in checklist_for(Revision.objects.get(product=product, status="draft")).findings
+    ota = [finding for finding in checklist_for(Revision.objects.get(product=product, state="draft")).findings
            if finding["topic"] == "ota" and finding["evidence"].get("band") == "B3"]
     assert ota and ota[0]["evidence"]["target_dbm"] == 22 and ota[0]["severity"] == "warning"
     assert ota[0]["evidence"]["estimate_dbm"] == pytest.approx(23 + 10 * math.log10(0.52), abs=0.01)

@@ -6,9 +6,10 @@ import json
 import pytest
 from django.urls import reverse
 
+from projectapp.audit.models import AppendOnlyError, AuditEvent
 from projectapp.designs import services as design_services
-from projectapp.reviews.models import AppendOnlyError, AuditEvent, Comment, Disposition, ReviewItem
-from projectapp.reviews.services import review_item_decide
+from projectapp.reviews.models import Comment, Disposition, ReviewItem
+from projectapp.reviews.services import review_item_decide, revision_submit
 from tests.web.conftest import EXAMPLES
 
 HTMX = {"HTTP_HX_REQUEST": "true"}
@@ -21,7 +22,7 @@ def hive_document() -> dict:
 @pytest.fixture
 def reviewed(product, author):
     """The hive gateway submitted: its findings are review items (SEP-001 is its blocker)."""
-    design_services.revision_submit(revision=product.draft, user=author)
+    revision_submit(revision=product.draft, user=author)
     return product
 
 
@@ -150,7 +151,7 @@ def submit_with(product, author, mutate) -> None:
     document = copy.deepcopy(draft.document)
     mutate(document)
     design_services.draft_save_document(revision=draft, document=document, user=author)
-    design_services.revision_submit(revision=draft, user=author)
+    revision_submit(revision=draft, user=author)
 
 
 def test_decisions_carry_forward_across_three_revisions(client, reviewed, author, reviewer, approver):
@@ -350,7 +351,8 @@ def test_a_decision_made_on_a_carried_item_shows_who_made_it_and_what_was_carrie
 def test_on_the_review_page_a_decision_updates_the_settled_count_out_of_band(client, reviewed, reviewer):
     item = item_of(reviewed, "EFF-001")
     review_url = reverse("revision_review", args=[reviewed.pk, 1])
-    total = ReviewItem.objects.filter(revision__product=reviewed, kind=ReviewItem.Kind.RAISED).count()
+    total = ReviewItem.objects.filter(revision__product=reviewed, kind=ReviewItem.Kind.RAISED,
+                                      process_step__isnull=True).count()  # external steps are tracked, not settled
     client.force_login(reviewer)
     assert f"0 of {total} items settled" in client.get(review_url).content.decode()
     response = post(client, reviewer, "review_item_decide", item,

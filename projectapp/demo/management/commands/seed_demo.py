@@ -16,6 +16,7 @@ from projectapp.designs import library_use, services
 from projectapp.designs.models import Product
 from projectapp.library import services as library
 from projectapp.library.models import Entry
+from projectapp.reviews.services import revision_submit
 from projectapp.teams.models import Membership, Role, Team
 
 EXAMPLES = Path(__file__).resolve().parents[4] / "rules" / "examples"
@@ -156,7 +157,7 @@ class Command(BaseCommand):
                                      absolute=entry.get("absolute", False), environment=entry.get("environment"),
                                      user=author)
             if submit:
-                services.revision_submit(revision=product.draft, user=author)
+                revision_submit(revision=product.draft, user=author)
             elif example is None and parts:
                 fill_cold_chain_tracker(product, parts, author=author, reviewer=users["tobias"])
             created += 1
