@@ -51,8 +51,10 @@ CSRF_MARK = mark_safe("<!--earshot:csrf-->")
 NAME_MARK = mark_safe("<!--earshot:reader-->")
 FLASH_MARK = mark_safe("<!--earshot:flash-->")
 NONCE_MARK = mark_safe("<!--earshot:nonce-->")
-_CSRF, _NAME, _FLASH, _NONCE = (mark.encode() for mark in (CSRF_MARK, NAME_MARK, FLASH_MARK, NONCE_MARK))
-_MARKS = re.compile(b"(" + b"|".join(re.escape(mark) for mark in (_CSRF, _NAME, _FLASH, _NONCE)) + b")")
+UNREAD_MARK = mark_safe("<!--earshot:unread-->")  # the header's unread count (request.unread_notices, notices app)
+_CSRF, _NAME, _FLASH, _NONCE, _UNREAD = (mark.encode()
+                                        for mark in (CSRF_MARK, NAME_MARK, FLASH_MARK, NONCE_MARK, UNREAD_MARK))
+_MARKS = re.compile(b"(" + b"|".join(re.escape(mark) for mark in (_CSRF, _NAME, _FLASH, _NONCE, _UNREAD)) + b")")
 _STAMPED = (".py", ".html", ".csv", ".toml", ".json")
 DAY = 24 * 3600
 
@@ -179,7 +181,7 @@ def shared(template: str, key_parts: tuple[Hashable, ...], context: Callable[[],
 
 def _render(template: str, context: dict[str, Any]) -> Pieces:
     html = render_to_string(template, {**context, "csrf_token": CSRF_MARK, "user": _Reader(),
-                                       "flash_slot": FLASH_MARK, "csp_nonce": NONCE_MARK})
+                                       "flash_slot": FLASH_MARK, "csp_nonce": NONCE_MARK, "unread_slot": UNREAD_MARK})
     return tuple(_MARKS.split(html.encode()))
 
 
@@ -193,6 +195,8 @@ def _personal_bytes(pieces: Pieces, request) -> bytes:
             values[mark] = get_token(request).encode()
         elif mark == _NAME:
             values[mark] = escape(request.user.get_full_name() or request.user.username).encode()
+        elif mark == _UNREAD:
+            values[mark] = str(getattr(request, "unread_notices", "")).encode()  # markup the middleware escaped
         elif mark == _FLASH:
             messages = get_messages(request)
             values[mark] = render_to_string("_flash.html", {"messages": messages}).encode() if messages else b""

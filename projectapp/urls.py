@@ -19,4 +19,5 @@ urlpatterns = [
     path("", include("projectapp.designs.urls")),
     path("", include("projectapp.library.urls")),
     path("", include("projectapp.signoff.urls")),
+    path("", include("projectapp.notices.urls")),
 ]

@@ -16,18 +16,23 @@ Nothing lands after the first signature, or on a withdrawn revision.
 """
 
 import hashlib
+from collections import Counter
 from typing import Any
 
+from django.contrib.auth import get_user_model
 from django.core.exceptions import PermissionDenied
 from django.core.files.base import ContentFile
 from django.db import transaction
 from django.db.models import Count, F
+from django.urls import reverse
 from django.utils import timezone
 
 from projectapp.audit.models import AuditEvent
 from projectapp.audit.services import audit_record
 from projectapp.designs import lifecycle
 from projectapp.designs.models import Revision
+from projectapp.notices.models import Notice
+from projectapp.notices.services import mentioned, notify
 from projectapp.reviews.gate import approver_ids  # noqa: F401 (the PDF and the views read it from here)
 from projectapp.reviews.models import (
     MAX_ATTACHMENT_BYTES,
@@ -193,6 +198,7 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
                                       disposition=before.disposition, justification=before.justification))
     ReviewItem.objects.bulk_create(created)
     comments_carry(items=created, earlier=earlier)
+    _tell_assigned_at_submission(revision=revision, items=created, user=user)
     process_steps_create(revision=revision, items=created, previous=previous)
     review_tallies_refresh(revision_ids=[revision.pk])
     raised = sum(1 for item in created if item.kind == ReviewItem.Kind.RAISED)
@@ -206,6 +212,17 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
                    f"{previous.number if previous else '—'}",
            changes={"review_items": [None, raised]})
     return created
+
+
+def _tell_assigned_at_submission(*, revision: Revision, items: list[ReviewItem], user) -> None:
+    """Each assignee hears once how many of the revision's items are theirs."""
+    counts = Counter(item.assignee_id for item in items if item.kind == ReviewItem.Kind.RAISED and item.assignee_id)
+    people = {person.pk: person for person in get_user_model().objects.filter(pk__in=counts)}
+    for person_id, count in counts.items():
+        notify(recipients=[people[person_id]], team=revision.product.team, kind=Notice.Kind.ASSIGNED, actor=user,
+               url=reverse("review_dashboard") + f"?assignee=me&product={revision.product_id}",
+               text=f"{revision.product.name}, design revision {revision.number}: {count} item"
+                    f"{'s' if count != 1 else ''} to review", event_key=f"assigned:{revision.pk}:{person_id}")
 
 
 def comments_carry(*, items: list[ReviewItem], earlier: dict[tuple[str, str], ReviewItem]) -> None:
@@ -392,6 +409,11 @@ def review_item_assign(*, item: ReviewItem, user, assignee, expected_version: in
     after = assignee.username if assignee else None
     _audit(item=current, revision=current.revision, user=user, action=AuditEvent.Action.ASSIGNED,
            summary=f"{current.rule_id}: assigned to {after or 'nobody'}", changes={"assignee": [before, after]})
+    if assignee is not None and after != before:
+        notify(recipients=[assignee], team=current.revision.product.team, kind=Notice.Kind.ASSIGNED, actor=user,
+               url=reverse("review_item", args=[current.pk]),
+               text=f"{current.revision.product.name}, design revision {current.revision.number}: "
+                    f"{current.rule_id} {current.title} is assigned to you")
     return current
 
 
@@ -407,6 +429,10 @@ def review_item_comment(*, item: ReviewItem, user, text: str) -> Comment:
     if not text:
         raise ReviewInputError("text", "text: expected a comment, got nothing")
     comment = Comment.objects.create(item=item, author=user, text=text, written_on=item.revision)
+    notify(recipients=mentioned(text=text, team=team), team=team, kind=Notice.Kind.MENTION, actor=user,
+           url=reverse("review_item", args=[item.pk]),
+           text=f"{user.get_full_name() or user.get_username()} on {item.rule_id} ({item.revision.product.name}, "
+                f"design revision {item.revision.number}): {text[:160]}", event_key=f"comment:{comment.pk}")
     _audit(item=item, revision=item.revision, user=user, action=AuditEvent.Action.COMMENT,
            summary=f"{item.rule_id}: {text[:200]}", changes={"comment": [None, text]})
     return comment
@@ -477,4 +503,28 @@ def topic_reviewers_set(*, team, user, reviewers: dict[str, Any]) -> None:
                      summary="Default reviewers: " + "; ".join(f"{topic} {new or 'nobody'}"
                                                              for topic, (_, new) in changes.items()),
                      changes=changes)
+
+
+def steps_due_notify(*, today, within_days: int = 7) -> int:
+    """Tells each open external step's owner when its planned date is within `within_days` (or past), once per
+    step and planned date. Steps of revisions whose review is still open or that are signed (the latest
+    record's steps are what the team still owes). Returns how many people were told."""
+    from datetime import timedelta
+
+    open_states = (Revision.State.IN_REVIEW, Revision.State.SIGNING, Revision.State.SIGNED)
+    steps = (ProcessStep.objects.filter(revision__state__in=open_states, owner__isnull=False,
+                                        planned_on__lte=today + timedelta(days=within_days),
+                                        status__in=[StepStatus.PLANNED, StepStatus.IN_PROGRESS])
+             .select_related("revision__product__team", "item", "owner"))
+    told = 0
+    for step in steps:
+        revision = step.revision
+        when = "was due" if step.planned_on < today else "is due"
+        told += len(notify(
+            recipients=[step.owner], team=revision.product.team, kind=Notice.Kind.STEP_DUE,
+            url=reverse("revision_review", args=[revision.product_id, revision.number]),
+            text=f"{revision.product.name}, design revision {revision.number}: {step.item.title} {when} on "
+                 f"{step.planned_on.isoformat()} ({step.get_status_display().lower()})",
+            event_key=f"step-due:{step.pk}:{step.planned_on.isoformat()}"))
+    return told
 

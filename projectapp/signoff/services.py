@@ -19,12 +19,17 @@ import json
 import logging
 from dataclasses import dataclass, field
 
+from django.contrib.auth import get_user_model
 from django.core.exceptions import PermissionDenied
 from django.core.files.base import ContentFile
 from django.db import transaction
+from django.urls import reverse
 
+from projectapp.audit.models import AuditEvent
 from projectapp.designs import lifecycle
 from projectapp.designs.models import Revision
+from projectapp.notices.models import Notice
+from projectapp.notices.services import notify
 from projectapp.reviews import gate
 from projectapp.reviews.models import EvidenceAttachment, ProcessStep
 from projectapp.signoff.models import MEANINGS, Signature, SignedRecord, Supersession
@@ -166,11 +171,36 @@ def _revision_sign_checked(*, revision: Revision, user, role: str) -> Signature:
     lifecycle.signature_recorded(
         revision=revision, user=user, changes={"signature": [None, role]},
         summary=f"Signed design revision {revision.number} as {role} ({signature.meaning.split(':')[0]})")
-    if not [r for r in team.signoff_roles if r not in (*state.signed_roles, role)]:
-        record_archive(revision=revision, user=user)
+    missing = [r for r in team.signoff_roles if r not in (*state.signed_roles, role)]
+    if not missing:
+        record = record_archive(revision=revision, user=user)
+        _tell_signed(revision=revision, record=record, user=user)
     else:
         record_build(revision=revision)  # built, not stored: see the module docstring
+        _tell_signature_awaited(revision=revision, roles=missing, user=user)
     return signature
+
+
+def _tell_signature_awaited(*, revision: Revision, roles: list[str], user) -> None:
+    """After a signature, the people who may give a missing one (not the signer) are told theirs is awaited."""
+    team = revision.product.team
+    signers = set(revision.signatures.values_list("signer_id", flat=True)) if not team.allow_dual_signing else set()
+    people = get_user_model().objects.filter(memberships__team=team, memberships__role__in=roles).exclude(
+        pk__in=signers).distinct()
+    notify(recipients=people, team=team, kind=Notice.Kind.SIGNATURE, actor=user,
+           url=reverse("signoff_page", args=[revision.product_id, revision.number]),
+           text=f"{revision.product.name}, design revision {revision.number}: a {' or '.join(roles)} signature "
+                f"is awaited ({user.get_full_name() or user.get_username()} has signed)",
+           event_key=f"signature:{revision.pk}:{len(revision.signatures.all())}")
+
+
+def _tell_signed(*, revision: Revision, record: SignedRecord, user) -> None:
+    """Everyone who took part in the revision's life (its audit trail's people) is told it is signed."""
+    involved = set(AuditEvent.objects.filter(revision=revision).values_list("actor_id", flat=True))
+    notify(recipients=get_user_model().objects.filter(pk__in=involved), team=revision.product.team,
+           kind=Notice.Kind.SIGNED, actor=user, url=reverse("record_detail", args=[record.pk]),
+           text=f"{revision.product.name}, design revision {revision.number} is signed and its record archived",
+           event_key=f"signed:{revision.pk}")
 
 
 def record_build(*, revision: Revision) -> tuple[str, bytes]:

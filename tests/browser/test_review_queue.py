@@ -38,7 +38,8 @@ def test_a_reviewer_works_through_their_queue(page, live_server, reviewer, queue
     page.evaluate("window.earshotMarker = 'still here'")  # survives only if no full page load happens
     decisions = {"SEP-001": ("change", "Move DIV to the far corner of the board"),
                  "EFF-001": ("change", "")}
-    for item in ReviewItem.objects.filter(revision=queue, kind="raised").order_by("id"):
+    # external steps (certification, RF exposure) are tracked, not dispositioned: the cards with a decision form
+    for item in ReviewItem.objects.filter(revision=queue, kind="raised", process_step__isnull=True).order_by("id"):
         disposition, justification = decisions.get(item.rule_id, ("not-applicable", "Tracked in the test plan"))
         card = page.locator(f"#item-{item.pk}")
         card.locator("select[name=disposition]").select_option(disposition)
@@ -53,7 +54,7 @@ def test_a_reviewer_works_through_their_queue(page, live_server, reviewer, queue
     page.goto(live_server.url + reverse("product_audit", args=[queue.product_id]))
     expect(page.get_by_text("Move DIV to the far corner of the board").first).to_be_visible()
     recorded = AuditEvent.objects.filter(product=queue.product, action="disposition", actor=reviewer).count()
-    assert recorded == ReviewItem.objects.filter(revision=queue, kind="raised").count()
+    assert recorded == ReviewItem.objects.filter(revision=queue, kind="raised", process_step__isnull=True).count()
 
 
 def test_a_waiver_on_a_blocker_is_refused_to_a_reviewer_with_a_clear_answer(page, live_server, reviewer, queue):

@@ -7,9 +7,9 @@ import re
 from django.urls import reverse
 
 from benchmarks.section_save import page_form
+from projectapp.audit.models import AuditEvent
 from projectapp.designs import services
 from projectapp.designs.models import Product
-from projectapp.audit.models import AuditEvent
 from tests.web.conftest import EXAMPLES, make_user
 
 HTMX = {"HTTP_HX_REQUEST": "true"}
