@@ -15,6 +15,7 @@ from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
+from rules.design import INPUTS
 from rules.findings import BASES, EVIDENCE_KEYS, SEVERITIES, TOPICS, Finding, Flag, round_evidence
 
 if TYPE_CHECKING:
@@ -52,6 +53,7 @@ class Rule:
     check: CheckFunction
     added_in: str | None = None  # the rule set that introduced it (None: before rule set 2)
     changed_in: str | None = None  # the last rule set that changed what it says
+    needs: tuple[str, ...] = INPUTS  # the design inputs it reads (rules.design.INPUTS); all unless declared
     product_impact: str = ""  # what the rule means for a product, in a product manager's words (required by rule())
 
     def run(self, context: "CheckContext") -> Iterator[Finding]:
@@ -104,13 +106,18 @@ RETIRED: tuple[RetiredRule, ...] = ()
 def rule(
     *, id: str, topic: str, severities: Iterable[str], title: str, rationale: str, sources: Iterable[str],
     product_impact: str, added_in: str | None = None, changed_in: str | None = None,
+    needs: Iterable[str] | None = None,
 ) -> Callable[[CheckFunction], CheckFunction]:
     """Registers a check function under a stable id. The function takes one argument, `context`.
     `product_impact` says what the rule means for a product, in a product manager's words (each finding
     then says it for its own case). `added_in` and `changed_in` name the rule set that introduced the rule
-    or last changed its meaning."""
+    or last changed its meaning. `needs` names the design inputs it reads (rules.design.INPUTS): on a partial
+    design (a draft being filled in) it runs only when all of them are there. A rule that declares none needs
+    every input, so it waits until the design is complete; tests/rules/test_partial.py checks each declaration
+    against what the rule reads."""
     severities = tuple(severities)
     sources = tuple(sources)
+    declared = INPUTS if needs is None else tuple(needs)
 
     def register(function: CheckFunction) -> CheckFunction:
         where = f"{function.__module__}.{function.__name__}"
@@ -124,6 +131,9 @@ def rule(
             raise RuleDefinitionError(f"{where}: severities {severities} should come from {SEVERITIES}")
         if not sources:
             raise RuleDefinitionError(f"{where}: a rule names its sources ('common practice' counts)")
+        unknown = [name for name in declared if name not in INPUTS]
+        if unknown:
+            raise RuleDefinitionError(f"{where}: needs {unknown} are not inputs of rules.design.INPUTS")
         if not isinstance(product_impact, str) or not product_impact.strip():
             raise RuleDefinitionError(f"{where}: a rule says what it means for the product (product_impact), in a "
                                       "product manager's words")
@@ -131,7 +141,7 @@ def rule(
         if [parameter.name for parameter in parameters] != ["context"]:
             raise RuleDefinitionError(f"{where}: a check takes exactly one parameter, 'context'")
         _RULES[id] = Rule(id, topic, severities, title, rationale, sources, function, added_in, changed_in,
-                          product_impact=product_impact.strip())
+                          declared, product_impact=product_impact.strip())
         return function
 
     return register

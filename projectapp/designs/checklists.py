@@ -20,8 +20,8 @@ from django.db import DatabaseError
 from projectapp import fragments
 from projectapp.designs.models import Revision
 from rules.coverage import analyse_coverage
-from rules.design import Design, DesignError, Problem, parse_design
-from rules.evaluate import evaluate
+from rules.design import Design, DesignError, PartialDesign, Problem, parse_design, parse_design_partial
+from rules.evaluate import evaluate, evaluate_partial
 from rules.measurements import AttachedMeasurements, LoadedMeasurement, LoadedPattern, attach_measurements
 from rules.registry import RULESET_VERSION
 
@@ -32,11 +32,18 @@ CHECK_FAILED = Problem("", "this design could not be checked: an error in Earsho
 
 @dataclass
 class ChecklistState:
+    """What a revision's page shows of its checklist. `design` is the whole parsed design (None while a draft
+    is incomplete: nothing may judge or draw on it as if it were whole); `partial` is a draft's partial design,
+    for drawing what there is. `problems` are the parser's problems and `unanswered` the required values a draft
+    has not given yet (a draft's checklist then holds what could be judged, and what waits)."""
+
     revision: Revision
     design: Design | None = None
     checklist: dict[str, Any] | None = None
     problems: list[Problem] = field(default_factory=list)
     measurements: tuple[LoadedMeasurement, ...] = ()
+    partial: PartialDesign | None = None
+    unanswered: list[Problem] = field(default_factory=list)
 
     @property
     def findings(self) -> list[dict[str, Any]]:
@@ -45,6 +52,18 @@ class ChecklistState:
     @property
     def summary(self) -> dict[str, int]:
         return self.checklist["summary"] if self.checklist else {}
+
+    @property
+    def is_partial(self) -> bool:
+        """A draft's checklist of what could be judged so far (the design is not complete)."""
+        return bool(self.checklist) and self.checklist.get("complete") is False
+
+    @property
+    def shown_design(self) -> Design | None:
+        """The design to draw: the whole one, or what a draft has so far."""
+        if self.design is not None:
+            return self.design
+        return self.partial.shown() if self.partial is not None else None
 
 
 def measurement_reader(revision: Revision):
@@ -65,25 +84,55 @@ def measurement_digests(revision: Revision) -> dict[str, str]:
 
 
 def checklist_for(revision: Revision) -> ChecklistState:
+    if revision.is_draft:
+        return _draft_checklist(revision)
     state = ChecklistState(revision)
     try:
         state.design = parse_design(revision.document)
-        if revision.is_draft:  # a frozen revision's checklist is stored; its files are read only when drawn
-            key = fragments.cache_key("checklist", revision.cache_identity)  # the code stamp covers the rules
-            state.checklist = cache.get(key)
-            if state.checklist is None:
-                state.measurements = attach_measurements(state.design, measurement_reader(revision))
-                state.checklist = evaluate(state.design, state.measurements).as_dict()
-                cache.set(key, state.checklist, timeout=24 * 3600)
     except DesignError as error:
         state.problems = error.problems
+    except DatabaseError:
+        raise
+    except Exception:
+        logger.exception("checking revision %s failed", revision.pk)
+        state.design, state.problems = None, [CHECK_FAILED]
+    state.checklist = revision.evaluation
+    return state
+
+
+def _draft_checklist(revision: Revision) -> ChecklistState:
+    """A draft's live checklist: of the whole design when it is complete (exactly what submitting it would
+    freeze), else of what can be judged so far (rules.evaluate.evaluate_partial), with the unanswered values,
+    the problems and the checks still waiting. Kept in the cache per state of the draft."""
+    state = ChecklistState(revision)
+    try:
+        partial = parse_design_partial(revision.document)
+        state.partial = partial
+        key = fragments.cache_key("checklist", revision.cache_identity)  # the code stamp covers the rules
+        state.checklist = cache.get(key)
+        if state.checklist is None:
+            measurements: tuple[LoadedMeasurement, ...] = ()
+            if partial.has("measurements") and partial.design.measurements:
+                try:
+                    measurements = attach_measurements(partial.design, measurement_reader(revision))
+                except DesignError as error:  # a file that can't be read: the checks that need it wait
+                    partial = partial.without("measurements", error.problems)
+            if partial.complete:
+                state.measurements = measurements
+                state.checklist = evaluate(partial.design, measurements).as_dict()
+            else:
+                state.checklist = evaluate_partial(partial, measurements).as_dict()
+            cache.set(key, state.checklist, timeout=24 * 3600)
+        if state.is_partial:
+            state.problems = [Problem(item["path"], item["message"]) for item in state.checklist["problems"]]
+            state.unanswered = [Problem(item["path"], item["message"]) for item in state.checklist["unanswered"]]
+        else:
+            state.design = partial.design
     except DatabaseError:
         raise  # the request can't go on without its database; that is not this design's doing
     except Exception:
         logger.exception("checking revision %s failed", revision.pk)
-        state.design, state.checklist, state.problems = None, None, [CHECK_FAILED]
-    if not revision.is_draft:
-        state.checklist = revision.evaluation
+        state.design, state.checklist, state.problems, state.partial = None, None, [CHECK_FAILED], None
     return state
 
 
@@ -115,6 +164,14 @@ def cellular_patterns(measurements: Sequence[LoadedMeasurement], design: Design)
     return [pattern for pattern in patterns if pattern.antenna in names]
 
 
+def _category_label(state: ChecklistState) -> str:
+    if state.design is not None:
+        return state.design.modem.category.label
+    if state.partial is not None and state.partial.has("modem.category"):
+        return state.partial.design.modem.category.label
+    return ""
+
+
 def evaluation_to_freeze(revision: Revision) -> dict[str, Any]:
     """The checklist a draft is submitted with, evaluated now from the document and files as stored. Raises
     DesignError when the design can't be checked yet, or when a rule could not run: an incomplete checklist is
@@ -133,19 +190,20 @@ def counts_of(checklist: dict[str, Any]) -> dict[str, Any]:
     summary = checklist.get("summary") or {}
     return {"category": str((checklist.get("design") or {}).get("category") or "")[:16],
             "blockers": summary.get("blocker", 0), "warnings": summary.get("warning", 0),
-            "notes": summary.get("note", 0), "problems": 0, "rule_failures": len(checklist.get("rule_failures") or []),
+            "notes": summary.get("note", 0), "problems": 0, "unanswered": 0, "rule_failures": len(checklist.get("rule_failures") or []),
             "check_failed": False}
 
 
 def _draft_counts(revision: Revision) -> dict[str, Any]:
+    """A complete draft's finding counts; a partial one's category so far, its problems and unanswered questions
+    (no counts: a list shows "not finished" rather than a tally of the rules that could run)."""
     state = checklist_for(revision)
-    if state.checklist is not None:
+    if state.checklist is not None and not state.is_partial:
         return counts_of(state.checklist)
-    modem = revision.document.get("modem") if isinstance(revision.document, dict) else None
-    category = modem.get("category") if isinstance(modem, dict) and isinstance(modem.get("category"), str) else ""
     failed = state.problems == [CHECK_FAILED]
-    return {"category": category[:16], "blockers": None, "warnings": None, "notes": None,
-            "problems": 0 if failed else len(state.problems), "rule_failures": 0, "check_failed": failed}
+    return {"category": _category_label(state)[:16], "blockers": None, "warnings": None, "notes": None,
+            "problems": 0 if failed else len(state.problems), "unanswered": 0 if failed else len(state.unanswered),
+            "rule_failures": 0, "check_failed": failed}
 
 
 def count_revision(revision: Revision) -> Revision:

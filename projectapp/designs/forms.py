@@ -122,12 +122,21 @@ class LibraryApplyForm(LibraryTargetForm):
         self.fields["apply"].choices = [(key, key) for key in keys]
 
 
+class PanelPartForm(forms.Form):
+    """A part of the draft's page fetched on its own (`?part=figures`: the drawing, charts and coverage that a
+    save's answer leaves to the next request)."""
+
+    part = forms.ChoiceField(required=False, choices=[("", ""), ("figures", "figures")], error_messages={
+        "invalid_choice": "expected figures or nothing"})
+
+
 class SectionActionForm(forms.Form):
     """What a questionnaire section may post beside its answers: an antenna row action and a region preset."""
 
     action = forms.RegexField(
-        regex=r"^(add|(remove|duplicate):[0-9]{1,3})$", required=False,
-        error_messages={"invalid": "action: expected add, remove:N or duplicate:N (N an antenna's row number)"})
+        regex=r"^(add|drop-bands|(remove|duplicate):[0-9]{1,3}|restore:[0-9]{1,18})$", required=False,
+        error_messages={"invalid": "action: expected add, remove:N or duplicate:N (N an antenna's row number), "
+                                   "restore:N (the change that removed it) or drop-bands"})
     preset = forms.ChoiceField(required=False, choices=(), error_messages={
         "invalid_choice": "preset: expected one of the region presets listed beside the bands"})
 
@@ -144,6 +153,11 @@ class SectionActionForm(forms.Form):
     def row(self) -> int | None:
         _, _, index = self.cleaned_data["action"].partition(":")
         return int(index) if index else None
+
+    @property
+    def restore_event(self) -> int | None:
+        """restore:N: the audit event of the change whose removed antennas are to be put back."""
+        return self.row if self.verb == "restore" else None
 
 
 class PortMapForm(forms.Form):

@@ -137,7 +137,7 @@ def submit(*, revision: Revision, user) -> Revision:
     values = {"evaluation": evaluation, "ruleset": evaluation["ruleset"], "submitted_by": user,
               "submitted_at": timezone.now(), **checklists.counts_of(evaluation)}
     _move(current, State.IN_REVIEW, user=user, action=AuditEvent.Action.SUBMITTED,
-          summary=f"Submitted revision {current.number} for review (rule set {evaluation['ruleset']})",
+          summary=f"Submitted design revision {current.number} for review (rule set {evaluation['ruleset']})",
           changes={"ruleset": [None, evaluation["ruleset"]]}, **values)
     for older in _older(current, (State.IN_REVIEW,)):
         _move(older, State.WITHDRAWN, user=user, action=AuditEvent.Action.WITHDRAWN,

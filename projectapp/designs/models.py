@@ -116,6 +116,7 @@ class Revision(models.Model):
     warnings = models.PositiveIntegerField(null=True, blank=True)
     notes = models.PositiveIntegerField(null=True, blank=True)
     problems = models.PositiveIntegerField(default=0)
+    unanswered = models.PositiveIntegerField(default=0)  # a partial draft's questions still to answer
     rule_failures = models.PositiveIntegerField(default=0)
     check_failed = models.BooleanField(default=False)  # checking raised: an error in Earshot, not the design
 
@@ -129,7 +130,7 @@ class Revision(models.Model):
         indexes = [models.Index(fields=["state", "product"], name="revision_state_product")]
 
     def __str__(self) -> str:
-        return f"{self.product} revision {self.number} ({self.get_state_display().lower()})"
+        return f"{self.product} design revision {self.number} ({self.get_state_display().lower()})"
 
     def save(self, *args, **kwargs):
         stored = self._stored_state()

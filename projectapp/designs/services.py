@@ -1,7 +1,10 @@
 """Every write to products and revisions goes through these functions (keyword-only, `<entity>_<action>`)."""
 
+import copy
 import json
+import re
 from collections.abc import Mapping
+from dataclasses import dataclass
 from typing import Any
 
 from django.core.exceptions import PermissionDenied
@@ -33,10 +36,12 @@ from rules.touchstone import parse_touchstone
 
 
 def blank_document(*, product_name: str) -> dict[str, Any]:
+    """A new product's design: its name and nothing chosen for it. The category, the bands and the hardware
+    revision are the author's answers (a new draft shows them as still to answer, not as errors)."""
     return {
         "format": FORMAT,
-        "product": {"name": product_name, "revision": "1"},
-        "modem": {"category": "cat-m1", "bands": []},
+        "product": {"name": product_name},
+        "modem": {},
         "antennas": [],
     }
 
@@ -220,9 +225,9 @@ def _draft_start(*, product: Product, user, source: Revision | None, purpose: st
         _copy_measurements(source=origin, target=draft, user=user)
     files = draft.measurement_files.count()
     audit_record(product=product, revision=draft, actor=user, action=AuditEvent.Action.DRAFT_STARTED,
-                 summary=f"Started {purpose} revision {number}" + (f", copied from revision {origin.number}"
-                                                               + (f" with {files} measurement file(s)" if files else "")
-                                                               if origin else ""),
+                 summary=f"Started {purpose} design revision {number}"
+                         + (f", copied from design revision {origin.number}"
+                            + (f" with {files} measurement file(s)" if files else "") if origin else ""),
                  draft_version=draft.version)
     return count_revision(draft)
 
@@ -253,7 +258,81 @@ def draft_section_save(*, revision: Revision, section: questionnaire.Section, an
         return draft
     _require_fresh(draft, section.slug, read_version)
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.SECTION_SAVED,
-                  summary=f"Saved {section.title} of draft revision {draft.number}")
+                  summary=f"Saved {section.title} of draft design revision {draft.number}")
+
+
+_REMOVED_ROW = re.compile(r"^antennas\[(\d+)\]$")
+
+
+@dataclass(frozen=True)
+class RemovedAntennas:
+    """Antennas one change removed from a draft, as its audit event recorded them: what "Undo remove" restores."""
+
+    event_id: int
+    version: int
+    rows: tuple[tuple[int, dict[str, Any]], ...]  # (row it was at, the antenna as it was)
+
+    @property
+    def names(self) -> list[str]:
+        return [str(antenna.get("name") or f"antenna {index + 1}") for index, antenna in self.rows]
+
+
+def _removed_by(event: AuditEvent) -> tuple[tuple[int, dict[str, Any]], ...]:
+    rows = []
+    for path, pair in (event.changes or {}).items():
+        match = _REMOVED_ROW.match(path)
+        if match and isinstance(pair, list) and len(pair) == 2 and isinstance(pair[0], dict) and pair[1] is None:
+            rows.append((int(match.group(1)), pair[0]))
+    return tuple(sorted(rows, key=lambda row: row[0]))
+
+
+def _absent(document: Any, antenna: dict[str, Any]) -> bool:
+    names = {row.get("name") for row in _list(document.get("antennas") if isinstance(document, dict) else None)
+             if isinstance(row, dict)}
+    return antenna.get("name") not in names
+
+
+def draft_antennas_removed(*, revision: Revision) -> RemovedAntennas | None:
+    """The antennas the draft's last change to its antennas removed, if that change removed any and they are
+    not back: the page's "Undo remove" offer. Read from the audit trail, so it holds after a reload and names
+    exactly what was stored."""
+    version = int((revision.section_versions or {}).get(questionnaire.ANTENNAS.slug, 0))
+    if not version:
+        return None
+    event = (AuditEvent.objects.filter(revision=revision, draft_version=version).order_by("-id")
+             .only("id", "changes", "draft_version").first())
+    rows = _removed_by(event) if event is not None else ()
+    rows = tuple(row for row in rows if _absent(revision.document, row[1]))
+    return RemovedAntennas(event.pk, version, rows) if event is not None and rows else None
+
+
+@transaction.atomic
+def draft_antennas_restore(*, revision: Revision, answers: Mapping[str, Any], event_id: int, read_version: int,
+                           user) -> tuple[Revision, list[str]]:
+    """Undo remove: puts back the antennas a change removed (its audit event `event_id`, of this draft), each at
+    the row it had (or the end), with what was typed in the section meanwhile kept. One versioned, audited
+    write like any save of the section; refused (DraftConflict) if the antennas changed after `read_version`,
+    and (ValueError) when there is nothing of that change to put back (an antenna of that name is in the design
+    again, or the event removed none)."""
+    require_role(user, revision.product.team, Role.AUTHOR)
+    draft = _locked_draft(revision)
+    event = AuditEvent.objects.filter(revision=draft, pk=event_id).first()
+    section = questionnaire.ANTENNAS
+    document = questionnaire.apply_answers(draft.document, section, answers)
+    rows = [row for row in (_removed_by(event) if event is not None else ()) if _absent(document, row[1])]
+    if not rows:
+        raise ValueError("nothing to restore: that change removed no antenna, or each one it removed is back "
+                         "(an antenna of the same name is in the design)")
+    _require_fresh(draft, section.slug, read_version)
+    antennas = _list(document.get("antennas"))
+    for index, antenna in rows:
+        antennas.insert(min(index, len(antennas)), copy.deepcopy(antenna))
+    document["antennas"] = antennas
+    names = [str(antenna.get("name")) for _, antenna in rows]
+    draft = _store(draft=draft, document=document, user=user, action=AuditEvent.Action.SECTION_SAVED,
+                   summary=f"Restored antenna {', '.join(names)} (removed in version {event.draft_version}) in draft "
+                           f"design revision {draft.number}")
+    return draft, names
 
 
 @transaction.atomic
@@ -264,7 +343,7 @@ def draft_save_document(*, revision: Revision, document: dict[str, Any], user,
     draft = _locked_draft(revision)
     _require_fresh(draft, ALL_PARTS, read_version)
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.SECTION_SAVED,
-                  summary=f"Saved the design document of draft revision {draft.number}")
+                  summary=f"Saved the design document of draft design revision {draft.number}")
 
 
 @transaction.atomic
@@ -283,7 +362,7 @@ def design_import(*, product: Product, text: str | bytes, source: str, user,
     _require_fresh(draft, ALL_PARTS, read_version)
     attach_measurements(design, measurement_reader(draft))
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.IMPORTED,
-                  summary=f"Imported {source[:120]} into draft revision {draft.number}")
+                  summary=f"Imported {source[:120]} into draft design revision {draft.number}")
 
 
 def document_export_text(*, revision: Revision) -> str:
@@ -331,7 +410,7 @@ def measurement_add(*, revision: Revision, name: str, content: bytes, user) -> M
         measurement.file.save(name, ContentFile(content), save=False)
         measurement.save()
         _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_ADDED,
-               summary=f"Added {name} to draft revision {draft.number}",
+               summary=f"Added {name} to draft design revision {draft.number}",
                file_changes={FILE_KEY: [None, _describe_file(measurement)]})
     return measurement
 
@@ -367,7 +446,7 @@ def measurement_map_ports(*, revision: Revision, name: str, ports: list[str | No
         return draft
     _require_fresh(draft, questionnaire.MEASUREMENTS_PART, read_version)
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_MAPPED,
-                  summary=f"Mapped the ports of {name} in draft revision {draft.number}")
+                  summary=f"Mapped the ports of {name} in draft design revision {draft.number}")
 
 
 @transaction.atomic
@@ -387,7 +466,7 @@ def measurement_remove(*, revision: Revision, name: str, user, read_version: int
         return
     _require_fresh(draft, questionnaire.MEASUREMENTS_PART, read_version)
     _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_REMOVED,
-           summary=f"Removed {name} from draft revision {draft.number}",
+           summary=f"Removed {name} from draft design revision {draft.number}",
            file_changes={FILE_KEY: [_describe_file(files[0]), None]} if files else None)
     for measurement in files:
         stored = measurement.file.name
@@ -504,7 +583,7 @@ def pattern_add(*, revision: Revision, name: str, content: bytes, antenna: str, 
         measurement.file.save(name, ContentFile(content), save=False)
         measurement.save()
         _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_ADDED,
-               summary=f"Added the far-field pattern {name} of {antenna} to draft revision {draft.number}",
+               summary=f"Added the far-field pattern {name} of {antenna} to draft design revision {draft.number}",
                file_changes={FILE_KEY: [None, _describe_file(measurement)]})
     return measurement
 
@@ -545,7 +624,7 @@ def pattern_update(*, revision: Revision, name: str, antenna: str, absolute: boo
     if problems:
         raise DesignError(problems)
     _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_MAPPED,
-           summary=f"Set the antenna and environment of the far-field pattern {name} in draft revision "
+           summary=f"Set the antenna and environment of the far-field pattern {name} in draft design revision "
                    f"{draft.number}")
     return [entries[other]["file"] for other in changed if other != index]
 
@@ -625,7 +704,7 @@ def draft_library_fill(*, revision: Revision, section: questionnaire.Section, an
                                                    antenna=str(filled_row.get("name")), user=user)
     draft = _store(draft=draft, document=document, user=user, action=AuditEvent.Action.LIBRARY_FILLED,
                    summary=f"Filled {where} from library part {entry.name} version {entry.version} in draft "
-                           f"revision {draft.number}" + (f", with {len(copied)} file(s)" if copied else ""),
+                           f"design revision {draft.number}" + (f", with {len(copied)} file(s)" if copied else ""),
                    file_changes=file_changes)
     return draft, copied
 
@@ -658,4 +737,4 @@ def draft_library_apply(*, revision: Revision, kind: str, antenna: str | None, e
     where = "the modem" if antenna is None else f"antenna {antenna}"
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.LIBRARY_APPLIED,
                   summary=f"Applied library part {current.name} version {noted} → {current.version} to {where} of "
-                          f"draft revision {draft.number}", file_changes=file_changes)
+                          f"draft design revision {draft.number}", file_changes=file_changes)

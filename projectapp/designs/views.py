@@ -24,6 +24,7 @@ from projectapp.designs import (
     library_use,
     lifecycle,
     pattern_facts,
+    problem_words,
     questionnaire,
     services,
     upgrades,
@@ -53,6 +54,7 @@ from projectapp.designs.forms import (
     LibraryEntryForm,
     LibraryTargetForm,
     MeasurementFileForm,
+    PanelPartForm,
     PatternChangeForm,
     PatternForm,
     PortMapForm,
@@ -80,7 +82,7 @@ from projectapp.teams.access import has_role, require_role, teams_of, teams_wher
 from projectapp.teams.models import Role
 from rules.catalog import categories
 from rules.coverage import OutsideValidity
-from rules.design import CELLULAR_ROLES, DesignError, Problem, parse_design
+from rules.design import CELLULAR_ROLES, DesignError, Problem, parse_design_partial
 from rules.farfield import FarFieldError
 from rules.findings import SEVERITIES
 from rules.glossary import glossary
@@ -88,6 +90,8 @@ from rules.registry import RETIRED, RULESET_VERSION, registered_rules
 from rules.touchstone import TouchstoneError
 
 logger = logging.getLogger(__name__)
+SPACING_RULE = "SEP-001"  # the rule whose findings colour the drawing's pair lines
+FIGURES_DUE = "figures-due"  # a save's answer asks the page to fetch the new drawing (_panel.html)
 
 
 @login_required
@@ -176,11 +180,21 @@ def _figures(state: ChecklistState, id_prefix: str, editable: bool = False) -> d
             failed.append(what)
             return None
 
-    if state.design is not None and state.checklist is not None:
+    record = f"design revision {state.revision.number}"
+    shown = state.shown_design
+    if state.is_partial and shown is not None and state.checklist is not None:
+        # A draft not complete yet: what it has is drawn, judged only where its spacing checks could run.
+        checklist = state.checklist
+        spacing_waits = any(item["id"] == SPACING_RULE for item in checklist.get("waiting", ()))
+        svg = attempt("placement drawing", lambda: placement_svg(
+            shown, pair_severities=None if spacing_waits else pair_severities_from_findings(state.findings),
+            frequency_mhz=checklist.get("judged_at_mhz"), id_prefix=id_prefix, record=record,
+            coexistence=coexistence_lines_from_findings(state.findings, shown), editable=editable))
+    elif state.design is not None and state.checklist is not None:
         design = state.design
         svg = attempt("placement drawing", lambda: placement_svg(
             design, pair_severities=pair_severities_from_findings(state.findings),
-            frequency_mhz=design.lowest_mhz, id_prefix=id_prefix,
+            frequency_mhz=design.lowest_mhz, id_prefix=id_prefix, record=record,
             coexistence=coexistence_lines_from_findings(state.findings, design), editable=editable))
         measurements = attempt("measurements", lambda: load_measurements(state))
         if measurements is None:  # an empty AttachedMeasurements still carries its far-field patterns
@@ -209,26 +223,40 @@ def _chart(build, measurement, design, *, id_prefix: str) -> str:
     return chart_svg(build(measurement, design, width_pt=560, height_pt=240), id_prefix=id_prefix)
 
 
-def _panel_context(state: ChecklistState, *, id_prefix: str = "placement", editable: bool = False) -> dict:
-    """The panel's figures, drawn once per state of the revision (and version of the code that draws them).
-    `editable`: the draft page's, whose placement drawing the author moves antennas on."""
-    key = fragments.cache_key("figures", state.revision.cache_identity, id_prefix, editable)
-    figures = cache.get(key)
-    if figures is None:
-        figures = _figures(state, id_prefix, editable)
-        if not figures["failed_figures"]:  # a failure is not kept: the next look tries again
-            cache.set(key, figures, timeout=30 * 24 * 3600)
-    failed = bool(figures["failed_figures"]) or CHECK_FAILED in state.problems
-    return {"state": state, fragments.NOT_KEPT: failed, "measurement_digests": measurement_digests(state.revision),
-            "placement_editable": editable, **figures, **coverage_panel.panel(figures["coverage"], coverage_panel.CoverageAssumptionsForm({}).read())}
+def _panel_context(state: ChecklistState, *, id_prefix: str = "placement", figures: bool = True,
+                   editable: bool = False) -> dict:
+    """The panel's checklist and band table, and (`figures`) its drawing, charts and coverage panel, drawn once
+    per state of the revision (and version of the code that draws them). A save's answer leaves the figures
+    out: the page fetches them with the next request (draft_edit, part=figures), so the checklist follows an
+    answer without waiting for the drawing (benchmarks/section_save.py). `editable`: the draft page's, whose
+    placement drawing the author moves antennas on."""
+    drawn: dict = {"placement_svg": None, "chart_svgs": [], "coverage": [], "coverage_svg": None,
+                   "failed_figures": []}
+    if figures:
+        key = fragments.cache_key("figures", state.revision.cache_identity, id_prefix, editable)
+        drawn = cache.get(key)
+        if drawn is None:
+            drawn = _figures(state, id_prefix, editable)
+            if not drawn["failed_figures"]:  # a failure is not kept: the next look tries again
+                cache.set(key, drawn, timeout=30 * 24 * 3600)
+    failed = bool(drawn["failed_figures"]) or CHECK_FAILED in state.problems
+    todo = problem_words.todo(state.revision.document, state.checklist) if state.is_partial else None
+    context = {"state": state, fragments.NOT_KEPT: failed, "todo": todo,
+               "measurement_digests": measurement_digests(state.revision), "placement_editable": editable, **drawn}
+    if figures:
+        context.update(coverage_panel.panel(drawn["coverage"], coverage_panel.CoverageAssumptionsForm({}).read()))
+    return context
 
 
 def _section_item(section: questionnaire.Section, document: dict, problems: list[Problem], *, version: int,
-                  library: dict[str, list[Entry]], conflict: services.DraftConflict | None = None) -> dict:
+                  library: dict[str, list[Entry]], conflict: services.DraftConflict | None = None,
+                  undo: services.RemovedAntennas | None = None, focus: str = "") -> dict:
     """One questionnaire section as _section.html shows it: its fields, problems no field holds, the draft
-    version its values were read at, the library parts it can be filled from, and a conflict if its last save
-    met someone else's change."""
-    fields = questionnaire.section_fields(section, document, problems)
+    version its values were read at, the library parts it can be filled from, a conflict if its last save
+    met someone else's change, the antennas its last change removed (for "Undo remove") and the element that
+    should have the keyboard focus after a row action or preset (`focus`, an id)."""
+    worded = [problem_words.worded(problem, document) for problem in problem_words.grouped(problems)]
+    fields = questionnaire.section_fields(section, document, worded)
     flat = [item for row in fields for item in row] if section is questionnaire.ANTENNAS else fields
     notes: list = []
     if section is questionnaire.ANTENNAS:
@@ -237,11 +265,12 @@ def _section_item(section: questionnaire.Section, document: dict, problems: list
     elif isinstance(document.get("modem"), dict) and isinstance(document["modem"].get("library"), dict):
         notes = [document["modem"]["library"]]
     return {"section": section, "fields": fields, "flat": flat, "version": version, "conflict": conflict,
-            "loose_problems": questionnaire.section_problems(section, problems, flat),
+            "loose_problems": questionnaire.section_problems(section, worded, flat),
             "library": library.get(section.slug, []), "rows": list(zip(fields, notes + [None] * len(fields),
                                                                         strict=False))
             if section is questionnaire.ANTENNAS else [], "note": notes[0] if notes and section is
-            questionnaire.PRODUCT else None}
+            questionnaire.PRODUCT else None, "undo": undo if section is questionnaire.ANTENNAS else None,
+            "focus": focus}
 
 
 def _library_choices(product) -> dict[str, list[Entry]]:
@@ -271,15 +300,17 @@ def _library_offers(revision: Revision) -> list[library_use.Offer]:
 def _draft_context(revision: Revision, state: ChecklistState, *, kept: dict | None = None) -> dict:
     """The draft page's context; `kept` replaces one section's item (a conflict shown with what was typed)."""
     library = _library_choices(revision.product)
+    undo = services.draft_antennas_removed(revision=revision)  # named by the draft's version, as the page is
     sections = [kept if kept and kept["section"] is section
                 else _section_item(section, revision.document, state.problems, version=revision.version,
-                                   library=library)
+                                   library=library, undo=undo)
                 for section in questionnaire.SECTIONS]
     return {"product": revision.product, "revision": revision, "sections": sections,
             "library_offers": _library_offers(revision),
             "presets": questionnaire.band_presets(), "measurements": _measurement_rows(revision, state.problems),
             "pattern_defaults": _pattern_defaults(revision),
-            "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, **_panel_context(state, editable=True)}
+            "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, "editing": True,
+            **_panel_context(state, editable=True)}
 
 
 def _measurement_rows(revision: Revision, problems: list[Problem]) -> list[dict]:
@@ -342,6 +373,21 @@ def draft_edit(request, product_id: int):
                                                            "is_author": is_author})
     if not is_author:
         return redirect("revision_detail", product.pk, draft.number)
+    part = PanelPartForm(request.GET)
+    if not part.is_valid():
+        return HttpResponse("; ".join(f"{name}: {error}" for name, errors in part.errors.items() for error in errors),
+                            status=400, content_type="text/plain; charset=utf-8")
+    if part.cleaned_data["part"] == "figures":  # after a save: the drawing, charts and coverage of the draft now
+        what_if = coverage_panel.CoverageAssumptionsForm(request.GET).read()
+        if what_if.cleaned:  # a coverage what-if on screen (the loader sends it) stays through the redraw
+            state = checklist_for(draft)
+            return render(request, "designs/draft_figures.html", {
+                "product": product, "revision": draft, **_panel_context(state, editable=True),
+                **_coverage_what_if(state, what_if)})
+        return HttpResponse(fragments.personal(fragments.shared(
+            "designs/draft_figures.html", ("figures-oob", draft.cache_identity, product.pk),
+            lambda: {"product": product, "revision": draft, **_panel_context(checklist_for(draft), editable=True)},
+            timeout=fragments.DAY), request))
     # The page carries the draft's version in every form (what each save names as read), so it is part of
     # the key; the state key names the content, which the checklist and figures are cached by.
     return fragments.page(request, "designs/draft_edit.html",
@@ -360,17 +406,17 @@ def draft_start(request, product_id: int):
     if not form.is_valid() or (form.cleaned_data["from"] is not None and not (
             source := product.revisions.exclude(state=Revision.State.DRAFT)
             .filter(number=form.cleaned_data["from"]).first())):
-        messages.error(request, "from: expected the number of a revision of this product that is not a draft; "
-                                "no draft was started")
+        messages.error(request, "from: expected the number of a design revision of this product that is not a "
+                                "draft; no draft was started")
         return redirect(product)
     try:
         draft = services.draft_get_or_start(product=product, user=request.user, source=source)
     except services.DraftExists as exists:
-        messages.error(request, f"Revision {exists.draft.number} is already a draft of {product.name}: edit it, or "
-                                "submit it, before starting another from an earlier revision.")
+        messages.error(request, f"Design revision {exists.draft.number} is already a draft of {product.name}: edit "
+                                "it, or submit it, before starting another from an earlier design revision.")
         return redirect(product)
-    messages.success(request, f"Revision {draft.number} is a new draft"
-                     + (f", copied from revision {draft.based_on.number}." if draft.based_on else "."))
+    messages.success(request, f"Design revision {draft.number} is a new draft"
+                     + (f", copied from design revision {draft.based_on.number}." if draft.based_on else "."))
     return redirect("draft_edit", product.pk)
 
 
@@ -393,11 +439,7 @@ def revision_withdraw(request, product_id: int, number: int):
 
 
 def _problems_of(document: dict) -> list[Problem]:
-    try:
-        parse_design(document)
-    except DesignError as error:
-        return error.problems
-    return []
+    return list(parse_design_partial(document).problems)
 
 
 @login_required
@@ -448,6 +490,15 @@ def draft_section_save(request, product_id: int, section: str):
                 messages.success(request, f"Filled from library part {pick.cleaned_data['entry'].name}"
                                  + (f"; copied {', '.join(copied)} into the measurements (check the port map)."
                                     if copied else "."))
+        elif extras.cleaned_data.get("action", "").startswith("restore:"):
+            if current is not questionnaire.ANTENNAS:
+                return _not_saved(request, product, current, "action: only the antennas section restores a "
+                                                             "removed antenna; nothing was stored", status=400)
+            draft, restored = services.draft_antennas_restore(
+                revision=draft, answers=request.POST, event_id=extras.restore_event, read_version=form.read_version,
+                user=request.user)
+            if not request.htmx:
+                messages.success(request, f"Restored {', '.join(restored)}.")
         else:
             draft = services.draft_section_save(revision=draft, section=current, answers=request.POST,
                                                 read_version=form.read_version, user=request.user)
@@ -464,20 +515,45 @@ def draft_section_save(request, product_id: int, section: str):
         return HttpResponseClientRedirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
     if request.htmx:
         state = checklist_for(draft)
-        panel = fragments.shared("designs/_panel_oob.html", (draft, product),
-                                 lambda: {"product": product, "revision": draft,
-                                          **_panel_context(state, editable=True)},
+        panel = fragments.shared("designs/_panel_oob.html", ("no-figures", draft, product),
+                                 lambda: {"product": product, "revision": draft, "editing": True,
+                                          **_panel_context(state, figures=False, editable=True)},
                                  timeout=fragments.DAY)
         template = ("designs/draft_section_messages.html" if request.POST.get("answer") == "messages"
                     else "designs/draft_section_saved.html")
-        return render(request, template, {
+        messages_only = request.POST.get("answer") == "messages"  # no inputs sent back
+        response = render(request, template, {
             "product": product, "revision": draft, "presets": questionnaire.band_presets(),
             "current": _section_item(current, draft.document, state.problems, version=draft.version,
-                                     library={} if request.POST.get("answer") == "messages"  # no inputs sent back
-                                     else _library_choices(product)),
+                                     library={} if messages_only else _library_choices(product),
+                                     undo=None if messages_only else services.draft_antennas_removed(revision=draft),
+                                     focus="" if messages_only else _focus_after(extras, draft.document)),
             "panel": fragments.personal(panel, request)})
+        response["HX-Trigger"] = FIGURES_DUE  # the page's #figures-loader fetches the drawing of this state
+        return response
     messages.success(request, f"{current.title} saved.")
     return redirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
+
+
+def _focus_after(extras: SectionActionForm, document: dict) -> str:
+    """Where the keyboard focus belongs once a row action or a preset has redrawn the section: the new or
+    copied row's name, the Undo button after a removal, the preset just used, the bands after dropping some.
+    (Any other change keeps the focus on the element that had it: static/earshot/earshot.js.)"""
+    action, preset = extras.cleaned_data.get("action") or "", extras.cleaned_data.get("preset") or ""
+    rows = document.get("antennas") if isinstance(document.get("antennas"), list) else []
+    if action == "add" and rows:
+        return questionnaire.input_id(f"antennas[{len(rows) - 1}].name")
+    if action.startswith("duplicate:") and extras.row is not None and extras.row + 1 < len(rows):
+        return questionnaire.input_id(f"antennas[{extras.row + 1}].name")
+    if action.startswith("remove:"):
+        return "undo-remove"
+    if action.startswith("restore:"):
+        return "section-antennas-title"
+    if action == "drop-bands":
+        return questionnaire.input_id("modem.bands") + "-label"
+    if preset:
+        return f"preset-{preset}"
+    return ""
 
 
 GONE_MESSAGE = ("{product} has no draft any more (it was submitted for review): nothing was stored. Start a new "
@@ -583,8 +659,15 @@ def revision_coverage(request, product_id: int, number: int):
     defaults). With htmx the panel's block alone; without, a page holding it. A value the form or the path-loss
     model refuses is named, and the defaults are used for it (400)."""
     revision = get_revision_for_user(request.user, product_id, number)
-    state = checklist_for(revision)
     form = coverage_panel.CoverageAssumptionsForm(request.GET).read()
+    context = {"product": revision.product, "revision": revision, **_coverage_what_if(checklist_for(revision), form)}
+    template = "designs/_coverage.html" if request.htmx else "designs/coverage.html"
+    return render(request, template, context, status=400 if form.problems else 200)
+
+
+def _coverage_what_if(state: ChecklistState, form: coverage_panel.CoverageAssumptionsForm) -> dict:
+    """The coverage panel's context with the form's assumptions (a what-if); one the path-loss model refuses is
+    named in the form's problems, and the defaults are used instead."""
     environment = (state.design.deployment.environment if state.design else None) or "outdoor"
     try:
         rows = coverage_rows(state, **form.overrides(environment))
@@ -592,11 +675,9 @@ def revision_coverage(request, product_id: int, number: int):
         form.problems.append(f"{refusal.parameter}: {refusal}; the defaults are shown instead")
         form.cleaned = {}
         rows = coverage_rows(state)
-    context = {"product": revision.product, "revision": revision, "coverage_what_if": True,
-               "coverage_svg": chart_svg(coverage_chart(rows, width_pt=560, height_pt=240), id_prefix="coverage")
-               if rows else None, **coverage_panel.panel(rows, form)}
-    template = "designs/_coverage.html" if request.htmx else "designs/coverage.html"
-    return render(request, template, context, status=400 if form.problems else 200)
+    return {"coverage_what_if": True, **coverage_panel.panel(rows, form),
+            "coverage_svg": chart_svg(coverage_chart(rows, width_pt=560, height_pt=240), id_prefix="coverage")
+            if rows else None}
 
 
 @login_required
@@ -645,7 +726,7 @@ def design_import(request, product_id: int):
         except services.DraftConflict as error:
             conflict, draft, read_version = error, error.revision, error.revision.version
         else:
-            messages.success(request, f"{upload.name} imported into draft revision {draft.number}.")
+            messages.success(request, f"{upload.name} imported into draft design revision {draft.number}.")
             return redirect("draft_edit", product.pk)
     return render(request, "designs/import.html", {"product": product, "form": form, "problems": problems,
                                                    "draft": draft, "read_version": read_version,

@@ -45,6 +45,8 @@ SEVERITY_COLOURS: Mapping[str, colors.Color] = {
     "note": colors.HexColor("#3d5a80"),
 }
 NO_FINDING_COLOUR = colors.HexColor("#2e7d4f")
+NOT_JUDGED = "not judged yet"  # a pair's state while a draft's spacing checks wait for an answer
+NOT_JUDGED_COLOUR = MUTED
 WHITE = colors.white
 PLATE = colors.Color(1, 1, 1, alpha=0.86)  # behind labels, so they stay legible over lines and circles
 NEAR_FIELD_TINT = colors.Color(MUTED.red, MUTED.green, MUTED.blue, alpha=0.07)
@@ -101,7 +103,7 @@ class PairLine:
     first: str
     second: str
     distance_mm: float  # feed to feed, in three dimensions (the drawing shows its projection)
-    severity: str | None  # worst separation finding about the pair; None when there is none
+    severity: str | None  # worst separation finding about the pair; None when there is none; NOT_JUDGED
 
 
 @dataclass(frozen=True)
@@ -127,9 +129,9 @@ class PlacementLayout:
 
     scale_pt_per_mm: float
     scale_bar_mm: float
-    frequency_mhz: float
-    near_field_radius_mm: float
-    quarter_wave_mm: float
+    frequency_mhz: float | None  # None: no band chosen yet, so no circles
+    near_field_radius_mm: float | None
+    quarter_wave_mm: float | None
     top_view_origin_pt: tuple[float, float]  # drawing point of x = 0, y = 0 mm (may lie outside the panel)
     side_view_origin_pt: tuple[float, float] | None  # drawing point of x = 0, z = 0 mm; None without one
     enclosure_given: bool
@@ -699,11 +701,17 @@ def _side_extent(design: Design, placed: Sequence[Antenna]) -> tuple[float, floa
     return min(heights), max(heights)
 
 
-def _pairs(placed: Sequence[Antenna], pair_severities: Mapping[frozenset[str], str]) -> list[PairLine]:
+def _pair_colour(severity: str | None) -> colors.Color:
+    if severity == NOT_JUDGED:
+        return NOT_JUDGED_COLOUR
+    return SEVERITY_COLOURS[severity] if severity else NO_FINDING_COLOUR
+
+
+def _pairs(placed: Sequence[Antenna], pair_severities: Mapping[frozenset[str], str] | None) -> list[PairLine]:
     pairs = []
     for first, second in combinations(placed, 2):
-        severity = pair_severities.get(frozenset((first.name, second.name)))
-        if severity is not None and severity not in SEVERITY_COLOURS:
+        severity = NOT_JUDGED if pair_severities is None else pair_severities.get(frozenset((first.name, second.name)))
+        if severity is not None and severity != NOT_JUDGED and severity not in SEVERITY_COLOURS:
             raise ValueError(f"unknown severity {severity!r} for {first.name} and {second.name}; "
                              f"expected one of {', '.join(SEVERITIES)}")
         distance_mm = physics.distance_mm(first.position_mm, second.position_mm)  # type: ignore[arg-type]
@@ -767,8 +775,9 @@ def _rect_pt(view: _View, box_mm: Box) -> tuple[float, float, float, float]:
 
 
 def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: Sequence[Antenna],
-              pairs: Sequence[PairLine], enclosure: Box | None, near_field_mm: float, quarter_wave_mm: float,
-              step_mm: float, coexistence: Sequence[CoexistenceLine] = (), marks: _Marks | None = None) -> None:
+              pairs: Sequence[PairLine], enclosure: Box | None, near_field_mm: float | None,
+              quarter_wave_mm: float | None, step_mm: float, coexistence: Sequence[CoexistenceLine] = (),
+              marks: _Marks | None = None) -> None:
     _grid(marks.view(group, view, "top", "x y") if marks is not None else group, view, step_mm, step_mm, "x", "y")
     placer = _Placer(view.box)
     deferred: list[tuple[_Label, list[tuple[float, float]]]] = []
@@ -804,6 +813,8 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
     points = {antenna.name: view.pt(antenna.position_mm[0], antenna.position_mm[1])  # type: ignore[index]
               for antenna in placed}
     for antenna in placed:
+        if near_field_mm is None or quarter_wave_mm is None:
+            break  # no band chosen yet: no circles
         if not antenna.is_cellular:  # the circles are the cellular band's; GNSS and WLAN work far above it
             continue
         x, y = points[antenna.name]
@@ -814,7 +825,7 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
                          strokeWidth=0.9, strokeDashArray=NEAR_FIELD_DASH))
 
     for pair in pairs:
-        colour = SEVERITY_COLOURS[pair.severity] if pair.severity else NO_FINDING_COLOUR
+        colour = _pair_colour(pair.severity)
         start, end = points[pair.first], points[pair.second]
         if start != end:
             line_group = _part(group, marks, pair=marks.pair(pair.first, pair.second), part="pair") if marks else group
@@ -837,7 +848,7 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
         into = _part(labels, marks, antenna=marks.index(antenna.name), view="top", part="label") if marks else labels
         label.draw(into, placer.place(label.width, label.height, _around(x, y, 7.0, label.width, label.height)))
     for pair in pairs:
-        colour = SEVERITY_COLOURS[pair.severity] if pair.severity else NO_FINDING_COLOUR
+        colour = _pair_colour(pair.severity)
         label = _Label(f"{_mm_text(pair.distance_mm)} mm", FONT_BOLD, 7.5, colour, border=colour)
         (x1, y1), (x2, y2) = points[pair.first], points[pair.second]
         middle_x, middle_y = (x1 + x2) / 2, (y1 + y2) / 2
@@ -913,9 +924,12 @@ class _Entry:
     detail: str | None = None
 
 
-def _legend_groups(frequency_mhz: float, near_field_mm: float, quarter_wave_mm: float,
-                   roles: frozenset[str] = frozenset(), coexistence: bool = False) -> list[tuple[str, list[_Entry]]]:
-    """The legend; the GNSS, WLAN and coexistence entries only when the drawing has such antennas or lines."""
+def _legend_groups(frequency_mhz: float | None, near_field_mm: float | None, quarter_wave_mm: float | None,
+                   roles: frozenset[str] = frozenset(), coexistence: bool = False,
+                   judged: bool = True) -> list[tuple[str, list[_Entry]]]:
+    """The legend; the GNSS, WLAN and coexistence entries only when the drawing has such antennas or lines; no
+    circles before a band is chosen (no frequency), and the pairs 'not judged yet' while a draft's spacing
+    checks wait (`judged` false)."""
     def zone(dash: list[float], tint: colors.Color | None) -> Callable[[Group, float, float], object]:
         return lambda group, x, y: group.add(Circle(x, y, 6.5, fillColor=tint, strokeColor=MUTED,
                                                     strokeWidth=0.9, strokeDashArray=dash))
@@ -923,39 +937,53 @@ def _legend_groups(frequency_mhz: float, near_field_mm: float, quarter_wave_mm: 
     def pair_line(colour: colors.Color) -> Callable[[Group, float, float], object]:
         return lambda group, x, y: group.add(Line(x - 11, y, x + 11, y, strokeColor=colour, strokeWidth=1.8))
 
+    outlines = [
+        _Entry(lambda group, x, y: group.add(Rect(x - 11, y - 5, 22, 10, fillColor=None, strokeColor=ENCLOSURE,
+                                                  strokeWidth=1.3, strokeDashArray=ENCLOSURE_DASH)),
+               "enclosure outline"),
+        _Entry(lambda group, x, y: group.add(Rect(x - 11, y - 5, 22, 10, fillColor=BOARD,
+                                                  strokeColor=BOARD_EDGE, strokeWidth=1.0)),
+               "ground plane"),
+    ]
+    pair_entries = [
+        *(_Entry(pair_line(SEVERITY_COLOURS[severity]), severity) for severity in SEVERITIES),
+        _Entry(pair_line(NO_FINDING_COLOUR), "no finding", "label: 3-D distance in mm"),
+    ] if judged else [_Entry(pair_line(NOT_JUDGED_COLOUR), NOT_JUDGED, "the spacing checks wait for an answer")]
+    if coexistence:
+        pair_entries.append(_Entry(lambda group, x, y: group.add(_dashed((x - 11, y), (x + 11, y),
+                                                                         SEVERITY_COLOURS["warning"])),
+                                   "dashed: coexistence finding", "cellular bands → the GNSS or WLAN band"))
+    pairs_title = "Cellular antenna pairs, feed to feed"
+    if frequency_mhz is None or near_field_mm is None or quarter_wave_mm is None:
+        return [_antenna_legend(roles), ("Outlines (circles follow once bands are chosen)", outlines),
+                (pairs_title, pair_entries)]
     frequency = f"{frequency_mhz:g} MHz"
     return [
-        ("Antennas", [
-            _Entry(lambda group, x, y: _marker(group, x, y, "main", "internal"), "main antenna, at its feed"),
-            _Entry(lambda group, x, y: _marker(group, x, y, "receive", "internal"), "receive antenna"),
-            *([_Entry(lambda group, x, y: _marker(group, x, y, "gnss", "internal"), "GNSS antenna",
-                      "satellite navigation; not a cellular branch")] if "gnss" in roles else []),
-            *([_Entry(lambda group, x, y: _marker(group, x, y, "wlan", "internal"), "WLAN antenna",
-                      "Wi-Fi or Bluetooth; not a cellular branch")] if "wlan" in roles else []),
-            _Entry(lambda group, x, y: _marker(group, x, y, "main", "external"), "hollow: external antenna"),
-            _Entry(lambda group, x, y: _arrow(group, x, y, 1.0, 0.0, 11.0), "polarization axis",
-                   "projected; shorter when tilted out of view"),
-            _Entry(lambda group, x, y: _out_of_page(group, x, y, dot=True), "axis out of the page"),
-        ]),
+        _antenna_legend(roles),
         (f"Around each {'cellular ' if roles - set(CELLULAR_ROLES) else ''}antenna at {frequency}", [
             _Entry(zone(NEAR_FIELD_DASH, NEAR_FIELD_TINT), f"λ/2π = {near_field_mm:.1f} mm at {frequency}",
                    "reactive near field"),
             _Entry(zone(QUARTER_WAVE_DASH, None), f"λ/4 = {quarter_wave_mm:.1f} mm at {frequency}",
                    "quarter wave, the usual minimum spacing"),
-            _Entry(lambda group, x, y: group.add(Rect(x - 11, y - 5, 22, 10, fillColor=None, strokeColor=ENCLOSURE,
-                                                      strokeWidth=1.3, strokeDashArray=ENCLOSURE_DASH)),
-                   "enclosure outline"),
-            _Entry(lambda group, x, y: group.add(Rect(x - 11, y - 5, 22, 10, fillColor=BOARD,
-                                                      strokeColor=BOARD_EDGE, strokeWidth=1.0)),
-                   "ground plane"),
+            *outlines,
         ]),
-        ("Cellular antenna pairs, feed to feed", [
-            *(_Entry(pair_line(SEVERITY_COLOURS[severity]), severity) for severity in SEVERITIES),
-            _Entry(pair_line(NO_FINDING_COLOUR), "no finding", "label: 3-D distance in mm"),
-            *([_Entry(lambda group, x, y: group.add(_dashed((x - 11, y), (x + 11, y), SEVERITY_COLOURS["warning"])),
-                      "dashed: coexistence finding", "cellular bands → the GNSS or WLAN band")] if coexistence else []),
-        ]),
+        (pairs_title, pair_entries),
     ]
+
+
+def _antenna_legend(roles: frozenset[str]) -> tuple[str, list[_Entry]]:
+    return ("Antennas", [
+        _Entry(lambda group, x, y: _marker(group, x, y, "main", "internal"), "main antenna, at its feed"),
+        _Entry(lambda group, x, y: _marker(group, x, y, "receive", "internal"), "receive antenna"),
+        *([_Entry(lambda group, x, y: _marker(group, x, y, "gnss", "internal"), "GNSS antenna",
+                  "satellite navigation; not a cellular branch")] if "gnss" in roles else []),
+        *([_Entry(lambda group, x, y: _marker(group, x, y, "wlan", "internal"), "WLAN antenna",
+                  "Wi-Fi or Bluetooth; not a cellular branch")] if "wlan" in roles else []),
+        _Entry(lambda group, x, y: _marker(group, x, y, "main", "external"), "hollow: external antenna"),
+        _Entry(lambda group, x, y: _arrow(group, x, y, 1.0, 0.0, 11.0), "polarization axis",
+               "projected; shorter when tilted out of view"),
+        _Entry(lambda group, x, y: _out_of_page(group, x, y, dot=True), "axis out of the page"),
+    ])
 
 
 def _entry_height(entry: _Entry) -> float:
@@ -1021,10 +1049,21 @@ def _scale_bar(group: Group, left: float, top: float, scale: float, width_pt: fl
 # -- the drawing ---------------------------------------------------------------------------------------------
 
 
-def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[PairLine], frequency_mhz: float,
-                 near_field_mm: float, quarter_wave_mm: float, side_view: bool, all_pairs: int,
-                 coexistence: Sequence[CoexistenceLine] = (), all_coexistence: int = 0) -> str:
-    product = design.product_name + (f", revision {design.product_revision}" if design.product_revision else "")
+def _product_words(design: Design, record: str) -> str:
+    """`Gate opener, hardware revision B, design revision 2`: the board's revision (from the design) and the
+    record's (from the caller) named apart."""
+    parts = [design.product_name or "this product"]
+    if design.product_revision:
+        parts.append(f"hardware revision {design.product_revision}")
+    if record:
+        parts.append(record)
+    return ", ".join(parts)
+
+
+def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[PairLine], frequency_mhz: float | None,
+                 near_field_mm: float | None, quarter_wave_mm: float | None, side_view: bool, all_pairs: int,
+                 coexistence: Sequence[CoexistenceLine] = (), all_coexistence: int = 0, record: str = "") -> str:
+    product = _product_words(design, record)
     sentences = [f"Top view of the antenna placement of {product}: positions in mm in the enclosure frame, "
                  f"x to the right and y up."]
     if design.enclosure_size_mm is not None:
@@ -1051,6 +1090,8 @@ def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[Pair
         sentences.append("Pairs: " + "; ".join(
             f"{pair.first} to {pair.second} {_mm_text(pair.distance_mm)} mm apart, "
             f"{pair.severity or 'no finding'}" for pair in pairs) + ".")
+        if any(pair.severity == NOT_JUDGED for pair in pairs):
+            sentences.append("The spacing checks wait for an answer in the questionnaire, so no pair is judged yet.")
     if all_pairs > len(pairs):
         sentences.append(f"Lines are drawn for {len(pairs)} of the {all_pairs} pairs: those with a spacing "
                          f"finding, worst and nearest first, then the nearest others; the checklist lists "
@@ -1060,7 +1101,10 @@ def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[Pair
             f"{line.cellular} to {line.victim}, {line.label}, {line.severity}" for line in coexistence) + ".")
     if all_coexistence > len(coexistence):
         sentences.append(f"Coexistence lines are drawn for the {len(coexistence)} worst of {all_coexistence}.")
-    if any(antenna.is_cellular for antenna in placed):
+    cellular_placed = any(antenna.is_cellular for antenna in placed)
+    if cellular_placed and frequency_mhz is None:
+        sentences.append("No band is chosen yet, so no near-field or quarter-wave circles are drawn.")
+    elif cellular_placed:
         sentences.append(f"Circles around each cellular antenna show the reactive near field, λ/2π = "
                          f"{near_field_mm:.1f} mm, and a quarter wave, λ/4 = {quarter_wave_mm:.1f} mm, at "
                          f"{frequency_mhz:g} MHz.")
@@ -1069,15 +1113,17 @@ def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[Pair
     return " ".join(sentences)
 
 
-def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str], str], frequency_mhz: float,
-                      width_pt: float = 640, max_height_pt: float | None = None,
-                      coexistence: Sequence[CoexistenceLine] = (), editable: bool = False,
+def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str], str] | None,
+                      frequency_mhz: float | None, width_pt: float = 640, max_height_pt: float | None = None,
+                      coexistence: Sequence[CoexistenceLine] = (), record: str = "", editable: bool = False,
                       keys_id: str = "placement-keys") -> PlacementDrawing:
     """The placement drawing of a design, `width_pt` wide, judged at `frequency_mhz` (the lowest
-    frequency in scope). `pair_severities` maps a pair of antenna names to its worst separation finding
-    (see `pair_severities_from_findings`); a pair of cellular antennas without an entry is drawn as having
-    none. `coexistence` (see `coexistence_lines_from_findings`) adds a dashed line per pair it names, the worst
-    MAX_COEXISTENCE_LINES of those whose antennas are both placed.
+    frequency in scope; None while a draft has no bands: no circles then). `pair_severities` maps a pair of
+    antenna names to its worst separation finding (see `pair_severities_from_findings`); a pair of cellular
+    antennas without an entry is drawn as having none; None draws every pair as not judged yet (a draft whose
+    spacing checks wait). `coexistence` (see `coexistence_lines_from_findings`) adds a dashed line per pair it
+    names, the worst MAX_COEXISTENCE_LINES of those whose antennas are both placed. `record` names the record
+    the drawing belongs to ("design revision 2"), beside the hardware revision.
     `max_height_pt` (say, a PDF frame's height) shrinks the scale until the drawing fits, as far as
     the fixed rows (title, legend) allow.
 
@@ -1088,15 +1134,15 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
     is never editable.
 
     The result's `layout` (and `scale_pt_per_mm`) tell where things were drawn."""
-    if not (math.isfinite(frequency_mhz) and frequency_mhz > 0):
+    if frequency_mhz is not None and not (math.isfinite(frequency_mhz) and frequency_mhz > 0):
         raise ValueError(f"frequency_mhz must be a positive number, got {frequency_mhz!r}")
     if not (math.isfinite(width_pt) and width_pt >= MIN_WIDTH_PT):
         raise ValueError(f"width_pt must be at least {MIN_WIDTH_PT:g}, got {width_pt!r}")
     if max_height_pt is not None and not (math.isfinite(max_height_pt) and max_height_pt > 0):
         raise ValueError(f"max_height_pt must be a positive number, got {max_height_pt!r}")
     width_pt = float(width_pt)
-    near_field_mm = physics.near_field_radius_mm(frequency_mhz)
-    quarter_wave_mm = physics.quarter_wave_mm(frequency_mhz)
+    near_field_mm = physics.near_field_radius_mm(frequency_mhz) if frequency_mhz is not None else None
+    quarter_wave_mm = physics.quarter_wave_mm(frequency_mhz) if frequency_mhz is not None else None
     pairs = _pairs([antenna for antenna in design.antennas if antenna.position_mm is not None and antenna.is_cellular],
                    pair_severities)
     drawn_pairs = _pairs_to_draw(pairs)
@@ -1111,13 +1157,14 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
     placed = [antenna for antenna in drawn.antennas if antenna.position_mm is not None]
     unplaced = [antenna.name for antenna in drawn.antennas if antenna.position_mm is None]
     enclosure = _enclosure_box(drawn, placed)
-    ex0, ey0, ex1, ey1 = _top_extent(drawn, placed, enclosure, max(near_field_mm, quarter_wave_mm), steady=editable)
+    ex0, ey0, ex1, ey1 = _top_extent(drawn, placed, enclosure, max(near_field_mm or 0.0, quarter_wave_mm or 0.0),
+                                     steady=editable)
     heights = {antenna.position_mm[2] for antenna in placed}  # type: ignore[index]
     side = _side_extent(drawn, placed) if len(heights) > 1 or (editable and placed) else None
 
     legend = _legend_columns(width_pt, _legend_groups(
         frequency_mhz, near_field_mm, quarter_wave_mm, frozenset(antenna.role for antenna in placed),
-        bool(drawn_coexistence)))
+        bool(drawn_coexistence), judged=pair_severities is not None))
     note_lines = simpleSplit(f"not placed: {', '.join(unplaced)} (no feed position given)", FONT_ITALIC, 8,
                              width_pt - 2 * MARGIN_PT) if unplaced else []
     if len(drawn_pairs) < len(pairs):
@@ -1149,15 +1196,15 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
     step_mm = _nice_at_least(MIN_GRID_SPACING_PT / scale)
     height_pt = math.ceil(fixed_height_pt + spans_mm * scale)
 
-    title = f"Placement — top view, judged at {frequency_mhz:g} MHz"
+    title = ("Placement — top view, no band chosen yet" if frequency_mhz is None
+             else f"Placement — top view, judged at {frequency_mhz:g} MHz")
     drawing = PlacementDrawing(width_pt, height_pt)
     group = Group()
     top = height_pt - MARGIN_PT
     group.add(String(MARGIN_PT, _baseline(top - 13), _fit_text(title, FONT_BOLD, 13, width_pt - 2 * MARGIN_PT),
                      fontName=FONT_BOLD, fontSize=13, fillColor=INK))
-    product = design.product_name + (f", revision {design.product_revision}" if design.product_revision else "")
-    subtitle = (f"{product} · positions in mm in the enclosure frame · pair lines coloured by spacing finding"
-                + (" · dashed: coexistence" if drawn_coexistence else ""))
+    product = _product_words(design, record)
+    subtitle = f"{product} · positions in mm in the enclosure frame"  # the legend explains the lines
     group.add(String(MARGIN_PT, _baseline(top - 29), _fit_text(subtitle, FONT, 8.5, width_pt - 2 * MARGIN_PT),
                      fontName=FONT, fontSize=8.5, fillColor=MUTED))
     top -= HEADER_PT + 12
@@ -1207,9 +1254,9 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
         placed=tuple(antenna.name for antenna in placed),
         unplaced=tuple(unplaced),
         pairs=tuple(pairs),
-        title=f"Antenna placement of {design.product_name}",
+        title=f"Antenna placement of {design.product_name or 'this product'}",
         description=_description(design, placed, drawn_pairs, frequency_mhz, near_field_mm, quarter_wave_mm,
-                                 side is not None, len(pairs), drawn_coexistence, len(coexisting)),
+                                 side is not None, len(pairs), drawn_coexistence, len(coexisting), record),
         drawn_pairs=tuple(drawn_pairs),
         coexistence=tuple(drawn_coexistence),
     )
@@ -1261,9 +1308,9 @@ def _clean_prefix(id_prefix: str) -> str:
     return prefix if prefix[:1].isalpha() else f"p-{prefix}".rstrip("-")
 
 
-def placement_svg(design: Design, *, pair_severities: Mapping[frozenset[str], str], frequency_mhz: float,
-                  width_pt: float = 640, id_prefix: str = "placement",
-                  coexistence: Sequence[CoexistenceLine] = (), editable: bool = False) -> str:
+def placement_svg(design: Design, *, pair_severities: Mapping[frozenset[str], str] | None,
+                  frequency_mhz: float | None, width_pt: float = 640, id_prefix: str = "placement",
+                  coexistence: Sequence[CoexistenceLine] = (), record: str = "", editable: bool = False) -> str:
     """The placement drawing as a standalone <svg> element to inline in HTML.
 
     It has role="img" and is labelled by its <title> and <desc> (a sentence listing the antennas, their
@@ -1277,7 +1324,7 @@ def placement_svg(design: Design, *, pair_severities: Mapping[frozenset[str], st
     """
     prefix = _clean_prefix(id_prefix)
     drawing = placement_drawing(design, pair_severities=pair_severities, frequency_mhz=frequency_mhz,
-                                width_pt=width_pt, coexistence=coexistence, editable=editable,
+                                width_pt=width_pt, coexistence=coexistence, record=record, editable=editable,
                                 keys_id=f"{prefix}-keys")
     layout: PlacementLayout = drawing.layout
     editor = None

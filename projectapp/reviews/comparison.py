@@ -45,7 +45,7 @@ class Comparison:
 def _findings_by_key(revision: Revision) -> tuple[dict[tuple[str, tuple[str, ...]], dict[str, Any]], list[str]]:
     state = checklist_for(revision)
     keyed = {(finding["id"], tuple(finding.get("subjects", []))): finding for finding in state.findings}
-    return keyed, [f"revision {revision.number}: {problem}" for problem in state.problems]
+    return keyed, [f"design revision {revision.number}: {problem}" for problem in state.problems]
 
 
 def compare_revisions(older: Revision, newer: Revision) -> Comparison:

@@ -122,7 +122,7 @@ class ReviewItem(models.Model):
         ]
 
     def __str__(self) -> str:
-        return f"{self.rule_id} {self.subjects_key or '—'} (revision {self.revision.number})"
+        return f"{self.rule_id} {self.subjects_key or '—'} (design revision {self.revision.number})"
 
     def save(self, *args, **kwargs):
         if self.revision_id and not lifecycle.review_open_in_database(self.revision_id):

@@ -207,8 +207,8 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
     resolved = len(created) - raised
     graver = f"; {not_carried} not carried because the finding is graver now" if not_carried else ""
     _audit(item=None, revision=revision, user=user, action=AuditEvent.Action.REVIEW_OPENED,
-           summary=f"Opened the review of revision {revision.number}: {raised} items ({carried} carried from earlier "
-                   f"decisions{graver}, {assigned} assigned), {resolved} resolved since revision "
+           summary=f"Opened the review of design revision {revision.number}: {raised} items ({carried} carried "
+                   f"from earlier decisions{graver}, {assigned} assigned), {resolved} resolved since design revision "
                    f"{previous.number if previous else '—'}",
            changes={"review_items": [None, raised]})
     return created

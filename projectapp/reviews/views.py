@@ -20,7 +20,7 @@ from django.views.decorators.http import require_GET, require_http_methods, requ
 
 from projectapp import paging
 from projectapp.audit.models import AuditEvent
-from projectapp.designs import lifecycle
+from projectapp.designs import lifecycle, problem_words
 from projectapp.designs.access import get_product_for_user, get_revision_for_user, products_for
 from projectapp.designs.models import Revision
 from projectapp.filters import capped_choices
@@ -159,14 +159,13 @@ def draft_submit(request, product_id: int):
         revision = services.revision_submit(revision=draft, user=request.user)
     except DesignError as error:
         loose = [problem.message for problem in error.problems if not problem.path]  # no question holds them
-        messages.error(request, f"Revision {draft.number} can't be submitted yet: " + (
-            "; ".join(loose) + "." if loose else
-            f"fix the {len(error.problems)} problem(s) listed beside the questions."))
+        messages.error(request, f"Design revision {draft.number} can't be submitted yet: " + (
+            "; ".join(loose) + "." if loose else problem_words.still_to_do(draft.document)))
         return redirect("draft_edit", product.pk)
     except lifecycle.IllegalTransition as refused:
         messages.error(request, str(refused))
         return redirect(product)
-    messages.success(request, f"Revision {revision.number} submitted for review and frozen.")
+    messages.success(request, f"Design revision {revision.number} submitted for review and frozen.")
     return redirect(revision)
 
 
@@ -209,8 +208,8 @@ def revision_review(request, product_id: int, number: int):
     settled = sum(1 for card in raised if card["item"].is_settled)
     return render(request, "reviews/revision_review.html", {
         "product": revision.product, "revision": revision, "cards": raised, "resolved": resolved,
-        "settled": settled, "previous": services._previous_submitted(revision), "step_cards": step_cards,
-        "measurement_digests": _digests(revision),
+        "counts": (settled, len(raised)), "settled": settled, "previous": services._previous_submitted(revision),
+        "step_cards": step_cards, "measurement_digests": _digests(revision),
         "closed_reason": "" if lifecycle.is_review_open(revision) else lifecycle.review_closed_reason(revision)})
 
 
@@ -229,10 +228,23 @@ def item_detail(request, item_id: int):
     })
 
 
+def settled_count(revision) -> tuple[int, int]:
+    """How many of a revision's raised items are settled, of how many (the review page's count)."""
+    raised = [item for item in ReviewItem.objects.filter(revision=revision, kind=ReviewItem.Kind.RAISED,
+                                                         process_step__isnull=True)  # steps are tracked, not settled
+              .only("disposition", "carried_from_id", "carried_confirmed")]
+    return sum(1 for item in raised if item.is_settled), len(raised)
+
+
 def _answer(request, item: ReviewItem, *, status: int = 200, **extra):
-    """The item's card for htmx; a redirect back to the form's page otherwise."""
+    """The item's card for htmx (on the review page, with its settled count out of band, so the count follows
+    each decision); a redirect back to the form's page otherwise."""
     if request.htmx:
-        return render(request, "reviews/_item_card.html", _card_context(request, item, **extra), status=status)
+        context = _card_context(request, item, measurement_digests=_digests(item.revision), **extra)
+        review_url = reverse("revision_review", args=[item.revision.product_id, item.revision.number])
+        if (request.htmx.current_url_abs_path or "").split("?")[0] == review_url:
+            context["oob_counts"] = settled_count(item.revision)
+        return render(request, "reviews/item_card_answer.html", context, status=status)
     if status == 403:
         raise PermissionDenied(extra.get("error"))
     message = extra.get("conflict_message") or extra.get("error")

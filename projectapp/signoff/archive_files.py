@@ -268,6 +268,6 @@ def _missing_records(manifest: dict[str, Any], listed: set[str]) -> list[str]:
     missing = (SignedRecord.objects.filter(sha256__in=absent[:100]).select_related("revision__product")
                .order_by("created_at", "id"))
     more = [f"… and {len(absent) - 100} more archived before this export but missing from it"] if len(absent) > 100 else []
-    return [f"{record.revision.product.name} revision {record.revision.number} (archived "
+    return [f"{record.revision.product.name} design revision {record.revision.number} (archived "
             f"{record.created_at:%Y-%m-%d %H:%M} UTC, SHA-256 {record.sha256[:16]}…): archived before this export "
             "but missing from it" for record in missing] + more

@@ -493,7 +493,7 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
     grouped = " ".join(fingerprint[index:index + 4] for index in range(0, 32, 4))
     # The footer's line leaves room for "page 999 of 999"; a long product name is cut to fit (the cover
     # has it whole).
-    suffix = f" · revision {revision.number} · fingerprint {grouped}"
+    suffix = f" · design revision {revision.number} · fingerprint {grouped}"
     room_pt = FRAME_WIDTH - 60 - text_width(suffix, size=7)
     footer = fit(product.name, size=7, width=room_pt) + suffix
 
@@ -501,11 +501,13 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
     story: list[Flowable] = [
         Spacer(1, 25 * mm),
         p("Antenna design record", H1),
-        p(f"{product.name} — revision {revision.number}", H2),
+        p(f"{product.name} — design revision {revision.number}", H2),
         Spacer(1, 6 * mm),
         grid_table([
             ["Product", product.name], ["Team", product.team.name],
-            ["Design revision", f"{revision.number} (hardware revision {design.product_revision or 'not given'})"],
+            ["Design revision", f"{revision.number} (this record's number)"],
+            ["Hardware revision", f"{design.product_revision} (the board the design describes)"
+             if design.product_revision else "not given"],
             ["UE category", f"{design.modem.category.label} ({design.modem.category.id})"],
             ["Status", "signed and archived; current when signed"],
             ["Rule set", revision.ruleset],
@@ -529,7 +531,8 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
         *_figure("placement drawing", lambda: placement_drawing(
             design, pair_severities=pair_severities_from_findings(checklist["findings"]),
             frequency_mhz=design.lowest_mhz, width_pt=FRAME_WIDTH, max_height_pt=PAGE_HEIGHT - 80 * mm,
-            coexistence=coexistence_lines_from_findings(checklist["findings"], design))),
+            coexistence=coexistence_lines_from_findings(checklist["findings"], design),
+            record=f"design revision {revision.number}")),
         PageBreak(),
         *_checklist(items, approver_ids(product.team),
                     set(ProcessStep.objects.filter(revision=revision).values_list("item_id", flat=True))),
@@ -553,7 +556,7 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
     buffer = io.BytesIO()
     document = SimpleDocTemplate(buffer, pagesize=A4, leftMargin=MARGIN, rightMargin=MARGIN, topMargin=MARGIN,
                                  bottomMargin=20 * mm,
-                                 title=printable(f"{product.name} revision {revision.number} record"),
+                                 title=printable(f"{product.name} design revision {revision.number} record"),
                                  author=printable(product.team.name), subject="Antenna design record",
                                  creator="Earshot",
                                  invariant=1)

@@ -70,7 +70,7 @@ def readiness(revision: Revision) -> Readiness:
     state.signed_roles = list(revision.signatures.values_list("role", flat=True))
     State = Revision.State
     if revision.state == State.DRAFT:
-        state.obstacles.append(f"Revision {revision.number} is a draft: submit it for review first.")
+        state.obstacles.append(f"Design revision {revision.number} is a draft: submit it for review first.")
         return state
     if revision.state in (State.SIGNED, State.SUPERSEDED):
         return state
@@ -78,8 +78,8 @@ def readiness(revision: Revision) -> Readiness:
     if newer is not None:
         state.obstacles.append(newer_record_obstacle(revision, newer))
     elif revision.state == State.WITHDRAWN:
-        state.obstacles.append(f"Revision {revision.number} was withdrawn from review, so it can't be signed. To "
-                               "go back to this design, start a new draft from it.")
+        state.obstacles.append(f"Design revision {revision.number} was withdrawn from review, so it can't be signed. "
+                               "To go back to this design, start a new draft from it.")
     if revision.state != State.WITHDRAWN:
         state.obstacles += gate.item_obstacles(revision)
     return state
@@ -126,8 +126,8 @@ def newer_record(revision: Revision) -> SignedRecord | None:
 
 
 def newer_record_obstacle(revision: Revision, newer: SignedRecord) -> str:
-    return (f"Revision {newer.revision.number} of {revision.product.name} is already signed and archived, so "
-            f"revision {revision.number} can no longer be signed: its record would compete with the newer one as "
+    return (f"Design revision {newer.revision.number} of {revision.product.name} is already signed and archived, so "
+            f"design revision {revision.number} can no longer be signed: its record would compete with the newer one as "
             "the current record. To go back to this design, start a new revision from it.")
 
 
@@ -159,7 +159,7 @@ def _revision_sign_checked(*, revision: Revision, user, role: str) -> Signature:
         raise PermissionDenied(f"Signing as {role} needs the {role} role in {team.name}.")
     state = readiness(revision)
     if not state.ready:
-        raise SigningError(f"Revision {revision.number} can't be signed yet: {len(state.obstacles)} item(s) stand "
+        raise SigningError(f"Design revision {revision.number} can't be signed yet: {len(state.obstacles)} item(s) stand "
                            "in the way.")
     if role in state.signed_roles:
         raise SigningError(f"role: the {role} signature is already recorded")
@@ -170,7 +170,7 @@ def _revision_sign_checked(*, revision: Revision, user, role: str) -> Signature:
         meaning=MEANINGS[Role(role)])
     lifecycle.signature_recorded(
         revision=revision, user=user, changes={"signature": [None, role]},
-        summary=f"Signed revision {revision.number} as {role} ({signature.meaning.split(':')[0]})")
+        summary=f"Signed design revision {revision.number} as {role} ({signature.meaning.split(':')[0]})")
     missing = [r for r in team.signoff_roles if r not in (*state.signed_roles, role)]
     if not missing:
         record = record_archive(revision=revision, user=user)
@@ -214,7 +214,7 @@ def record_build(*, revision: Revision) -> tuple[str, bytes]:
         logger.exception("the PDF record of %s could not be built", revision)
         earlier = revision.signatures.count() > 1  # the signature being refused is already in the count
         raise RecordBuildError(
-            f"The PDF record of revision {revision.number} could not be built ({type(error).__name__}), so your "
+            f"The PDF record of design revision {revision.number} could not be built ({type(error).__name__}), so your "
             "signature was not recorded and nothing changed"
             + (": the signatures already given stand." if earlier else ": the review is still open.")
             + " The server log has the cause for whoever runs Earshot; sign again once it is fixed.") from error

@@ -30,6 +30,7 @@ def _count(number: int, noun: str) -> str:
         "enclosure and a board change."
     ),
     sources=(TS_36_306, TS_38_300, "3GPP TS 36.101 §7 (receiver requirements with two antenna ports)"),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.operator_single_antenna_approval"),
 )
 def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -120,6 +121,7 @@ def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
     rationale="The module transmits through its main port; a design of only receive antennas cannot attach.",
     product_impact="Without an antenna on the modem's transmit port the product can't send anything to the network.",
     sources=(TS_36_306,),
+    needs=("antennas",),
 )
 def no_main_antenna(context: CheckContext) -> Iterator[Flag]:
     antennas = context.cellular_antennas
@@ -149,6 +151,7 @@ def no_main_antenna(context: CheckContext) -> Iterator[Flag]:
     ),
     product_impact="Antennas the modem can't use add cost, space and assembly steps without improving coverage.",
     sources=(TS_36_306,),
+    needs=("modem.category", "modem.rx_ports", "antennas"),
 )
 def unused_antennas(context: CheckContext) -> Iterator[Flag]:
     antennas = context.cellular_antennas
@@ -186,6 +189,7 @@ def unused_antennas(context: CheckContext) -> Iterator[Flag]:
     product_impact=("Operators decide whether one-antenna RedCap devices may use their cells, and some may keep them "
                     "off: a question to settle with each operator before committing to one antenna."),
     sources=(REDCAP_1RX, TS_38_300),
+    needs=("modem.category", "modem.rx_ports", "antennas"),
 )
 def redcap_one_branch(context: CheckContext) -> Iterator[Flag]:
     modem = context.design.modem

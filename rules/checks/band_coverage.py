@@ -20,6 +20,7 @@ from rules.registry import rule
         "it to work, and operators test every band the product claims."
     ),
     sources=("3GPP TS 36.101 Table 5.5-1", "3GPP TS 38.101-1 Table 5.2-1"),
+    needs=("antennas", "antennas[].ranges_mhz", "modem.bands"),
 )
 def band_outside_rated_range(context: CheckContext) -> Iterator[Flag]:
     for antenna in context.cellular_antennas:
@@ -65,6 +66,7 @@ def band_outside_rated_range(context: CheckContext) -> Iterator[Flag]:
     rationale="Without the antenna's rated frequency ranges the engine cannot tell whether it serves the bands.",
     product_impact="Until the antenna's frequency ranges are entered, an antenna that misses a band would go unnoticed.",
     sources=("common practice",),
+    needs=("antennas", "antennas[].ranges_mhz", "modem.bands"),
 )
 def rated_ranges_unknown(context: CheckContext) -> Iterator[Flag]:
     for antenna in context.cellular_antennas:

@@ -13,6 +13,7 @@ from rules.registry import rule
     rationale="Each operator runs its own acceptance on a device before it may join its network.",
     product_impact="Each operator tests the product before letting it on its network: weeks of lab time and fees.",
     sources=("each operator's device acceptance requirements",),
+    needs=("modem.bands",),
 )
 def carrier_acceptance(context: CheckContext) -> Iterator[Flag]:
     bands = ", ".join(band.name for band in context.design.modem.bands)
@@ -37,6 +38,7 @@ def carrier_acceptance(context: CheckContext) -> Iterator[Flag]:
     rationale="Operators usually require the device's industry certification (conformance testing) first.",
     product_impact="Industry certification is a fixed step before launch, with lab time and fees of its own.",
     sources=("3GPP TS 36.521-1 / TS 38.521-1 (UE conformance)", "the certification scheme of each region"),
+    needs=(),
 )
 def industry_certification(context: CheckContext) -> Iterator[Flag]:
     yield Flag(
@@ -60,6 +62,7 @@ def industry_certification(context: CheckContext) -> Iterator[Flag]:
     rationale="Each market's regulator must approve the product (radio, EMC, safety, RF exposure).",
     product_impact="The product can't be sold in a market before that market's regulator approves it.",
     sources=("the radio regulation of each market",),
+    needs=(),
 )
 def regulatory_approval(context: CheckContext) -> Iterator[Flag]:
     yield Flag(

@@ -220,6 +220,9 @@ def _margin(isolation: PairIsolation, budget: Budget) -> float | None:
     sources=(TR_36_816, "3GPP TS 36.101 Table 6.6.3.1-2 / TS 38.101-1 Table 6.5.3.1-2 (spurious emissions, from memory)",
              "3GPP TS 36.101 Table 5.5-1 / TS 38.101-1 Table 5.2-1 (band edges)",
              "common practice (1 dB desensitization allowance)", FRIIS),
+    needs=("antennas", "modem.bands", "modem.category", "modem.power_class", "antennas[].position_mm",
+           "antennas[].ranges_mhz", "antennas[].mounting", "antennas[].cable_loss_db", "antennas[].peak_gain_dbi",
+           "antennas[].efficiency_pct", "antennas[].efficiency_source", "antennas[].polarization", "measurements"),
 )
 def harmonic_on_gnss(context: CheckContext) -> Iterator[Flag]:
     data = coexistence_data()
@@ -307,6 +310,9 @@ def _harmonic_flag(context: CheckContext, band: Band, victim: Victim, gnss: Ante
     sources=(TR_36_816, "3GPP TS 36.101 Table 6.6.2.1.1-1 / TS 38.101-1 Table 6.5.2.2-1 (spectrum emission masks)",
              "IEEE 802.11 transmit spectrum masks (from memory)", "common practice (1 dB desensitization allowance)",
              FRIIS),
+    needs=("antennas", "modem.bands", "modem.category", "modem.power_class", "antennas[].position_mm",
+           "antennas[].ranges_mhz", "antennas[].mounting", "antennas[].cable_loss_db", "antennas[].peak_gain_dbi",
+           "antennas[].efficiency_pct", "antennas[].efficiency_source", "antennas[].polarization", "measurements"),
 )
 def band_edge_beside_wlan(context: CheckContext) -> Iterator[Flag]:
     data = coexistence_data()

@@ -51,6 +51,9 @@ def outside_enclosure_mm(context: CheckContext, antenna: Antenna) -> float:
     ),
     sources=(WHEELER, "common practice (quarter-wave minimum spacing)", "3GPP TS 36.101 Table 5.5-1",
              "design.md rule set 2 (measurement outranks geometry)"),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.bands", "antennas[].position_mm",
+           "antennas[].polarization", "antennas[].mounting", "enclosure.size_mm", "measurements",
+           "antennas[].ranges_mhz", "antennas[].efficiency_pct"),
 )
 def receive_antennas_too_close(context: CheckContext) -> Iterator[Flag]:
     if context.rx_usable < 2:
@@ -225,6 +228,7 @@ def _measured_verdict(context: CheckContext, first: str, second: str) -> _Verdic
     rationale="Spacing rules need every receive antenna's feed point.",
     product_impact="Until every antenna's position is entered, antennas placed too close would go unnoticed.",
     sources=("common practice",),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.bands", "antennas[].position_mm"),
 )
 def position_unknown(context: CheckContext) -> Iterator[Flag]:
     if context.rx_usable < 2 or len(context.cellular_antennas) < 2:
@@ -259,6 +263,8 @@ def position_unknown(context: CheckContext) -> Iterator[Flag]:
     ),
     product_impact="A spacing check that passes on a wrongly entered position proves nothing about the product.",
     sources=("common practice",),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.bands", "antennas[].position_mm",
+           "antennas[].polarization", "antennas[].mounting", "enclosure.size_mm"),
 )
 def spacing_rests_on_outside_position(context: CheckContext) -> Iterator[Flag]:
     if context.rx_usable < 2:
@@ -310,6 +316,8 @@ def _internal_cellular(context: CheckContext) -> list[Antenna]:
         "farthest and best into buildings; too short a board means weaker coverage there or a different antenna."
     ),
     sources=("common practice (quarter-wave ground length)", "design.md rule set 2 (measurement outranks geometry)"),
+    needs=("antennas", "antennas[].mounting", "ground_plane_mm", "modem.bands", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def ground_plane_short(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -398,6 +406,7 @@ def ground_plane_short(context: CheckContext) -> Iterator[Flag]:
     rationale="The ground length decides how well an embedded antenna works at low frequencies.",
     product_impact="Until the board size is entered, a board too short for the built-in antennas would go unnoticed.",
     sources=("common practice",),
+    needs=("antennas", "antennas[].mounting", "ground_plane_mm", "modem.bands"),
 )
 def ground_plane_unknown(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -446,6 +455,7 @@ PRACTICAL_SHARE_OF_BOUND = 0.5
         "Bode 1945; Fano, J. Franklin Inst. 249, 1950",
         "common practice (designs reach about half of the bound)",
     ),
+    needs=("antennas", "antennas[].mounting", "ground_plane_mm", "modem.bands", "antennas[].efficiency_pct"),
 )
 def device_too_small_for_bandwidth(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -539,6 +549,7 @@ def device_too_small_for_bandwidth(context: CheckContext) -> Iterator[Flag]:
     ),
     product_impact="An antenna inside metal can't reach the network well, or at all, whatever else is right.",
     sources=("common practice",),
+    needs=("antennas", "antennas[].mounting", "enclosure.material"),
 )
 def internal_antenna_in_metal(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -580,6 +591,7 @@ def internal_antenna_in_metal(context: CheckContext) -> Iterator[Flag]:
     ),
     product_impact="An antenna position entered from the wrong corner makes the spacing checks unreliable.",
     sources=("common practice",),
+    needs=("antennas", "antennas[].mounting", "antennas[].position_mm", "enclosure.size_mm"),
 )
 def feed_outside_enclosure(context: CheckContext) -> Iterator[Flag]:
     size = context.design.enclosure_size_mm

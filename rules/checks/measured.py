@@ -83,6 +83,7 @@ def _cellular_ports(context: CheckContext, measurement: LoadedMeasurement) -> li
     product_impact="A faulty measurement file says nothing reliable about the product until the test is redone.",
     sources=("power conservation: a passive network's S-matrix has no singular value above 1",
              "common practice (1 % tolerance for measurement noise)"),
+    needs=("measurements", "modem.bands"),
 )
 def not_passive(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:
@@ -135,6 +136,7 @@ def not_passive(context: CheckContext) -> Iterator[Flag]:
     ),
     product_impact="An antenna that sends much of its power back to the modem gives the product shorter range in that band.",
     sources=("common practice (VSWR 3:1 for embedded antennas)", "VSWR = (1 + |S_ii|) / (1 - |S_ii|)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct"),
 )
 def poor_match(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:
@@ -184,6 +186,7 @@ def poor_match(context: CheckContext) -> Iterator[Flag]:
     rationale="A band the measurement does not span is unmeasured: nothing can be said about it from the file.",
     product_impact="A band the measurement does not reach is unverified: the product's behaviour there is unknown.",
     sources=("common practice",),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct"),
 )
 def measurement_misses_band(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:
@@ -240,6 +243,7 @@ def _pairs(context: CheckContext) -> Iterator[PairWindow]:
     product_impact=("Antennas that leak power into each other waste it: shorter range, and the second antenna helps "
                     "less."),
     sources=("common practice (10 dB isolation)", "coupled power = 10^(-isolation / 10)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct"),
 )
 def poor_isolation(context: CheckContext) -> Iterator[Flag]:
     for measurement, (i, first), (j, second), band, window in _pairs(context):
@@ -288,6 +292,8 @@ def poor_isolation(context: CheckContext) -> Iterator[Flag]:
     product_impact=("Two antennas that receive nearly the same signal give the product little of the range and speed "
                     "a second antenna is there for."),
     sources=(BLANCH, HALLBJORNER, "common practice (ECC below 0.5 for LTE MIMO)", MRC_MODEL),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def high_correlation(context: CheckContext) -> Iterator[Flag]:
     for result, first, second, band in _sparameter_results(context):
@@ -338,6 +344,8 @@ def _sparameter_results(context: CheckContext) -> Iterator[tuple[MeasuredCorrela
     product_impact=("A good-looking correlation from this kind of measurement is not proof for lossy antennas: it "
                     "settles nothing until a pattern measurement is made."),
     sources=(BLANCH, HALLBJORNER),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def optimistic_correlation(context: CheckContext) -> Iterator[Flag]:
     worst_by_pair: dict[tuple[str, str], list[tuple[MeasuredCorrelation, Band]]] = {}
@@ -382,6 +390,8 @@ def optimistic_correlation(context: CheckContext) -> Iterator[Flag]:
     ),
     product_impact="An antenna that can radiate only a small share of its power gives the product short range in that band.",
     sources=("power conservation over the S-matrix (common practice)", "common practice (25 % efficiency)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def low_measured_efficiency_bound(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:

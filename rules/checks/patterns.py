@@ -52,6 +52,8 @@ def _environment_words(item: LoadedPattern) -> str:
     product_impact=("Two antennas that receive nearly the same signal give the product little of the range and speed "
                     "a second antenna is there for."),
     sources=(VAUGHAN_ANDERSEN, TAGA, "common practice (ECC below 0.5 for LTE MIMO)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def high_pattern_correlation(context: CheckContext) -> Iterator[Flag]:
     for first, second in _pattern_pairs(context):
@@ -89,6 +91,8 @@ def high_pattern_correlation(context: CheckContext) -> Iterator[Flag]:
     ),
     product_impact="A pattern measurement that shows the antennas working independently is the best evidence a layout can have.",
     sources=(VAUGHAN_ANDERSEN, TAGA),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def pattern_correlation_summary(context: CheckContext) -> Iterator[Flag]:
     for first, second in _pattern_pairs(context):
@@ -156,6 +160,8 @@ def pattern_correlation_summary(context: CheckContext) -> Iterator[Flag]:
     ),
     product_impact="A measured efficiency says how much of the product's power really leaves as radio waves.",
     sources=(TAGA, "common practice (25 % efficiency)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def pattern_efficiency(context: CheckContext) -> Iterator[Flag]:
     for item in context.far_fields:

@@ -230,6 +230,9 @@ def _judged(context: CheckContext, quantity: str) -> Iterator[Flag]:
                     "test and less uplink range; the chamber test decides."),
     sources=("3GPP TS 36.101 clause 6.2.2 / TS 38.101-1 clause 6.2.1 (power classes)", EFFICIENCY_RULE,
              OPERATOR_TEST),
+    needs=("antennas", "modem.bands", "modem.category", "modem.power_class", "modem.conducted_sensitivity_dbm",
+           "deployment.radiated_targets_dbm", "antennas[].efficiency_pct", "antennas[].efficiency_source",
+           "antennas[].cable_loss_db", "measurements"),
 )
 def trp_below_target(context: CheckContext) -> Iterator[Flag]:
     yield from _judged(context, TRP)
@@ -250,6 +253,9 @@ def trp_below_target(context: CheckContext) -> Iterator[Flag]:
     product_impact=("An estimated sensitivity worse than the operator's target means a risk of failing its over-the-air "
                     "test and less downlink range; the chamber test decides."),
     sources=("the module's datasheet (conducted sensitivity)", EFFICIENCY_RULE, OPERATOR_TEST),
+    needs=("antennas", "modem.bands", "modem.category", "modem.power_class", "modem.conducted_sensitivity_dbm",
+           "deployment.radiated_targets_dbm", "antennas[].efficiency_pct", "antennas[].efficiency_source",
+           "antennas[].cable_loss_db", "measurements"),
 )
 def tis_above_target(context: CheckContext) -> Iterator[Flag]:
     yield from _judged(context, TIS)
@@ -265,6 +271,9 @@ def tis_above_target(context: CheckContext) -> Iterator[Flag]:
     ),
     product_impact="A radiated target that can't be estimated leaves the operator's over-the-air test unforeseen there.",
     sources=("common practice",),
+    needs=("antennas", "modem.bands", "modem.category", "modem.power_class", "modem.conducted_sensitivity_dbm",
+           "deployment.radiated_targets_dbm", "antennas[].efficiency_pct", "antennas[].efficiency_source",
+           "antennas[].cable_loss_db", "measurements"),
 )
 def radiated_inputs_missing(context: CheckContext) -> Iterator[Flag]:
     missing = estimates(context)[1]

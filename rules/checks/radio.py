@@ -35,6 +35,8 @@ def efficiency_basis(antennas: list[Antenna]) -> str:
     product_impact=("An antenna stronger than the module's approval allows takes the product outside that approval: it "
                     "then needs its own, with months and test fees added."),
     sources=("the module's regulatory approval (grant or declaration of conformity)",),
+    needs=("antennas", "modem.bands", "modem.gain_limits_dbi", "antennas[].peak_gain_dbi",
+           "antennas[].cable_loss_db"),
 )
 def gain_above_approval(context: CheckContext) -> Iterator[Flag]:
     modem = context.design.modem
@@ -83,6 +85,7 @@ def gain_above_approval(context: CheckContext) -> Iterator[Flag]:
                "a per-band gain that leaves out a limited band leaves that band unjudged."),
     product_impact="Until the antenna's gain is entered, an antenna outside the module's approval would go unnoticed.",
     sources=("common practice",),
+    needs=("antennas", "modem.bands", "modem.gain_limits_dbi", "antennas[].peak_gain_dbi"),
 )
 def gain_unknown(context: CheckContext) -> Iterator[Flag]:
     modem = context.design.modem
@@ -168,6 +171,8 @@ def design_peak(context: CheckContext, direction: str) -> Peak:
     sources=("3GPP TS 36.306 Tables 4.1-1, 4.1A-1, 4.1C-1", "3GPP TS 38.306 §4.1.2",
              "3GPP TS 36.213 (LTE-M HD-FDD timing; peaks from memory)",
              "common practice (TDD pattern DDDSU, S = 10:2:2)"),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.bands", "modem.full_duplex",
+           "deployment.required_dl_kbps", "deployment.required_ul_kbps"),
 )
 def throughput_above_peak(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -214,6 +219,7 @@ def throughput_above_peak(context: CheckContext) -> Iterator[Flag]:
     ),
     product_impact="An inefficient antenna wastes most of the product's radio power: shorter range and harder operator tests.",
     sources=("common practice", "loss = -10 log10(efficiency)"),
+    needs=("antennas", "modem.bands", "antennas[].efficiency_pct", "antennas[].efficiency_source"),
 )
 def low_entered_efficiency(context: CheckContext) -> Iterator[Flag]:
     selected = {band.name for band in context.design.modem.bands}
@@ -264,6 +270,8 @@ def low_entered_efficiency(context: CheckContext) -> Iterator[Flag]:
     ),
     product_impact="Two antennas of very different quality give the product less of the benefit of having two.",
     sources=("common practice (diversity branches within 3 dB)", MRC_MODEL),
+    needs=("modem.category", "modem.rx_ports", "antennas", "measurements", "modem.bands", "antennas[].ranges_mhz",
+           "antennas[].efficiency_pct", "antennas[].efficiency_source"),
 )
 def efficiency_imbalance(context: CheckContext) -> Iterator[Flag]:
     if context.rx_connected < 2:

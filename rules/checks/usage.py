@@ -24,6 +24,7 @@ DEFERENCE = (
     product_impact=("A product used close to people usually needs an RF exposure evaluation before sale: a test with "
                     "its own time and cost, and limits set by each market's regulator."),
     sources=("common practice (20 cm exposure distance)", "local RF exposure regulation"),
+    needs=("deployment.body_distance_mm",),
 )
 def people_close(context: CheckContext) -> Iterator[Flag]:
     distance_mm = context.design.deployment.body_distance_mm
@@ -56,6 +57,7 @@ def people_close(context: CheckContext) -> Iterator[Flag]:
     rationale="Whether an exposure evaluation is needed depends on how close people come in normal use.",
     product_impact="How close people come decides whether an RF exposure evaluation is on the plan before sale.",
     sources=("common practice", "local RF exposure regulation"),
+    needs=("deployment.body_distance_mm",),
 )
 def distance_unknown(context: CheckContext) -> Iterator[Flag]:
     if context.design.deployment.body_distance_mm is None:

@@ -49,5 +49,5 @@ def test_a_reviewer_starts_a_measurement_draft(page, live_server, reviewer, olde
     log_in(page, live_server, reviewer)
     page.goto(live_server.url + reverse("revision_detail", args=[older.product_id, older.number]))
     page.get_by_role("button", name="Add measurements (start a measurement draft)").click()
-    expect(page.locator("h1")).to_contain_text("Revision 2")
+    expect(page.locator("h1")).to_contain_text("Design revision 2")
     shot(page, "measurement-draft.png")

@@ -116,7 +116,7 @@ def test_an_archive_with_every_record_removed_does_not_verify(tmp_path, signed):
         assert status == 1, (args, out, err)
         assert "All 0" not in out and "no signed record" in err
     status, _, err = run_command(str(emptied))
-    assert f"{signed.revision.product.name} revision {signed.revision.number}" in err
+    assert f"{signed.revision.product.name} design revision {signed.revision.number}" in err
     assert "archived before this export but missing from it" in err
 
 
@@ -144,7 +144,7 @@ def test_a_record_removed_from_a_full_export_is_named(tmp_path, signed, author, 
     assert verify_archive(exported).problems == []
     check = verify_archive(shrunk)
     assert check.checked == 1 and len(check.problems) == 1
-    assert f"revision {removed['revision']}" in check.problems[0] and "missing from it" in check.problems[0]
+    assert f"design revision {removed['revision']}" in check.problems[0] and "missing from it" in check.problems[0]
 
 
 def test_a_file_that_is_not_a_zip_is_exit_2(tmp_path, db):

@@ -136,7 +136,7 @@ def test_signing_a_newer_revision_supersedes_the_signed_one_and_withdraws_the_un
     assert Supersession.objects.get(older=old_record).newer == new_record
     assert events(first, "superseded")[0].changes["state"] == ["signed", "superseded"]
     assert events(second, "withdrawn")[0].changes["state"] == ["signing", "withdrawn"]
-    with pytest.raises(signoff.SigningError, match="Revision 3 of Hive gateway is already signed and archived"):
+    with pytest.raises(signoff.SigningError, match="Design revision 3 of Hive gateway is already signed and archived"):
         sign(second, reviewer, "reviewer")
 
 
@@ -231,7 +231,7 @@ def test_a_draft_can_start_from_any_earlier_revision(client, product, author):
     assert third.number == 3 and third.based_on == first and third.document == first.document
     assert third.document != second.document
     refused = client.post(reverse("draft_start", args=[product.pk]), {"from": second.number}, follow=True)
-    assert "Revision 3 is already a draft" in refused.content.decode() and product.revisions.count() == 3
+    assert "Design revision 3 is already a draft" in refused.content.decode() and product.revisions.count() == 3
     product.refresh_from_db()
     assert product.latest_revision == third  # the product list reads it
 
@@ -241,7 +241,7 @@ def test_starting_from_a_revision_that_is_not_one_starts_nothing(client, product
     revision_submit(revision=product.draft, user=author)
     client.force_login(author)
     page = client.post(reverse("draft_start", args=[product.pk]), {"from": value}, follow=True).content.decode()
-    assert "from: expected the number of a revision of this product that is not a draft" in page
+    assert "from: expected the number of a design revision of this product that is not a" in page
     assert product.draft is None
 
 

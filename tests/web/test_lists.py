@@ -72,11 +72,12 @@ def test_every_page_of_a_revision_shows_its_state_and_record(client, signed_with
         html = page(client, reviewer, url)
         assert "status-signed" in html and f'href="{record_link(revision)}"' in html, url
     product_page = page(client, reviewer, urls[0])
-    assert "status-in-review" in row_of(product_page, "Revision 2")
+    assert "status-in-review" in row_of(product_page, "Design revision 2")
     review = page(client, reviewer, urls[2])
     assert "is signed: its review is frozen" in review
     dashboard = page(client, reviewer, reverse("review_dashboard"), state="all")
-    assert f"Hive gateway rev {second.number}" in dashboard and "Hive gateway rev 1<" not in dashboard
+    assert f"Hive gateway, design revision {second.number}" in dashboard
+    assert "Hive gateway, design revision 1<" not in dashboard
     assert "status-in-review" in dashboard
     archive = page(client, reviewer, reverse("archive_list"))
     assert record.get_absolute_url() in archive and "status-signed" in archive
@@ -110,11 +111,11 @@ def test_lists_never_evaluate_a_design(client, product, submitted_product, autho
     assert "count-blocker" in row_of(page(client, reviewer, reverse("product_list")), "Hive gateway")
 
 
-def test_a_draft_that_cannot_be_checked_says_how_many_problems(client, team, author, reviewer):
-    product = services.product_create(team=team, name="Culvert level sensor", user=author)  # no bands yet
+def test_an_unfinished_draft_says_how_many_questions_are_left(client, team, author, reviewer):
+    product = services.product_create(team=team, name="Culvert level sensor", user=author)  # nothing answered
     row = row_of(page(client, reviewer, reverse("product_list")), "Culvert level sensor")
-    problems = Revision.objects.get(pk=product.draft.pk).problems
-    assert problems > 0 and f"{problems} problem{'s' if problems != 1 else ''} to fix before it can be checked" in row
+    left = Revision.objects.get(pk=product.draft.pk).unanswered
+    assert left > 0 and f"not finished: {left} question{'s' if left != 1 else ''} to answer" in row
 
 
 # -- paging and filters ---------------------------------------------------------------------------------------------

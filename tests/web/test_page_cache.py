@@ -113,7 +113,8 @@ def test_a_cached_page_carries_the_nonce_of_its_own_response(submitted_product, 
     for client in (signed_in(author), signed_in(reviewer), signed_in(reviewer)):
         response = client.get(url)
         header = re.search(r"'nonce-([^']+)'", response["Content-Security-Policy"])[1]
-        assert re.findall(r'<script [^>]*nonce="([^"]+)"', response.content.decode()) == [header]
+        nonces = re.findall(r'<script [^>]*nonce="([^"]+)"', response.content.decode())
+        assert nonces and set(nonces) == {header}  # htmx and earshot.js, each with this response's nonce
 
 
 def test_text_typed_into_a_design_cannot_forge_a_marker(submitted_product, author):

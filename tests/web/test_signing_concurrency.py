@@ -101,7 +101,7 @@ def ready(product, author, reviewer, approver):
 
 
 def next_revision_ready(product, author, approver):
-    """Revision 2, unchanged: the approver confirms every carried blocker and warning decision."""
+    """Design revision 2, unchanged: the approver confirms every carried blocker and warning decision."""
     draft = design_services.draft_get_or_start(product=product, user=author)
     revision = revision_submit(revision=draft, user=author)
     for item in revision.review_items.filter(kind="raised", severity__in=["blocker", "warning"]):
@@ -157,7 +157,7 @@ def test_a_signature_waits_for_a_decision_in_progress_and_then_sees_it(ready, au
         item=item, user=reviewer, disposition="discussion", justification="", expected_version=item.version),
         sign(ready, author, "author"), outcome, ("decide", "sign"))
     assert outcome["decide"] == "done"
-    assert outcome["sign"].startswith("refused: Revision 1 can't be signed yet"), outcome["sign"]
+    assert outcome["sign"].startswith("refused: Design revision 1 can't be signed yet"), outcome["sign"]
     assert waited and not ready.signatures.exists()
 
 
@@ -172,7 +172,7 @@ def test_two_revisions_signed_at_once_leave_one_current_record(ready, product, a
     outcome: dict[str, str] = {}
     assert race(sign(newer, approver, "approver"), sign(ready, approver, "approver"), outcome, ("newer", "older"))
     assert outcome["newer"] == "done"
-    assert outcome["older"].startswith("refused: Revision 2 of"), outcome["older"]
+    assert outcome["older"].startswith("refused: Design revision 2 of"), outcome["older"]
     assert [record.revision.number for record in SignedRecord.objects.all() if record.is_current] == [2]
     ready.refresh_from_db()
     assert ready.state == "withdrawn"  # it can never be signed now

@@ -263,10 +263,10 @@ def test_the_record_says_who_decided_what_and_what_was_carried(submitted, author
     record = sign_all(second, author, reviewer, approver)
     with record.pdf.open("rb") as handle:
         text = pdf_text(handle.read())
-    assert "carried from revision 1, confirmed" not in text
-    assert "Revision 1 carried in: Needs discussion, decided by reviewer" in text  # EFF-001, decided anew
-    assert "Carried from revision 1; confirmed here by approver" in text  # SEP-001
-    assert text.count("in this revision") >= 1 and "in revision 1" in text
+    assert "carried from design revision 1, confirmed" not in text
+    assert "Design revision 1 carried in: Needs discussion, decided by reviewer" in text  # EFF-001, decided anew
+    assert "Carried from design revision 1; confirmed here by approver" in text  # SEP-001
+    assert text.count("in this revision") >= 1 and "in design revision 1" in text
 
 
 def test_an_older_revision_cannot_be_signed_once_a_newer_one_is_archived(client, submitted, author, reviewer,
@@ -282,9 +282,9 @@ def test_an_older_revision_cannot_be_signed_once_a_newer_one_is_archived(client,
     client.force_login(reviewer)
     response = client.post(url, {"role": "reviewer", "password": PASSWORD}, follow=True)
     page = response.content.decode()
-    assert "Revision 2 of Hive gateway is already signed and archived, so revision 1 can no longer be signed" in page
+    assert "Design revision 2 of Hive gateway is already signed and archived, so design revision 1 can no longer be signed" in page
     assert submitted.signatures.count() == 1 and not SignedRecord.objects.filter(revision=submitted).exists()
-    assert any(o.startswith("Revision 2 of Hive gateway") for o in services.readiness(submitted).obstacles)
+    assert any(o.startswith("Design revision 2 of Hive gateway") for o in services.readiness(submitted).obstacles)
     assert [record.pk for record in SignedRecord.objects.all() if record.is_current] == [newer_record.pk]
 
 

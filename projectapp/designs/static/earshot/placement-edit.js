@@ -60,6 +60,12 @@
       const text = String(round(value, decimals));
       if (input.value !== text) { input.value = text; last = input; }
     });
+    if (last && quantity === "polarization") {
+      // The axis is chosen in words on the form; a turned axis is "another direction", read from its x, y, z.
+      const words = document.querySelector(
+        'select[name="' + CSS.escape("antennas[" + marker.dataset.antenna + "].polarization.words") + '"]');
+      if (words) words.value = "custom";
+    }
     if (last) {
       focusAfterSwap = {antenna: marker.dataset.antenna, view: marker.dataset.view};
       last.dispatchEvent(new Event("change", {bubbles: true}));
