@@ -23,10 +23,11 @@ def notify(*, recipients, team, kind: str, text: str, url: str, actor=None, even
     recipient told of that event already is not told again."""
     ids = {person.pk for person in recipients if person is not None and (actor is None or person.pk != actor.pk)}
     members = set(Membership.objects.filter(team=team, user_id__in=ids).values_list("user_id", flat=True))
+    if event_key:  # told already; the unique constraint also stops a concurrent call
+        members -= set(Notice.objects.filter(recipient_id__in=members, event_key=event_key[:120])
+                       .values_list("recipient_id", flat=True))
     made = []
     for user_id in sorted(members):
-        if event_key and Notice.objects.filter(recipient_id=user_id, event_key=event_key).exists():
-            continue
         try:
             with transaction.atomic():
                 made.append(Notice.objects.create(recipient_id=user_id, team=team, kind=kind, text=text[:300],

@@ -17,6 +17,7 @@ Nothing lands after the first signature, or on a withdrawn revision.
 
 import hashlib
 from collections import Counter
+from datetime import timedelta
 from typing import Any
 
 from django.contrib.auth import get_user_model
@@ -391,11 +392,14 @@ def review_item_confirm(*, item: ReviewItem, user, expected_version: int) -> Rev
     return current
 
 
-def assignable_people(revision: Revision):
-    from django.contrib.auth import get_user_model
-
-    members = Membership.objects.filter(team=revision.product.team, role__in=[Role.REVIEWER, Role.APPROVER])
+def reviewers_of(team):
+    """The team's people who may review: its reviewers and approvers (assignees, default reviewers)."""
+    members = Membership.objects.filter(team=team, role__in=[Role.REVIEWER, Role.APPROVER])
     return get_user_model().objects.filter(pk__in=members.values("user")).order_by("username")
+
+
+def assignable_people(revision: Revision):
+    return reviewers_of(revision.product.team)
 
 
 @transaction.atomic
@@ -482,8 +486,7 @@ def topic_reviewers_set(*, team, user, reviewers: dict[str, Any]) -> None:
     """The team's default reviewer per topic (None: nobody). An approver's to set; each must be a member who
     may review. Assigns future submissions only: items already raised keep their assignee."""
     require_role(user, team, Role.APPROVER)
-    members = set(Membership.objects.filter(team=team, role__in=[Role.REVIEWER, Role.APPROVER])
-                  .values_list("user_id", flat=True))
+    members = set(reviewers_of(team).values_list("pk", flat=True))
     before = dict(TopicReviewer.objects.filter(team=team).values_list("topic", "reviewer__username"))
     after = {}
     for topic, person in reviewers.items():
@@ -509,8 +512,6 @@ def steps_due_notify(*, today, within_days: int = 7) -> int:
     """Tells each open external step's owner when its planned date is within `within_days` (or past), once per
     step and planned date. Steps of revisions whose review is still open or that are signed (the latest
     record's steps are what the team still owes). Returns how many people were told."""
-    from datetime import timedelta
-
     open_states = (Revision.State.IN_REVIEW, Revision.State.SIGNING, Revision.State.SIGNED)
     steps = (ProcessStep.objects.filter(revision__state__in=open_states, owner__isnull=False,
                                         planned_on__lte=today + timedelta(days=within_days),

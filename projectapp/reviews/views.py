@@ -456,11 +456,6 @@ def evidence_download(request, attachment_id: int):
     return response
 
 
-def _reviewer_people(team):
-    return get_user_model().objects.filter(
-        memberships__team=team, memberships__role__in=[Role.REVIEWER, Role.APPROVER]).distinct().order_by("username")
-
-
 @login_required
 @require_http_methods(["GET", "POST"])
 def team_reviewers(request, team_id: int):
@@ -472,7 +467,7 @@ def team_reviewers(request, team_id: int):
     if request.method == "POST":
         if not can_edit:
             raise PermissionDenied("Only an approver sets the team's default reviewers.")
-        form = TopicReviewersForm(request.POST, people=_reviewer_people(team))
+        form = TopicReviewersForm(request.POST, people=services.reviewers_of(team))
         if form.is_valid():
             try:
                 services.topic_reviewers_set(team=team, user=request.user, reviewers=form.cleaned_data)
@@ -485,7 +480,7 @@ def team_reviewers(request, team_id: int):
         else:
             status = 400
     else:
-        form = TopicReviewersForm(initial=current, people=_reviewer_people(team))
+        form = TopicReviewersForm(initial=current, people=services.reviewers_of(team))
     rows = [(topic, form[topic], current.get(topic)) for topic in TOPICS]
     return render(request, "reviews/team_reviewers.html",
                   {"team": team, "form": form, "rows": rows, "can_edit": can_edit}, status=status)

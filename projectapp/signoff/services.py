@@ -191,7 +191,7 @@ def _tell_signature_awaited(*, revision: Revision, roles: list[str], user) -> No
            url=reverse("signoff_page", args=[revision.product_id, revision.number]),
            text=f"{revision.product.name}, design revision {revision.number}: a {' or '.join(roles)} signature "
                 f"is awaited ({user.get_full_name() or user.get_username()} has signed)",
-           event_key=f"signature:{revision.pk}:{len(revision.signatures.all())}")
+           event_key=f"signature:{revision.pk}:{revision.signatures.count()}")
 
 
 def _tell_signed(*, revision: Revision, record: SignedRecord, user) -> None:

@@ -12,7 +12,7 @@ from django.core.management import call_command
 from django.urls import reverse
 
 from projectapp.notices.models import Notice
-from projectapp.notices.services import mail_switch_set, mentioned, unread_count
+from projectapp.notices.services import mail_is_on, mail_switch_set, mentioned, unread_count
 from projectapp.reviews.models import ProcessStep, ReviewItem, StepStatus, TopicReviewer
 from projectapp.reviews.services import (
     review_item_assign,
@@ -154,5 +154,7 @@ def test_the_inbox_pages_filters_marks_read_and_is_the_readers_own(client, team,
     assert client.post(reverse("inbox_read"), {"notice": first.pk})["Location"] == reverse("inbox")
     assert unread_count(reviewer) == 1
     assert client.post(reverse("inbox_read"), {"notice": "x"}).status_code == 400
-    client.post(reverse("inbox_mail"), {})
-    assert client.get(reverse("inbox")).content.decode().count("checked") == 0
+    client.post(reverse("inbox_mail"), {})  # the box unticked
+    assert not mail_is_on(author) and mail_is_on(reviewer)
+    client.post(reverse("inbox_mail"), {"email_notices": "on"})
+    assert mail_is_on(author)
