@@ -43,7 +43,7 @@ class TopicReviewersForm(forms.Form):
         super().__init__(*args, **kwargs)
         for topic in TOPICS:
             self.fields[topic] = forms.ModelChoiceField(queryset=people, required=False, empty_label="nobody",
-                                                        label=topic.replace("-", " ").capitalize())
+                                                        label=topic)  # the topic as the checklist and dashboard name it
 
 
 class ConfirmForm(forms.Form):
