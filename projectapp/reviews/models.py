@@ -18,6 +18,7 @@ from django.utils import timezone
 
 from projectapp.designs import lifecycle
 from projectapp.designs.models import Revision
+from projectapp.reviews import steps
 
 
 class Disposition(models.TextChoices):
@@ -237,6 +238,10 @@ class ProcessStep(models.Model):
         if self.revision_id and not lifecycle.review_open_in_database(self.revision_id):
             raise SignedRevisionError("the steps of a revision whose review is closed are frozen")
         super().save(*args, **kwargs)
+
+    @property
+    def decided_by(self) -> str:
+        return steps.decided_by(topic=self.item.topic, rule_id=self.item.rule_id)
 
 
 MAX_ATTACHMENT_BYTES = 10_000_000  # a scanned approval letter or a lab report; larger belongs in the lab's system

@@ -3,10 +3,24 @@ RF-exposure evaluation. Such a finding becomes a tracked process step on the rev
 not an item to waive: the team can't settle it, only plan it and record what the lab or operator said."""
 
 # Topics whose findings defer to a lab, a regulator or an operator (rules/findings.py TOPICS).
-EXTERNAL_TOPICS = frozenset({"certification", "rf-exposure"})
-# Rules of other topics whose finding is an operator's acceptance (rules/checks/antenna_count.py, coverage.py).
-EXTERNAL_RULE_IDS: frozenset[str] = frozenset()
+EXTERNAL_TOPICS = {
+    "certification": "certification or operator acceptance (a test house, the industry scheme, the operator)",
+    "rf-exposure": "RF-exposure evaluation (a licensed lab, under local regulation)",
+}
+# Notes of other topics that only an operator can settle: whether it enables the deepest coverage enhancement
+# (rules/checks/coverage.py COV-002) and whether its cells admit one-branch RedCap devices (antenna_count.py
+# CNT-004). A warning or blocker that also mentions an operator (CNT-001) stays a review item: it is a design trade
+# the team decides, and the operator's letter it rests on is attached to that decision.
+EXTERNAL_RULES = {
+    "COV-002": "operator: coverage enhancement enabled on its network",
+    "CNT-004": "operator: one-branch RedCap devices admitted on its cells",
+}
 
 
 def is_external_step(*, topic: str, rule_id: str) -> bool:
-    return topic in EXTERNAL_TOPICS or rule_id in EXTERNAL_RULE_IDS
+    return topic in EXTERNAL_TOPICS or rule_id in EXTERNAL_RULES
+
+
+def decided_by(*, topic: str, rule_id: str) -> str:
+    """Who settles the step, in words for its card and the signed record."""
+    return EXTERNAL_RULES.get(rule_id) or EXTERNAL_TOPICS.get(topic, "")

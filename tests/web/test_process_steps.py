@@ -7,9 +7,11 @@ from django.core.exceptions import PermissionDenied
 
 from projectapp.audit.models import AuditEvent
 from projectapp.designs import services as design_services
+from projectapp.reviews.gate import item_obstacles
 from projectapp.reviews.models import ProcessStep, ReviewItem, SignedRevisionError
 from projectapp.reviews.services import ReviewConflict, ReviewInputError, process_step_update, revision_submit
 from projectapp.reviews.steps import is_external_step
+from tests.web.conftest import EXAMPLES
 
 
 @pytest.fixture
@@ -166,3 +168,21 @@ def test_the_signed_record_lists_open_external_steps_and_freezes_them(reviewed, 
     with pytest.raises(PermissionDenied):
         process_step_update(step=step, user=reviewer, owner=None, planned_on=None, status="passed", reference="",
                             expected_version=2)
+
+
+def test_an_operator_only_note_becomes_a_step_that_names_the_operator(team, author):
+    # rules/examples/pump-monitor.json is an LTE-M meter deep indoors: COV-002 says the depth it counts on is the
+    # operator's to enable (CE mode B); the team can plan and record that, not waive it.
+    product = design_services.product_create(team=team, name="Pump monitor", user=author)
+    design_services.design_import(product=product, text=(EXAMPLES / "pump-monitor.json").read_text(),
+                                  source="pump-monitor.json", user=author)
+    revision = revision_submit(revision=product.draft, user=author)
+    step = ProcessStep.objects.select_related("item").get(revision=revision, item__rule_id="COV-002")
+    assert step.item.topic == "coverage" and step.decided_by.startswith("operator")
+    assert not any(line.startswith("COV-002") for line in item_obstacles(revision))
+
+
+def test_a_design_trade_that_mentions_an_operator_stays_a_review_item():
+    # CNT-001 (one antenna on an operator's approval) is a warning the team decides; its letter goes on the decision.
+    assert not is_external_step(topic="antenna-count", rule_id="CNT-001")
+    assert is_external_step(topic="antenna-count", rule_id="CNT-004")
