@@ -34,8 +34,10 @@ SETTLED = (Disposition.CHANGE, Disposition.WAIVED, Disposition.NOT_APPLICABLE)
 NEEDS_JUSTIFICATION = (Disposition.WAIVED, Disposition.NOT_APPLICABLE)
 SEVERITY_RANK = {"note": 0, "warning": 1, "blocker": 2}  # higher is graver
 # The items that still need someone: open, under discussion, or carried from an earlier revision and not confirmed.
-OPEN_ITEMS = (models.Q(disposition__in=[Disposition.OPEN, Disposition.DISCUSSION])
-              | models.Q(carried_from__isnull=False, carried_confirmed=False))
+# An item tracked as a step outside the team (ProcessStep, reviews.steps) is planned, not decided: never open.
+OPEN_ITEMS = ((models.Q(disposition__in=[Disposition.OPEN, Disposition.DISCUSSION])
+               | models.Q(carried_from__isnull=False, carried_confirmed=False))
+              & models.Q(process_step__isnull=True))
 
 
 class SignedRevisionError(RuntimeError):

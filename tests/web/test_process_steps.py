@@ -4,11 +4,13 @@ import datetime
 
 import pytest
 from django.core.exceptions import PermissionDenied
+from django.urls import reverse
 
 from projectapp.audit.models import AuditEvent
 from projectapp.designs import services as design_services
+from projectapp.notices.models import Notice
 from projectapp.reviews.gate import item_obstacles
-from projectapp.reviews.models import ProcessStep, ReviewItem, SignedRevisionError
+from projectapp.reviews.models import ProcessStep, ReviewItem, ReviewTally, SignedRevisionError, TopicReviewer
 from projectapp.reviews.services import ReviewConflict, ReviewInputError, process_step_update, revision_submit
 from projectapp.reviews.steps import is_external_step
 from tests.web.conftest import EXAMPLES
@@ -186,3 +188,22 @@ def test_a_design_trade_that_mentions_an_operator_stays_a_review_item():
     # CNT-001 (one antenna on an operator's approval) is a warning the team decides; its letter goes on the decision.
     assert not is_external_step(topic="antenna-count", rule_id="CNT-001")
     assert is_external_step(topic="antenna-count", rule_id="CNT-004")
+
+
+def test_steps_are_planned_not_listed_as_open_items_and_their_owner_is_the_topics_reviewer(client, team, product,
+                                                                                           author, reviewer,
+                                                                                           approver):
+    TopicReviewer.objects.create(team=team, topic="certification", reviewer=approver)
+    TopicReviewer.objects.create(team=team, topic="separation", reviewer=reviewer)
+    revision = revision_submit(revision=product.draft, user=author)
+    steps = ProcessStep.objects.filter(revision=revision, item__topic="certification")
+    assert steps and all(step.owner == approver for step in steps)
+    # The tally the dashboard sums counts what needs a decision: no step among them.
+    decided_here = revision.review_items.filter(kind="raised", process_step__isnull=True).count()
+    assert ReviewTally.objects.get(revision=revision).open_items == decided_here
+    client.force_login(reviewer)
+    dashboard = client.get(reverse("review_dashboard"), {"state": "all"}).content.decode()
+    assert "CRT-001" not in dashboard and "SEP-001" in dashboard
+    told = Notice.objects.get(recipient=approver, kind=Notice.Kind.ASSIGNED)
+    assert told.text.endswith(f"{steps.count()} steps outside the team to plan") and "#steps" in told.url
+    assert Notice.objects.get(recipient=reviewer, kind=Notice.Kind.ASSIGNED).text.endswith("1 item to review")
