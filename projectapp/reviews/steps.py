@@ -2,18 +2,23 @@
 RF-exposure evaluation. Such a finding becomes a tracked process step on the review (reviews.models.ProcessStep),
 not an item to waive: the team can't settle it, only plan it and record what the lab or operator said."""
 
-# Topics whose findings defer to a lab, a regulator or an operator (rules/findings.py TOPICS).
+# Topics whose findings defer to a lab, a regulator or an operator (rules/findings.py TOPICS), and who decides
+# such a step when its rule is not named below (words that follow "decided by").
 EXTERNAL_TOPICS = {
-    "certification": "certification or operator acceptance (a test house, the industry scheme, the operator)",
-    "rf-exposure": "RF-exposure evaluation (a licensed lab, under local regulation)",
+    "certification": "a lab, a certification body or an operator",
+    "rf-exposure": "a licensed lab's RF-exposure evaluation, under local regulation",
 }
-# Notes of other topics that only an operator can settle: whether it enables the deepest coverage enhancement
+# Rules whose step has a more precise owner: the certification rules (rules/checks/certification.py), and notes of
+# other topics that only an operator can settle: whether it enables the deepest coverage enhancement
 # (rules/checks/coverage.py COV-002) and whether its cells admit one-branch RedCap devices (antenna_count.py
 # CNT-004). A warning or blocker that also mentions an operator (CNT-001) stays a review item: it is a design trade
 # the team decides, and the operator's letter it rests on is attached to that decision.
 EXTERNAL_RULES = {
-    "COV-002": "operator: coverage enhancement enabled on its network",
-    "CNT-004": "operator: one-branch RedCap devices admitted on its cells",
+    "CRT-001": "each operator, in its acceptance testing",
+    "CRT-002": "a test house, under the industry certification scheme",
+    "CRT-003": "each market's regulator, on an accredited lab's report",
+    "COV-002": "each operator: whether it enables coverage enhancement on its network",
+    "CNT-004": "each operator: whether its cells admit one-branch RedCap devices",
 }
 
 

@@ -180,7 +180,7 @@ def test_an_operator_only_note_becomes_a_step_that_names_the_operator(team, auth
                                   source="pump-monitor.json", user=author)
     revision = revision_submit(revision=product.draft, user=author)
     step = ProcessStep.objects.select_related("item").get(revision=revision, item__rule_id="COV-002")
-    assert step.item.topic == "coverage" and step.decided_by.startswith("operator")
+    assert step.item.topic == "coverage" and step.decided_by.startswith("each operator")
     assert not any(line.startswith("COV-002") for line in item_obstacles(revision))
 
 
