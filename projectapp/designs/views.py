@@ -488,7 +488,8 @@ def draft_section_save(request, product_id: int, section: str):
                 entry=pick.cleaned_data["entry"], read_version=form.read_version, user=request.user)
             if copied or not request.htmx:  # with htmx the filled row shows its note; a reload shows this
                 messages.success(request, f"Filled from library part {pick.cleaned_data['entry'].name}"
-                                 + (f"; copied {', '.join(copied)} into the measurements (check the port map)."
+                                 + (f"; copied {', '.join(copied)} into the measurements (check each file's antenna, the "
+                                      "port map or the pattern's environment)."
                                     if copied else "."))
         elif extras.cleaned_data.get("action", "").startswith("restore:"):
             if current is not questionnaire.ANTENNAS:

@@ -174,7 +174,12 @@ class RetireForm(forms.Form):
 
 
 class FileAddForm(VersionForm):
-    file = forms.FileField(label="Touchstone file", help_text="A .s1p to .s8p file of the part; at most 20 MB.")
+    file = forms.FileField(label="Touchstone or far-field file",
+                           help_text="A Touchstone file (.s1p to .s8p, .ts) or a far-field pattern (.csv, the layout "
+                                     "design-file.md gives); the name's ending says which. At most 20 MB.")
+    absolute = forms.BooleanField(required=False, label="Absolute pattern",
+                                  help_text="Far-field patterns only: tick if |Eθ|² + |Eφ|² is the realized gain "
+                                            "(then the checklist also shows efficiency and mean effective gain).")
 
 
 class FileRemoveForm(VersionForm):
