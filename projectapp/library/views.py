@@ -207,7 +207,7 @@ def entry_file_add(request, entry_id: int):
 
 def _file_words(stored: EntryFile) -> str:
     if stored.kind == EntryFile.Kind.FAR_FIELD:
-        return f"an {'absolute' if stored.absolute else 'relative'} far-field pattern"
+        return "an absolute far-field pattern" if stored.absolute else "a relative far-field pattern"
     return "a Touchstone file"
 
 
