@@ -62,17 +62,22 @@ def div_part(team, author):
     return fresh(entry)
 
 
-@pytest.fixture
-def tracker(team, author):
-    """The trail tracker without its measurements, then MAIN's pattern kept in the demo's environment: MAIN and
-    DIV 50 mm apart at 791 MHz are a spacing warning until DIV's pattern joins MAIN's."""
+def trail_tracker(team, author, name: str = "Trail tracker", *, main_pattern: bool = True):
+    """The trail tracker without its measurements, then (`main_pattern`) MAIN's pattern kept in the demo's
+    environment: MAIN and DIV 50 mm apart at 791 MHz are a spacing warning until DIV's pattern joins MAIN's."""
     document = json.loads(json.dumps(TRAIL))
     del document["measurements"]
-    product = services.product_create(team=team, name="Trail tracker", user=author)
+    product = services.product_create(team=team, name=name, user=author)
     services.design_import(product=product, text=json.dumps(document), source="trail-tracker.json", user=author)
-    services.pattern_add(revision=product.draft, name="trail-tracker-main.csv", content=MAIN_CSV, antenna="MAIN",
-                         absolute=True, environment=TAGA, user=author)
+    if main_pattern:
+        services.pattern_add(revision=product.draft, name="trail-tracker-main.csv", content=MAIN_CSV,
+                             antenna="MAIN", absolute=True, environment=TAGA, user=author)
     return product
+
+
+@pytest.fixture
+def tracker(team, author):
+    return trail_tracker(team, author)
 
 
 def finding(product, rule_id: str) -> dict:
@@ -190,6 +195,14 @@ def test_filling_an_antenna_copies_its_pattern_and_the_checklist_judges_the_pair
     assert "Envelope correlation from far-field patterns" in page
 
 
+def test_with_htmx_a_fill_that_copied_files_reloads_the_page_so_the_measurements_show_them(tracker, author,
+                                                                                          div_part):
+    # A client redirect to the same page with a #section fragment would only scroll, leaving the old page.
+    answer = fill(signed_in(author), tracker, "1", div_part, **HTMX)
+    assert (answer.status_code, answer["HX-Refresh"]) == (200, "true")
+    assert draft_of(tracker).measurement_files.filter(name="trail-tracker-div.csv").exists()
+
+
 def test_a_pattern_the_draft_cannot_compare_refuses_the_fill_and_nothing_is_stored(tracker, team, author):
     entry = library.entry_create(team=team, kind=ANTENNA, name="Sorrel flex D2", values=dict(DIV_VALUES), user=author)
     # DIV's pattern at 1.01 times its frequencies: MAIN's pattern in the draft can't be compared with it
@@ -209,10 +222,7 @@ def test_a_pattern_the_draft_cannot_compare_refuses_the_fill_and_nothing_is_stor
 
 
 def test_the_first_pattern_of_a_design_is_judged_in_the_default_environment(team, author, div_part):
-    product = services.product_create(team=team, name="Trail tracker", user=author)
-    document = json.loads(json.dumps(TRAIL))
-    del document["measurements"]
-    services.design_import(product=product, text=json.dumps(document), source="trail-tracker.json", user=author)
+    product = trail_tracker(team, author, main_pattern=False)
     fill(signed_in(author), product, "1", div_part)
     assert draft_of(product).document["measurements"] == [
         {"kind": "far-field", "file": "trail-tracker-div.csv", "antenna": "DIV", "absolute": True}]
@@ -221,14 +231,9 @@ def test_the_first_pattern_of_a_design_is_judged_in_the_default_environment(team
 def test_a_new_pattern_reaches_a_draft_only_when_its_author_applies_it_and_never_a_submitted_revision(
         team, author, reviewer):
     part = library.entry_create(team=team, kind=ANTENNA, name="Sorrel flex D1", values=dict(DIV_VALUES), user=author)
-    submitted_product = services.product_create(team=team, name="Trail tracker A", user=author)
-    drafted_product = services.product_create(team=team, name="Trail tracker B", user=author)
+    submitted_product = trail_tracker(team, author, "Trail tracker A")
+    drafted_product = trail_tracker(team, author, "Trail tracker B")
     for product in (submitted_product, drafted_product):
-        document = json.loads(json.dumps(TRAIL))
-        del document["measurements"]
-        services.design_import(product=product, text=json.dumps(document), source="trail-tracker.json", user=author)
-        services.pattern_add(revision=product.draft, name="trail-tracker-main.csv", content=MAIN_CSV, antenna="MAIN",
-                             absolute=True, environment=TAGA, user=author)
         fill(signed_in(author), product, "1", part)
     submitted = revision_submit(revision=submitted_product.draft, user=author)
     frozen = (submitted.document, list(submitted.measurement_files.values_list("name", "sha256")))
