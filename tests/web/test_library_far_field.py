@@ -160,6 +160,13 @@ def test_a_bad_file_is_refused_naming_the_field_and_the_problem_and_nothing_is_s
     assert not EntryFile.objects.filter(entry=entry).exists() and fresh(entry).version == 1
 
 
+def test_a_duplicate_keeps_each_file_with_its_kind(div_part, author):
+    library.entry_file_add(entry=div_part, name="ring-slot.s1p", content=RING_SLOT, read_version=2, user=author)
+    copy = library.entry_duplicate(entry=fresh(div_part), name="Sorrel flex D1 copy", user=author)
+    assert sorted(copy.files.values_list("name", "kind", "absolute", "sha256")) == sorted(
+        fresh(div_part).files.values_list("name", "kind", "absolute", "sha256"))
+
+
 def test_the_engine_reads_what_the_library_keeps(div_part):
     stored = div_part.files.get()
     pattern = parse_far_field(stored.read_bytes().decode(), source=stored.name)
