@@ -18,6 +18,7 @@ from django.utils import timezone
 
 from projectapp.designs import lifecycle
 from projectapp.designs.models import Revision
+from projectapp.reviews import steps
 
 
 class Disposition(models.TextChoices):
@@ -33,8 +34,10 @@ SETTLED = (Disposition.CHANGE, Disposition.WAIVED, Disposition.NOT_APPLICABLE)
 NEEDS_JUSTIFICATION = (Disposition.WAIVED, Disposition.NOT_APPLICABLE)
 SEVERITY_RANK = {"note": 0, "warning": 1, "blocker": 2}  # higher is graver
 # The items that still need someone: open, under discussion, or carried from an earlier revision and not confirmed.
-OPEN_ITEMS = (models.Q(disposition__in=[Disposition.OPEN, Disposition.DISCUSSION])
-              | models.Q(carried_from__isnull=False, carried_confirmed=False))
+# An item tracked as a step outside the team (ProcessStep, reviews.steps) is planned, not decided: never open.
+OPEN_ITEMS = ((models.Q(disposition__in=[Disposition.OPEN, Disposition.DISCUSSION])
+               | models.Q(carried_from__isnull=False, carried_confirmed=False))
+              & models.Q(process_step__isnull=True))
 
 
 class SignedRevisionError(RuntimeError):
@@ -237,6 +240,10 @@ class ProcessStep(models.Model):
         if self.revision_id and not lifecycle.review_open_in_database(self.revision_id):
             raise SignedRevisionError("the steps of a revision whose review is closed are frozen")
         super().save(*args, **kwargs)
+
+    @property
+    def decided_by(self) -> str:
+        return steps.decided_by(topic=self.item.topic, rule_id=self.item.rule_id)
 
 
 MAX_ATTACHMENT_BYTES = 10_000_000  # a scanned approval letter or a lab report; larger belongs in the lab's system

@@ -199,8 +199,8 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
                                       disposition=before.disposition, justification=before.justification))
     ReviewItem.objects.bulk_create(created)
     comments_carry(items=created, earlier=earlier)
-    _tell_assigned_at_submission(revision=revision, items=created, user=user)
     process_steps_create(revision=revision, items=created, previous=previous)
+    _tell_assigned_at_submission(revision=revision, items=created, user=user)
     review_tallies_refresh(revision_ids=[revision.pk])
     raised = sum(1 for item in created if item.kind == ReviewItem.Kind.RAISED)
     carried = sum(1 for item in created if item.carried_from_id)
@@ -216,14 +216,26 @@ def review_items_create(*, revision: Revision, user) -> list[ReviewItem]:
 
 
 def _tell_assigned_at_submission(*, revision: Revision, items: list[ReviewItem], user) -> None:
-    """Each assignee hears once how many of the revision's items are theirs."""
-    counts = Counter(item.assignee_id for item in items if item.kind == ReviewItem.Kind.RAISED and item.assignee_id)
-    people = {person.pk: person for person in get_user_model().objects.filter(pk__in=counts)}
-    for person_id, count in counts.items():
-        notify(recipients=[people[person_id]], team=revision.product.team, kind=Notice.Kind.ASSIGNED, actor=user,
-               url=reverse("review_dashboard") + f"?assignee=me&product={revision.product_id}",
-               text=f"{revision.product.name}, design revision {revision.number}: {count} item"
-                    f"{'s' if count != 1 else ''} to review", event_key=f"assigned:{revision.pk}:{person_id}")
+    """Each assignee hears once how many of the revision's items are theirs to review and how many steps outside
+    the team they own (a step is planned on the review page, not reviewed: reviews.steps)."""
+    raised = [item for item in items if item.kind == ReviewItem.Kind.RAISED]
+    stepped = set(ProcessStep.objects.filter(revision=revision).values_list("item_id", flat=True))
+    to_review = Counter(item.assignee_id for item in raised if item.assignee_id and item.pk not in stepped)
+    owned = Counter(step.owner_id for step in ProcessStep.objects.filter(revision=revision, owner__isnull=False))
+    people = {person.pk: person for person in get_user_model().objects.filter(pk__in=set(to_review) | set(owned))}
+    for person_id, person in people.items():
+        parts = [_counted(to_review[person_id], "item to review", "items to review"),
+                 _counted(owned[person_id], "step outside the team to plan", "steps outside the team to plan")]
+        url = (reverse("review_dashboard") + f"?assignee=me&product={revision.product_id}" if to_review[person_id]
+               else reverse("revision_review", args=[revision.product_id, revision.number]) + "#steps")
+        notify(recipients=[person], team=revision.product.team, kind=Notice.Kind.ASSIGNED, actor=user, url=url,
+               text=f"{revision.product.name}, design revision {revision.number}: "
+                    + ", ".join(part for part in parts if part),
+               event_key=f"assigned:{revision.pk}:{person_id}")
+
+
+def _counted(number: int, one: str, many: str) -> str:
+    return "" if not number else f"{number} {one if number == 1 else many}"
 
 
 def comments_carry(*, items: list[ReviewItem], earlier: dict[tuple[str, str], ReviewItem]) -> None:
@@ -249,7 +261,7 @@ def process_steps_create(*, revision: Revision, items: list[ReviewItem], previou
     for item in items:
         if item.kind != ReviewItem.Kind.RAISED or not is_external_step(topic=item.topic, rule_id=item.rule_id):
             continue
-        step = ProcessStep(revision=revision, item=item)
+        step = ProcessStep(revision=revision, item=item, owner_id=item.assignee_id)  # the topic's reviewer
         before = earlier.get((item.rule_id, item.subjects_key))
         if before is not None:
             step.owner_id, step.planned_on, step.status = before.owner_id, before.planned_on, before.status

@@ -75,8 +75,10 @@ def dashboard(request):
     """The items under review: the raised items of every revision in review in the person's teams, filtered,
     counted, ordered (gravest first, then product, topic) and paged in the database."""
     # The revisions in review (an index on their state), then their items (an index on the revision).
+    # Steps outside the team are planned on their revision's review page, never decided here (reviews.steps).
     base = ReviewItem.objects.filter(revision__product__team__in=teams_of(request.user),
-                                     revision__state=Revision.State.IN_REVIEW, kind=ReviewItem.Kind.RAISED)
+                                     revision__state=Revision.State.IN_REVIEW, kind=ReviewItem.Kind.RAISED,
+                                     process_step__isnull=True)
     form = DashboardFilterForm(request.GET).read()
     chosen, filters = form.cleaned, form.shown
     filters["state"] = filters["state"] or "open"

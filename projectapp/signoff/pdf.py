@@ -303,7 +303,8 @@ def _external_steps(revision: Revision) -> list[Flowable]:
         return []
     rows = [["Rule", "Step", "Status", "Owner", "Planned", "Reference"]]
     for step in steps:
-        rows.append([f"{step.item.rule_id}\n{', '.join(step.item.subjects)}", step.item.title,
+        rows.append([f"{step.item.rule_id}\n{', '.join(step.item.subjects)}",
+                     f"{step.item.title}\nDecided by {step.decided_by}" if step.decided_by else step.item.title,
                      step.get_status_display(), step.owner.get_username() if step.owner else "nobody",
                      f"{step.planned_on:%Y-%m-%d}" if step.planned_on else "—", step.reference or "—"])
     return [p("Open external steps", H2),

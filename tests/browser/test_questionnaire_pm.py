@@ -14,6 +14,8 @@ import pytest
 from django.urls import reverse
 
 from projectapp.designs.models import Product
+from projectapp.notices.models import Notice
+from projectapp.notices.services import notify
 from tests.browser.test_questionnaire_flow import (
     answer,
     choose,
@@ -163,5 +165,27 @@ def test_the_saved_time_is_shown_in_the_readers_time_zone(browser, live_server, 
                                  "second: '2-digit'})", note.get_attribute("datetime"))
         expect(note).to_have_text(expected)
         assert utc not in expected  # Auckland is 12 or 13 hours from UTC
+    finally:
+        context.close()
+
+
+def test_a_notices_time_is_shown_with_the_readers_date_and_zone(browser, live_server, author, reviewer, hive_gateway):
+    from tests.browser.conftest import DESKTOP
+
+    notify(recipients=[reviewer], team=hive_gateway.team, kind=Notice.Kind.MENTION, actor=author,
+           url="/", text="Hive gateway: @tobias have a look", event_key="mention:browser-test")
+    context = browser.new_context(viewport=DESKTOP, timezone_id="Pacific/Auckland", locale="en-NZ")
+    try:
+        page = context.new_page()
+        log_in(page, live_server, reviewer)
+        page.goto(live_server.url + reverse("inbox"))
+        moment = page.locator("table time").first
+        expect(moment).to_have_attribute("title", re.compile(r"^\d{4}-\d\d-\d\d \d\d:\d\d UTC$"))
+        # Auckland is UTC+12 or +13: the hour shown is the reader's, with the zone's short name beside it.
+        expected = page.evaluate("""(iso) => { const m = new Date(iso), two = (n) => String(n).padStart(2, '0');
+            return `${m.getFullYear()}-${two(m.getMonth() + 1)}-${two(m.getDate())} ${two(m.getHours())}:` +
+                   `${two(m.getMinutes())}`; }""", moment.get_attribute("datetime"))
+        expect(moment).to_contain_text(expected)
+        assert moment.get_attribute("title")[:16] != expected
     finally:
         context.close()

@@ -4,12 +4,16 @@ import datetime
 
 import pytest
 from django.core.exceptions import PermissionDenied
+from django.urls import reverse
 
 from projectapp.audit.models import AuditEvent
 from projectapp.designs import services as design_services
-from projectapp.reviews.models import ProcessStep, ReviewItem, SignedRevisionError
+from projectapp.notices.models import Notice
+from projectapp.reviews.gate import item_obstacles
+from projectapp.reviews.models import ProcessStep, ReviewItem, ReviewTally, SignedRevisionError, TopicReviewer
 from projectapp.reviews.services import ReviewConflict, ReviewInputError, process_step_update, revision_submit
 from projectapp.reviews.steps import is_external_step
+from tests.web.conftest import EXAMPLES
 
 
 @pytest.fixture
@@ -166,3 +170,40 @@ def test_the_signed_record_lists_open_external_steps_and_freezes_them(reviewed, 
     with pytest.raises(PermissionDenied):
         process_step_update(step=step, user=reviewer, owner=None, planned_on=None, status="passed", reference="",
                             expected_version=2)
+
+
+def test_an_operator_only_note_becomes_a_step_that_names_the_operator(team, author):
+    # rules/examples/pump-monitor.json is an LTE-M meter deep indoors: COV-002 says the depth it counts on is the
+    # operator's to enable (CE mode B); the team can plan and record that, not waive it.
+    product = design_services.product_create(team=team, name="Pump monitor", user=author)
+    design_services.design_import(product=product, text=(EXAMPLES / "pump-monitor.json").read_text(),
+                                  source="pump-monitor.json", user=author)
+    revision = revision_submit(revision=product.draft, user=author)
+    step = ProcessStep.objects.select_related("item").get(revision=revision, item__rule_id="COV-002")
+    assert step.item.topic == "coverage" and step.decided_by.startswith("each operator")
+    assert not any(line.startswith("COV-002") for line in item_obstacles(revision))
+
+
+def test_a_design_trade_that_mentions_an_operator_stays_a_review_item():
+    # CNT-001 (one antenna on an operator's approval) is a warning the team decides; its letter goes on the decision.
+    assert not is_external_step(topic="antenna-count", rule_id="CNT-001")
+    assert is_external_step(topic="antenna-count", rule_id="CNT-004")
+
+
+def test_steps_are_planned_not_listed_as_open_items_and_their_owner_is_the_topics_reviewer(client, team, product,
+                                                                                           author, reviewer,
+                                                                                           approver):
+    TopicReviewer.objects.create(team=team, topic="certification", reviewer=approver)
+    TopicReviewer.objects.create(team=team, topic="separation", reviewer=reviewer)
+    revision = revision_submit(revision=product.draft, user=author)
+    steps = ProcessStep.objects.filter(revision=revision, item__topic="certification")
+    assert steps and all(step.owner == approver for step in steps)
+    # The tally the dashboard sums counts what needs a decision: no step among them.
+    decided_here = revision.review_items.filter(kind="raised", process_step__isnull=True).count()
+    assert ReviewTally.objects.get(revision=revision).open_items == decided_here
+    client.force_login(reviewer)
+    dashboard = client.get(reverse("review_dashboard"), {"state": "all"}).content.decode()
+    assert "CRT-001" not in dashboard and "SEP-001" in dashboard
+    told = Notice.objects.get(recipient=approver, kind=Notice.Kind.ASSIGNED)
+    assert told.text.endswith(f"{steps.count()} steps outside the team to plan") and "#steps" in told.url
+    assert Notice.objects.get(recipient=reviewer, kind=Notice.Kind.ASSIGNED).text.endswith("1 item to review")

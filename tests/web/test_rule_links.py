@@ -40,7 +40,8 @@ def test_review_cards_the_item_page_the_dashboard_and_the_sign_off_page_link_rul
     expected = {f"rule-{item.rule_id}" for item in items}
     review = set(rule_anchors(page(client, reviewer, reverse("revision_review", args=[product.pk, 1]))))
     assert expected <= review
-    assert expected <= set(rule_anchors(page(client, reviewer, reverse("review_dashboard"))))
+    decided_here = {f"rule-{item.rule_id}" for item in items if not hasattr(item, "process_step")}
+    assert decided_here and decided_here <= set(rule_anchors(page(client, reviewer, reverse("review_dashboard"))))
     blocker = next(item for item in items if item.severity == "blocker")
     assert f"rule-{blocker.rule_id}" in rule_anchors(page(client, reviewer, reverse("review_item", args=[blocker.pk])))
     signoff = set(rule_anchors(page(client, reviewer, reverse("signoff_page", args=[product.pk, 1]))))

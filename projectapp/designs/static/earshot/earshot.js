@@ -9,7 +9,8 @@
    2. Findings opened stay open. The checklist is replaced on every save; <details> a person opened are
       opened again in the new copy (matched by id).
    3. Times in the reader's own time zone. <time datetime="...Z" data-local-time> shows UTC without a
-      script; here it is rewritten in the browser's time zone.
+      script; here it is rewritten in the browser's time zone: the time of day (a save), or with
+      data-local-time="date-time" the date, the time and the zone's short name (a notice, a comment).
 */
 (function () {
   "use strict";
@@ -79,13 +80,27 @@
   }
 
   // -- 3. local times ----------------------------------------------------------------------------------------
+  function twoDigits(number) { return (number < 10 ? "0" : "") + number; }
+
+  function dateAndTime(moment) {
+    var zone = "";
+    try {
+      var parts = new Intl.DateTimeFormat([], {timeZoneName: "short"}).formatToParts(moment);
+      for (var i = 0; i < parts.length; i++) if (parts[i].type === "timeZoneName") zone = " " + parts[i].value;
+    } catch (error) { zone = ""; }
+    return moment.getFullYear() + "-" + twoDigits(moment.getMonth() + 1) + "-" + twoDigits(moment.getDate()) + " " +
+      twoDigits(moment.getHours()) + ":" + twoDigits(moment.getMinutes()) + zone;
+  }
+
   function localTimes(root) {
     var times = (root || document).querySelectorAll("time[data-local-time]");
     for (var i = 0; i < times.length; i++) {
       var moment = new Date(times[i].getAttribute("datetime"));
       if (isNaN(moment.getTime())) continue;
       var utc = times[i].textContent;
-      times[i].textContent = moment.toLocaleTimeString([], {hour: "2-digit", minute: "2-digit", second: "2-digit"});
+      times[i].textContent = times[i].getAttribute("data-local-time") === "date-time"
+        ? dateAndTime(moment)
+        : moment.toLocaleTimeString([], {hour: "2-digit", minute: "2-digit", second: "2-digit"});
       times[i].setAttribute("title", utc.trim());
       times[i].removeAttribute("data-local-time");
     }
