@@ -72,9 +72,12 @@ PARTS = [
      {"category": "cat-m1", "bands": ["B2", "B3", "B4", "B5", "B8", "B12", "B13", "B20", "B28", "B66"],
       "rx_ports": 1, "gain_limits_dbi": {"B2": 6.0, "B4": 6.0, "B12": 4.5, "B13": 4.5}, "power_class": 3}),
 ]
-# The flex antenna's second version (a revised efficiency table): the cold-chain tracker's draft, filled from the
-# first, is offered it.
+# The flex antenna's second version (a revised efficiency table) and third (its far-field pattern, measured on the
+# cold-chain tracker's lid): the tracker's draft, filled from the first, is offered both.
 FLEX_V2_EFFICIENCY = {"B2": 50, "B4": 49, "B12": 31, "B13": 33, "B66": 48}
+# Synthetic like the trail tracker's patterns: a short dipole along the part's axis at the tracker's feed, with the
+# version-2 efficiency of each band (tests/web/test_library_far_field.py recomputes it).
+FLEX_PATTERN = "tci-flex-f2-cold-chain.csv"
 
 
 def seed_library(team, *, author, reviewer) -> dict[str, Entry]:
@@ -94,8 +97,10 @@ def fill_cold_chain_tracker(product, parts: dict[str, Entry], *, author, reviewe
     document = library_use.fill_modem(document, parts["TCI Cat 1 module C1"])
     services.draft_save_document(revision=draft, document=document, user=author)
     flex = parts["TCI flex antenna F2"]
-    library.entry_update(entry=flex, values={**flex.values, "efficiency_pct": FLEX_V2_EFFICIENCY},
-                         description=flex.description, read_version=flex.version, user=reviewer)
+    flex = library.entry_update(entry=flex, values={**flex.values, "efficiency_pct": FLEX_V2_EFFICIENCY},
+                                description=flex.description, read_version=flex.version, user=reviewer)
+    library.entry_file_add(entry=flex, name=FLEX_PATTERN, content=(EXAMPLES / FLEX_PATTERN).read_bytes(),
+                           absolute=True, read_version=flex.version, user=reviewer)
 
 
 def cold_chain_tracker() -> dict:
