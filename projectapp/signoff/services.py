@@ -189,7 +189,7 @@ def _tell_signature_awaited(*, revision: Revision, roles: list[str], user) -> No
         pk__in=signers).distinct()
     notify(recipients=people, team=team, kind=Notice.Kind.SIGNATURE, actor=user,
            url=reverse("signoff_page", args=[revision.product_id, revision.number]),
-           text=f"{revision.product.name}, design revision {revision.number}: a {' or '.join(roles)} signature "
+           text=f"{revision.product.name}, design revision {revision.number}: a signature as {' or '.join(roles)} "
                 f"is awaited ({user.get_full_name() or user.get_username()} has signed)",
            event_key=f"signature:{revision.pk}:{revision.signatures.count()}")
 

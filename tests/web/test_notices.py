@@ -116,6 +116,9 @@ def test_signatures_awaited_then_signed_tell_the_right_people(product, author, r
     awaited = Notice.objects.filter(kind="signature")
     # after the author: reviewer and approver are awaited; after the reviewer: the approver again
     assert sorted(awaited.values_list("recipient__username", flat=True)) == ["approver", "approver", "reviewer"]
+    texts = set(awaited.values_list("text", flat=True))  # read as a sentence, whichever role comes first
+    assert any("a signature as approver is awaited" in text for text in texts), texts
+    assert not any(" a approver" in text for text in texts), texts
     signed = set(Notice.objects.filter(kind="signed").values_list("recipient__username", flat=True))
     assert signed == {"author", "reviewer"}  # the approver signed last and knows
 
