@@ -74,6 +74,15 @@ def notices_read(*, user, ids: list[int] | None = None) -> int:
     return notices.update(read_at=timezone.now())
 
 
+def notices_settled(*, kind: str, url: str, user=None) -> int:
+    """Marks read the unread notices of `kind` about `url` (only `user`'s when given) once what they asked for is
+    done, so a signature already given no longer counts as awaited in anyone's inbox; the notices stay listed."""
+    notices = Notice.objects.filter(kind=kind, url=url, read_at__isnull=True)
+    if user is not None:
+        notices = notices.filter(recipient=user)
+    return notices.update(read_at=timezone.now())
+
+
 def mail_switch_set(*, user, on: bool) -> None:
     MailSwitch.objects.update_or_create(user=user, defaults={"email_notices": on})
 

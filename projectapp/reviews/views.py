@@ -183,7 +183,9 @@ def _card_context(request, item: ReviewItem, *, approvers: set[int] | None = Non
     return {
         "item": item,
         "provenance": decision_lines(item, approver_ids=approvers),
-        "can_review": services.can_review(request.user, item),
+        # A frozen review (signing started, signed, withdrawn) shows what was decided and offers no form for it.
+        "can_review": services.can_review(request.user, item) and lifecycle.is_review_open(item.revision),
+        "review_open": lifecycle.is_review_open(item.revision),
         "decision_form": extra.pop("decision_form", None) or DecisionForm(initial={
             "disposition": item.disposition, "justification": item.justification, "version": item.version}),
         "assign_form": extra.pop("assign_form", None) or AssignForm(

@@ -29,7 +29,7 @@ from projectapp.audit.models import AuditEvent
 from projectapp.designs import lifecycle
 from projectapp.designs.models import Revision
 from projectapp.notices.models import Notice
-from projectapp.notices.services import notify
+from projectapp.notices.services import notices_settled, notify
 from projectapp.reviews import gate
 from projectapp.reviews.models import EvidenceAttachment, ProcessStep
 from projectapp.signoff.models import MEANINGS, Signature, SignedRecord, Supersession
@@ -172,6 +172,8 @@ def _revision_sign_checked(*, revision: Revision, user, role: str) -> Signature:
         revision=revision, user=user, changes={"signature": [None, role]},
         summary=f"Signed design revision {revision.number} as {role} ({signature.meaning.split(':')[0]})")
     missing = [r for r in team.signoff_roles if r not in (*state.signed_roles, role)]
+    signoff_url = reverse("signoff_page", args=[revision.product_id, revision.number])
+    notices_settled(kind=Notice.Kind.SIGNATURE, url=signoff_url, user=None if not missing else user)
     if not missing:
         record = record_archive(revision=revision, user=user)
         _tell_signed(revision=revision, record=record, user=user)
@@ -189,7 +191,7 @@ def _tell_signature_awaited(*, revision: Revision, roles: list[str], user) -> No
         pk__in=signers).distinct()
     notify(recipients=people, team=team, kind=Notice.Kind.SIGNATURE, actor=user,
            url=reverse("signoff_page", args=[revision.product_id, revision.number]),
-           text=f"{revision.product.name}, design revision {revision.number}: a {' or '.join(roles)} signature "
+           text=f"{revision.product.name}, design revision {revision.number}: a signature as {' or '.join(roles)} "
                 f"is awaited ({user.get_full_name() or user.get_username()} has signed)",
            event_key=f"signature:{revision.pk}:{revision.signatures.count()}")
 

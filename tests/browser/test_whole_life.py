@@ -167,8 +167,14 @@ def test_a_product_lives_through_two_design_revisions(people_pages, live_server,
     assert download.status == 200 and download.body()[:5] == b"%PDF-"
     refused_to(stranger, live_server, reverse("record_detail", args=[record.pk]),
                reverse("record_download", args=[record.pk]), reverse("record_pack", args=[record.pk]))
-    stranger.goto(live_server.url + reverse("archive_list"))
-    expect(stranger.locator("main")).not_to_contain_text("Hive gateway")
+    for listing in ("archive_list", "product_list", "review_dashboard", "inbox"):  # lists of another team's
+        stranger.goto(live_server.url + reverse(listing))
+        expect(stranger.locator("main")).not_to_contain_text("Hive gateway")
+    ines.goto(live_server.url + reverse("revision_review", args=[product.pk, 1]))  # signed: read-only, kept
+    expect(ines.locator("main")).to_contain_text("Revision 1 is signed: its review is frozen.")
+    expect(ines.get_by_role("button", name="Record")).to_have_count(0)
+    expect(ines.get_by_role("button", name="Attach", exact=True)).to_have_count(0)
+    expect(ines.get_by_role("link", name="div-flex-efficiency.pdf")).to_be_visible()
 
     # -- the second revision carries the decisions and the discussion --------------------------------------
     maren.goto(live_server.url + reverse("product_detail", args=[product.pk]))

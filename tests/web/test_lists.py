@@ -11,7 +11,7 @@ from django.urls import reverse
 from projectapp import fragments, paging
 from projectapp.designs import services
 from projectapp.designs.models import Revision
-from projectapp.reviews.services import revision_submit
+from projectapp.reviews.services import evidence_attach, revision_submit
 from projectapp.signoff.models import SignedRecord
 from tests.web.conftest import EXAMPLES
 from tests.web.test_lifecycle import settle, sign, sign_all
@@ -81,6 +81,23 @@ def test_every_page_of_a_revision_shows_its_state_and_record(client, signed_with
     assert "status-in-review" in dashboard
     archive = page(client, reviewer, reverse("archive_list"))
     assert record.get_absolute_url() in archive and "status-signed" in archive
+
+
+def test_a_frozen_review_shows_its_decisions_and_evidence_but_offers_no_forms(client, product, author, reviewer,
+                                                                             approver):
+    revision = revision_submit(revision=product.draft, user=author)
+    settle(revision, reviewer, approver)
+    item = revision.review_items.filter(kind="raised", disposition="waived").first()
+    attachment = evidence_attach(user=approver, name="pilot-approval.pdf", content=b"%PDF-1.4 letter", item=item)
+    open_review = page(client, reviewer, reverse("revision_review", args=[product.pk, 1]))
+    assert 'name="disposition"' in open_review and 'name="file"' in open_review  # in review: the forms are there
+    sign_all(revision, author, reviewer, approver)
+    for url in (reverse("revision_review", args=[product.pk, 1]), reverse("review_item", args=[item.pk])):
+        html = page(client, approver, url)
+        assert "its review is frozen" in html or "Signed" in html, url
+        assert reverse("evidence_download", args=[attachment.pk]) in html, url  # what was decided stays readable
+        for form_field in ('name="disposition"', 'name="assignee"', 'name="file"', 'name="text"'):
+            assert form_field not in html, (url, form_field)
 
 
 def test_a_cached_revision_page_shows_each_new_state_at_once(client, product, author, reviewer, approver):

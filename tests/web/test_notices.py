@@ -20,6 +20,8 @@ from projectapp.reviews.services import (
     revision_submit,
     steps_due_notify,
 )
+from projectapp.signoff.services import revision_sign
+from tests.web.conftest import PASSWORD, signing_request
 from tests.web.test_signoff import settle, sign_all
 
 
@@ -116,8 +118,25 @@ def test_signatures_awaited_then_signed_tell_the_right_people(product, author, r
     awaited = Notice.objects.filter(kind="signature")
     # after the author: reviewer and approver are awaited; after the reviewer: the approver again
     assert sorted(awaited.values_list("recipient__username", flat=True)) == ["approver", "approver", "reviewer"]
+    texts = set(awaited.values_list("text", flat=True))  # read as a sentence, whichever role comes first
+    assert any("a signature as approver is awaited" in text for text in texts), texts
+    assert not any(" a approver" in text for text in texts), texts
+    # all signed: no signature is awaited any more, so none of those notices counts as unread (each stays listed)
+    assert not awaited.filter(read_at__isnull=True).exists()
     signed = set(Notice.objects.filter(kind="signed").values_list("recipient__username", flat=True))
     assert signed == {"author", "reviewer"}  # the approver signed last and knows
+
+
+def test_a_signature_given_is_no_longer_unread_as_awaited(product, author, reviewer, approver):
+    revision_submit(revision=product.draft, user=author)
+    revision = product.revisions.get(number=1)
+    settle(revision, reviewer, approver)
+    for user, role in ((author, "author"), (reviewer, "reviewer")):
+        revision_sign(revision=revision, user=user, role=role, password=PASSWORD, request=signing_request())
+    unread = Notice.objects.filter(kind="signature", read_at__isnull=True)
+    # the reviewer signed what they were asked to: theirs is settled; the approver's two are still awaited
+    assert sorted(unread.values_list("recipient__username", flat=True)) == ["approver", "approver"]
+    assert unread_count(reviewer) == 0 and unread_count(approver) == 2
 
 
 def test_a_step_due_is_told_once_to_its_owner(product, author, reviewer):
