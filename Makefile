@@ -15,3 +15,5 @@ bench:
 	.venv/bin/python benchmarks/far_field.py
 	.venv/bin/python benchmarks/pdf_record.py
 	.venv/bin/python benchmarks/placement.py
+	.venv/bin/python benchmarks/section_save.py
+	.venv/bin/python benchmarks/lists.py

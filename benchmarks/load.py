@@ -168,7 +168,7 @@ def signed_record(team, password: str):
         return record, ""
     from projectapp.designs.models import Revision
 
-    for revision in Revision.objects.filter(product__team=team).exclude(status=Revision.Status.DRAFT):
+    for revision in Revision.objects.filter(product__team=team).exclude(state=Revision.State.DRAFT):
         if not services.readiness(revision).ready:
             continue
         for role in team.signoff_roles:
@@ -184,13 +184,13 @@ def signed_record(team, password: str):
 
 
 def start_server(env: dict, port: int, workers: int, threads: int, log_path: Path) -> subprocess.Popen:
-    log = log_path.open("w")
     command = [sys.executable, "-m", "gunicorn", "projectapp.wsgi:application", "--bind", f"127.0.0.1:{port}",
                "--workers", str(workers), "--log-level", "warning", "--timeout", "60"]
     if threads > 1:
         command += ["--worker-class", "gthread", "--threads", str(threads)]
-    server = subprocess.Popen(command, cwd=REPO_ROOT, env=env, stdout=log, stderr=subprocess.STDOUT,
-                              start_new_session=True)
+    with log_path.open("w") as log:  # the server writes to its own copy of the file
+        server = subprocess.Popen(command, cwd=REPO_ROOT, env=env, stdout=log, stderr=subprocess.STDOUT,
+                                  start_new_session=True)
     deadline = time.monotonic() + 60
     while time.monotonic() < deadline:
         if server.poll() is not None:

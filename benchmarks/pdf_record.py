@@ -117,7 +117,7 @@ def build_scenario(*, directory: Path, points: int, band_names: list[str]):
 
     from projectapp.designs import services as designs
     from projectapp.reviews.models import ReviewItem
-    from projectapp.reviews.services import review_item_decide
+    from projectapp.reviews.services import review_item_decide, revision_submit
     from projectapp.teams.models import Membership, Role, Team
 
     team = Team.objects.create(name="Tallow Creek Instruments")
@@ -136,7 +136,7 @@ def build_scenario(*, directory: Path, points: int, band_names: list[str]):
     document = narrowed_document(band_names)
     designs.design_import(product=product, text=json.dumps(document, indent=2), source="field-router.json",
                           user=author)
-    revision = designs.revision_submit(revision=product.draft, user=author)
+    revision = revision_submit(revision=product.draft, user=author)
 
     for item in revision.review_items.filter(kind=ReviewItem.Kind.RAISED, severity__in=["blocker", "warning"]):
         review_item_decide(item=item, user=approver, disposition="waived", justification=justification_for(item),

@@ -11,10 +11,13 @@ Two rules keep that safe:
   instead: their CSRF token, their name, their flash messages, the response's CSP nonce; `page()` and
   `personal()` fill the markers for each reader. A marker begins with "<", which the template engine
   escapes in every value it puts in, so no text typed by anyone can forge one.
-- A key names everything the page shows (the caller passes the revision's state key, the product's name,
-  the reader's role...) and the code that drew it (`code_stamp()`: a digest of the templates and the Python
-  that fills them), so any change makes a new key and an out-of-date page is never read again; it just
-  ages out of the cache.
+- A key names everything the page shows and the code that drew it, so any change makes a new key and an
+  out-of-date page is never read again; it just ages out of the cache. The caller passes the objects the page
+  shows: an object with a `cache_identity` (a revision: its id, state and version, designs.models; a product:
+  its name and description; a revision's facts) is named by it, anything else by its repr (the reader's
+  role...). `code_stamp()` names the code: a digest of the templates, the Python that fills them, and the
+  static files the pages link (a stylesheet-only deploy starts afresh too, since a cached page names the
+  stylesheet's hashed file).
 
 Because a key's content never changes, each server process also keeps the pages it served last in its own
 memory (`LOCAL`, bounded), in front of the shared cache: a popular page then costs neither a file read nor
@@ -31,6 +34,8 @@ from typing import Any
 
 from django.conf import settings
 from django.contrib.messages import get_messages
+from django.contrib.staticfiles import finders
+from django.contrib.staticfiles.storage import ManifestFilesMixin, staticfiles_storage
 from django.core.cache import cache
 from django.http import HttpResponse
 from django.middleware.csp import get_nonce
@@ -46,8 +51,10 @@ CSRF_MARK = mark_safe("<!--earshot:csrf-->")
 NAME_MARK = mark_safe("<!--earshot:reader-->")
 FLASH_MARK = mark_safe("<!--earshot:flash-->")
 NONCE_MARK = mark_safe("<!--earshot:nonce-->")
-_CSRF, _NAME, _FLASH, _NONCE = (mark.encode() for mark in (CSRF_MARK, NAME_MARK, FLASH_MARK, NONCE_MARK))
-_MARKS = re.compile(b"(" + b"|".join(re.escape(mark) for mark in (_CSRF, _NAME, _FLASH, _NONCE)) + b")")
+UNREAD_MARK = mark_safe("<!--earshot:unread-->")  # the header's unread count (request.unread_notices, notices app)
+_CSRF, _NAME, _FLASH, _NONCE, _UNREAD = (mark.encode()
+                                        for mark in (CSRF_MARK, NAME_MARK, FLASH_MARK, NONCE_MARK, UNREAD_MARK))
+_MARKS = re.compile(b"(" + b"|".join(re.escape(mark) for mark in (_CSRF, _NAME, _FLASH, _NONCE, _UNREAD)) + b")")
 _STAMPED = (".py", ".html", ".csv", ".toml", ".json")
 DAY = 24 * 3600
 
@@ -103,7 +110,8 @@ LOCAL = LocalCopies(max_bytes=64_000_000)
 
 @once
 def code_stamp() -> str:
-    """A digest of the templates and code that render pages: a deployment of new code starts afresh."""
+    """A digest of the templates, the code and the static files that render pages: a deployment of any of them
+    starts afresh."""
     base = settings.BASE_DIR
     digest = hashlib.sha256()
     for folder in ("templates", "projectapp", "rules"):
@@ -111,12 +119,40 @@ def code_stamp() -> str:
             if path.suffix in _STAMPED and path.is_file() and "__pycache__" not in path.parts:
                 digest.update(path.relative_to(base).as_posix().encode())
                 digest.update(path.read_bytes())
+    _stamp_static(digest)
     return digest.hexdigest()[:16]
 
 
+def _stamp_static(digest) -> None:
+    """The static files as pages link them. With hashed names (production: a manifest storage), the manifest
+    names every file by its content's hash, so it is the whole story; otherwise every file the finders serve,
+    by name and content (a page links the plain name then, but the stamp still follows the file)."""
+    storage = staticfiles_storage
+    if isinstance(storage, ManifestFilesMixin):
+        manifest = storage.read_manifest()
+        if manifest:
+            digest.update(b"static-manifest\x00" + manifest.encode())
+            return
+    found: dict[str, tuple] = {}
+    for finder in finders.get_finders():
+        for name, source in finder.list([]):
+            found.setdefault(name.replace("\\", "/"), (source, name))  # the first finder wins, as in serving
+    for name in sorted(found):
+        source, stored = found[name]
+        digest.update(b"static\x00" + name.encode() + b"\x00")
+        with source.open(stored) as handle:
+            digest.update(handle.read())
+
+
+def _part(part: Any) -> Any:
+    identity = getattr(part, "cache_identity", None)
+    return identity if isinstance(identity, str) else part
+
+
 def cache_key(kind: str, *parts: Hashable) -> str:
-    """A short key for `parts` (anything with a stable repr) under the current code."""
-    text = repr((code_stamp(), kind, *parts)).encode()
+    """A short key for `parts` under the current code: an object with a `cache_identity` is named by it,
+    anything else by its repr (which must be stable)."""
+    text = repr((code_stamp(), kind, *map(_part, parts))).encode()
     return f"earshot:{kind}:{hashlib.sha256(text).hexdigest()[:40]}"
 
 
@@ -145,7 +181,7 @@ def shared(template: str, key_parts: tuple[Hashable, ...], context: Callable[[],
 
 def _render(template: str, context: dict[str, Any]) -> Pieces:
     html = render_to_string(template, {**context, "csrf_token": CSRF_MARK, "user": _Reader(),
-                                       "flash_slot": FLASH_MARK, "csp_nonce": NONCE_MARK})
+                                       "flash_slot": FLASH_MARK, "csp_nonce": NONCE_MARK, "unread_slot": UNREAD_MARK})
     return tuple(_MARKS.split(html.encode()))
 
 
@@ -159,6 +195,8 @@ def _personal_bytes(pieces: Pieces, request) -> bytes:
             values[mark] = get_token(request).encode()
         elif mark == _NAME:
             values[mark] = escape(request.user.get_full_name() or request.user.username).encode()
+        elif mark == _UNREAD:
+            values[mark] = str(getattr(request, "unread_notices", "")).encode()  # markup the middleware escaped
         elif mark == _FLASH:
             messages = get_messages(request)
             values[mark] = render_to_string("_flash.html", {"messages": messages}).encode() if messages else b""

@@ -71,10 +71,13 @@ INSTALLED_APPS = [
     "django_htmx",
     "axes",
     "projectapp.teams",
+    "projectapp.audit",
+    "projectapp.notices",
     "projectapp.library",
     "projectapp.designs",
     "projectapp.reviews",
     "projectapp.signoff",
+    "projectapp.demo",
 ]
 
 MIDDLEWARE = [
@@ -88,6 +91,7 @@ MIDDLEWARE = [
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
     "django.middleware.csp.ContentSecurityPolicyMiddleware",
     "django_htmx.middleware.HtmxMiddleware",
+    "projectapp.notices.middleware.unread_notices",
     # Last, as axes asks: it turns a refused password check into the lock page (teams/password_checks.py).
     "axes.middleware.AxesMiddleware",
 ]
@@ -259,6 +263,19 @@ SECURE_CSP = {
     "form-action": [CSP.SELF],
     "frame-ancestors": [CSP.NONE],
 }
+
+# -- e-mail: notices go out through Django's mail framework (MAILERS, Django 6.1) -------------------------------
+# SMTP to EMAIL_HOST; in production without one, the machine's own mail server (localhost:25). A development
+# machine without EMAIL_HOST prints messages to the terminal instead.
+_mail_host = env_str("EMAIL_HOST")
+MAILERS = {"default": {
+    "BACKEND": "django.core.mail.backends.smtp.EmailBackend",
+    "OPTIONS": {"host": _mail_host or "localhost", "port": env_int("EMAIL_PORT", 587 if _mail_host else 25),
+                "username": env_str("EMAIL_HOST_USER"), "password": env_str("EMAIL_HOST_PASSWORD"),
+                "use_tls": env_bool("EMAIL_USE_TLS", bool(_mail_host)), "timeout": 10},
+} if _mail_host or PRODUCTION else {"BACKEND": "django.core.mail.backends.console.EmailBackend"}}
+DEFAULT_FROM_EMAIL = env_str("EARSHOT_MAIL_FROM", "earshot@localhost")
+EARSHOT_BASE_URL = env_str("EARSHOT_BASE_URL", "http://127.0.0.1:8000")
 
 # -- logging: errors to stderr, where the process manager collects them -------------------------------------
 LOG_LEVEL = env_choice("EARSHOT_LOG_LEVEL", ("debug", "info", "warning", "error"), "warning").upper()

@@ -13,8 +13,11 @@ urlpatterns = [
     path("accounts/password/done/", auth_views.PasswordChangeDoneView.as_view(), name="password_change_done"),
     path("admin/", admin.site.urls),
     path("healthz/", healthz, name="healthz"),
+    # Reviews first: submitting a draft (products/<id>/draft/submit/) is the review's to start, and the
+    # questionnaire's products/<id>/draft/<section>/ would otherwise take "submit" for a section.
+    path("", include("projectapp.reviews.urls")),
     path("", include("projectapp.designs.urls")),
     path("", include("projectapp.library.urls")),
-    path("", include("projectapp.reviews.urls")),
     path("", include("projectapp.signoff.urls")),
+    path("", include("projectapp.notices.urls")),
 ]

@@ -10,11 +10,12 @@ import math
 import re
 import sys
 from collections.abc import Callable, Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields, replace
 from functools import lru_cache
 from typing import Any
 
 from rules.catalog import DEFAULT_POWER_CLASS, Band, Category, bands, categories, power_classes
+from rules.withheld import Withheld, is_withheld
 
 FORMAT = "earshot-design/1"
 ROLES = ("main", "receive", "gnss", "wlan")
@@ -394,12 +395,17 @@ class _Reader:
         self.problems: list[Problem] = []
         self.ignored: list[str] = []
         self._reported: set[Problem] = set()
+        # Problems that are an answer not given yet: a required value left out, a list of numbers partly filled
+        # in. The contract reports them like any other; a partial design lists them as unanswered.
+        self.missing: set[Problem] = set()
 
-    def problem(self, path: str, message: str) -> None:
+    def problem(self, path: str, message: str, *, missing: bool = False) -> None:
         reported = Problem(path, message)
         if reported not in self._reported:  # the scan and a field's reader may find the same thing
             self._reported.add(reported)
             self.problems.append(reported)
+        if missing:
+            self.missing.add(reported)
 
     def scan(self, document: Any) -> bool:
         """The whole document, every text and key in it: characters, size, nesting (see `_scan`)."""
@@ -417,7 +423,7 @@ class _Reader:
     def text(self, value: Any, path: str, *, required: bool = False) -> str | None:
         if value is None:
             if required:
-                self.problem(path, "required: expected text")
+                self.problem(path, "required: expected text", missing=_normalized(path) in ANSWERS_REQUIRED)
             return None
         if isinstance(value, (int, float)) and not isinstance(value, bool):
             value = str(value)
@@ -425,7 +431,7 @@ class _Reader:
             self.problem(path, f"expected text, got {_kind(value)}")
             return None
         if required and not value.strip():
-            self.problem(path, "required: expected non-empty text")
+            self.problem(path, "required: expected non-empty text", missing=_normalized(path) in ANSWERS_REQUIRED)
             return None
         longest = _text_limit(path)
         if len(value) > longest:
@@ -500,7 +506,8 @@ class _Reader:
         bad = [index for index, item in enumerate(value) if not _is_number(item) or (positive and item <= 0)]
         if bad:
             what = "positive numbers" if positive else "numbers"
-            self.problem(path, f"expected {length} {what} in {unit}; item {bad[0]} is {_show(value[bad[0]])}")
+            self.problem(path, f"expected {length} {what} in {unit}; item {bad[0]} is {_show(value[bad[0]])}",
+                         missing=all(value[index] is None for index in bad))  # partly answered
             return None
         numbers = tuple(float(item) for item in value)
         limit = _limit_for(path)
@@ -551,15 +558,49 @@ def find_band(value: Any) -> Band | None:
     return bands().get(prefix + value[1:].strip())
 
 
-def parse_design(document: Any) -> Design:
-    """Validates a decoded design document; raises DesignError listing every problem."""
+@dataclass
+class _Parts:
+    """What one walk of a document read: each part as far as it could be read. In a part with a problem, the
+    value there is None or its default (a Modem without its category, say); the problems say which."""
+
+    product_name: str | None
+    product_revision: str | None
+    modem: Modem | None
+    antennas: list[Antenna] | None  # the antennas with a readable name and role
+    antennas_complete: bool  # every entry of the list was an antenna with a readable name and role
+    enclosure_size_mm: tuple[float, ...] | None
+    enclosure_material: str | None
+    ground_plane_mm: tuple[float, ...] | None
+    deployment: Deployment
+    measurements: tuple[MeasurementRef, ...]
+
+    def design(self, ignored: Sequence[str]) -> Design:
+        return Design(
+            product_name=self.product_name,  # type: ignore[arg-type]  # None only beside a problem
+            product_revision=self.product_revision,
+            modem=self.modem,  # type: ignore[arg-type]
+            enclosure_size_mm=self.enclosure_size_mm,  # type: ignore[arg-type]
+            enclosure_material=self.enclosure_material or "plastic",
+            ground_plane_mm=self.ground_plane_mm,  # type: ignore[arg-type]
+            antennas=tuple(self.antennas or ()),
+            deployment=self.deployment,
+            measurements=self.measurements,
+            ignored_paths=tuple(ignored),
+        )
+
+
+def _read(document: Any, *, lenient: bool) -> tuple[_Reader, _Parts | None]:
+    """Walks the document once, collecting every problem. None for the parts when the document is not an object
+    or is too deep or too large to read. `lenient` (partial parsing) ties measurements to the antennas that
+    could be read; the strict walk, as the contract has always reported, ties them to none unless every antenna
+    could be read."""
     reader = _Reader()
     if not reader.scan(document):  # too deep or too large: nothing more of it is read
-        raise DesignError(reader.problems)
+        return reader, None
     root = reader.object(document, "", ("format", "product", "modem", "enclosure", "ground_plane_mm",
                                          "antennas", "deployment", "measurements"))
     if root is None:
-        raise DesignError(reader.problems)
+        return reader, None
 
     if root.get("format") != FORMAT:
         reader.problem("format", f"expected {_show(FORMAT)}, got {_show(root.get('format'))}")
@@ -569,7 +610,7 @@ def parse_design(document: Any) -> Design:
     product_revision = reader.text(product.get("revision"), "product.revision")
 
     modem = _parse_modem(reader, root.get("modem"))
-    antennas = _parse_antennas(reader, root.get("antennas"))
+    antennas, antennas_complete = _parse_antennas(reader, root.get("antennas"))
 
     enclosure_size = None
     enclosure_material: str | None = "plastic"
@@ -597,28 +638,192 @@ def parse_design(document: Any) -> Design:
             tis_targets_dbm=tis_targets,
         )
 
-    names = {antenna.name for antenna in antennas or ()}
+    known = antennas if lenient or antennas_complete else None
+    names = {antenna.name for antenna in known or ()}
     measurements = _parse_measurements(reader, root.get("measurements"), names)
+    return reader, _Parts(product_name, product_revision, modem, antennas, antennas_complete, enclosure_size,
+                          enclosure_material, ground_plane, deployment, measurements)
 
-    if reader.problems or modem is None or antennas is None or product_name is None:
+
+def parse_design(document: Any) -> Design:
+    """Validates a decoded design document; raises DesignError listing every problem."""
+    reader, parts = _read(document, lenient=False)
+    if reader.problems or parts is None or parts.modem is None or parts.antennas is None:
         raise DesignError(reader.problems)
-    return Design(
-        product_name=product_name,
-        product_revision=product_revision,
-        modem=modem,
-        enclosure_size_mm=enclosure_size,  # type: ignore[arg-type]
-        enclosure_material=enclosure_material or "plastic",
-        ground_plane_mm=ground_plane,  # type: ignore[arg-type]
-        antennas=tuple(antennas),
-        deployment=deployment,
-        measurements=measurements,
-        ignored_paths=tuple(reader.ignored),
-    )
+    return parts.design(reader.ignored)
+
+
+# -- partial designs --------------------------------------------------------------------------------------
+# The inputs a rule may need, named by their path in the document (`[]`: every antenna). A rule declares the
+# ones it reads (`@rule(needs=...)`); a partial design withholds each input that is not answered yet or
+# has a problem, and only the rules whose inputs are all there run on it.
+MODEM_INPUTS = ("modem.category", "modem.bands", "modem.rx_ports", "modem.gain_limits_dbi",
+                "modem.operator_single_antenna_approval", "modem.power_class", "modem.conducted_sensitivity_dbm",
+                "modem.full_duplex", "modem.ntn", "modem.library")
+ANTENNA_FIELD_INPUTS = ("antennas[].mounting", "antennas[].position_mm", "antennas[].polarization",
+                        "antennas[].ranges_mhz", "antennas[].peak_gain_dbi", "antennas[].efficiency_pct",
+                        "antennas[].size_mm", "antennas[].cable_loss_db", "antennas[].efficiency_source",
+                        "antennas[].library")
+INPUTS: tuple[str, ...] = (
+    "format", "product.name", "product.revision", *MODEM_INPUTS,
+    "enclosure.size_mm", "enclosure.material", "ground_plane_mm",
+    "antennas",  # the list itself: how many, each one's name and role
+    *ANTENNA_FIELD_INPUTS,
+    "deployment.environment", "deployment.required_dl_kbps", "deployment.required_ul_kbps",
+    "deployment.body_distance_mm", "deployment.radiated_targets_dbm",
+    "measurements",  # the entries (files, port maps, patterns); they name antennas, so they need "antennas"
+)
+# The required values a person answers; their absence is "not answered yet" rather than a problem (so is a
+# list of numbers with some left blank, such as an enclosure size with only its length).
+ANSWERS_REQUIRED = ("product.name", "modem", "modem.category", "modem.bands", "antennas", "antennas[].name",
+                    "antennas[].role")
+_INPUT_FIELDS: Mapping[str, str] = {  # an input's attribute on Design, Modem, Antenna or Deployment
+    "product.name": "product_name", "product.revision": "product_revision",
+    "enclosure.size_mm": "enclosure_size_mm", "enclosure.material": "enclosure_material",
+    "ground_plane_mm": "ground_plane_mm", "antennas": "antennas", "measurements": "measurements",
+}
+
+
+_DEPLOYMENT_FIELDS: Mapping[str, tuple[str, ...]] = {  # an input held in fields of other names
+    "deployment.radiated_targets_dbm": ("trp_targets_dbm", "tis_targets_dbm"),
+}
+
+
+def _normalized(path: str) -> str:
+    return re.sub(r"\[\d+\]", "[]", path)
+
+
+@lru_cache(maxsize=4096)  # bounded: paths come from the document
+def inputs_of(path: str) -> tuple[str, ...]:
+    """The inputs a problem at `path` withholds: the input the path lies in (`antennas[2].position_mm[1]`:
+    `antennas[].position_mm`; `antennas[2].name`: `antennas`), or every input inside it for a part that
+    could not be read at all (`modem`: every modem input); the whole document for the root. A path the
+    contract doesn't name (an unknown key) withholds nothing."""
+    if not path:
+        return INPUTS
+    normalized = _normalized(path)
+    inside = [name for name in INPUTS if normalized == name or normalized.startswith((name + ".", name + "["))]
+    if inside:
+        return (max(inside, key=len),)
+    return tuple(name for name in INPUTS if name.startswith((normalized + ".", normalized + "[")))
+
+
+@dataclass(frozen=True)
+class PartialDesign:
+    """A draft's design as far as it can be read. `design` holds every input that is there; an input that is
+    not answered yet or has a problem is withheld (`rules.withheld.Withheld` in its place, everywhere it
+    occurs). `missing` maps each withheld input to the document paths that withhold it; `unanswered` lists the
+    required values not given yet (not errors: the questionnaire is not finished), `problems` everything
+    else the full parser reports."""
+
+    design: Design
+    problems: tuple[Problem, ...]
+    unanswered: tuple[Problem, ...]
+    missing: Mapping[str, tuple[str, ...]]
+    # The antennas with a readable name and role, each value of its own that has a problem None (or its
+    # default): for drawing what there is, never for judging.
+    identified_antennas: tuple[Antenna, ...] = ()
+
+    @property
+    def complete(self) -> bool:
+        return not self.problems and not self.unanswered and not self.missing
+
+    def has(self, input_name: str) -> bool:
+        return input_name not in self.missing
+
+    def waiting_for(self, needs: Sequence[str]) -> tuple[str, ...]:
+        """Which of `needs` this design withholds."""
+        return tuple(name for name in needs if name in self.missing)
+
+    def without(self, input_name: str, problems: Sequence[Problem]) -> "PartialDesign":
+        """The same design with one more input withheld because of `problems` found later (a measurement file
+        that can't be read, say)."""
+        missing = {**self.missing, input_name: tuple(dict.fromkeys(
+            [*self.missing.get(input_name, ()), *(problem.path for problem in problems)]))}
+        return replace(self, design=withhold(self.design, set(missing)),
+                       problems=tuple(dict.fromkeys([*self.problems, *problems])), missing=missing)
+
+    def shown(self) -> Design:
+        """The design for drawing it: what is there, each withheld value as not given (None, or the contract's
+        default), and every antenna that has a name and role with the values of its own that could be read (an
+        antenna with a mistyped position is drawn as not placed; the others stay where they are). Never for
+        judging: a rule needs to know a value is missing, and a pair rule needs every antenna's."""
+        design = replace(self.design, antennas=self.identified_antennas)
+        return replace(design, **{name: _shown_default(name) for name in _dataclass_fields(design)
+                                  if name != "modem" and is_withheld(getattr(design, name))})
+
+
+_SHOWN_DEFAULTS: Mapping[str, Any] = {"product_name": "", "enclosure_material": "plastic", "measurements": ()}
+
+
+def _shown_default(name: str) -> Any:
+    return _SHOWN_DEFAULTS.get(name)
+
+
+def _dataclass_fields(value: Any) -> list[str]:
+    return [item.name for item in fields(value)]
+
+
+def withhold(design: Design, withheld: set[str]) -> Design:
+    """`design` with every value of each withheld input replaced by a Withheld marker."""
+    def marker(name: str) -> Any:
+        return Withheld(name)
+
+    modem = design.modem
+    modem_changes = {name.removeprefix("modem."): marker(name) for name in MODEM_INPUTS if name in withheld}
+    if modem_changes and not is_withheld(modem):
+        modem = replace(modem, **modem_changes)
+    antenna_changes = {name.removeprefix("antennas[]."): marker(name) for name in ANTENNA_FIELD_INPUTS
+                       if name in withheld}
+    if "antennas[].peak_gain_dbi" in withheld:
+        antenna_changes["peak_gain_dbi_per_band"] = marker("antennas[].peak_gain_dbi")
+    antennas: Any = design.antennas
+    if "antennas" in withheld:
+        antennas = marker("antennas")
+    elif antenna_changes:
+        antennas = tuple(replace(antenna, **antenna_changes) for antenna in design.antennas)
+    deployment = design.deployment
+    deployment_changes = {field_name: marker(name) for name in INPUTS if name.startswith("deployment.")
+                          and name in withheld for field_name in _DEPLOYMENT_FIELDS.get(name, (name[11:],))}
+    if deployment_changes:
+        deployment = replace(deployment, **deployment_changes)
+    changes: dict[str, Any] = {_INPUT_FIELDS[name]: marker(name) for name in _INPUT_FIELDS
+                               if name in withheld and name != "antennas"}
+    return replace(design, modem=modem, antennas=antennas, deployment=deployment, **changes)
+
+
+def parse_design_partial(document: Any) -> PartialDesign:
+    """A partial design, for a draft being filled in: never raises. What can be read is kept; each input that
+    is not answered yet or has a problem is withheld and named, so the rules that need it wait while the others
+    judge. The problems are those of the full parser (parse_design), except that a measurement is tied to the
+    antennas that could be read; a complete, valid document gives exactly parse_design's design."""
+    reader, parts = _read(document, lenient=True)
+    unanswered = [problem for problem in reader.problems if problem in reader.missing]
+    others = [problem for problem in reader.problems if problem not in unanswered]
+    missing: dict[str, list[str]] = {}
+    for problem in reader.problems:
+        for name in inputs_of(problem.path):
+            missing.setdefault(name, []).append(problem.path)
+    if parts is None:  # nothing could be read: every input waits
+        parts = _Parts(None, None, None, None, False, None, None, None, Deployment(), ())
+        for name in INPUTS:
+            missing.setdefault(name, [])
+    if "antennas" in missing:  # measurements name antennas: with the list in doubt, so are they
+        missing.setdefault("measurements", []).extend(missing["antennas"])
+    base = parts.design(reader.ignored)
+    if base.modem is None:
+        base = replace(base, modem=Modem(None, ()))  # withheld just below
+    identified = tuple(parts.antennas or ())
+    design = withhold(base, set(missing))
+    return PartialDesign(design, tuple(others), tuple(unanswered),
+                         {name: tuple(dict.fromkeys(paths)) for name, paths in missing.items()}, identified)
 
 
 def _parse_modem(reader: _Reader, value: Any) -> Modem | None:
+    """The modem; without a category or bands its Modem holds None or no bands there, beside the problem that
+    says so (parse_design refuses it; a partial design withholds them)."""
     if value is None:
-        reader.problem("modem", "required: expected an object with category and bands")
+        reader.problem("modem", "required: expected an object with category and bands", missing=True)
         return None
     raw = reader.object(value, "modem", ("category", "bands", "rx_ports", "gain_limits_dbi",
                                          "operator_single_antenna_approval", "power_class",
@@ -629,13 +834,15 @@ def _parse_modem(reader: _Reader, value: Any) -> Modem | None:
     category = categories().get(category_id) if isinstance(category_id, str) else None
     if category is None:
         got = "nothing" if raw.get("category") is None else _show(raw.get("category"))
-        reader.problem("modem.category", f"unknown category {got}; accepted: {', '.join(categories())}")
+        reader.problem("modem.category", f"unknown category {got}; accepted: {', '.join(categories())}",
+                       missing=raw.get("category") is None)
 
     selected: list[Band] = []
     raw_bands = raw.get("bands")
     if not isinstance(raw_bands, list) or not raw_bands:
         what = "nothing" if raw_bands is None else _kind(raw_bands)
-        reader.problem("modem.bands", f"expected a list of at least one band (B<n> or n<n>), got {what}")
+        reader.problem("modem.bands", f"expected a list of at least one band (B<n> or n<n>), got {what}",
+                       missing=raw_bands is None or raw_bands == [])
     else:
         for index, item in enumerate(raw_bands):
             path = f"modem.bands[{index}]"
@@ -684,17 +891,17 @@ def _parse_modem(reader: _Reader, value: Any) -> Modem | None:
         names = ", ".join(band.name for band in selected)
         reader.problem("modem.bands", f"{names}: supplemental-downlink (SDL) bands have no uplink and work only "
                                       "beside a band with one; expected at least one band with an uplink")
-    if category is None or not selected:
-        return None
-    return Modem(category, tuple(selected), rx_ports, gain_limits, approval, power_class, sensitivity,
-                 full_duplex, ntn, library)
+    return Modem(category, tuple(selected), rx_ports, gain_limits, approval, power_class,  # type: ignore[arg-type]
+                 sensitivity, full_duplex, ntn, library)
 
 
-def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:
+def _parse_antennas(reader: _Reader, value: Any) -> tuple[list[Antenna] | None, bool]:
+    """The antennas that have a readable name and role (a value with a problem is None or its default there,
+    beside the problem), and whether every entry of the list read without a problem."""
     if not isinstance(value, list):
         what = "nothing" if value is None else _kind(value)
-        reader.problem("antennas", f"expected a list of antennas (it may be empty), got {what}")
-        return None
+        reader.problem("antennas", f"expected a list of antennas (it may be empty), got {what}", missing=value is None)
+        return None, False
     antennas: list[Antenna] = []
     seen: dict[str, int] = {}
     complete = True
@@ -713,7 +920,7 @@ def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:
         elif name is not None:
             seen[name] = index
         if raw.get("role") is None:
-            reader.problem(f"{path}.role", f"required: expected one of {', '.join(ROLES)}")
+            reader.problem(f"{path}.role", f"required: expected one of {', '.join(ROLES)}", missing=True)
             role = None
         else:
             role = reader.choice(raw.get("role"), f"{path}.role", ROLES, None)
@@ -734,8 +941,9 @@ def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:
         efficiency_source = reader.choice(raw.get("efficiency_source"), f"{path}.efficiency_source",
                                           EFFICIENCY_SOURCES, "datasheet")
         library = _parse_library_ref(reader, raw.get("library"), f"{path}.library")
-        if len(reader.problems) > before or name is None or role is None:
+        if len(reader.problems) > before:
             complete = False
+        if name is None or role is None:
             continue
         antennas.append(Antenna(
             name=name, role=role, mounting=mounting or "internal",
@@ -745,7 +953,7 @@ def _parse_antennas(reader: _Reader, value: Any) -> list[Antenna] | None:
             peak_gain_dbi_per_band=gain_per_band, efficiency_source=efficiency_source or "datasheet",
             library=library,
         ))
-    return antennas if complete else None
+    return antennas, complete
 
 
 RADIATED_QUANTITIES = ("trp", "tis")

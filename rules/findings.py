@@ -57,14 +57,20 @@ def round_evidence(key: str, value: Any) -> Any:
     return value
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Flag:
-    """What a check function yields; the registry stamps it with the rule's id and topic."""
+    """What a check function yields; the registry stamps it with the rule's id and topic.
+
+    `explanation` and `action` are the engineer's words. `product_impact` says, in a product manager's words,
+    what the finding means for the product (range, cost, schedule, approval), agreeing with the finding's
+    numbers and severity; it is required, so no rule can leave a finding unexplained to the person who owns
+    the product."""
 
     severity: str
     title: str
     explanation: str
     action: str
+    product_impact: str
     subjects: tuple[str, ...] = ()
     evidence: Mapping[str, Any] = field(default_factory=dict)
     references: tuple[str, ...] = ()
@@ -83,6 +89,9 @@ class Finding:
     evidence: Mapping[str, Any]
     references: tuple[str, ...]
     basis: str = "design"
+    # Last and defaulted so that positional construction keeps working; the registry always sets it from the
+    # flag, which must carry one (Flag.product_impact has no default).
+    product_impact: str = ""
 
     @property
     def key(self) -> tuple[str, tuple[str, ...]]:
@@ -100,6 +109,7 @@ class Finding:
             "title": self.title,
             "explanation": self.explanation,
             "action": self.action,
+            "product_impact": self.product_impact,
             "subjects": list(self.subjects),
             "evidence": dict(self.evidence),
             "references": list(self.references),

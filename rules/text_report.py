@@ -58,6 +58,7 @@ def _finding_lines(finding: Finding) -> list[str]:
     indent = " " * 6
     lines += wrap(finding.explanation, WIDTH, initial_indent=indent, subsequent_indent=indent)
     lines += wrap("Action: " + finding.action, WIDTH, initial_indent=indent, subsequent_indent=indent)
+    lines += wrap("For the product: " + finding.product_impact, WIDTH, initial_indent=indent, subsequent_indent=indent)
     shown = [f"{key} {_evidence_value(value)}" for key, value in finding.evidence.items() if value is not None]
     if shown:
         lines += wrap("Evidence: " + "; ".join(shown), WIDTH, initial_indent=indent,

@@ -64,7 +64,7 @@ def holds_data() -> bool:
     """True when the database has tables with rows of Earshot's own (a migrated, empty one does not)."""
     tables = set(connection.introspection.table_names())
     for model in apps.get_models():
-        if model._meta.app_label in ("designs", "reviews", "signoff", "teams", "auth") \
+        if model._meta.app_label in ("audit", "library", "designs", "reviews", "signoff", "teams", "auth") \
                 and model._meta.db_table in tables and model.objects.exists():
             return True
     return False

@@ -1,5 +1,6 @@
 """Fetching products and revisions for a person: another team's product is a 404, never a leak."""
 
+import hashlib
 from dataclasses import dataclass
 from datetime import UTC, datetime
 
@@ -8,7 +9,7 @@ from django.db import connection
 from django.http import Http404
 from django.shortcuts import get_object_or_404
 
-from projectapp.designs.models import Product, Revision
+from projectapp.designs.models import Product, Revision, cache_identity
 from projectapp.teams.access import teams_of
 from projectapp.teams.models import Membership
 
@@ -43,15 +44,23 @@ class RevisionFacts:
     revision_id: int
     product_id: int
     number: int
-    status: str
-    submitted_at: datetime | None  # naive UTC
+    state: str
+    version: int
+    created_at: datetime | None  # naive UTC
     product_name: str
     submitter_name: str
     roles: frozenset[str]
 
     @property
     def is_draft(self) -> bool:
-        return self.status == Revision.Status.DRAFT
+        return self.state == Revision.State.DRAFT
+
+    @property
+    def cache_identity(self) -> str:
+        """The revision's cache identity (Revision.cache_identity, from the same columns) and its product's name."""
+        name = hashlib.sha256(self.product_name.encode()).hexdigest()[:16]
+        return cache_identity(revision_id=self.revision_id, created_at=self.created_at, state=self.state,
+                              version=self.version) + f"-product-{self.product_id}-{name}"
 
 
 def _table(model) -> str:
@@ -67,7 +76,7 @@ def revision_facts(user, product_id: int, number: int) -> RevisionFacts:
     every page as an outsider.
     """
     sql = f"""
-        SELECT r.id, r.status, r.submitted_at, p.name, s.first_name, s.last_name, s.username, m.role
+        SELECT r.id, r.state, r.version, r.created_at, p.name, s.first_name, s.last_name, s.username, m.role
         FROM {_table(Revision)} r
         JOIN {_table(Product)} p ON p.id = r.product_id
         JOIN {_table(Membership)} m ON m.team_id = p.team_id AND m.user_id = %s
@@ -80,10 +89,10 @@ def revision_facts(user, product_id: int, number: int) -> RevisionFacts:
         rows = cursor.fetchall()
     if not rows:
         raise Http404("No such revision.")
-    revision_id, status, submitted_at, product_name, first, last, username, _ = rows[0]
-    if isinstance(submitted_at, str):  # SQLite hands over text where the column type isn't declared
-        submitted_at = datetime.fromisoformat(submitted_at)
+    revision_id, state, version, created_at, product_name, first, last, username, _ = rows[0]
+    if isinstance(created_at, str):  # SQLite hands over text where the column type isn't declared
+        created_at = datetime.fromisoformat(created_at)
     submitter = f"{first or ''} {last or ''}".strip() or (username or "")
-    return RevisionFacts(revision_id=revision_id, product_id=product_id, number=number, status=status,
-                         submitted_at=utc_naive(submitted_at), product_name=product_name,
+    return RevisionFacts(revision_id=revision_id, product_id=product_id, number=number, state=state,
+                         version=version, created_at=utc_naive(created_at), product_name=product_name,
                          submitter_name=submitter, roles=frozenset(row[-1] for row in rows))

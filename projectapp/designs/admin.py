@@ -8,7 +8,7 @@ from projectapp.designs.models import MeasurementFile, Product, Revision
 
 class RevisionInline(admin.TabularInline):
     model = Revision
-    fields = ["number", "status", "ruleset", "created_at", "submitted_at"]
+    fields = ["number", "state", "ruleset", "created_at", "submitted_at"]
     readonly_fields = fields
     extra = 0
     can_delete = False
@@ -39,9 +39,9 @@ class MeasurementInline(admin.TabularInline):
 
 @admin.register(Revision)
 class RevisionAdmin(admin.ModelAdmin):
-    list_display = ["product", "number", "status", "ruleset", "submitted_at"]
-    list_filter = ["status", "product__team"]
-    readonly_fields = ["product", "number", "status", "document", "version", "section_versions", "evaluation",
+    list_display = ["product", "number", "state", "ruleset", "submitted_at"]
+    list_filter = ["state", "product__team"]
+    readonly_fields = ["product", "number", "state", "state_changed_at", "document", "version", "section_versions", "evaluation",
                        "ruleset", "based_on", "created_by",
                        "created_at", "updated_at", "submitted_by", "submitted_at"]
     inlines = [MeasurementInline]

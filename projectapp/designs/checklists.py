@@ -5,28 +5,25 @@ PDF read one structure whichever state the revision is in.
 
 One design must never take a page down for anyone else: an error while checking a design (a defect in
 Earshot, not in the design, which the parser would have named) is logged and shown as that design's
-problem, and a list shows the row as not checked; a rule that raises is already contained by evaluate().
+problem, and its stored counts say "not checked"; a rule that raises is already contained by evaluate().
+Lists read the counts each revision stores (`count_revision`), never a checklist.
 """
 
-import hashlib
-import json
 import logging
 from collections.abc import Sequence
 from dataclasses import dataclass, field
-from datetime import datetime
 from typing import Any
 
 from django.core.cache import cache
 from django.db import DatabaseError
-from django.db.models import prefetch_related_objects
 
 from projectapp import fragments
-from projectapp.designs.access import utc_naive
 from projectapp.designs.models import Revision
 from rules.coverage import analyse_coverage
-from rules.design import Design, DesignError, Problem, parse_design
-from rules.evaluate import evaluate
+from rules.design import Design, DesignError, PartialDesign, Problem, parse_design, parse_design_partial
+from rules.evaluate import evaluate, evaluate_partial
 from rules.measurements import AttachedMeasurements, LoadedMeasurement, LoadedPattern, attach_measurements
+from rules.registry import RULESET_VERSION
 
 logger = logging.getLogger(__name__)
 CHECK_FAILED = Problem("", "this design could not be checked: an error in Earshot, not in the design (it is "
@@ -35,11 +32,18 @@ CHECK_FAILED = Problem("", "this design could not be checked: an error in Earsho
 
 @dataclass
 class ChecklistState:
+    """What a revision's page shows of its checklist. `design` is the whole parsed design (None while a draft
+    is incomplete: nothing may judge or draw on it as if it were whole); `partial` is a draft's partial design,
+    for drawing what there is. `problems` are the parser's problems and `unanswered` the required values a draft
+    has not given yet (a draft's checklist then holds what could be judged, and what waits)."""
+
     revision: Revision
     design: Design | None = None
     checklist: dict[str, Any] | None = None
     problems: list[Problem] = field(default_factory=list)
     measurements: tuple[LoadedMeasurement, ...] = ()
+    partial: PartialDesign | None = None
+    unanswered: list[Problem] = field(default_factory=list)
 
     @property
     def findings(self) -> list[dict[str, Any]]:
@@ -48,6 +52,18 @@ class ChecklistState:
     @property
     def summary(self) -> dict[str, int]:
         return self.checklist["summary"] if self.checklist else {}
+
+    @property
+    def is_partial(self) -> bool:
+        """A draft's checklist of what could be judged so far (the design is not complete)."""
+        return bool(self.checklist) and self.checklist.get("complete") is False
+
+    @property
+    def shown_design(self) -> Design | None:
+        """The design to draw: the whole one, or what a draft has so far."""
+        if self.design is not None:
+            return self.design
+        return self.partial.shown() if self.partial is not None else None
 
 
 def measurement_reader(revision: Revision):
@@ -67,48 +83,56 @@ def measurement_digests(revision: Revision) -> dict[str, str]:
     return {measurement.name: measurement.sha256 for measurement in revision.measurement_files.all()}
 
 
-def state_key(revision: Revision) -> str:
-    """What a revision's checklist, figures and design summary are computed from, as a short string.
-
-    A frozen revision never changes: its id and submission time name it (the time keeps the key unique if a
-    database is reset and ids come round again). A draft is named by its content: the document and the
-    measurement files kept with it (by id and SHA-256), so saving the same values again, or changing a
-    value and changing it back, finds what was already computed.
-    """
-    if not revision.is_draft:
-        return frozen_state_key(revision.pk, revision.submitted_at)
-    prefetch_related_objects([revision], "measurement_files")  # read once; later .all() calls reuse them
-    files = sorted((m.pk, m.name, m.sha256) for m in revision.measurement_files.all())
-    content = json.dumps([revision.document, files], sort_keys=True, separators=(",", ":"), default=str)
-    return f"draft-{revision.pk}-{hashlib.sha256(content.encode()).hexdigest()[:32]}"
-
-
-def frozen_state_key(revision_id: int, submitted_at: datetime | None) -> str:
-    """The state key of a submitted revision, from its id and submission time alone."""
-    moment = utc_naive(submitted_at)
-    return f"frozen-{revision_id}-{moment.isoformat() if moment else ''}"
-
-
 def checklist_for(revision: Revision) -> ChecklistState:
+    if revision.is_draft:
+        return _draft_checklist(revision)
     state = ChecklistState(revision)
     try:
         state.design = parse_design(revision.document)
-        if revision.is_draft:  # a frozen revision's checklist is stored; its files are read only when drawn
-            key = fragments.cache_key("checklist", state_key(revision))  # the code stamp covers the rules
-            state.checklist = cache.get(key)
-            if state.checklist is None:
-                state.measurements = attach_measurements(state.design, measurement_reader(revision))
-                state.checklist = evaluate(state.design, state.measurements).as_dict()
-                cache.set(key, state.checklist, timeout=24 * 3600)
     except DesignError as error:
         state.problems = error.problems
+    except DatabaseError:
+        raise
+    except Exception:
+        logger.exception("checking revision %s failed", revision.pk)
+        state.design, state.problems = None, [CHECK_FAILED]
+    state.checklist = revision.evaluation
+    return state
+
+
+def _draft_checklist(revision: Revision) -> ChecklistState:
+    """A draft's live checklist: of the whole design when it is complete (exactly what submitting it would
+    freeze), else of what can be judged so far (rules.evaluate.evaluate_partial), with the unanswered values,
+    the problems and the checks still waiting. Kept in the cache per state of the draft."""
+    state = ChecklistState(revision)
+    try:
+        partial = parse_design_partial(revision.document)
+        state.partial = partial
+        key = fragments.cache_key("checklist", revision.cache_identity)  # the code stamp covers the rules
+        state.checklist = cache.get(key)
+        if state.checklist is None:
+            measurements: tuple[LoadedMeasurement, ...] = ()
+            if partial.has("measurements") and partial.design.measurements:
+                try:
+                    measurements = attach_measurements(partial.design, measurement_reader(revision))
+                except DesignError as error:  # a file that can't be read: the checks that need it wait
+                    partial = partial.without("measurements", error.problems)
+            if partial.complete:
+                state.measurements = measurements
+                state.checklist = evaluate(partial.design, measurements).as_dict()
+            else:
+                state.checklist = evaluate_partial(partial, measurements).as_dict()
+            cache.set(key, state.checklist, timeout=24 * 3600)
+        if state.is_partial:
+            state.problems = [Problem(item["path"], item["message"]) for item in state.checklist["problems"]]
+            state.unanswered = [Problem(item["path"], item["message"]) for item in state.checklist["unanswered"]]
+        else:
+            state.design = partial.design
     except DatabaseError:
         raise  # the request can't go on without its database; that is not this design's doing
     except Exception:
         logger.exception("checking revision %s failed", revision.pk)
-        state.design, state.checklist, state.problems = None, None, [CHECK_FAILED]
-    if not revision.is_draft:
-        state.checklist = revision.evaluation
+        state.design, state.checklist, state.problems, state.partial = None, None, [CHECK_FAILED], None
     return state
 
 
@@ -140,33 +164,57 @@ def cellular_patterns(measurements: Sequence[LoadedMeasurement], design: Design)
     return [pattern for pattern in patterns if pattern.antenna in names]
 
 
-def summaries(revisions: list[Revision]) -> dict[int, dict[str, Any]]:
-    """Per revision id, what a list shows of it: the category, the finding counts (None when the design
-    can't be checked yet) and how many problems stand in the way. Kept in the cache per state."""
-    keys = {revision.pk: fragments.cache_key("summary", state_key(revision)) for revision in revisions}
-    found = cache.get_many(list(keys.values()))
-    result, missing = {}, {}
-    for revision in revisions:
-        key = keys[revision.pk]
-        if key in found:
-            result[revision.pk] = found[key]
-            continue
-        try:
-            state = checklist_for(revision)
-            summary = {
-                "category": state.design.modem.category.label if state.design else "",
-                "counts": state.summary if state.checklist else None,
-                "problems": len(state.problems),
-                "failed": state.problems == [CHECK_FAILED],
-            }
-        except DatabaseError:
-            raise
-        except Exception:  # the row says so; the list still shows every other design
-            logger.exception("summarising revision %s failed", revision.pk)
-            summary = {"category": "", "counts": None, "problems": 0, "failed": True}
-        result[revision.pk] = summary
-        if not summary["failed"]:  # a failure is not kept: the next look tries again
-            missing[key] = summary
-    if missing:
-        cache.set_many(missing, timeout=30 * 24 * 3600)
-    return result
+def _category_label(state: ChecklistState) -> str:
+    if state.design is not None:
+        return state.design.modem.category.label
+    if state.partial is not None and state.partial.has("modem.category"):
+        return state.partial.design.modem.category.label
+    return ""
+
+
+def evaluation_to_freeze(revision: Revision) -> dict[str, Any]:
+    """The checklist a draft is submitted with, evaluated now from the document and files as stored. Raises
+    DesignError when the design can't be checked yet, or when a rule could not run: an incomplete checklist is
+    not frozen for people to sign."""
+    design = parse_design(revision.document)
+    evaluation = evaluate(design, attach_measurements(design, measurement_reader(revision)))
+    if evaluation.rule_failures:
+        raise DesignError([Problem("", f"rule {failure.id} ({failure.title}) could not run on this design, so the "
+                                       "checklist is incomplete; that is an error in Earshot, logged for the people "
+                                       "who run it") for failure in evaluation.rule_failures])
+    return evaluation.as_dict()
+
+
+def counts_of(checklist: dict[str, Any]) -> dict[str, Any]:
+    """A checklist's stored summary, as Revision's count columns."""
+    summary = checklist.get("summary") or {}
+    return {"category": str((checklist.get("design") or {}).get("category") or "")[:16],
+            "blockers": summary.get("blocker", 0), "warnings": summary.get("warning", 0),
+            "notes": summary.get("note", 0), "problems": 0, "unanswered": 0, "rule_failures": len(checklist.get("rule_failures") or []),
+            "check_failed": False}
+
+
+def _draft_counts(revision: Revision) -> dict[str, Any]:
+    """A complete draft's finding counts; a partial one's category so far, its problems and unanswered questions
+    (no counts: a list shows "not finished" rather than a tally of the rules that could run)."""
+    state = checklist_for(revision)
+    if state.checklist is not None and not state.is_partial:
+        return counts_of(state.checklist)
+    failed = state.problems == [CHECK_FAILED]
+    return {"category": _category_label(state)[:16], "blockers": None, "warnings": None, "notes": None,
+            "problems": 0 if failed else len(state.problems), "unanswered": 0 if failed else len(state.unanswered),
+            "rule_failures": 0, "check_failed": failed}
+
+
+def count_revision(revision: Revision) -> Revision:
+    """Stores what lists show of a draft (its category, finding counts, problems, rule failures and the rule set
+    that counted them), from its checklist as it is now: called on every write of a draft (designs.services),
+    so no list ever evaluates a design. A submitted revision's counts are stored at submission, from the frozen
+    checklist (designs.lifecycle.submit). A rule-set upgrade recounts drafts through here."""
+    if not revision.is_draft:
+        return revision
+    values = {**_draft_counts(revision), "ruleset": RULESET_VERSION}
+    Revision.objects.filter(pk=revision.pk, state=Revision.State.DRAFT).update(**values)
+    for name, value in values.items():
+        setattr(revision, name, value)
+    return revision

@@ -71,8 +71,9 @@ def _cell(key: str, value: Any) -> str:
 
 
 def table_groups(rows: Sequence[Mapping[str, Any]]) -> list[dict[str, Any]]:
-    """[{title, rows: [{label, unit, cells}]}]: TABLE_GROUPS with one formatted cell per band."""
-    return [{"title": title, "rows": [{"label": label, "unit": unit, "cells": [_cell(key, row.get(key)) for row in rows]}
+    """[{title, rows: [{key, label, unit, cells}]}]: TABLE_GROUPS with one formatted cell per band."""
+    return [{"title": title, "rows": [{"key": key, "label": label, "unit": unit,
+                                       "cells": [_cell(key, row.get(key)) for row in rows]}
                                       for key, label, unit in entries]}
             for title, entries in TABLE_GROUPS]
 

@@ -1,9 +1,13 @@
 from django import forms
 
 from projectapp.designs import questionnaire
-from projectapp.designs.models import Product
+from projectapp.designs.models import Product, Revision
+from projectapp.filters import FilterForm, choice_field, id_field, text_field
 from projectapp.library.models import Entry
+from projectapp.paging import page_field
 from projectapp.teams.models import Team
+from rules.catalog import categories
+from rules.findings import SEVERITIES
 
 MAX_DESIGN_FILE_BYTES = 1_000_000
 
@@ -118,12 +122,21 @@ class LibraryApplyForm(LibraryTargetForm):
         self.fields["apply"].choices = [(key, key) for key in keys]
 
 
+class PanelPartForm(forms.Form):
+    """A part of the draft's page fetched on its own (`?part=figures`: the drawing, charts and coverage that a
+    save's answer leaves to the next request)."""
+
+    part = forms.ChoiceField(required=False, choices=[("", ""), ("figures", "figures")], error_messages={
+        "invalid_choice": "expected figures or nothing"})
+
+
 class SectionActionForm(forms.Form):
     """What a questionnaire section may post beside its answers: an antenna row action and a region preset."""
 
     action = forms.RegexField(
-        regex=r"^(add|(remove|duplicate):[0-9]{1,3})$", required=False,
-        error_messages={"invalid": "action: expected add, remove:N or duplicate:N (N an antenna's row number)"})
+        regex=r"^(add|drop-bands|(remove|duplicate):[0-9]{1,3}|restore:[0-9]{1,18})$", required=False,
+        error_messages={"invalid": "action: expected add, remove:N or duplicate:N (N an antenna's row number), "
+                                   "restore:N (the change that removed it) or drop-bands"})
     preset = forms.ChoiceField(required=False, choices=(), error_messages={
         "invalid_choice": "preset: expected one of the region presets listed beside the bands"})
 
@@ -140,6 +153,11 @@ class SectionActionForm(forms.Form):
     def row(self) -> int | None:
         _, _, index = self.cleaned_data["action"].partition(":")
         return int(index) if index else None
+
+    @property
+    def restore_event(self) -> int | None:
+        """restore:N: the audit event of the change whose removed antennas are to be put back."""
+        return self.row if self.verb == "restore" else None
 
 
 class PortMapForm(forms.Form):
@@ -173,6 +191,31 @@ class MeasurementFileForm(forms.Form):
     """A measurement file named by a form (to remove it)."""
 
     file = forms.CharField(max_length=120)
+
+
+class ProductFilterForm(FilterForm):
+    """The product list's filters: a name, a team, the latest revision's state, category or gravest finding."""
+
+    q = text_field()
+    team = id_field("a team's number")
+    state = choice_field(tuple(Revision.State.values))
+    category = choice_field(tuple(categories()))
+    raises = choice_field(SEVERITIES)
+    page = page_field()
+
+
+class DraftStartForm(forms.Form):
+    """Starting a draft: from the latest revision (no `from`), or from the numbered revision."""
+
+    from_ = id_field("a revision number")
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.fields["from"] = self.fields.pop("from_")  # `from` is a Python keyword, and the form's name
+
+
+class WithdrawForm(forms.Form):
+    reason = text_field()
 
 
 class PatternForm(forms.Form):

@@ -1,23 +1,24 @@
 """Every write to products and revisions goes through these functions (keyword-only, `<entity>_<action>`)."""
 
+import copy
 import json
+import re
 from collections.abc import Mapping
+from dataclasses import dataclass
 from typing import Any
 
 from django.core.exceptions import PermissionDenied
 from django.core.files.base import ContentFile
 from django.db import transaction
-from django.utils import timezone
 
-from projectapp.designs import library_use, questionnaire
-from projectapp.designs.checklists import measurement_reader
+from projectapp.audit.models import AuditEvent
+from projectapp.audit.services import audit_record
+from projectapp.designs import library_use, lifecycle, questionnaire
+from projectapp.designs.checklists import count_revision, measurement_reader
 from projectapp.designs.document_changes import Changes, document_changes
 from projectapp.designs.models import MeasurementFile, Product, Revision
 from projectapp.library.models import Entry
 from projectapp.library.parts import ANTENNA, MODULE
-from projectapp.reviews.audit import audit_record
-from projectapp.reviews.models import AuditEvent
-from projectapp.reviews.services import review_items_create
 from projectapp.teams.access import has_role, require_role
 from projectapp.teams.models import Role, Team
 from rules.design import (
@@ -29,18 +30,18 @@ from rules.design import (
     parse_design,
     storage_problems,
 )
-from rules.evaluate import evaluate
 from rules.farfield import parse_far_field
 from rules.measurements import attach_measurements
-from rules.registry import RULESET_VERSION
 from rules.touchstone import parse_touchstone
 
 
 def blank_document(*, product_name: str) -> dict[str, Any]:
+    """A new product's design: its name and nothing chosen for it. The category, the bands and the hardware
+    revision are the author's answers (a new draft shows them as still to answer, not as errors)."""
     return {
         "format": FORMAT,
-        "product": {"name": product_name, "revision": "1"},
-        "modem": {"category": "cat-m1", "bands": []},
+        "product": {"name": product_name},
+        "modem": {},
         "antennas": [],
     }
 
@@ -80,7 +81,7 @@ FILE_KEY = "file"  # the audit path of a measurement file itself (its name, size
 
 def _locked_draft(revision: Revision) -> Revision:
     """The revision's row, locked until the transaction ends, read afresh: what this change builds on."""
-    current = Revision.objects.select_for_update().get(pk=revision.pk)
+    current = Revision.objects.select_for_update(no_key=True).get(pk=revision.pk)  # as designs.lifecycle locks
     if not current.is_draft:
         raise DraftGone(current)
     current.product = revision.product
@@ -143,7 +144,7 @@ def _store(*, draft: Revision, document: dict[str, Any], user, action: str, summ
     draft.save(update_fields=["document", "version", "section_versions", "updated_at"])
     audit_record(product=draft.product, revision=draft, actor=user, action=action, summary=summary,
                  changes=changes, draft_version=draft.version)
-    return draft
+    return count_revision(draft)
 
 
 def _describe_file(measurement: MeasurementFile) -> str:
@@ -156,8 +157,11 @@ def product_create(*, team: Team, name: str, description: str = "", user) -> Pro
     product = Product.objects.create(team=team, name=name, description=description, created_by=user)
     draft = Revision.objects.create(product=product, number=1, document=blank_document(product_name=name),
                                     created_by=user)
+    product.latest_revision = draft
+    product.save(update_fields=["latest_revision"])
     audit_record(product=product, revision=draft, actor=user, action=AuditEvent.Action.DRAFT_STARTED,
                  summary=f"Created {name} with an empty draft revision 1", draft_version=draft.version)
+    count_revision(draft)
     return product
 
 
@@ -171,28 +175,69 @@ def _copy_measurements(*, source: Revision, target: Revision, user) -> None:
         copy.save()
 
 
+class DraftExists(Exception):
+    """A product has one draft at a time: a new one can't be started from another revision meanwhile."""
+
+    def __init__(self, draft: Revision):
+        self.draft = draft
+        super().__init__(f"revision {draft.number} is already a draft: edit it, or submit it first")
+
+
 @transaction.atomic
-def draft_get_or_start(*, product: Product, user) -> Revision:
-    """The product's draft; if there is none, a new one copied from the latest revision."""
+def draft_get_or_start(*, product: Product, user, source: Revision | None = None) -> Revision:
+    """The product's draft; if there is none, a new one copied from `source` ("start a draft from it": any
+    revision of the product that is not a draft) or else from the latest revision. A draft is born here (or in
+    product_create), always under the product's row lock, which also keeps `Product.latest_revision` true.
+    Raises DraftExists when `source` is given and the product already has a draft."""
     require_role(user, product.team, Role.AUTHOR)
-    product = Product.objects.select_for_update().get(pk=product.pk)
+    return _draft_start(product=product, user=user, source=source)
+
+
+@transaction.atomic
+def measurement_draft_start(*, revision: Revision, user) -> Revision:
+    """The engineer's measurement path: a reviewer who measured a prototype starts a draft from the revision in
+    review (or a signed one) to keep their measurement files with it, without the author. Reviewers change only a
+    draft's measurements (require_measurement_role), so the design stays the author's; the draft's checklist
+    re-judges with the files, and its page shows the author what changed against the revision it came from.
+    Raises DraftExists when the product already has a draft (the reviewer adds files to that one)."""
+    require_role(user, revision.product.team, Role.REVIEWER)
+    return _draft_start(product=revision.product, user=user, source=revision, purpose="measurement draft")
+
+
+def _draft_start(*, product: Product, user, source: Revision | None, purpose: str = "draft") -> Revision:
+    product = Product.objects.select_for_update(no_key=True).get(pk=product.pk)  # as designs.lifecycle locks
     draft = product.draft
     if draft is not None:
+        if source is not None:
+            raise DraftExists(draft)
         return draft
     latest = product.latest
+    if source is not None and (source.product_id != product.pk or source.is_draft):
+        raise ValueError("from: expected a revision of this product that is not a draft")
+    origin = source or latest
     number = latest.number + 1 if latest else 1
-    document = json.loads(json.dumps(latest.document)) if latest else blank_document(product_name=product.name)
-    draft = Revision.objects.create(product=product, number=number, document=document, based_on=latest,
+    document = json.loads(json.dumps(origin.document)) if origin else blank_document(product_name=product.name)
+    draft = Revision.objects.create(product=product, number=number, document=document, based_on=origin,
                                     created_by=user)
-    if latest is not None:
-        _copy_measurements(source=latest, target=draft, user=user)
+    product.latest_revision = draft
+    product.save(update_fields=["latest_revision"])
+    if origin is not None:
+        _copy_measurements(source=origin, target=draft, user=user)
     files = draft.measurement_files.count()
     audit_record(product=product, revision=draft, actor=user, action=AuditEvent.Action.DRAFT_STARTED,
-                 summary=f"Started draft revision {number}" + (f", copied from revision {latest.number}"
-                                                               + (f" with {files} measurement file(s)" if files else "")
-                                                               if latest else ""),
+                 summary=f"Started {purpose} design revision {number}"
+                         + (f", copied from design revision {origin.number}"
+                            + (f" with {files} measurement file(s)" if files else "") if origin else ""),
                  draft_version=draft.version)
-    return draft
+    return count_revision(draft)
+
+
+@transaction.atomic
+def revision_withdraw(*, revision: Revision, user, reason: str = "") -> Revision:
+    """Takes a revision out of review on its author's word (designs.lifecycle.withdraw); its checklist and
+    decisions stay readable, and a later revision's review still carries them."""
+    require_role(user, revision.product.team, Role.AUTHOR)
+    return lifecycle.withdraw(revision=revision, user=user, reason=reason.strip()[:200])
 
 
 @transaction.atomic
@@ -213,7 +258,81 @@ def draft_section_save(*, revision: Revision, section: questionnaire.Section, an
         return draft
     _require_fresh(draft, section.slug, read_version)
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.SECTION_SAVED,
-                  summary=f"Saved {section.title} of draft revision {draft.number}")
+                  summary=f"Saved {section.title} of draft design revision {draft.number}")
+
+
+_REMOVED_ROW = re.compile(r"^antennas\[(\d+)\]$")
+
+
+@dataclass(frozen=True)
+class RemovedAntennas:
+    """Antennas one change removed from a draft, as its audit event recorded them: what "Undo remove" restores."""
+
+    event_id: int
+    version: int
+    rows: tuple[tuple[int, dict[str, Any]], ...]  # (row it was at, the antenna as it was)
+
+    @property
+    def names(self) -> list[str]:
+        return [str(antenna.get("name") or f"antenna {index + 1}") for index, antenna in self.rows]
+
+
+def _removed_by(event: AuditEvent) -> tuple[tuple[int, dict[str, Any]], ...]:
+    rows = []
+    for path, pair in (event.changes or {}).items():
+        match = _REMOVED_ROW.match(path)
+        if match and isinstance(pair, list) and len(pair) == 2 and isinstance(pair[0], dict) and pair[1] is None:
+            rows.append((int(match.group(1)), pair[0]))
+    return tuple(sorted(rows, key=lambda row: row[0]))
+
+
+def _absent(document: Any, antenna: dict[str, Any]) -> bool:
+    names = {row.get("name") for row in _list(document.get("antennas") if isinstance(document, dict) else None)
+             if isinstance(row, dict)}
+    return antenna.get("name") not in names
+
+
+def draft_antennas_removed(*, revision: Revision) -> RemovedAntennas | None:
+    """The antennas the draft's last change to its antennas removed, if that change removed any and they are
+    not back: the page's "Undo remove" offer. Read from the audit trail, so it holds after a reload and names
+    exactly what was stored."""
+    version = int((revision.section_versions or {}).get(questionnaire.ANTENNAS.slug, 0))
+    if not version:
+        return None
+    event = (AuditEvent.objects.filter(revision=revision, draft_version=version).order_by("-id")
+             .only("id", "changes", "draft_version").first())
+    rows = _removed_by(event) if event is not None else ()
+    rows = tuple(row for row in rows if _absent(revision.document, row[1]))
+    return RemovedAntennas(event.pk, version, rows) if event is not None and rows else None
+
+
+@transaction.atomic
+def draft_antennas_restore(*, revision: Revision, answers: Mapping[str, Any], event_id: int, read_version: int,
+                           user) -> tuple[Revision, list[str]]:
+    """Undo remove: puts back the antennas a change removed (its audit event `event_id`, of this draft), each at
+    the row it had (or the end), with what was typed in the section meanwhile kept. One versioned, audited
+    write like any save of the section; refused (DraftConflict) if the antennas changed after `read_version`,
+    and (ValueError) when there is nothing of that change to put back (an antenna of that name is in the design
+    again, or the event removed none)."""
+    require_role(user, revision.product.team, Role.AUTHOR)
+    draft = _locked_draft(revision)
+    event = AuditEvent.objects.filter(revision=draft, pk=event_id).first()
+    section = questionnaire.ANTENNAS
+    document = questionnaire.apply_answers(draft.document, section, answers)
+    rows = [row for row in (_removed_by(event) if event is not None else ()) if _absent(document, row[1])]
+    if not rows:
+        raise ValueError("nothing to restore: that change removed no antenna, or each one it removed is back "
+                         "(an antenna of the same name is in the design)")
+    _require_fresh(draft, section.slug, read_version)
+    antennas = _list(document.get("antennas"))
+    for index, antenna in rows:
+        antennas.insert(min(index, len(antennas)), copy.deepcopy(antenna))
+    document["antennas"] = antennas
+    names = [str(antenna.get("name")) for _, antenna in rows]
+    draft = _store(draft=draft, document=document, user=user, action=AuditEvent.Action.SECTION_SAVED,
+                   summary=f"Restored antenna {', '.join(names)} (removed in version {event.draft_version}) in draft "
+                           f"design revision {draft.number}")
+    return draft, names
 
 
 @transaction.atomic
@@ -224,34 +343,7 @@ def draft_save_document(*, revision: Revision, document: dict[str, Any], user,
     draft = _locked_draft(revision)
     _require_fresh(draft, ALL_PARTS, read_version)
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.SECTION_SAVED,
-                  summary=f"Saved the design document of draft revision {draft.number}")
-
-
-@transaction.atomic
-def revision_submit(*, revision: Revision, user) -> Revision:
-    """Freezes a draft: the document, its checklist and the rule-set version, stored whole.
-
-    Raises DesignError (nothing changes) when the design can't be evaluated yet, or when a rule could not run.
-    """
-    require_role(user, revision.product.team, Role.AUTHOR)
-    revision = Revision.objects.select_for_update().get(pk=revision.pk)
-    if not revision.is_draft:
-        raise DesignError([Problem("", f"revision {revision.number} was already submitted")])
-    design = parse_design(revision.document)
-    measurements = attach_measurements(design, measurement_reader(revision))
-    evaluation = evaluate(design, measurements)
-    if evaluation.rule_failures:  # an incomplete checklist is not frozen for people to sign
-        raise DesignError([Problem("", f"rule {failure.id} ({failure.title}) could not run on this design, so "
-                                       "the checklist is incomplete; that is an error in Earshot, logged for the "
-                                       "people who run it") for failure in evaluation.rule_failures])
-    revision.evaluation = evaluation.as_dict()
-    revision.ruleset = RULESET_VERSION
-    revision.status = Revision.Status.SUBMITTED
-    revision.submitted_by = user
-    revision.submitted_at = timezone.now()
-    revision.save()
-    review_items_create(revision=revision, user=user)
-    return revision
+                  summary=f"Saved the design document of draft design revision {draft.number}")
 
 
 @transaction.atomic
@@ -270,7 +362,7 @@ def design_import(*, product: Product, text: str | bytes, source: str, user,
     _require_fresh(draft, ALL_PARTS, read_version)
     attach_measurements(design, measurement_reader(draft))
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.IMPORTED,
-                  summary=f"Imported {source[:120]} into draft revision {draft.number}")
+                  summary=f"Imported {source[:120]} into draft design revision {draft.number}")
 
 
 def document_export_text(*, revision: Revision) -> str:
@@ -318,7 +410,7 @@ def measurement_add(*, revision: Revision, name: str, content: bytes, user) -> M
         measurement.file.save(name, ContentFile(content), save=False)
         measurement.save()
         _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_ADDED,
-               summary=f"Added {name} to draft revision {draft.number}",
+               summary=f"Added {name} to draft design revision {draft.number}",
                file_changes={FILE_KEY: [None, _describe_file(measurement)]})
     return measurement
 
@@ -354,7 +446,7 @@ def measurement_map_ports(*, revision: Revision, name: str, ports: list[str | No
         return draft
     _require_fresh(draft, questionnaire.MEASUREMENTS_PART, read_version)
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_MAPPED,
-                  summary=f"Mapped the ports of {name} in draft revision {draft.number}")
+                  summary=f"Mapped the ports of {name} in draft design revision {draft.number}")
 
 
 @transaction.atomic
@@ -374,7 +466,7 @@ def measurement_remove(*, revision: Revision, name: str, user, read_version: int
         return
     _require_fresh(draft, questionnaire.MEASUREMENTS_PART, read_version)
     _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_REMOVED,
-           summary=f"Removed {name} from draft revision {draft.number}",
+           summary=f"Removed {name} from draft design revision {draft.number}",
            file_changes={FILE_KEY: [_describe_file(files[0]), None]} if files else None)
     for measurement in files:
         stored = measurement.file.name
@@ -491,7 +583,7 @@ def pattern_add(*, revision: Revision, name: str, content: bytes, antenna: str, 
         measurement.file.save(name, ContentFile(content), save=False)
         measurement.save()
         _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_ADDED,
-               summary=f"Added the far-field pattern {name} of {antenna} to draft revision {draft.number}",
+               summary=f"Added the far-field pattern {name} of {antenna} to draft design revision {draft.number}",
                file_changes={FILE_KEY: [None, _describe_file(measurement)]})
     return measurement
 
@@ -532,7 +624,7 @@ def pattern_update(*, revision: Revision, name: str, antenna: str, absolute: boo
     if problems:
         raise DesignError(problems)
     _store(draft=draft, document=document, user=user, action=AuditEvent.Action.FILE_MAPPED,
-           summary=f"Set the antenna and environment of the far-field pattern {name} in draft revision "
+           summary=f"Set the antenna and environment of the far-field pattern {name} in draft design revision "
                    f"{draft.number}")
     return [entries[other]["file"] for other in changed if other != index]
 
@@ -612,7 +704,7 @@ def draft_library_fill(*, revision: Revision, section: questionnaire.Section, an
                                                    antenna=str(filled_row.get("name")), user=user)
     draft = _store(draft=draft, document=document, user=user, action=AuditEvent.Action.LIBRARY_FILLED,
                    summary=f"Filled {where} from library part {entry.name} version {entry.version} in draft "
-                           f"revision {draft.number}" + (f", with {len(copied)} file(s)" if copied else ""),
+                           f"design revision {draft.number}" + (f", with {len(copied)} file(s)" if copied else ""),
                    file_changes=file_changes)
     return draft, copied
 
@@ -645,4 +737,4 @@ def draft_library_apply(*, revision: Revision, kind: str, antenna: str | None, e
     where = "the modem" if antenna is None else f"antenna {antenna}"
     return _store(draft=draft, document=document, user=user, action=AuditEvent.Action.LIBRARY_APPLIED,
                   summary=f"Applied library part {current.name} version {noted} → {current.version} to {where} of "
-                          f"draft revision {draft.number}", file_changes=file_changes)
+                          f"draft design revision {draft.number}", file_changes=file_changes)

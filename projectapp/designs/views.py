@@ -12,15 +12,23 @@ from django.contrib import messages
 from django.contrib.auth.decorators import login_required
 from django.core.cache import cache
 from django.db import DatabaseError
-from django.db.models import OuterRef, Subquery
 from django.http import HttpResponse
-from django.shortcuts import redirect, render
+from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
 from django.views.decorators.http import require_GET, require_http_methods, require_POST
 from django_htmx.http import HttpResponseClientRedirect, reswap
 
-from projectapp import fragments
-from projectapp.designs import coverage_panel, library_use, pattern_facts, questionnaire, services
+from projectapp import fragments, paging
+from projectapp.designs import (
+    coverage_panel,
+    library_use,
+    lifecycle,
+    pattern_facts,
+    problem_words,
+    questionnaire,
+    services,
+    upgrades,
+)
 from projectapp.designs.access import (
     get_product_for_user,
     get_revision_for_user,
@@ -33,14 +41,12 @@ from projectapp.designs.checklists import (
     cellular_patterns,
     checklist_for,
     coverage_rows,
-    frozen_state_key,
     load_measurements,
     measurement_digests,
-    state_key,
-    summaries,
 )
 from projectapp.designs.forms import (
     VERSION_MESSAGE,
+    DraftStartForm,
     DraftVersionForm,
     ImportForm,
     LibraryActionForm,
@@ -48,11 +54,14 @@ from projectapp.designs.forms import (
     LibraryEntryForm,
     LibraryTargetForm,
     MeasurementFileForm,
+    PanelPartForm,
     PatternChangeForm,
     PatternForm,
     PortMapForm,
+    ProductFilterForm,
     ProductForm,
     SectionActionForm,
+    WithdrawForm,
 )
 from projectapp.designs.models import MeasurementFile, Revision
 from projectapp.figures.charts import (
@@ -69,46 +78,56 @@ from projectapp.figures.placement import (
     placement_svg,
 )
 from projectapp.library.models import Entry
-from projectapp.teams.access import has_role, require_role, teams_where
+from projectapp.teams.access import has_role, require_role, teams_of, teams_where
 from projectapp.teams.models import Role
+from rules.catalog import categories
 from rules.coverage import OutsideValidity
-from rules.design import CELLULAR_ROLES, DesignError, Problem, parse_design
+from rules.design import CELLULAR_ROLES, DesignError, Problem, parse_design_partial
 from rules.farfield import FarFieldError
+from rules.findings import SEVERITIES
+from rules.glossary import glossary
 from rules.registry import RETIRED, RULESET_VERSION, registered_rules
 from rules.touchstone import TouchstoneError
 
 logger = logging.getLogger(__name__)
+SPACING_RULE = "SEP-001"  # the rule whose findings colour the drawing's pair lines
+FIGURES_DUE = "figures-due"  # a save's answer asks the page to fetch the new drawing (_panel.html)
 
 
 @login_required
 @require_GET
 def product_list(request):
-    newest = Revision.objects.filter(product=OuterRef("pk")).order_by("-number")
-    products = list(products_for(request.user).annotate(**{
-        f"latest_{name}": Subquery(newest.values(name)[:1]) for name in ("id", "number", "status", "updated_at")}))
-    can_create = teams_where(request.user, Role.AUTHOR).exists()
-    # Everything the page shows is named by these rows (a revision's counts follow from its id and when it
-    # was last saved), so the rendered page is kept per rows.
-    rows = tuple((product.pk, product.name, product.description, product.team.name, product.latest_id,
-                  product.latest_number, product.latest_status, str(product.latest_updated_at))
-                 for product in products)
-    return fragments.page(request, "designs/product_list.html", ("products", rows, can_create),
-                          lambda: _product_list_context(products, can_create))
+    """The person's products, a page at a time, filtered in the database on each product's latest revision: its
+    state and the counts it stored when it was saved or submitted (no design is evaluated here)."""
+    teams = teams_of(request.user)
+    form = ProductFilterForm(request.GET).read()
+    products = (products_for(request.user).select_related("latest_revision").order_by("name", "pk")
+                .defer("latest_revision__document", "latest_revision__evaluation",
+                       "latest_revision__section_versions"))
+    products = form.apply(products, {"team": "team_id", "state": "latest_revision__state",
+                                     "category": "latest_revision__category"})
+    if "q" in form.cleaned:
+        products = products.filter(name__icontains=form.cleaned["q"])
+    raises = form.cleaned.get("raises")
+    if raises:
+        products = products.filter(**{f"latest_revision__{COUNT_COLUMNS[raises]}__gt": 0})
+    paged = paging.paged(products, form)
+    on_page = list(paged.items)
+    # The record in force of each product on the page (its signed revision), when that is not the latest.
+    signed = {revision.product_id: revision for revision in Revision.objects.filter(
+        product__in=[product.pk for product in on_page], state=Revision.State.SIGNED).only("pk", "product_id",
+                                                                                             "number", "state")}
+    rows = [{"product": product, "latest": product.latest_revision,
+             "in_force": signed.get(product.pk) if signed.get(product.pk) != product.latest_revision else None}
+            for product in on_page]
+    return render(request, "designs/product_list.html", {
+        "rows": rows, "paged": paged, "filters": form.shown, "filter_problems": form.problems,
+        "can_create": teams_where(request.user, Role.AUTHOR).exists(), "teams": teams.order_by("name"),
+        "states": Revision.State.choices, "categories": categories().values(), "severities": SEVERITIES,
+    }, status=form.status)
 
 
-def _product_list_context(products, can_create: bool) -> dict:
-    rows = _product_rows(products)
-    return {"rows": rows, "can_create": can_create,
-            fragments.NOT_KEPT: any(row["summary"] and row["summary"].get("failed") for row in rows)}
-
-
-def _product_rows(products) -> list[dict]:
-    latest = {revision.pk: revision for revision in Revision.objects.filter(
-        pk__in=[product.latest_id for product in products if product.latest_id]).prefetch_related(
-        "measurement_files")}
-    found = summaries(list(latest.values()))
-    return [{"product": product, "latest": latest.get(product.latest_id), "summary": found.get(product.latest_id)}
-            for product in products]
+COUNT_COLUMNS = {"blocker": "blockers", "warning": "warnings", "note": "notes"}
 
 
 @login_required
@@ -130,18 +149,22 @@ def product_create(request):
 @require_GET
 def product_detail(request, product_id: int):
     product = get_product_for_user(request.user, product_id)
-    revisions = list(product.revisions.select_related("created_by", "submitted_by"))
+    revisions = list(product.revisions.select_related("created_by", "submitted_by", "based_on")
+                     .defer(*(f"{prefix}{name}" for prefix in ("", "based_on__")
+                              for name in ("document", "evaluation", "section_versions"))))
     return render(request, "designs/product_detail.html", {
         "product": product,
         "revisions": revisions,
+        "has_draft": any(revision.is_draft for revision in revisions),
         "is_author": has_role(request.user, product.team, Role.AUTHOR),
         "roles": product.team.roles_of(request.user),
     })
 
 
-def _figures(state: ChecklistState, id_prefix: str) -> dict:
+def _figures(state: ChecklistState, id_prefix: str, editable: bool = False) -> dict:
     """The panel's drawing, charts and coverage. A figure that fails to draw (a defect in Earshot) is left
-    out and named in `failed_figures`; the page still comes up with the rest."""
+    out and named in `failed_figures`; the page still comes up with the rest. `editable`: the placement drawing
+    for the draft page's editor (antennas dragged and turned on it)."""
     svg = coverage_svg = None
     charts: list[str] = []
     coverage: list[dict] = []
@@ -157,12 +180,22 @@ def _figures(state: ChecklistState, id_prefix: str) -> dict:
             failed.append(what)
             return None
 
-    if state.design is not None and state.checklist is not None:
+    record = f"design revision {state.revision.number}"
+    shown = state.shown_design
+    if state.is_partial and shown is not None and state.checklist is not None:
+        # A draft not complete yet: what it has is drawn, judged only where its spacing checks could run.
+        checklist = state.checklist
+        spacing_waits = any(item["id"] == SPACING_RULE for item in checklist.get("waiting", ()))
+        svg = attempt("placement drawing", lambda: placement_svg(
+            shown, pair_severities=None if spacing_waits else pair_severities_from_findings(state.findings),
+            frequency_mhz=checklist.get("judged_at_mhz"), id_prefix=id_prefix, record=record,
+            coexistence=coexistence_lines_from_findings(state.findings, shown), editable=editable))
+    elif state.design is not None and state.checklist is not None:
         design = state.design
         svg = attempt("placement drawing", lambda: placement_svg(
             design, pair_severities=pair_severities_from_findings(state.findings),
-            frequency_mhz=design.lowest_mhz, id_prefix=id_prefix,
-            coexistence=coexistence_lines_from_findings(state.findings, design)))
+            frequency_mhz=design.lowest_mhz, id_prefix=id_prefix, record=record,
+            coexistence=coexistence_lines_from_findings(state.findings, design), editable=editable))
         measurements = attempt("measurements", lambda: load_measurements(state))
         if measurements is None:  # an empty AttachedMeasurements still carries its far-field patterns
             measurements = ()
@@ -190,25 +223,40 @@ def _chart(build, measurement, design, *, id_prefix: str) -> str:
     return chart_svg(build(measurement, design, width_pt=560, height_pt=240), id_prefix=id_prefix)
 
 
-def _panel_context(state: ChecklistState, *, id_prefix: str = "placement") -> dict:
-    """The panel's figures, drawn once per state of the revision (and version of the code that draws them)."""
-    key = fragments.cache_key("figures", state_key(state.revision), id_prefix)
-    figures = cache.get(key)
-    if figures is None:
-        figures = _figures(state, id_prefix)
-        if not figures["failed_figures"]:  # a failure is not kept: the next look tries again
-            cache.set(key, figures, timeout=30 * 24 * 3600)
-    failed = bool(figures["failed_figures"]) or CHECK_FAILED in state.problems
-    return {"state": state, fragments.NOT_KEPT: failed, "measurement_digests": measurement_digests(state.revision),
-            **figures, **coverage_panel.panel(figures["coverage"], coverage_panel.CoverageAssumptionsForm({}).read())}
+def _panel_context(state: ChecklistState, *, id_prefix: str = "placement", figures: bool = True,
+                   editable: bool = False) -> dict:
+    """The panel's checklist and band table, and (`figures`) its drawing, charts and coverage panel, drawn once
+    per state of the revision (and version of the code that draws them). A save's answer leaves the figures
+    out: the page fetches them with the next request (draft_edit, part=figures), so the checklist follows an
+    answer without waiting for the drawing (benchmarks/section_save.py). `editable`: the draft page's, whose
+    placement drawing the author moves antennas on."""
+    drawn: dict = {"placement_svg": None, "chart_svgs": [], "coverage": [], "coverage_svg": None,
+                   "failed_figures": []}
+    if figures:
+        key = fragments.cache_key("figures", state.revision.cache_identity, id_prefix, editable)
+        drawn = cache.get(key)
+        if drawn is None:
+            drawn = _figures(state, id_prefix, editable)
+            if not drawn["failed_figures"]:  # a failure is not kept: the next look tries again
+                cache.set(key, drawn, timeout=30 * 24 * 3600)
+    failed = bool(drawn["failed_figures"]) or CHECK_FAILED in state.problems
+    todo = problem_words.todo(state.revision.document, state.checklist) if state.is_partial else None
+    context = {"state": state, fragments.NOT_KEPT: failed, "todo": todo,
+               "measurement_digests": measurement_digests(state.revision), "placement_editable": editable, **drawn}
+    if figures:
+        context.update(coverage_panel.panel(drawn["coverage"], coverage_panel.CoverageAssumptionsForm({}).read()))
+    return context
 
 
 def _section_item(section: questionnaire.Section, document: dict, problems: list[Problem], *, version: int,
-                  library: dict[str, list[Entry]], conflict: services.DraftConflict | None = None) -> dict:
+                  library: dict[str, list[Entry]], conflict: services.DraftConflict | None = None,
+                  undo: services.RemovedAntennas | None = None, focus: str = "") -> dict:
     """One questionnaire section as _section.html shows it: its fields, problems no field holds, the draft
-    version its values were read at, the library parts it can be filled from, and a conflict if its last save
-    met someone else's change."""
-    fields = questionnaire.section_fields(section, document, problems)
+    version its values were read at, the library parts it can be filled from, a conflict if its last save
+    met someone else's change, the antennas its last change removed (for "Undo remove") and the element that
+    should have the keyboard focus after a row action or preset (`focus`, an id)."""
+    worded = [problem_words.worded(problem, document) for problem in problem_words.grouped(problems)]
+    fields = questionnaire.section_fields(section, document, worded)
     flat = [item for row in fields for item in row] if section is questionnaire.ANTENNAS else fields
     notes: list = []
     if section is questionnaire.ANTENNAS:
@@ -217,11 +265,12 @@ def _section_item(section: questionnaire.Section, document: dict, problems: list
     elif isinstance(document.get("modem"), dict) and isinstance(document["modem"].get("library"), dict):
         notes = [document["modem"]["library"]]
     return {"section": section, "fields": fields, "flat": flat, "version": version, "conflict": conflict,
-            "loose_problems": questionnaire.section_problems(section, problems, flat),
+            "loose_problems": questionnaire.section_problems(section, worded, flat),
             "library": library.get(section.slug, []), "rows": list(zip(fields, notes + [None] * len(fields),
                                                                         strict=False))
             if section is questionnaire.ANTENNAS else [], "note": notes[0] if notes and section is
-            questionnaire.PRODUCT else None}
+            questionnaire.PRODUCT else None, "undo": undo if section is questionnaire.ANTENNAS else None,
+            "focus": focus}
 
 
 def _library_choices(product) -> dict[str, list[Entry]]:
@@ -251,15 +300,17 @@ def _library_offers(revision: Revision) -> list[library_use.Offer]:
 def _draft_context(revision: Revision, state: ChecklistState, *, kept: dict | None = None) -> dict:
     """The draft page's context; `kept` replaces one section's item (a conflict shown with what was typed)."""
     library = _library_choices(revision.product)
+    undo = services.draft_antennas_removed(revision=revision)  # named by the draft's version, as the page is
     sections = [kept if kept and kept["section"] is section
                 else _section_item(section, revision.document, state.problems, version=revision.version,
-                                   library=library)
+                                   library=library, undo=undo)
                 for section in questionnaire.SECTIONS]
     return {"product": revision.product, "revision": revision, "sections": sections,
             "library_offers": _library_offers(revision),
             "presets": questionnaire.band_presets(), "measurements": _measurement_rows(revision, state.problems),
             "pattern_defaults": _pattern_defaults(revision),
-            "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, **_panel_context(state)}
+            "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000, "editing": True,
+            **_panel_context(state, editable=True)}
 
 
 def _measurement_rows(revision: Revision, problems: list[Problem]) -> list[dict]:
@@ -322,30 +373,73 @@ def draft_edit(request, product_id: int):
                                                            "is_author": is_author})
     if not is_author:
         return redirect("revision_detail", product.pk, draft.number)
+    part = PanelPartForm(request.GET)
+    if not part.is_valid():
+        return HttpResponse("; ".join(f"{name}: {error}" for name, errors in part.errors.items() for error in errors),
+                            status=400, content_type="text/plain; charset=utf-8")
+    if part.cleaned_data["part"] == "figures":  # after a save: the drawing, charts and coverage of the draft now
+        what_if = coverage_panel.CoverageAssumptionsForm(request.GET).read()
+        if what_if.cleaned:  # a coverage what-if on screen (the loader sends it) stays through the redraw
+            state = checklist_for(draft)
+            return render(request, "designs/draft_figures.html", {
+                "product": product, "revision": draft, **_panel_context(state, editable=True),
+                **_coverage_what_if(state, what_if)})
+        return HttpResponse(fragments.personal(fragments.shared(
+            "designs/draft_figures.html", ("figures-oob", draft.cache_identity, product.pk),
+            lambda: {"product": product, "revision": draft, **_panel_context(checklist_for(draft), editable=True)},
+            timeout=fragments.DAY), request))
     # The page carries the draft's version in every form (what each save names as read), so it is part of
     # the key; the state key names the content, which the checklist and figures are cached by.
     return fragments.page(request, "designs/draft_edit.html",
-                          ("draft", state_key(draft), draft.version, product.pk, product.name, draft.number,
-                           _library_stamp(product)),
+                          (draft, product, _library_stamp(product)),
                           lambda: _draft_context(draft, checklist_for(draft)), timeout=fragments.DAY)
 
 
 @login_required
 @require_POST
 def draft_start(request, product_id: int):
+    """A new draft copied from the latest revision, or (`from`) from any revision: "start a draft from it"."""
     product = get_product_for_user(request.user, product_id)
-    draft = services.draft_get_or_start(product=product, user=request.user)
-    messages.success(request, f"Revision {draft.number} is a new draft"
-                     + (f", copied from revision {draft.based_on.number}." if draft.based_on else "."))
+    require_role(request.user, product.team, Role.AUTHOR)
+    form = DraftStartForm(request.POST)
+    source = None
+    if not form.is_valid() or (form.cleaned_data["from"] is not None and not (
+            source := product.revisions.exclude(state=Revision.State.DRAFT)
+            .filter(number=form.cleaned_data["from"]).first())):
+        messages.error(request, "from: expected the number of a design revision of this product that is not a "
+                                "draft; no draft was started")
+        return redirect(product)
+    try:
+        draft = services.draft_get_or_start(product=product, user=request.user, source=source)
+    except services.DraftExists as exists:
+        messages.error(request, f"Design revision {exists.draft.number} is already a draft of {product.name}: edit "
+                                "it, or submit it, before starting another from an earlier design revision.")
+        return redirect(product)
+    messages.success(request, f"Design revision {draft.number} is a new draft"
+                     + (f", copied from design revision {draft.based_on.number}." if draft.based_on else "."))
     return redirect("draft_edit", product.pk)
 
 
-def _problems_of(document: dict) -> list[Problem]:
+@login_required
+@require_POST
+def revision_withdraw(request, product_id: int, number: int):
+    revision = get_revision_for_user(request.user, product_id, number)
+    require_role(request.user, revision.product.team, Role.AUTHOR)
+    form = WithdrawForm(request.POST)
+    if not form.is_valid():
+        messages.error(request, "reason: " + "; ".join(form.errors.get("reason", [])) + "; nothing was withdrawn")
+        return redirect(revision.product)
     try:
-        parse_design(document)
-    except DesignError as error:
-        return error.problems
-    return []
+        services.revision_withdraw(revision=revision, user=request.user, reason=form.cleaned_data["reason"])
+    except lifecycle.IllegalTransition as refused:
+        messages.error(request, str(refused))
+        return redirect(revision.product)
+    messages.success(request, f"Revision {revision.number} was withdrawn from review.")
+    return redirect(revision.product)
+
+
+def _problems_of(document: dict) -> list[Problem]:
+    return list(parse_design_partial(document).problems)
 
 
 @login_required
@@ -396,6 +490,15 @@ def draft_section_save(request, product_id: int, section: str):
                 messages.success(request, f"Filled from library part {pick.cleaned_data['entry'].name}"
                                  + (f"; copied {', '.join(copied)} into the measurements (check the port map)."
                                     if copied else "."))
+        elif extras.cleaned_data.get("action", "").startswith("restore:"):
+            if current is not questionnaire.ANTENNAS:
+                return _not_saved(request, product, current, "action: only the antennas section restores a "
+                                                             "removed antenna; nothing was stored", status=400)
+            draft, restored = services.draft_antennas_restore(
+                revision=draft, answers=request.POST, event_id=extras.restore_event, read_version=form.read_version,
+                user=request.user)
+            if not request.htmx:
+                messages.success(request, f"Restored {', '.join(restored)}.")
         else:
             draft = services.draft_section_save(revision=draft, section=current, answers=request.POST,
                                                 read_version=form.read_version, user=request.user)
@@ -412,19 +515,45 @@ def draft_section_save(request, product_id: int, section: str):
         return HttpResponseClientRedirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
     if request.htmx:
         state = checklist_for(draft)
-        panel = fragments.shared("designs/_panel_oob.html", ("panel", state_key(draft), product.pk),
-                                 lambda: {"product": product, "revision": draft, **_panel_context(state)},
+        panel = fragments.shared("designs/_panel_oob.html", ("no-figures", draft, product),
+                                 lambda: {"product": product, "revision": draft, "editing": True,
+                                          **_panel_context(state, figures=False, editable=True)},
                                  timeout=fragments.DAY)
         template = ("designs/draft_section_messages.html" if request.POST.get("answer") == "messages"
                     else "designs/draft_section_saved.html")
-        return render(request, template, {
+        messages_only = request.POST.get("answer") == "messages"  # no inputs sent back
+        response = render(request, template, {
             "product": product, "revision": draft, "presets": questionnaire.band_presets(),
             "current": _section_item(current, draft.document, state.problems, version=draft.version,
-                                     library={} if request.POST.get("answer") == "messages"  # no inputs sent back
-                                     else _library_choices(product)),
+                                     library={} if messages_only else _library_choices(product),
+                                     undo=None if messages_only else services.draft_antennas_removed(revision=draft),
+                                     focus="" if messages_only else _focus_after(extras, draft.document)),
             "panel": fragments.personal(panel, request)})
+        response["HX-Trigger"] = FIGURES_DUE  # the page's #figures-loader fetches the drawing of this state
+        return response
     messages.success(request, f"{current.title} saved.")
     return redirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
+
+
+def _focus_after(extras: SectionActionForm, document: dict) -> str:
+    """Where the keyboard focus belongs once a row action or a preset has redrawn the section: the new or
+    copied row's name, the Undo button after a removal, the preset just used, the bands after dropping some.
+    (Any other change keeps the focus on the element that had it: static/earshot/earshot.js.)"""
+    action, preset = extras.cleaned_data.get("action") or "", extras.cleaned_data.get("preset") or ""
+    rows = document.get("antennas") if isinstance(document.get("antennas"), list) else []
+    if action == "add" and rows:
+        return questionnaire.input_id(f"antennas[{len(rows) - 1}].name")
+    if action.startswith("duplicate:") and extras.row is not None and extras.row + 1 < len(rows):
+        return questionnaire.input_id(f"antennas[{extras.row + 1}].name")
+    if action.startswith("remove:"):
+        return "undo-remove"
+    if action.startswith("restore:"):
+        return "section-antennas-title"
+    if action == "drop-bands":
+        return questionnaire.input_id("modem.bands") + "-label"
+    if preset:
+        return f"preset-{preset}"
+    return ""
 
 
 GONE_MESSAGE = ("{product} has no draft any more (it was submitted for review): nothing was stored. Start a new "
@@ -460,26 +589,6 @@ def _section_conflict(request, section: questionnaire.Section, conflict: service
 
 
 @login_required
-@require_POST
-def draft_submit(request, product_id: int):
-    product = get_product_for_user(request.user, product_id)
-    draft = product.draft
-    if draft is None:
-        messages.error(request, "There is no draft to submit.")
-        return redirect(product)
-    try:
-        revision = services.revision_submit(revision=draft, user=request.user)
-    except DesignError as error:
-        loose = [problem.message for problem in error.problems if not problem.path]  # no question holds them
-        messages.error(request, f"Revision {draft.number} can't be submitted yet: " + (
-            "; ".join(loose) + "." if loose else
-            f"fix the {len(error.problems)} problem(s) listed beside the questions."))
-        return redirect("draft_edit", product.pk)
-    messages.success(request, f"Revision {revision.number} submitted for review and frozen.")
-    return redirect(revision)
-
-
-@login_required
 @require_GET
 def revision_detail(request, product_id: int, number: int):
     facts = revision_facts(request.user, product_id, number)
@@ -487,8 +596,10 @@ def revision_detail(request, product_id: int, number: int):
     # Reviewers (the engineers who measure) keep measurement files with a draft from this page (authors do it on
     # the draft's questionnaire); its forms carry the draft's version, so that is in the key too.
     can_measure = facts.is_draft and Role.REVIEWER in facts.roles and not is_author
+    can_start_draft = not facts.is_draft and Role.AUTHOR in facts.roles  # "start a draft from it" (upgrades)
+    can_start_measurement_draft = not facts.is_draft and Role.REVIEWER in facts.roles
     revisions = Revision.objects.select_related("product", "submitted_by")
-    draft = revisions.get(pk=facts.revision_id) if facts.is_draft else None  # named by its content
+    draft = revisions.get(pk=facts.revision_id) if facts.is_draft else None
 
     def context() -> dict:
         revision = draft or revisions.get(pk=facts.revision_id)
@@ -497,13 +608,48 @@ def revision_detail(request, product_id: int, number: int):
                      "pattern_defaults": _pattern_defaults(revision),
                      "max_measurement_mb": services.MAX_MEASUREMENT_BYTES // 1_000_000} if can_measure else {}
         return {"product": revision.product, "revision": revision, "is_author": is_author,
-                "can_measure": can_measure, "design_text": services.document_export_text(revision=revision),
+                "can_measure": can_measure, "can_start_draft": can_start_draft,
+                "can_start_measurement_draft": can_start_measurement_draft,
+                "upgrade": upgrades.comparison_for(revision),
+                "since_source": upgrades.changes_since_source(revision, state.checklist) if draft else None,
+                "design_text": services.document_export_text(revision=revision),
                 **measuring, **_panel_context(state)}
 
-    state = state_key(draft) if draft else frozen_state_key(facts.revision_id, facts.submitted_at)
+    # The revision's identity (state and version, which a reviewer's measurement forms carry), the product's and
+    # the submitter's name, and what the reader may do: all the page shows. The rule-set comparison follows from
+    # the frozen revision and the code (the stamp covers rules/).
     return fragments.page(request, "designs/revision_detail.html",
-                          ("revision", state, product_id, facts.product_name, facts.status, facts.submitter_name,
-                           is_author, can_measure, draft.version if draft else None), context)
+                          (facts, facts.submitter_name, is_author, can_measure, can_start_draft,
+                           can_start_measurement_draft), context)
+
+
+@login_required
+@require_POST
+def measurement_draft_start(request, product_id: int, number: int):
+    """A reviewer starts a draft from this revision to keep their measurement files (services)."""
+    revision = get_revision_for_user(request.user, product_id, number)
+    require_role(request.user, revision.product.team, Role.REVIEWER)
+    if revision.is_draft:
+        return redirect(revision)
+    try:
+        draft = services.measurement_draft_start(revision=revision, user=request.user)
+    except services.DraftExists as exists:
+        messages.info(request, f"Revision {exists.draft.number} is already a draft: add your measurement files to it.")
+        return redirect(exists.draft)
+    messages.success(request, f"Revision {draft.number} is a new draft copied from revision {revision.number}: add "
+                              "your measurement files; its checklist re-judges with them.")
+    return redirect(draft)
+
+
+@login_required
+@require_GET
+def team_upgrades(request, team_id: int):
+    """The team's frozen revisions that the current rule set would judge differently (designs.upgrades)."""
+    team = get_object_or_404(teams_of(request.user), pk=team_id)  # another team's: 404
+    rows = upgrades.affected_revisions(Revision.objects.filter(product__team=team))
+    return render(request, "designs/team_upgrades.html",
+                  {"team": team, "rows": rows, "ruleset": RULESET_VERSION,
+                   "can_start_draft": has_role(request.user, team, Role.AUTHOR)})
 
 
 @login_required
@@ -513,8 +659,15 @@ def revision_coverage(request, product_id: int, number: int):
     defaults). With htmx the panel's block alone; without, a page holding it. A value the form or the path-loss
     model refuses is named, and the defaults are used for it (400)."""
     revision = get_revision_for_user(request.user, product_id, number)
-    state = checklist_for(revision)
     form = coverage_panel.CoverageAssumptionsForm(request.GET).read()
+    context = {"product": revision.product, "revision": revision, **_coverage_what_if(checklist_for(revision), form)}
+    template = "designs/_coverage.html" if request.htmx else "designs/coverage.html"
+    return render(request, template, context, status=400 if form.problems else 200)
+
+
+def _coverage_what_if(state: ChecklistState, form: coverage_panel.CoverageAssumptionsForm) -> dict:
+    """The coverage panel's context with the form's assumptions (a what-if); one the path-loss model refuses is
+    named in the form's problems, and the defaults are used instead."""
     environment = (state.design.deployment.environment if state.design else None) or "outdoor"
     try:
         rows = coverage_rows(state, **form.overrides(environment))
@@ -522,11 +675,9 @@ def revision_coverage(request, product_id: int, number: int):
         form.problems.append(f"{refusal.parameter}: {refusal}; the defaults are shown instead")
         form.cleaned = {}
         rows = coverage_rows(state)
-    context = {"product": revision.product, "revision": revision, "coverage_what_if": True,
-               "coverage_svg": chart_svg(coverage_chart(rows, width_pt=560, height_pt=240), id_prefix="coverage")
-               if rows else None, **coverage_panel.panel(rows, form)}
-    template = "designs/_coverage.html" if request.htmx else "designs/coverage.html"
-    return render(request, template, context, status=400 if form.problems else 200)
+    return {"coverage_what_if": True, **coverage_panel.panel(rows, form),
+            "coverage_svg": chart_svg(coverage_chart(rows, width_pt=560, height_pt=240), id_prefix="coverage")
+            if rows else None}
 
 
 @login_required
@@ -575,7 +726,7 @@ def design_import(request, product_id: int):
         except services.DraftConflict as error:
             conflict, draft, read_version = error, error.revision, error.revision.version
         else:
-            messages.success(request, f"{upload.name} imported into draft revision {draft.number}.")
+            messages.success(request, f"{upload.name} imported into draft design revision {draft.number}.")
             return redirect("draft_edit", product.pk)
     return render(request, "designs/import.html", {"product": product, "form": form, "problems": problems,
                                                    "draft": draft, "read_version": read_version,
@@ -591,6 +742,12 @@ def rule_list(request):
         "rules": rules, "retired": RETIRED, "ruleset": RULESET_VERSION,
         "added": [rule for rule in rules if rule.added_in == RULESET_VERSION],
         "changed": [rule for rule in rules if rule.changed_in == RULESET_VERSION and rule.added_in != RULESET_VERSION]})
+
+
+@login_required
+@require_GET
+def term_list(request):
+    return render(request, "designs/term_list.html", {"groups": glossary()})
 
 
 def _back_to_measurements(product) -> HttpResponse:

@@ -878,7 +878,7 @@ def pattern_correlation_chart(patterns: Sequence[LoadedPattern], design: Design,
 
 
 def _product(design: Design) -> str:
-    return design.product_name + (f", revision {design.product_revision}" if design.product_revision else "")
+    return design.product_name + (f", hardware revision {design.product_revision}" if design.product_revision else "")
 
 
 # -- coverage ---------------------------------------------------------------------------------------------------

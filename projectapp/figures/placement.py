@@ -31,7 +31,7 @@ from reportlab.pdfbase.pdfmetrics import stringWidth
 
 from projectapp import palette
 from rules import physics
-from rules.design import CELLULAR_ROLES, Antenna, Design, find_band
+from rules.design import CELLULAR_ROLES, UNIT_LIMITS, Antenna, Design, find_band
 from rules.findings import SEVERITIES, Finding
 
 # The app's palette (projectapp/palette.py, where every pairing's contrast is listed and tested).
@@ -45,6 +45,8 @@ SEVERITY_COLOURS: Mapping[str, colors.Color] = {
     severity: colors.HexColor(colour) for severity, colour in palette.SEVERITY.items()
 }
 NO_FINDING_COLOUR = colors.HexColor(palette.OK)
+NOT_JUDGED = "not judged yet"  # a pair's state while a draft's spacing checks wait for an answer
+NOT_JUDGED_COLOUR = MUTED
 WHITE = colors.white
 PLATE = colors.Color(1, 1, 1, alpha=palette.PLATE_ALPHA)  # behind labels, so they stay legible over lines and circles
 NEAR_FIELD_TINT = colors.Color(MUTED.red, MUTED.green, MUTED.blue, alpha=palette.NEAR_FIELD_ALPHA)
@@ -101,7 +103,7 @@ class PairLine:
     first: str
     second: str
     distance_mm: float  # feed to feed, in three dimensions (the drawing shows its projection)
-    severity: str | None  # worst separation finding about the pair; None when there is none
+    severity: str | None  # worst separation finding about the pair; None when there is none; NOT_JUDGED
 
 
 @dataclass(frozen=True)
@@ -127,9 +129,9 @@ class PlacementLayout:
 
     scale_pt_per_mm: float
     scale_bar_mm: float
-    frequency_mhz: float
-    near_field_radius_mm: float
-    quarter_wave_mm: float
+    frequency_mhz: float | None  # None: no band chosen yet, so no circles
+    near_field_radius_mm: float | None
+    quarter_wave_mm: float | None
     top_view_origin_pt: tuple[float, float]  # drawing point of x = 0, y = 0 mm (may lie outside the panel)
     side_view_origin_pt: tuple[float, float] | None  # drawing point of x = 0, z = 0 mm; None without one
     enclosure_given: bool
@@ -491,20 +493,128 @@ def _out_of_page(group: Group, x: float, y: float, dot: bool = False) -> Box:
 
 
 def _antenna_glyph(group: Group, placer: _Placer, antenna: Antenna, x: float, y: float,
-                   axes: tuple[int, int]) -> None:
-    """Polarization (projected onto the view's two axes) and the marker, blocked for label placement."""
+                   axes: tuple[int, int], marks: "_Marks | None" = None, view: str = "top") -> None:
+    """Polarization (projected onto the view's two axes) and the marker, blocked for label placement. In the
+    editable drawing they sit in the antenna's focusable group, with a pointer target around the marker, a
+    turn handle at the end of an axis drawn in the view, and a focus ring the page's stylesheet shows."""
+    target = marks.marker(group, antenna.name, view, axes) if marks is not None else group
+    if marks is not None:
+        target.add(Circle(x, y, EDITOR_HIT_PT, fillColor=TRANSPARENT, strokeColor=None))
     if antenna.polarization is not None:
         norm = math.hypot(*antenna.polarization)
         across = antenna.polarization[axes[0]] / norm
         up = antenna.polarization[axes[1]] / norm
         in_plane = math.hypot(across, up)
         if in_plane < IN_PLANE_MIN_FRACTION:
-            placer.block(_out_of_page(group, x, y), 6.0)
+            placer.block(_out_of_page(target, x, y), 6.0)
         else:
             # Foreshortened: an axis tilted out of the view plane draws shorter.
-            start, end = _arrow(group, x, y, across / in_plane, up / in_plane, ARROW_HALF_PT * in_plane)
+            axis = _part(target, marks, part="axis")
+            start, end = _arrow(axis, x, y, across / in_plane, up / in_plane, ARROW_HALF_PT * in_plane)
             placer.block_segment(start, end, 3.0, 6.0)
-    placer.block(_marker(group, x, y, antenna.role, antenna.mounting), 30.0)
+            if marks is not None:
+                handle = _part(axis, marks, part="turn")
+                handle.add(Circle(*end, TURN_HIT_PT, fillColor=TRANSPARENT, strokeColor=None))
+                handle.add(Circle(*end, TURN_HANDLE_PT, fillColor=WHITE, strokeColor=INK, strokeWidth=1.2))
+    placer.block(_marker(target, x, y, antenna.role, antenna.mounting), 30.0)
+    if marks is not None:
+        ring = _part(target, marks, part="focus-ring")
+        ring.add(Circle(x, y, FOCUS_RING_PT, fillColor=None, strokeColor=FOCUS_COLOUR, strokeWidth=2.2))
+
+
+# -- marks for the page's placement editor ---------------------------------------------------------------------
+
+EDITOR_HIT_PT = 10.0  # radius around a marker that takes the pointer (the marker is about 8 pt across)
+TURN_HANDLE_PT = 3.2
+TURN_HIT_PT = 7.0
+FOCUS_RING_PT = 12.0
+FOCUS_COLOUR = colors.HexColor("#1d6f6a")  # the page's accent (earshot.css --accent)
+TRANSPARENT = colors.Color(0, 0, 0, alpha=0)  # painted, so it takes the pointer, but unseen
+
+
+class _Tagged(Group):
+    """A group whose <g> carries `svg_attributes` in the page's SVG (data-*, tabindex, role, aria-*). Other
+    renderers, the PDF's among them, draw it as the plain group it is."""
+
+    _attrMap = AttrMap(BASE=Group, svg_attributes=AttrMapValue(isAnything, desc="attributes of the SVG <g>"))
+
+
+def _numbers(values: Iterable[float]) -> str:
+    return " ".join(f"{value + 0.0:.10g}" for value in values)
+
+
+def _part(group: Group, marks: "_Marks | None", **attributes: Any) -> Group:
+    """A group added to `group` to draw one part into: tagged `data-<key>` in the editable drawing, the group
+    itself otherwise."""
+    if marks is None:
+        return group
+    tagged = _Tagged(svg_attributes={f"data-{key.replace('_', '-')}": str(value) for key, value in attributes.items()})
+    group.add(tagged)
+    return tagged
+
+
+@dataclass(frozen=True)
+class _Marks:
+    """What the editable drawing tags for the draft page's placement editor (static/earshot/placement-edit.js):
+    each view's scale and origin, each antenna's parts with its row in the design (the questionnaire's
+    `antennas[i]`) and the box its feed may be moved in, each pair line's two antennas. With these the script
+    only maps pointer positions to millimetres and turns an axis; what it changes it writes into the
+    questionnaire's fields, whose save redraws this drawing and the checklist."""
+
+    antennas: Mapping[str, tuple[int, Antenna]]  # the design's own values (not the ones clamped for drawing)
+    bounds_mm: Mapping[str, tuple[float, float, float, float, float, float]]  # x0 y0 z0 x1 y1 z1
+    keys_id: str  # the page's text that says how to move and turn an antenna
+
+    @classmethod
+    def of(cls, design: Design, top: "_View", heights_mm: tuple[float, float], keys_id: str) -> "_Marks":
+        """An internal antenna's feed stays inside the enclosure box [0, size] (the rules flag one outside it,
+        ENC-002); an external antenna (on a cable, outside the box), or any antenna when no enclosure size is
+        given, stays inside what the views show, which grows around it with each save. Both within the parser's
+        limits for a length."""
+        limit = UNIT_LIMITS["_mm"]
+        shown = (top.across_min_mm, top.up_min_mm, heights_mm[0], top.across_max_mm, top.up_max_mm, heights_mm[1])
+        antennas, bounds = {}, {}
+        for index, antenna in enumerate(design.antennas):
+            antennas[antenna.name] = (index, antenna)
+            box = ((0.0, 0.0, 0.0, *design.enclosure_size_mm)
+                   if antenna.mounting == "internal" and design.enclosure_size_mm is not None else shown)
+            low = tuple(max(limit.low, value) for value in box[:3])
+            high = tuple(min(limit.high, value) for value in box[3:])
+            bounds[antenna.name] = (*low, *high)
+        return cls(antennas, bounds, keys_id)  # type: ignore[arg-type]
+
+    def index(self, name: str) -> int:
+        return self.antennas[name][0]
+
+    def pair(self, first: str, second: str) -> str:
+        return f"{self.index(first)} {self.index(second)}"
+
+    def view(self, group: Group, view: "_View", name: str, axes: str) -> Group:
+        return _part(group, self, view=name, axes=axes, origin_pt=_numbers(view.pt(0.0, 0.0)),
+                     scale_pt_per_mm=f"{view.scale:.10g}",
+                     extent_mm=_numbers((view.across_min_mm, view.up_min_mm, view.across_max_mm, view.up_max_mm)))
+
+    def marker(self, group: Group, name: str, view: str, axes: tuple[int, int]) -> Group:
+        index, antenna = self.antennas[name]
+        attributes = {
+            "data-part": "marker", "data-antenna": str(index), "data-view": view, "data-axes": f"{axes[0]} {axes[1]}",
+            "data-name": antenna.name, "data-role": antenna.role, "data-mounting": antenna.mounting,
+            "data-position-mm": _numbers(antenna.position_mm or ()), "data-bounds-mm": _numbers(self.bounds_mm[name]),
+            "tabindex": "0", "role": "button", "aria-roledescription": "movable antenna",
+            "aria-label": marker_label(antenna, view), "aria-describedby": self.keys_id,
+        }
+        if antenna.polarization is not None:
+            attributes["data-polarization"] = _numbers(antenna.polarization)
+        tagged = _Tagged(svg_attributes=attributes)
+        group.add(tagged)
+        return tagged
+
+
+def marker_label(antenna: Antenna, view: str) -> str:
+    """The accessible name of an antenna's marker in a view (the editor words it the same way as it moves)."""
+    position = ", ".join(f"{axis} {_mm_text(value)}" for axis, value in zip("xyz", antenna.position_mm or (), strict=False))
+    return (f"{antenna.name}, {antenna.role} antenna ({antenna.mounting}), at {position} mm, "
+            f"{_axis_text(antenna.polarization)}; {view} view")
 
 
 # -- the layout -------------------------------------------------------------------------------------------
@@ -568,8 +678,14 @@ def _enclosure_box(design: Design, placed: Sequence[Antenna]) -> Box | None:
     return (x0 - margin_mm, y0 - margin_mm, x1 + margin_mm, y1 + margin_mm)
 
 
-def _top_extent(design: Design, placed: Sequence[Antenna], enclosure: Box | None, zone_mm: float) -> Box:
+def _top_extent(design: Design, placed: Sequence[Antenna], enclosure: Box | None, zone_mm: float,
+                steady: bool = False) -> Box:
+    """What the top view must show. `steady` (the editable drawing) also keeps room for a cellular antenna's
+    circles anywhere in a given enclosure, so that moving an internal antenna never rescales the drawing."""
     boxes: list[Box] = [enclosure] if enclosure is not None else []
+    if steady and design.enclosure_size_mm is not None and any(antenna.is_cellular for antenna in placed):
+        length_mm, width_mm, _ = design.enclosure_size_mm
+        boxes.append((-zone_mm, -zone_mm, length_mm + zone_mm, width_mm + zone_mm))
     if design.ground_plane_mm is not None:
         boxes.append((0.0, 0.0, design.ground_plane_mm[0], design.ground_plane_mm[1]))
     for antenna in placed:
@@ -585,11 +701,17 @@ def _side_extent(design: Design, placed: Sequence[Antenna]) -> tuple[float, floa
     return min(heights), max(heights)
 
 
-def _pairs(placed: Sequence[Antenna], pair_severities: Mapping[frozenset[str], str]) -> list[PairLine]:
+def _pair_colour(severity: str | None) -> colors.Color:
+    if severity == NOT_JUDGED:
+        return NOT_JUDGED_COLOUR
+    return SEVERITY_COLOURS[severity] if severity else NO_FINDING_COLOUR
+
+
+def _pairs(placed: Sequence[Antenna], pair_severities: Mapping[frozenset[str], str] | None) -> list[PairLine]:
     pairs = []
     for first, second in combinations(placed, 2):
-        severity = pair_severities.get(frozenset((first.name, second.name)))
-        if severity is not None and severity not in SEVERITY_COLOURS:
+        severity = NOT_JUDGED if pair_severities is None else pair_severities.get(frozenset((first.name, second.name)))
+        if severity is not None and severity != NOT_JUDGED and severity not in SEVERITY_COLOURS:
             raise ValueError(f"unknown severity {severity!r} for {first.name} and {second.name}; "
                              f"expected one of {', '.join(SEVERITIES)}")
         distance_mm = physics.distance_mm(first.position_mm, second.position_mm)  # type: ignore[arg-type]
@@ -653,9 +775,10 @@ def _rect_pt(view: _View, box_mm: Box) -> tuple[float, float, float, float]:
 
 
 def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: Sequence[Antenna],
-              pairs: Sequence[PairLine], enclosure: Box | None, near_field_mm: float, quarter_wave_mm: float,
-              step_mm: float, coexistence: Sequence[CoexistenceLine] = ()) -> None:
-    _grid(group, view, step_mm, step_mm, "x", "y")
+              pairs: Sequence[PairLine], enclosure: Box | None, near_field_mm: float | None,
+              quarter_wave_mm: float | None, step_mm: float, coexistence: Sequence[CoexistenceLine] = (),
+              marks: _Marks | None = None) -> None:
+    _grid(marks.view(group, view, "top", "x y") if marks is not None else group, view, step_mm, step_mm, "x", "y")
     placer = _Placer(view.box)
     deferred: list[tuple[_Label, list[tuple[float, float]]]] = []
 
@@ -690,36 +813,42 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
     points = {antenna.name: view.pt(antenna.position_mm[0], antenna.position_mm[1])  # type: ignore[index]
               for antenna in placed}
     for antenna in placed:
+        if near_field_mm is None or quarter_wave_mm is None:
+            break  # no band chosen yet: no circles
         if not antenna.is_cellular:  # the circles are the cellular band's; GNSS and WLAN work far above it
             continue
         x, y = points[antenna.name]
-        group.add(Circle(x, y, quarter_wave_mm * view.scale, fillColor=None, strokeColor=MUTED,
+        zones = _part(group, marks, antenna=marks.index(antenna.name), view="top", part="zone") if marks else group
+        zones.add(Circle(x, y, quarter_wave_mm * view.scale, fillColor=None, strokeColor=MUTED,
                          strokeWidth=0.9, strokeDashArray=QUARTER_WAVE_DASH))
-        group.add(Circle(x, y, near_field_mm * view.scale, fillColor=NEAR_FIELD_TINT, strokeColor=MUTED,
+        zones.add(Circle(x, y, near_field_mm * view.scale, fillColor=NEAR_FIELD_TINT, strokeColor=MUTED,
                          strokeWidth=0.9, strokeDashArray=NEAR_FIELD_DASH))
 
     for pair in pairs:
-        colour = SEVERITY_COLOURS[pair.severity] if pair.severity else NO_FINDING_COLOUR
+        colour = _pair_colour(pair.severity)
         start, end = points[pair.first], points[pair.second]
         if start != end:
-            group.add(Line(*start, *end, strokeColor=colour, strokeWidth=1.8))
+            line_group = _part(group, marks, pair=marks.pair(pair.first, pair.second), part="pair") if marks else group
+            line_group.add(Line(*start, *end, strokeColor=colour, strokeWidth=1.8))
             placer.block_segment(start, end, 1.5, 1.0)
     for line in coexistence:
         start, end = points[line.cellular], points[line.victim]
         if start != end:
-            group.add(_dashed(start, end, SEVERITY_COLOURS[line.severity]))
+            line_group = (_part(group, marks, pair=marks.pair(line.cellular, line.victim), part="coexistence")
+                          if marks else group)
+            line_group.add(_dashed(start, end, SEVERITY_COLOURS[line.severity]))
             placer.block_segment(start, end, 1.5, 1.0)
 
     for antenna in placed:
-        _antenna_glyph(group, placer, antenna, *points[antenna.name], axes=(0, 1))
+        _antenna_glyph(group, placer, antenna, *points[antenna.name], axes=(0, 1), marks=marks, view="top")
 
     for antenna in placed:
         label = _Label(_short(antenna.name), FONT_BOLD, 8.5, INK)
         x, y = points[antenna.name]
-        label.draw(labels, placer.place(label.width, label.height, _around(x, y, 7.0, label.width,
-                                                                               label.height)))
+        into = _part(labels, marks, antenna=marks.index(antenna.name), view="top", part="label") if marks else labels
+        label.draw(into, placer.place(label.width, label.height, _around(x, y, 7.0, label.width, label.height)))
     for pair in pairs:
-        colour = SEVERITY_COLOURS[pair.severity] if pair.severity else NO_FINDING_COLOUR
+        colour = _pair_colour(pair.severity)
         label = _Label(f"{_mm_text(pair.distance_mm)} mm", FONT_BOLD, 7.5, colour, border=colour)
         (x1, y1), (x2, y2) = points[pair.first], points[pair.second]
         middle_x, middle_y = (x1 + x2) / 2, (y1 + y2) / 2
@@ -732,7 +861,8 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
                 centre_y = middle_y + along * (y2 - y1) + side * normal[1] * (label.height + 2)
                 anchors.append((centre_x - label.width / 2, centre_y - label.height / 2))
         anchors += _around(middle_x, middle_y, 8.0, label.width, label.height)
-        label.draw(labels, placer.place(label.width, label.height, anchors))
+        into = _part(labels, marks, pair=marks.pair(pair.first, pair.second), part="distance") if marks else labels
+        label.draw(into, placer.place(label.width, label.height, anchors))
     for line in coexistence:
         colour = SEVERITY_COLOURS[line.severity]
         label = _Label(line.label, FONT_ITALIC, 7.5, colour, border=colour)
@@ -740,7 +870,9 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
         anchors = [((x1 + x2) / 2 + along * (x2 - x1) - label.width / 2,
                     (y1 + y2) / 2 + along * (y2 - y1) - label.height / 2) for along in (0.15, -0.15, 0.3, 0.0)]
         anchors += _around((x1 + x2) / 2, (y1 + y2) / 2, 8.0, label.width, label.height)
-        label.draw(labels, placer.place(label.width, label.height, anchors))
+        into = (_part(labels, marks, pair=marks.pair(line.cellular, line.victim), part="coexistence-label")
+                if marks else labels)
+        label.draw(into, placer.place(label.width, label.height, anchors))
     for label, anchors in deferred:
         label.draw(labels, placer.place(label.width, label.height, anchors))
 
@@ -751,9 +883,11 @@ def _top_view(group: Group, labels: Group, view: _View, design: Design, placed: 
                           fontSize=10, fillColor=MUTED, textAnchor="middle"))
 
 
-def _side_view(group: Group, view: _View, design: Design, placed: Sequence[Antenna], step_mm: float) -> None:
+def _side_view(group: Group, view: _View, design: Design, placed: Sequence[Antenna], step_mm: float,
+               marks: _Marks | None = None) -> None:
     # Heights span little, so the z ticks may be closer than the x ticks.
-    _grid(group, view, step_mm, min(step_mm, _nice_at_least(MIN_Z_TICK_SPACING_PT / view.scale)), "x", "z")
+    _grid(marks.view(group, view, "side", "x z") if marks is not None else group, view, step_mm,
+          min(step_mm, _nice_at_least(MIN_Z_TICK_SPACING_PT / view.scale)), "x", "z")
     placer = _Placer(view.box)
     labels = Group()
     enclosure_label: tuple[_Label, list[tuple[float, float]]] | None = None
@@ -768,12 +902,12 @@ def _side_view(group: Group, view: _View, design: Design, placed: Sequence[Anten
     points = {antenna.name: view.pt(antenna.position_mm[0], antenna.position_mm[2])  # type: ignore[index]
               for antenna in placed}
     for antenna in placed:
-        _antenna_glyph(group, placer, antenna, *points[antenna.name], axes=(0, 2))
+        _antenna_glyph(group, placer, antenna, *points[antenna.name], axes=(0, 2), marks=marks, view="side")
     for antenna in placed:
         label = _Label(_short(antenna.name), FONT_BOLD, 8.5, INK)
         x, y = points[antenna.name]
-        label.draw(labels, placer.place(label.width, label.height, _around(x, y, 7.0, label.width,
-                                                                               label.height)))
+        into = _part(labels, marks, antenna=marks.index(antenna.name), view="side", part="label") if marks else labels
+        label.draw(into, placer.place(label.width, label.height, _around(x, y, 7.0, label.width, label.height)))
     if enclosure_label is not None:
         label, anchors = enclosure_label
         label.draw(labels, placer.place(label.width, label.height, anchors))
@@ -790,9 +924,12 @@ class _Entry:
     detail: str | None = None
 
 
-def _legend_groups(frequency_mhz: float, near_field_mm: float, quarter_wave_mm: float,
-                   roles: frozenset[str] = frozenset(), coexistence: bool = False) -> list[tuple[str, list[_Entry]]]:
-    """The legend; the GNSS, WLAN and coexistence entries only when the drawing has such antennas or lines."""
+def _legend_groups(frequency_mhz: float | None, near_field_mm: float | None, quarter_wave_mm: float | None,
+                   roles: frozenset[str] = frozenset(), coexistence: bool = False,
+                   judged: bool = True) -> list[tuple[str, list[_Entry]]]:
+    """The legend; the GNSS, WLAN and coexistence entries only when the drawing has such antennas or lines; no
+    circles before a band is chosen (no frequency), and the pairs 'not judged yet' while a draft's spacing
+    checks wait (`judged` false)."""
     def zone(dash: list[float], tint: colors.Color | None) -> Callable[[Group, float, float], object]:
         return lambda group, x, y: group.add(Circle(x, y, 6.5, fillColor=tint, strokeColor=MUTED,
                                                     strokeWidth=0.9, strokeDashArray=dash))
@@ -800,39 +937,53 @@ def _legend_groups(frequency_mhz: float, near_field_mm: float, quarter_wave_mm: 
     def pair_line(colour: colors.Color) -> Callable[[Group, float, float], object]:
         return lambda group, x, y: group.add(Line(x - 11, y, x + 11, y, strokeColor=colour, strokeWidth=1.8))
 
+    outlines = [
+        _Entry(lambda group, x, y: group.add(Rect(x - 11, y - 5, 22, 10, fillColor=None, strokeColor=ENCLOSURE,
+                                                  strokeWidth=1.3, strokeDashArray=ENCLOSURE_DASH)),
+               "enclosure outline"),
+        _Entry(lambda group, x, y: group.add(Rect(x - 11, y - 5, 22, 10, fillColor=BOARD,
+                                                  strokeColor=BOARD_EDGE, strokeWidth=1.0)),
+               "ground plane"),
+    ]
+    pair_entries = [
+        *(_Entry(pair_line(SEVERITY_COLOURS[severity]), severity) for severity in SEVERITIES),
+        _Entry(pair_line(NO_FINDING_COLOUR), "no finding", "label: 3-D distance in mm"),
+    ] if judged else [_Entry(pair_line(NOT_JUDGED_COLOUR), NOT_JUDGED, "the spacing checks wait for an answer")]
+    if coexistence:
+        pair_entries.append(_Entry(lambda group, x, y: group.add(_dashed((x - 11, y), (x + 11, y),
+                                                                         SEVERITY_COLOURS["warning"])),
+                                   "dashed: coexistence finding", "cellular bands → the GNSS or WLAN band"))
+    pairs_title = "Cellular antenna pairs, feed to feed"
+    if frequency_mhz is None or near_field_mm is None or quarter_wave_mm is None:
+        return [_antenna_legend(roles), ("Outlines (circles follow once bands are chosen)", outlines),
+                (pairs_title, pair_entries)]
     frequency = f"{frequency_mhz:g} MHz"
     return [
-        ("Antennas", [
-            _Entry(lambda group, x, y: _marker(group, x, y, "main", "internal"), "main antenna, at its feed"),
-            _Entry(lambda group, x, y: _marker(group, x, y, "receive", "internal"), "receive antenna"),
-            *([_Entry(lambda group, x, y: _marker(group, x, y, "gnss", "internal"), "GNSS antenna",
-                      "satellite navigation; not a cellular branch")] if "gnss" in roles else []),
-            *([_Entry(lambda group, x, y: _marker(group, x, y, "wlan", "internal"), "WLAN antenna",
-                      "Wi-Fi or Bluetooth; not a cellular branch")] if "wlan" in roles else []),
-            _Entry(lambda group, x, y: _marker(group, x, y, "main", "external"), "hollow: external antenna"),
-            _Entry(lambda group, x, y: _arrow(group, x, y, 1.0, 0.0, 11.0), "polarization axis",
-                   "projected; shorter when tilted out of view"),
-            _Entry(lambda group, x, y: _out_of_page(group, x, y, dot=True), "axis out of the page"),
-        ]),
+        _antenna_legend(roles),
         (f"Around each {'cellular ' if roles - set(CELLULAR_ROLES) else ''}antenna at {frequency}", [
             _Entry(zone(NEAR_FIELD_DASH, NEAR_FIELD_TINT), f"λ/2π = {near_field_mm:.1f} mm at {frequency}",
                    "reactive near field"),
             _Entry(zone(QUARTER_WAVE_DASH, None), f"λ/4 = {quarter_wave_mm:.1f} mm at {frequency}",
                    "quarter wave, the usual minimum spacing"),
-            _Entry(lambda group, x, y: group.add(Rect(x - 11, y - 5, 22, 10, fillColor=None, strokeColor=ENCLOSURE,
-                                                      strokeWidth=1.3, strokeDashArray=ENCLOSURE_DASH)),
-                   "enclosure outline"),
-            _Entry(lambda group, x, y: group.add(Rect(x - 11, y - 5, 22, 10, fillColor=BOARD,
-                                                      strokeColor=BOARD_EDGE, strokeWidth=1.0)),
-                   "ground plane"),
+            *outlines,
         ]),
-        ("Cellular antenna pairs, feed to feed", [
-            *(_Entry(pair_line(SEVERITY_COLOURS[severity]), severity) for severity in SEVERITIES),
-            _Entry(pair_line(NO_FINDING_COLOUR), "no finding", "label: 3-D distance in mm"),
-            *([_Entry(lambda group, x, y: group.add(_dashed((x - 11, y), (x + 11, y), SEVERITY_COLOURS["warning"])),
-                      "dashed: coexistence finding", "cellular bands → the GNSS or WLAN band")] if coexistence else []),
-        ]),
+        (pairs_title, pair_entries),
     ]
+
+
+def _antenna_legend(roles: frozenset[str]) -> tuple[str, list[_Entry]]:
+    return ("Antennas", [
+        _Entry(lambda group, x, y: _marker(group, x, y, "main", "internal"), "main antenna, at its feed"),
+        _Entry(lambda group, x, y: _marker(group, x, y, "receive", "internal"), "receive antenna"),
+        *([_Entry(lambda group, x, y: _marker(group, x, y, "gnss", "internal"), "GNSS antenna",
+                  "satellite navigation; not a cellular branch")] if "gnss" in roles else []),
+        *([_Entry(lambda group, x, y: _marker(group, x, y, "wlan", "internal"), "WLAN antenna",
+                  "Wi-Fi or Bluetooth; not a cellular branch")] if "wlan" in roles else []),
+        _Entry(lambda group, x, y: _marker(group, x, y, "main", "external"), "hollow: external antenna"),
+        _Entry(lambda group, x, y: _arrow(group, x, y, 1.0, 0.0, 11.0), "polarization axis",
+               "projected; shorter when tilted out of view"),
+        _Entry(lambda group, x, y: _out_of_page(group, x, y, dot=True), "axis out of the page"),
+    ])
 
 
 def _entry_height(entry: _Entry) -> float:
@@ -898,10 +1049,21 @@ def _scale_bar(group: Group, left: float, top: float, scale: float, width_pt: fl
 # -- the drawing ---------------------------------------------------------------------------------------------
 
 
-def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[PairLine], frequency_mhz: float,
-                 near_field_mm: float, quarter_wave_mm: float, side_view: bool, all_pairs: int,
-                 coexistence: Sequence[CoexistenceLine] = (), all_coexistence: int = 0) -> str:
-    product = design.product_name + (f", revision {design.product_revision}" if design.product_revision else "")
+def _product_words(design: Design, record: str) -> str:
+    """`Gate opener, hardware revision B, design revision 2`: the board's revision (from the design) and the
+    record's (from the caller) named apart."""
+    parts = [design.product_name or "this product"]
+    if design.product_revision:
+        parts.append(f"hardware revision {design.product_revision}")
+    if record:
+        parts.append(record)
+    return ", ".join(parts)
+
+
+def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[PairLine], frequency_mhz: float | None,
+                 near_field_mm: float | None, quarter_wave_mm: float | None, side_view: bool, all_pairs: int,
+                 coexistence: Sequence[CoexistenceLine] = (), all_coexistence: int = 0, record: str = "") -> str:
+    product = _product_words(design, record)
     sentences = [f"Top view of the antenna placement of {product}: positions in mm in the enclosure frame, "
                  f"x to the right and y up."]
     if design.enclosure_size_mm is not None:
@@ -928,6 +1090,8 @@ def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[Pair
         sentences.append("Pairs: " + "; ".join(
             f"{pair.first} to {pair.second} {_mm_text(pair.distance_mm)} mm apart, "
             f"{pair.severity or 'no finding'}" for pair in pairs) + ".")
+        if any(pair.severity == NOT_JUDGED for pair in pairs):
+            sentences.append("The spacing checks wait for an answer in the questionnaire, so no pair is judged yet.")
     if all_pairs > len(pairs):
         sentences.append(f"Lines are drawn for {len(pairs)} of the {all_pairs} pairs: those with a spacing "
                          f"finding, worst and nearest first, then the nearest others; the checklist lists "
@@ -937,7 +1101,10 @@ def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[Pair
             f"{line.cellular} to {line.victim}, {line.label}, {line.severity}" for line in coexistence) + ".")
     if all_coexistence > len(coexistence):
         sentences.append(f"Coexistence lines are drawn for the {len(coexistence)} worst of {all_coexistence}.")
-    if any(antenna.is_cellular for antenna in placed):
+    cellular_placed = any(antenna.is_cellular for antenna in placed)
+    if cellular_placed and frequency_mhz is None:
+        sentences.append("No band is chosen yet, so no near-field or quarter-wave circles are drawn.")
+    elif cellular_placed:
         sentences.append(f"Circles around each cellular antenna show the reactive near field, λ/2π = "
                          f"{near_field_mm:.1f} mm, and a quarter wave, λ/4 = {quarter_wave_mm:.1f} mm, at "
                          f"{frequency_mhz:g} MHz.")
@@ -946,27 +1113,36 @@ def _description(design: Design, placed: Sequence[Antenna], pairs: Sequence[Pair
     return " ".join(sentences)
 
 
-def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str], str], frequency_mhz: float,
-                      width_pt: float = 640, max_height_pt: float | None = None,
-                      coexistence: Sequence[CoexistenceLine] = ()) -> PlacementDrawing:
+def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str], str] | None,
+                      frequency_mhz: float | None, width_pt: float = 640, max_height_pt: float | None = None,
+                      coexistence: Sequence[CoexistenceLine] = (), record: str = "", editable: bool = False,
+                      keys_id: str = "placement-keys") -> PlacementDrawing:
     """The placement drawing of a design, `width_pt` wide, judged at `frequency_mhz` (the lowest
-    frequency in scope). `pair_severities` maps a pair of antenna names to its worst separation finding
-    (see `pair_severities_from_findings`); a pair of cellular antennas without an entry is drawn as having
-    none. `coexistence` (see `coexistence_lines_from_findings`) adds a dashed line per pair it names, the worst
-    MAX_COEXISTENCE_LINES of those whose antennas are both placed.
+    frequency in scope; None while a draft has no bands: no circles then). `pair_severities` maps a pair of
+    antenna names to its worst separation finding (see `pair_severities_from_findings`); a pair of cellular
+    antennas without an entry is drawn as having none; None draws every pair as not judged yet (a draft whose
+    spacing checks wait). `coexistence` (see `coexistence_lines_from_findings`) adds a dashed line per pair it
+    names, the worst MAX_COEXISTENCE_LINES of those whose antennas are both placed. `record` names the record
+    the drawing belongs to ("design revision 2"), beside the hardware revision.
     `max_height_pt` (say, a PDF frame's height) shrinks the scale until the drawing fits, as far as
     the fixed rows (title, legend) allow.
 
+    `editable` draws it for the draft page's placement editor: a side view whenever an antenna is placed (so
+    heights can be changed there too), a top view that keeps room for circles anywhere in the enclosure (so
+    moving an antenna doesn't rescale it), and each view's scale and origin, each antenna's parts and each pair
+    line tagged for the page's SVG (`_Marks`); `keys_id` names the page's text on the keys. The PDF's drawing
+    is never editable.
+
     The result's `layout` (and `scale_pt_per_mm`) tell where things were drawn."""
-    if not (math.isfinite(frequency_mhz) and frequency_mhz > 0):
+    if frequency_mhz is not None and not (math.isfinite(frequency_mhz) and frequency_mhz > 0):
         raise ValueError(f"frequency_mhz must be a positive number, got {frequency_mhz!r}")
     if not (math.isfinite(width_pt) and width_pt >= MIN_WIDTH_PT):
         raise ValueError(f"width_pt must be at least {MIN_WIDTH_PT:g}, got {width_pt!r}")
     if max_height_pt is not None and not (math.isfinite(max_height_pt) and max_height_pt > 0):
         raise ValueError(f"max_height_pt must be a positive number, got {max_height_pt!r}")
     width_pt = float(width_pt)
-    near_field_mm = physics.near_field_radius_mm(frequency_mhz)
-    quarter_wave_mm = physics.quarter_wave_mm(frequency_mhz)
+    near_field_mm = physics.near_field_radius_mm(frequency_mhz) if frequency_mhz is not None else None
+    quarter_wave_mm = physics.quarter_wave_mm(frequency_mhz) if frequency_mhz is not None else None
     pairs = _pairs([antenna for antenna in design.antennas if antenna.position_mm is not None and antenna.is_cellular],
                    pair_severities)
     drawn_pairs = _pairs_to_draw(pairs)
@@ -981,13 +1157,14 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
     placed = [antenna for antenna in drawn.antennas if antenna.position_mm is not None]
     unplaced = [antenna.name for antenna in drawn.antennas if antenna.position_mm is None]
     enclosure = _enclosure_box(drawn, placed)
-    ex0, ey0, ex1, ey1 = _top_extent(drawn, placed, enclosure, max(near_field_mm, quarter_wave_mm))
+    ex0, ey0, ex1, ey1 = _top_extent(drawn, placed, enclosure, max(near_field_mm or 0.0, quarter_wave_mm or 0.0),
+                                     steady=editable)
     heights = {antenna.position_mm[2] for antenna in placed}  # type: ignore[index]
-    side = _side_extent(drawn, placed) if len(heights) > 1 else None
+    side = _side_extent(drawn, placed) if len(heights) > 1 or (editable and placed) else None
 
     legend = _legend_columns(width_pt, _legend_groups(
         frequency_mhz, near_field_mm, quarter_wave_mm, frozenset(antenna.role for antenna in placed),
-        bool(drawn_coexistence)))
+        bool(drawn_coexistence), judged=pair_severities is not None))
     note_lines = simpleSplit(f"not placed: {', '.join(unplaced)} (no feed position given)", FONT_ITALIC, 8,
                              width_pt - 2 * MARGIN_PT) if unplaced else []
     if len(drawn_pairs) < len(pairs):
@@ -1019,24 +1196,29 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
     step_mm = _nice_at_least(MIN_GRID_SPACING_PT / scale)
     height_pt = math.ceil(fixed_height_pt + spans_mm * scale)
 
-    title = f"Placement — top view, judged at {frequency_mhz:g} MHz"
+    title = ("Placement — top view, no band chosen yet" if frequency_mhz is None
+             else f"Placement — top view, judged at {frequency_mhz:g} MHz")
     drawing = PlacementDrawing(width_pt, height_pt)
     group = Group()
     top = height_pt - MARGIN_PT
     group.add(String(MARGIN_PT, _baseline(top - 13), _fit_text(title, FONT_BOLD, 13, width_pt - 2 * MARGIN_PT),
                      fontName=FONT_BOLD, fontSize=13, fillColor=INK))
-    product = design.product_name + (f", revision {design.product_revision}" if design.product_revision else "")
-    subtitle = (f"{product} · positions in mm in the enclosure frame · pair lines coloured by spacing finding"
-                + (" · dashed: coexistence" if drawn_coexistence else ""))
+    product = _product_words(design, record)
+    subtitle = f"{product} · positions in mm in the enclosure frame"  # the legend explains the lines
     group.add(String(MARGIN_PT, _baseline(top - 29), _fit_text(subtitle, FONT, 8.5, width_pt - 2 * MARGIN_PT),
                      fontName=FONT, fontSize=8.5, fillColor=MUTED))
     top -= HEADER_PT + 12
 
     top_view = _View(panel_left_pt, top - top_height_pt, panel_width_pt, top_height_pt,
                      ex0 - PANEL_PAD_PT / scale, ey0 - PANEL_PAD_PT / scale, scale)
+    marks = None
+    if editable:
+        heights_mm = ((side[0] - SIDE_PAD_PT / scale, side[1] + SIDE_PAD_PT / scale) if side is not None
+                      else (0.0, 0.0))
+        marks = _Marks.of(design, top_view, heights_mm, keys_id)
     labels = Group()
     _top_view(group, labels, top_view, drawn, placed, drawn_pairs, enclosure, near_field_mm, quarter_wave_mm,
-              step_mm, drawn_coexistence)
+              step_mm, drawn_coexistence, marks)
     group.add(labels)
     top -= top_height_pt + TICK_ROW_PT
     scale_bar_mm = _scale_bar(group, panel_left_pt, top, scale, width_pt, panel_width_pt)
@@ -1049,7 +1231,7 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
         top -= SIDE_HEADING_PT + 12
         side_view = _View(panel_left_pt, top - side_height_pt, panel_width_pt, side_height_pt,
                           top_view.across_min_mm, side[0] - SIDE_PAD_PT / scale, scale)
-        _side_view(group, side_view, drawn, placed, step_mm)
+        _side_view(group, side_view, drawn, placed, step_mm, marks)
         top -= side_height_pt + TICK_ROW_PT
 
     top -= GAP_PT
@@ -1072,9 +1254,9 @@ def placement_drawing(design: Design, *, pair_severities: Mapping[frozenset[str]
         placed=tuple(antenna.name for antenna in placed),
         unplaced=tuple(unplaced),
         pairs=tuple(pairs),
-        title=f"Antenna placement of {design.product_name}",
+        title=f"Antenna placement of {design.product_name or 'this product'}",
         description=_description(design, placed, drawn_pairs, frequency_mhz, near_field_mm, quarter_wave_mm,
-                                 side is not None, len(pairs), drawn_coexistence, len(coexisting)),
+                                 side is not None, len(pairs), drawn_coexistence, len(coexisting), record),
         drawn_pairs=tuple(drawn_pairs),
         coexistence=tuple(drawn_coexistence),
     )
@@ -1110,33 +1292,60 @@ class _ExactColourSVGCanvas(renderSVG.SVGCanvas):
             self.style["fill"] = self._hex(color)
 
 
+class _TaggingSVGRenderer(renderSVG._SVGRenderer):
+    """The stock SVG renderer, writing a `_Tagged` group's attributes on its <g>. reportlab offers no hook for
+    attributes on a group; a group's <g> is the last child its parent has once the group is drawn."""
+
+    def drawGroup(self, group: Group) -> None:
+        parent = self._canvas.currGroup
+        super().drawGroup(group)
+        for name, value in (getattr(group, "svg_attributes", None) or {}).items():
+            parent.lastChild.setAttribute(name, value)
+
+
 def _clean_prefix(id_prefix: str) -> str:
     prefix = re.sub(r"[^A-Za-z0-9_-]+", "-", id_prefix).strip("-")
     return prefix if prefix[:1].isalpha() else f"p-{prefix}".rstrip("-")
 
 
-def placement_svg(design: Design, *, pair_severities: Mapping[frozenset[str], str], frequency_mhz: float,
-                  width_pt: float = 640, id_prefix: str = "placement",
-                  coexistence: Sequence[CoexistenceLine] = ()) -> str:
+def placement_svg(design: Design, *, pair_severities: Mapping[frozenset[str], str] | None,
+                  frequency_mhz: float | None, width_pt: float = 640, id_prefix: str = "placement",
+                  coexistence: Sequence[CoexistenceLine] = (), record: str = "", editable: bool = False) -> str:
     """The placement drawing as a standalone <svg> element to inline in HTML.
 
     It has role="img" and is labelled by its <title> and <desc> (a sentence listing the antennas, their
     positions, pair distances and findings, and the circle radii). Every id starts with `id_prefix`, so
     two drawings can share a page; it scales to its container, at most its natural width.
+
+    `editable` (the draft page) draws it for the placement editor (see `placement_drawing`): the <svg> is then
+    a group, not an image, since it holds a focusable marker per antenna and view, and it carries the
+    enclosure's size (`data-enclosure-mm`) and how many antennas the design has (`data-antennas`). Each marker
+    is described by the page's element `<id_prefix>-keys`, which says how to move and turn it.
     """
+    prefix = _clean_prefix(id_prefix)
     drawing = placement_drawing(design, pair_severities=pair_severities, frequency_mhz=frequency_mhz,
-                                width_pt=width_pt, coexistence=coexistence)
+                                width_pt=width_pt, coexistence=coexistence, record=record, editable=editable,
+                                keys_id=f"{prefix}-keys")
     layout: PlacementLayout = drawing.layout
-    return accessible_svg(drawing, title=layout.title, description=layout.description, id_prefix=id_prefix)
+    editor = None
+    if editable:
+        editor = {"data-placement-editor": "", "data-antennas": str(len(design.antennas))}
+        if design.enclosure_size_mm is not None:
+            editor["data-enclosure-mm"] = _numbers(design.enclosure_size_mm)
+    return accessible_svg(drawing, title=layout.title, description=layout.description, id_prefix=id_prefix,
+                          editor=editor)
 
 
-def accessible_svg(drawing: Drawing, *, title: str, description: str, id_prefix: str) -> str:
+def accessible_svg(drawing: Drawing, *, title: str, description: str, id_prefix: str,
+                   editor: Mapping[str, str] | None = None) -> str:
     """Any drawing as a standalone <svg> element to inline in HTML: role="img", labelled by its <title>
     and <desc>, every id prefixed with `id_prefix` (cleaned to a valid id start), palette colours written
-    exactly, and a width that follows its container up to the drawing's natural width."""
+    exactly, and a width that follows its container up to the drawing's natural width. With `editor` (the
+    attributes of an editable drawing) it is a group labelled by its title and described by its description,
+    holding focusable parts that an image may not."""
     canvas = _ExactColourSVGCanvas((drawing.width, drawing.height),
                                    fontHacks={font: dict(attrs) for font, attrs in _SVG_FONTS.items()})
-    renderSVG.draw(drawing, canvas, 0, 0, showBoundary=False)
+    _TaggingSVGRenderer().draw(renderSVG.renderScaledDrawing(drawing), canvas, 0, 0, showBoundary=False)
     prefix = _clean_prefix(id_prefix)
     svg = canvas.svg
 
@@ -1167,6 +1376,13 @@ def accessible_svg(drawing: Drawing, *, title: str, description: str, id_prefix:
     svg.setAttribute("width", "100%")
     svg.setAttribute("viewBox", f"0 0 {drawing.width:g} {drawing.height:g}")
     svg.setAttribute("style", f"max-width: {drawing.width:g}px; height: auto;")
-    svg.setAttribute("role", "img")
-    svg.setAttribute("aria-labelledby", f"{prefix}-title {prefix}-desc")
+    if editor is None:
+        svg.setAttribute("role", "img")
+        svg.setAttribute("aria-labelledby", f"{prefix}-title {prefix}-desc")
+    else:
+        svg.setAttribute("role", "group")
+        svg.setAttribute("aria-labelledby", f"{prefix}-title")
+        svg.setAttribute("aria-describedby", f"{prefix}-desc")
+        for name, value in editor.items():
+            svg.setAttribute(name, value)
     return svg.toxml()

@@ -14,11 +14,11 @@ from django.core.files.base import ContentFile
 from django.db import transaction
 from django.utils import timezone
 
+from projectapp.audit.models import AuditEvent
+from projectapp.audit.services import audit_record
 from projectapp.library.access import require_editor
 from projectapp.library.models import Entry, EntryFile
 from projectapp.library.parts import ANTENNA, MODULE, part_problems
-from projectapp.reviews.audit import audit_record
-from projectapp.reviews.models import AuditEvent
 from projectapp.teams.models import Team
 from rules.design import Problem
 from rules.touchstone import TouchstoneError, parse_touchstone

@@ -13,6 +13,7 @@ from django.http import FileResponse, Http404, HttpResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.views.decorators.http import require_GET, require_http_methods, require_POST
 
+from projectapp.audit.services import audit_trail
 from projectapp.library import services
 from projectapp.library.access import can_edit, get_entry_for_user, get_team_for_user, require_editor
 from projectapp.library.forms import (
@@ -29,7 +30,6 @@ from projectapp.library.forms import (
 )
 from projectapp.library.models import Entry
 from projectapp.library.parts import ANTENNA, MODULE
-from projectapp.reviews.audit import audit_trail
 from projectapp.teams.access import teams_of
 
 SHOWN_PROBLEMS = 200  # an import can carry thousands; the first ones say what is wrong

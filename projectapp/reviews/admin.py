@@ -1,10 +1,9 @@
-"""The review records in the admin, read-only: decisions are made in the app, and the audit trail is
-never edited by anyone."""
+"""The review records in the admin, read-only: decisions are made in the app."""
 
 from django.contrib import admin
 
 from projectapp.read_only_admin import ReadOnlyAdmin
-from projectapp.reviews.models import AuditEvent, Comment, ReviewItem
+from projectapp.reviews.models import Comment, ReviewItem
 
 
 @admin.register(ReviewItem)
@@ -16,9 +15,3 @@ class ReviewItemAdmin(ReadOnlyAdmin):
 @admin.register(Comment)
 class CommentAdmin(ReadOnlyAdmin):
     list_display = ["item", "author", "created_at"]
-
-
-@admin.register(AuditEvent)
-class AuditEventAdmin(ReadOnlyAdmin):
-    list_display = ["created_at", "actor", "action", "summary", "product"]
-    list_filter = ["action", "product"]

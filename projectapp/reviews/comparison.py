@@ -5,6 +5,7 @@ from typing import Any
 
 from projectapp.designs.checklists import checklist_for
 from projectapp.designs.models import Revision
+from projectapp.designs.upgrades import finding_key
 
 
 def flatten(value: Any, path: str = "") -> dict[str, Any]:
@@ -44,8 +45,8 @@ class Comparison:
 
 def _findings_by_key(revision: Revision) -> tuple[dict[tuple[str, tuple[str, ...]], dict[str, Any]], list[str]]:
     state = checklist_for(revision)
-    keyed = {(finding["id"], tuple(finding.get("subjects", []))): finding for finding in state.findings}
-    return keyed, [f"revision {revision.number}: {problem}" for problem in state.problems]
+    keyed = {finding_key(finding): finding for finding in state.findings}  # one identity with rule-set upgrades
+    return keyed, [f"design revision {revision.number}: {problem}" for problem in state.problems]
 
 
 def compare_revisions(older: Revision, newer: Revision) -> Comparison:

@@ -1,7 +1,8 @@
 from django import forms
 
 from projectapp.filters import FilterForm, choice_field, id_field
-from projectapp.reviews.models import Disposition
+from projectapp.paging import page_field
+from projectapp.reviews.models import Disposition, StepStatus
 from rules.findings import SEVERITIES, TOPICS
 
 
@@ -21,6 +22,30 @@ class AssignForm(forms.Form):
         self.fields["assignee"].queryset = people
 
 
+class StepForm(forms.Form):
+    owner = forms.ModelChoiceField(queryset=None, required=False, empty_label="nobody")
+    planned_on = forms.DateField(required=False, label="Planned date",
+                                 widget=forms.DateInput(attrs={"type": "date"}),
+                                 error_messages={"invalid": "expected a date as YYYY-MM-DD"})
+    status = forms.ChoiceField(choices=StepStatus.choices)
+    reference = forms.CharField(required=False, max_length=200, label="Lab's or operator's reference")
+    version = forms.IntegerField(widget=forms.HiddenInput)
+
+    def __init__(self, *args, people, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.fields["owner"].queryset = people
+
+
+class TopicReviewersForm(forms.Form):
+    """A default reviewer per topic (a field per topic, named by it); nobody leaves the topic's items unassigned."""
+
+    def __init__(self, *args, people, **kwargs):
+        super().__init__(*args, **kwargs)
+        for topic in TOPICS:
+            self.fields[topic] = forms.ModelChoiceField(queryset=people, required=False, empty_label="nobody",
+                                                        label=topic)  # the topic as the checklist and dashboard name it
+
+
 class ConfirmForm(forms.Form):
     version = forms.IntegerField(widget=forms.HiddenInput)
 
@@ -36,6 +61,7 @@ class DashboardFilterForm(FilterForm):
     assignee = forms.RegexField(regex=r"^(me|nobody|[0-9]{1,18})$", required=False, error_messages={
         "invalid": "expected me, nobody or a person's number from the list"})
     state = choice_field(("open", "all"))
+    page = page_field()
 
 
 class CompareForm(FilterForm):

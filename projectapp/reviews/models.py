@@ -1,11 +1,12 @@
-"""Review of a submitted revision: one item per finding, its disposition, comments, and the audit trail.
+"""Review of a submitted revision: one item per finding, its disposition, and comments.
 
 An item carries its finding as submitted (the frozen checklist entry) and what the team decided about
 it. Items are matched across revisions by rule id and subjects, so a decision carries forward to the
 next revision until someone confirms it, unless the finding's severity rose: a decision taken on a
 warning never becomes a decision on a blocker. Each item keeps its decision's provenance: who decided,
 when, in which revision and on which severity; what the previous revision had decided (carried or
-not); who confirmed a carried decision here. The audit trail is append-only: the model refuses changes.
+not); who confirmed a carried decision here. Items and comments change only while the revision is in
+review (designs.lifecycle: the state, read from the revision's row).
 """
 
 import hashlib
@@ -13,9 +14,11 @@ import hashlib
 from django.conf import settings
 from django.db import models
 from django.urls import reverse
+from django.utils import timezone
 
-from projectapp.designs.models import Product, Revision
-from projectapp.teams.models import Team
+from projectapp.designs import lifecycle
+from projectapp.designs.models import Revision
+from projectapp.reviews import steps
 
 
 class Disposition(models.TextChoices):
@@ -30,16 +33,16 @@ class Disposition(models.TextChoices):
 SETTLED = (Disposition.CHANGE, Disposition.WAIVED, Disposition.NOT_APPLICABLE)
 NEEDS_JUSTIFICATION = (Disposition.WAIVED, Disposition.NOT_APPLICABLE)
 SEVERITY_RANK = {"note": 0, "warning": 1, "blocker": 2}  # higher is graver
+# The items that still need someone: open, under discussion, or carried from an earlier revision and not confirmed.
+# An item tracked as a step outside the team (ProcessStep, reviews.steps) is planned, not decided: never open.
+OPEN_ITEMS = ((models.Q(disposition__in=[Disposition.OPEN, Disposition.DISCUSSION])
+               | models.Q(carried_from__isnull=False, carried_confirmed=False))
+              & models.Q(process_step__isnull=True))
 
 
 class SignedRevisionError(RuntimeError):
-    """A review item (or comment) of a revision that is being or has been signed can't change."""
-
-
-def is_signing_started(revision_id: int) -> bool:
-    from projectapp.signoff.models import Signature
-
-    return Signature.objects.filter(revision_id=revision_id).exists()
+    """A review item (or comment) of a revision whose review is closed (signing started, signed, superseded or
+    withdrawn: designs.lifecycle) can't change."""
 
 
 def subjects_digest(subjects_key: str) -> str:
@@ -66,10 +69,8 @@ class ReviewItemQuerySet(models.QuerySet):
             *(f"{name}__{field}" for name in PROVENANCE_REVISIONS for field in ("document", "evaluation")))
 
     def update(self, **kwargs):
-        from projectapp.signoff.models import Signature
-
-        if Signature.objects.filter(revision__in=self.values("revision")).exists():
-            raise SignedRevisionError("review items of a signed revision are frozen")
+        if not lifecycle.review_open_in_database(self.values("revision")):
+            raise SignedRevisionError("review items of a revision whose review is closed are frozen")
         return super().update(**kwargs)
 
 
@@ -93,8 +94,11 @@ class ReviewItem(models.Model):
     decided_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
                                    related_name="+")
     decided_at = models.DateTimeField(null=True, blank=True)
+    # Not indexed on its own: with one, SQLite's planner answered "my queue" by walking every item ever assigned to
+    # the person and checking each one's revision; without, it reads the revisions in review and their items
+    # (benchmarks/lists.py). Unassigning on a person's deletion reads the table, which is rare.
     assignee = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
-                                 related_name="review_items")
+                                 related_name="review_items", db_index=False)
     # Provenance of the decision in force: the revision it was made in and the finding's severity then.
     decided_in = models.ForeignKey(Revision, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
     decided_severity = models.CharField(max_length=10, blank=True)
@@ -121,11 +125,11 @@ class ReviewItem(models.Model):
         ]
 
     def __str__(self) -> str:
-        return f"{self.rule_id} {self.subjects_key or '—'} (revision {self.revision.number})"
+        return f"{self.rule_id} {self.subjects_key or '—'} (design revision {self.revision.number})"
 
     def save(self, *args, **kwargs):
-        if self.revision_id and is_signing_started(self.revision_id):
-            raise SignedRevisionError("review items of a signed revision are frozen")
+        if self.revision_id and not lifecycle.review_open_in_database(self.revision_id):
+            raise SignedRevisionError("review items of a revision whose review is closed are frozen")
         self.subjects_digest = subjects_digest(self.subjects_key)
         super().save(*args, **kwargs)
 
@@ -170,7 +174,10 @@ class Comment(models.Model):
     item = models.ForeignKey(ReviewItem, on_delete=models.PROTECT, related_name="comments")
     author = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
     text = models.TextField()
-    created_at = models.DateTimeField(auto_now_add=True)
+    # Comments carry forward with their items: a copy on the next revision's item keeps the time it was written
+    # and the revision it was written on (so not auto_now_add, which would stamp the copy's time).
+    created_at = models.DateTimeField(default=timezone.now)
+    written_on = models.ForeignKey(Revision, on_delete=models.PROTECT, related_name="+", null=True)
 
     class Meta:
         ordering = ["created_at", "id"]
@@ -179,67 +186,120 @@ class Comment(models.Model):
         return f"comment by {self.author} on {self.item}"
 
     def save(self, *args, **kwargs):
-        if is_signing_started(self.item.revision_id):
-            raise SignedRevisionError("the discussion of a signed revision is closed")
+        if not lifecycle.review_open_in_database(self.item.revision_id):
+            raise SignedRevisionError("the discussion of a revision whose review is closed is closed too")
         super().save(*args, **kwargs)
 
 
-class AppendOnlyError(RuntimeError):
-    """The audit trail can't be edited or deleted."""
+class ReviewTally(models.Model):
+    """One revision's open raised items (OPEN_ITEMS) counted by severity, topic and assignee: what the review
+    dashboard sums, a row per revision in review, instead of counting every item on every look. Every write that
+    changes an item refreshes it in the same transaction, under the revision's lock (reviews.services)."""
 
-
-class AuditEvent(models.Model):
-    class Action(models.TextChoices):
-        SUBMITTED = "submitted", "Submitted a revision"
-        SIGNED = "signed", "Signed"
-        ARCHIVED = "archived", "Archived the signed record"
-        DISPOSITION = "disposition", "Recorded a disposition"
-        WAIVER = "waiver", "Granted a waiver"
-        CONFIRMED = "confirmed", "Confirmed a carried disposition"
-        COMMENT = "comment", "Commented"
-        ASSIGNED = "assigned", "Assigned"
-        DRAFT_STARTED = "draft-started", "Started a draft"
-        SECTION_SAVED = "section-saved", "Saved a questionnaire section"
-        IMPORTED = "imported", "Imported a design file"
-        FILE_ADDED = "file-added", "Added a measurement file"
-        FILE_MAPPED = "file-mapped", "Mapped a measurement's ports"
-        FILE_REMOVED = "file-removed", "Removed a measurement file"
-        LIBRARY_FILLED = "library-filled", "Filled a part from the library"
-        LIBRARY_APPLIED = "library-applied", "Applied a library change"
-        PART_CREATED = "part-created", "Added a library part"
-        PART_CHANGED = "part-changed", "Changed a library part"
-        PART_RETIRED = "part-retired", "Retired a library part"
-        PART_RESTORED = "part-restored", "Restored a library part"
-        PART_FILE_ADDED = "part-file-added", "Added a file to a library part"
-        PART_FILE_REMOVED = "part-file-removed", "Removed a file from a library part"
-
-    # A design or review event belongs to a product; a parts-library event to its team alone, with
-    # `subject` naming the library entry ("library-entry:<id>").
-    product = models.ForeignKey(Product, on_delete=models.PROTECT, null=True, blank=True,
-                                related_name="audit_events")
-    team = models.ForeignKey(Team, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
-    subject = models.CharField(max_length=80, blank=True, db_index=True)
-    revision = models.ForeignKey(Revision, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
-    item = models.ForeignKey(ReviewItem, on_delete=models.PROTECT, null=True, blank=True, related_name="audit_events")
-    actor = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
-    action = models.CharField(max_length=24, choices=Action.choices)
-    summary = models.CharField(max_length=300)
-    changes = models.JSONField(default=dict)  # {"field": [before, after], ...}; design paths for design edits
-    draft_version = models.PositiveIntegerField(null=True, blank=True)  # the draft version a design edit made
-    created_at = models.DateTimeField(auto_now_add=True)
-
-    class Meta:
-        ordering = ["-created_at", "-id"]
+    revision = models.OneToOneField(Revision, on_delete=models.CASCADE, primary_key=True, related_name="review_tally")
+    open_items = models.PositiveIntegerField(default=0)
+    groups = models.JSONField(default=list)  # [[severity, topic, assignee id or null, count], ...]
 
     def __str__(self) -> str:
-        return f"{self.created_at:%Y-%m-%d %H:%M} {self.actor}: {self.summary}"
+        return f"{self.open_items} open item(s) of revision {self.revision_id}"
+
+
+class StepStatus(models.TextChoices):
+    PLANNED = "planned", "Planned"
+    IN_PROGRESS = "in-progress", "In progress"
+    PASSED = "passed", "Passed"
+    FAILED = "failed", "Failed"
+
+
+class ProcessStep(models.Model):
+    """A step outside the team that a finding names (reviews.steps): who owns it, when it is planned, where it
+    stands and the lab's or operator's reference. It never blocks sign-off of the design review (reviews.gate
+    skips its item); it carries forward to the next revision with its status and history, and is frozen once
+    signing starts: the record shows it as it stood at signing."""
+
+    revision = models.ForeignKey(Revision, on_delete=models.PROTECT, related_name="process_steps")
+    item = models.OneToOneField(ReviewItem, on_delete=models.PROTECT, related_name="process_step")
+    owner = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, blank=True,
+                              related_name="+")
+    planned_on = models.DateField(null=True, blank=True)
+    status = models.CharField(max_length=12, choices=StepStatus.choices, default=StepStatus.PLANNED)
+    reference = models.CharField(max_length=200, blank=True)  # the lab's report number, the operator's case id
+    # Every change as [iso time, username, revision number, {field: [before, after]}], carried forward whole.
+    history = models.JSONField(default=list)
+    carried_from = models.ForeignKey(Revision, on_delete=models.PROTECT, null=True, blank=True, related_name="+")
+    version = models.PositiveIntegerField(default=1)
+    updated_at = models.DateTimeField(auto_now=True)
+
+    class Meta:
+        ordering = ["revision", "item_id"]
+
+    def __str__(self) -> str:
+        return f"step {self.item.rule_id} ({self.get_status_display()}) of revision {self.revision.number}"
 
     def save(self, *args, **kwargs):
-        if self.pk is not None:
-            raise AppendOnlyError("audit events are never changed")
-        if self.team_id is None and self.product_id is not None:
-            self.team_id = self.product.team_id  # every event names its team, whichever path wrote it
+        if self.revision_id and not lifecycle.review_open_in_database(self.revision_id):
+            raise SignedRevisionError("the steps of a revision whose review is closed are frozen")
+        super().save(*args, **kwargs)
+
+    @property
+    def decided_by(self) -> str:
+        return steps.decided_by(topic=self.item.topic, rule_id=self.item.rule_id)
+
+
+MAX_ATTACHMENT_BYTES = 10_000_000  # a scanned approval letter or a lab report; larger belongs in the lab's system
+
+
+def attachment_upload_to(instance: "EvidenceAttachment", filename: str) -> str:
+    return f"evidence/product-{instance.revision.product_id}/rev-{instance.revision.number}/{instance.sha256[:16]}-{filename}"
+
+
+class EvidenceAttachment(models.Model):
+    """A file a decision or a step rests on (an operator's approval letter, a lab report), kept with its SHA-256
+    and size. Served only to the team as a download, never inline; frozen once the review closes."""
+
+    revision = models.ForeignKey(Revision, on_delete=models.PROTECT, related_name="evidence")
+    item = models.ForeignKey(ReviewItem, on_delete=models.PROTECT, null=True, blank=True, related_name="evidence")
+    step = models.ForeignKey(ProcessStep, on_delete=models.PROTECT, null=True, blank=True, related_name="evidence")
+    name = models.CharField(max_length=120)
+    file = models.FileField(upload_to=attachment_upload_to)
+    size_bytes = models.PositiveIntegerField()
+    sha256 = models.CharField(max_length=64)
+    uploaded_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, related_name="+")
+    uploaded_at = models.DateTimeField(auto_now_add=True)
+
+    class Meta:
+        ordering = ["revision", "id"]
+
+    def __str__(self) -> str:
+        return self.name
+
+    def save(self, *args, **kwargs):
+        if not lifecycle.review_open_in_database(self.revision_id):
+            raise SignedRevisionError("the evidence of a revision whose review is closed is frozen")
         super().save(*args, **kwargs)
 
     def delete(self, *args, **kwargs):
-        raise AppendOnlyError("audit events are never deleted")
+        raise SignedRevisionError("evidence is kept: it is part of the review's record")
+
+    @property
+    def supports(self) -> str:
+        """What the file is evidence for, in the record's words."""
+        item = self.step.item if self.step_id else self.item
+        kind = "step" if self.step_id else "decision"
+        return f"{kind} on {item.rule_id} {item.title}" if item else kind
+
+
+class TopicReviewer(models.Model):
+    """A team's default reviewer for one topic: submitting a revision assigns each raised item of that topic to
+    them (unless the item carries an assignee from the previous revision)."""
+
+    team = models.ForeignKey("teams.Team", on_delete=models.CASCADE, related_name="topic_reviewers")
+    topic = models.CharField(max_length=40)
+    reviewer = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
+
+    class Meta:
+        constraints = [models.UniqueConstraint(fields=["team", "topic"], name="one_default_reviewer_per_topic")]
+
+    def __str__(self) -> str:
+        return f"{self.topic}: {self.reviewer} ({self.team})"
+

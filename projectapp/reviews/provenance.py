@@ -41,18 +41,18 @@ def decision_lines(item: ReviewItem, *, approver_ids: set[int] | None = None) ->
     lines: list[Line] = []
     if item.decided_by_id is not None:
         where = ("in this revision" if item.decided_in_id in (None, item.revision_id)
-                 else f"in revision {item.decided_in.number}")
+                 else f"in design revision {item.decided_in.number}")
         graver = (f", when it was a {item.decided_severity}"
                   if item.decided_severity and item.decided_severity != item.severity else "")
         lines.append(Line(f"Decided by {person(item.decided_by)}, {when(item.decided_at)}, {where}{graver}."))
     previous = item.previous_decision or {}
     if item.is_carried_unconfirmed:
-        lines.append(Line(f"carried from revision {item.carried_from.number} — not yet confirmed", attention=True))
+        lines.append(Line(f"carried from design revision {item.carried_from.number} — not yet confirmed", attention=True))
     elif item.carried_from_id is not None and item.confirmed_by_id is not None:
-        lines.append(Line(f"Carried from revision {item.carried_from.number}; confirmed here by "
+        lines.append(Line(f"Carried from design revision {item.carried_from.number}; confirmed here by "
                           f"{person(item.confirmed_by)}, {when(item.confirmed_at)}."))
     elif item.carried_from_id is not None:
-        carried_in = f"Revision {item.carried_from.number} carried in"
+        carried_in = f"Design revision {item.carried_from.number} carried in"
         if previous.get("carried"):
             carried_in += (f": {disposition_label(previous['disposition'])}, decided by "
                            f"{previous.get('decided_by_name') or 'someone'}, {when(previous.get('decided_at'))}")
@@ -62,7 +62,7 @@ def decision_lines(item: ReviewItem, *, approver_ids: set[int] | None = None) ->
         lower = min(previous["severity"], previous.get("decided_severity") or previous["severity"],
                     key=lambda severity: SEVERITY_RANK.get(severity, 9))
         lines.append(Line(
-            f"Revision {previous['revision']} had {disposition_label(previous['disposition'])} "
+            f"Design revision {previous['revision']} had {disposition_label(previous['disposition'])} "
             f"({previous.get('decided_by_name') or 'someone'}, {when(previous.get('decided_at'))}) with this "
             f"finding a {lower}; not carried: it is a {item.severity} now and needs a new decision."))
     if approver_ids is not None and item.severity == "blocker" and item.disposition == Disposition.WAIVED:

@@ -26,6 +26,7 @@ from projectapp.signoff.models import SignedRecord, Supersession
 
 MANIFEST = "manifest.json"
 FORMAT = "earshot-archive/1"
+PACK_FORMAT = "earshot-pack/1"  # one signed revision's export pack (signoff.export_pack): `files`, not `records`
 MAX_ENTRIES = 100_000
 MAX_RECORD_BYTES = MAX_VERIFY_BYTES  # what the Verify page accepts; a record is well under 1 MB
 MAX_MANIFEST_BYTES = 100_000_000  # about 1 kB a record
@@ -104,6 +105,7 @@ def verify_archive(path: Path, *, against_database: bool = True) -> ArchiveCheck
         except ArchiveRefused as error:
             return _refused(result, str(error))
         listed: set[str] = set()
+        is_pack = manifest.get("format") == PACK_FORMAT
         for index, entry in enumerate(entries):
             name = entry["file"]
             if name in listed:
@@ -121,14 +123,17 @@ def verify_archive(path: Path, *, against_database: bool = True) -> ArchiveCheck
             result.checked += 1
             if digest != entry["sha256"]:
                 result.problems.append(f"{name}: SHA-256 {digest} does not match the manifest's {entry['sha256']:.80}")
-            elif against_database and not SignedRecord.objects.filter(sha256=digest).exists():
+            elif (against_database and (not is_pack or entry.get("role") == "signed-record")
+                  and not SignedRecord.objects.filter(sha256=digest).exists()):
                 result.problems.append(f"{name}: not an archived record in this database")
         for name in infos:
             if name != MANIFEST and name not in listed:
                 result.problems.append(f"{name}: in the zip but not in the manifest")
+        if is_pack and not any(entry.get("role") == "signed-record" for entry in entries):
+            result.problems.append(f"{MANIFEST}: the pack lists no signed record")
         if not entries:
             result.problems.append(f"{MANIFEST}: the archive lists no signed record: nothing was verified")
-        if against_database:
+        if against_database and not is_pack:
             result.problems += _missing_records(manifest, {entry["sha256"] for entry in entries})
     result.problem_count = len(result.problems)
     if len(result.problems) > MAX_PROBLEMS_SHOWN:
@@ -206,18 +211,19 @@ def _read_manifest(archive: zipfile.ZipFile, infos: dict[str, zipfile.ZipInfo]) 
         raise ArchiveRefused(f"{MANIFEST}: not JSON ({error})") from None
     if not isinstance(manifest, dict):
         raise ArchiveRefused(f"{MANIFEST}: expected an object, got {_kind(manifest)}")
-    if manifest.get("format") != FORMAT:
-        raise ArchiveRefused(f"{MANIFEST}: format expected {FORMAT}, got {manifest.get('format')!r:.80}")
+    if manifest.get("format") not in (FORMAT, PACK_FORMAT):
+        raise ArchiveRefused(f"{MANIFEST}: format expected {FORMAT} or {PACK_FORMAT}, got {manifest.get('format')!r:.80}")
     return manifest
 
 
 def _manifest_entries(manifest: dict[str, Any]) -> list[dict[str, Any]]:
-    records = manifest.get("records")
+    key = "files" if manifest.get("format") == PACK_FORMAT else "records"
+    records = manifest.get(key)
     if not isinstance(records, list):
-        raise ArchiveRefused(f"{MANIFEST}: records: expected a list, got {_kind(records)}")
+        raise ArchiveRefused(f"{MANIFEST}: {key}: expected a list, got {_kind(records)}")
     problems = []
     for index, entry in enumerate(records):
-        where = f"{MANIFEST}: records[{index}]"
+        where = f"{MANIFEST}: {key}[{index}]"
         if not isinstance(entry, dict):
             problems.append(f"{where}: expected an object, got {_kind(entry)}")
             continue
@@ -262,6 +268,6 @@ def _missing_records(manifest: dict[str, Any], listed: set[str]) -> list[str]:
     missing = (SignedRecord.objects.filter(sha256__in=absent[:100]).select_related("revision__product")
                .order_by("created_at", "id"))
     more = [f"… and {len(absent) - 100} more archived before this export but missing from it"] if len(absent) > 100 else []
-    return [f"{record.revision.product.name} revision {record.revision.number} (archived "
+    return [f"{record.revision.product.name} design revision {record.revision.number} (archived "
             f"{record.created_at:%Y-%m-%d %H:%M} UTC, SHA-256 {record.sha256[:16]}…): archived before this export "
             "but missing from it" for record in missing] + more

@@ -1,6 +1,7 @@
 from django import forms
 
-from projectapp.filters import FilterForm, choice_field, date_field, id_field
+from projectapp.filters import FilterForm, choice_field, date_field, id_field, text_field
+from projectapp.paging import page_field
 from rules.catalog import categories
 
 MAX_VERIFY_BYTES = 30_000_000
@@ -28,12 +29,11 @@ class VerifyForm(forms.Form):
 
 
 class ArchiveFilterForm(FilterForm):
-    q = forms.CharField(required=False, max_length=200, error_messages={
-        "max_length": "expected at most %(limit_value)d characters", "null_characters_not_allowed":
-        "control character U+0000 not allowed"})
+    q = text_field()
     product = id_field("a product's number")
     category = choice_field(tuple(categories()))
     signer = id_field("a signer's number")
     since = date_field()
     until = date_field()
     state = choice_field(("current", "superseded"))
+    page = page_field()

@@ -55,7 +55,7 @@ from projectapp.figures.placement import (
     pair_severities_from_findings,
     placement_drawing,
 )
-from projectapp.reviews.models import ReviewItem
+from projectapp.reviews.models import EvidenceAttachment, ProcessStep, ReviewItem
 from projectapp.reviews.provenance import decision_lines
 from projectapp.reviews.services import approver_ids
 from projectapp.signoff.record_fonts import (
@@ -278,9 +278,13 @@ def _band_table(checklist: dict[str, Any]) -> list[Flowable]:
     ]
 
 
-def _checklist(items: list[ReviewItem], approvers: set[int]) -> list[Flowable]:
+def _checklist(items: list[ReviewItem], approvers: set[int], stepped: set[int]) -> list[Flowable]:
     rows = [["Severity, basis", "Rule", "Finding", "Decision", "Justification"]]
     for item in items:
+        if item.pk in stepped:  # not a decision of this review: the steps table below says where it stands
+            rows.append([p(item.severity.upper(), CELL), f"{item.rule_id}\n{', '.join(item.subjects)}", item.title,
+                         p("Tracked as an external step (below)"), "—"])
+            continue
         severity = [Paragraph(f'<font color="{SEVERITY_COLOURS[item.severity].hexval().replace("0x", "#")}">'
                               f"<b>{esc(item.severity.upper())}</b></font>", CELL),
                     p(basis_words(item.finding) or "—", CELL_MUTED)]
@@ -291,6 +295,36 @@ def _checklist(items: list[ReviewItem], approvers: set[int]) -> list[Flowable]:
                      _justification_in_table(item)])
     return [p("Checklist and dispositions", H2),
             grid_table(rows, [18 * mm, 22 * mm, 40 * mm, 52 * mm, FRAME_WIDTH - 132 * mm])]
+
+
+def _external_steps(revision: Revision) -> list[Flowable]:
+    """The steps outside the team as they stood at signing (frozen since: reviews.models.ProcessStep)."""
+    steps = list(ProcessStep.objects.filter(revision=revision).select_related("item", "owner").order_by("item_id"))
+    if not steps:
+        return []
+    rows = [["Rule", "Step", "Status", "Owner", "Planned", "Reference"]]
+    for step in steps:
+        rows.append([f"{step.item.rule_id}\n{', '.join(step.item.subjects)}",
+                     f"{step.item.title}\nDecided by {step.decided_by}" if step.decided_by else step.item.title,
+                     step.get_status_display(), step.owner.get_username() if step.owner else "nobody",
+                     f"{step.planned_on:%Y-%m-%d}" if step.planned_on else "—", step.reference or "—"])
+    return [p("Open external steps", H2),
+            p("Certification, operator acceptance and RF-exposure evaluation are a lab's, a regulator's or an "
+              "operator's to decide; they did not hold up this sign-off. Their state at signing:", MUTED_SMALL),
+            grid_table(rows, [22 * mm, FRAME_WIDTH - 122 * mm, 20 * mm, 22 * mm, 22 * mm, 36 * mm]),
+            Spacer(1, 4 * mm)]
+
+
+def _evidence_files(revision: Revision) -> list[Flowable]:
+    files = list(EvidenceAttachment.objects.filter(revision=revision).select_related("item", "step__item")
+                 .order_by("id"))
+    if not files:
+        return []
+    rows = [["File", "SHA-256", "Supports"]]
+    rows += [[f"{f.name}\n{f.size_bytes} bytes", f.sha256, f.supports] for f in files]
+    return [p("Evidence files", H2),
+            p("Kept with the review; the export pack carries each file, checkable against its SHA-256.", MUTED_SMALL),
+            grid_table(rows, [40 * mm, 62 * mm, FRAME_WIDTH - 102 * mm]), Spacer(1, 4 * mm)]
 
 
 def _is_cut(item: ReviewItem) -> bool:
@@ -331,8 +365,10 @@ def _finding_details(items: list[ReviewItem], digests: dict[str, str]) -> list[F
                       f"{' · ' + esc(basis) if basis else ''}"
                       f" — {esc(finding['title'])}", BODY),
             p(finding["explanation"], SMALL),
-            Paragraph(f"<b>Action:</b> {esc(finding['action'])}", SMALL),
         ]
+        if finding.get("product_impact"):  # findings submitted before the impact line existed have none
+            block.append(Paragraph(f"<b>For the product:</b> {esc(finding['product_impact'])}", SMALL))
+        block.append(Paragraph(f"<b>Action:</b> {esc(finding['action'])}", SMALL))
         cleared = outranked(finding, digests)
         if cleared:
             design_severity = finding.get("evidence", {}).get("design_severity")
@@ -459,7 +495,7 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
     grouped = " ".join(fingerprint[index:index + 4] for index in range(0, 32, 4))
     # The footer's line leaves room for "page 999 of 999"; a long product name is cut to fit (the cover
     # has it whole).
-    suffix = f" · revision {revision.number} · fingerprint {grouped}"
+    suffix = f" · design revision {revision.number} · fingerprint {grouped}"
     room_pt = FRAME_WIDTH - 60 - text_width(suffix, size=7)
     footer = fit(product.name, size=7, width=room_pt) + suffix
 
@@ -467,11 +503,13 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
     story: list[Flowable] = [
         Spacer(1, 25 * mm),
         p("Antenna design record", H1),
-        p(f"{product.name} — revision {revision.number}", H2),
+        p(f"{product.name} — design revision {revision.number}", H2),
         Spacer(1, 6 * mm),
         grid_table([
             ["Product", product.name], ["Team", product.team.name],
-            ["Design revision", f"{revision.number} (hardware revision {design.product_revision or 'not given'})"],
+            ["Design revision", f"{revision.number} (this record's number)"],
+            ["Hardware revision", f"{design.product_revision} (the board the design describes)"
+             if design.product_revision else "not given"],
             ["UE category", f"{design.modem.category.label} ({design.modem.category.id})"],
             ["Status", "signed and archived; current when signed"],
             ["Rule set", revision.ruleset],
@@ -495,10 +533,14 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
         *_figure("placement drawing", lambda: placement_drawing(
             design, pair_severities=pair_severities_from_findings(checklist["findings"]),
             frequency_mhz=design.lowest_mhz, width_pt=FRAME_WIDTH, max_height_pt=PAGE_HEIGHT - 80 * mm,
-            coexistence=coexistence_lines_from_findings(checklist["findings"], design))),
+            coexistence=coexistence_lines_from_findings(checklist["findings"], design),
+            record=f"design revision {revision.number}")),
         PageBreak(),
-        *_checklist(items, approver_ids(product.team)),
+        *_checklist(items, approver_ids(product.team),
+                    set(ProcessStep.objects.filter(revision=revision).values_list("item_id", flat=True))),
         Spacer(1, 4 * mm),
+        *_external_steps(revision),
+        *_evidence_files(revision),
         *_finding_details(items, digests),
         *_measurement_charts(revision, measurements, design),
         *_coverage(measurements, design),
@@ -516,7 +558,7 @@ def build_record_pdf(revision: Revision, *, fingerprint: str) -> bytes:
     buffer = io.BytesIO()
     document = SimpleDocTemplate(buffer, pagesize=A4, leftMargin=MARGIN, rightMargin=MARGIN, topMargin=MARGIN,
                                  bottomMargin=20 * mm,
-                                 title=printable(f"{product.name} revision {revision.number} record"),
+                                 title=printable(f"{product.name} design revision {revision.number} record"),
                                  author=printable(product.team.name), subject="Antenna design record",
                                  creator="Earshot",
                                  invariant=1)

@@ -7,6 +7,11 @@ can't be built is found while the review can still change, and the signature is 
 (nothing is recorded). The last signature stores the PDF through Django's storage with its SHA-256, and
 marks the product's previous record superseded (by adding a Supersession row; the old record itself
 never changes).
+
+The revision's state moves through designs.lifecycle, which also takes the locks: the first signature
+moves it from in review to signing (the review freezes), the last to signed, superseding the product's older
+signed revision and withdrawing older ones still unsigned. What the review must settle first is the
+review's own rule (reviews.gate).
 """
 
 import hashlib
@@ -14,13 +19,19 @@ import json
 import logging
 from dataclasses import dataclass, field
 
+from django.contrib.auth import get_user_model
 from django.core.exceptions import PermissionDenied
 from django.core.files.base import ContentFile
 from django.db import transaction
+from django.urls import reverse
 
-from projectapp.designs.models import Product, Revision
-from projectapp.reviews.models import AuditEvent, Disposition, ReviewItem
-from projectapp.reviews.services import approver_ids
+from projectapp.audit.models import AuditEvent
+from projectapp.designs import lifecycle
+from projectapp.designs.models import Revision
+from projectapp.notices.models import Notice
+from projectapp.notices.services import notify
+from projectapp.reviews import gate
+from projectapp.reviews.models import EvidenceAttachment, ProcessStep
 from projectapp.signoff.models import MEANINGS, Signature, SignedRecord, Supersession
 from projectapp.teams.access import has_role
 from projectapp.teams.models import Role
@@ -54,45 +65,24 @@ class Readiness:
 
 
 def readiness(revision: Revision) -> Readiness:
-    """What still stands in the way of signing, item by item."""
+    """What still stands in the way of signing: the revision's state, then the review's items (reviews.gate)."""
     state = Readiness(revision, required_roles=list(revision.product.team.signoff_roles))
     state.signed_roles = list(revision.signatures.values_list("role", flat=True))
-    if revision.is_draft:
-        state.obstacles.append(f"Revision {revision.number} is a draft: submit it for review first.")
+    State = Revision.State
+    if revision.state == State.DRAFT:
+        state.obstacles.append(f"Design revision {revision.number} is a draft: submit it for review first.")
         return state
-    newer = None if hasattr(revision, "signed_record") else newer_record(revision)
+    if revision.state in (State.SIGNED, State.SUPERSEDED):
+        return state
+    newer = newer_record(revision)
     if newer is not None:
         state.obstacles.append(newer_record_obstacle(revision, newer))
-    items = (revision.review_items.filter(kind=ReviewItem.Kind.RAISED).order_by("id")
-             .with_provenance())
-    approvers = approver_ids(revision.product.team)
-    for item in items:
-        label = f"{item.rule_id} {item.title}"
-        if item.is_carried_unconfirmed and item.severity in ("blocker", "warning"):
-            state.obstacles.append(f"{label}: the decision carried from revision {item.carried_from.number} "
-                                   "is not confirmed yet.")
-        elif item.severity == "blocker" and item.disposition != Disposition.WAIVED:
-            state.obstacles.append(f"{label}: a blocker must be waived by an approver "
-                                   f"(now: {item.get_disposition_display().lower()}).")
-        elif item.severity == "blocker" and (item.waiver_authority is None
-                                             or item.waiver_authority.pk not in approvers):
-            state.obstacles.append(f"{label}: a blocker must be waived by an approver (now: {_waiver_text(item)}); "
-                                   "an approver must grant or confirm the waiver.")
-        elif item.severity == "warning" and item.disposition not in (Disposition.CHANGE, Disposition.WAIVED,
-                                                                     Disposition.NOT_APPLICABLE):
-            state.obstacles.append(f"{label}: a warning needs a disposition "
-                                   f"(now: {item.get_disposition_display().lower()}).")
+    elif revision.state == State.WITHDRAWN:
+        state.obstacles.append(f"Design revision {revision.number} was withdrawn from review, so it can't be signed. "
+                               "To go back to this design, start a new draft from it.")
+    if revision.state != State.WITHDRAWN:
+        state.obstacles += gate.item_obstacles(revision)
     return state
-
-
-def _waiver_text(item: ReviewItem) -> str:
-    by = item.confirmed_by or item.decided_by
-    text = f"waived by {by.get_username()}" if by else "waived"
-    if item.confirmed_by_id:
-        text += " (confirmed)"
-    if item.decided_severity and item.decided_severity != item.severity:
-        text += f", granted when it was a {item.decided_severity}"
-    return text
 
 
 def record_fingerprint(revision: Revision) -> str:
@@ -117,19 +107,27 @@ def record_fingerprint(revision: Revision) -> str:
         "signatures": [[s.role, s.signer.username, s.signer_name, s.signed_at.isoformat()]
                        for s in revision.signatures.order_by("id").select_related("signer")],
     }
+    steps = [[step.item.rule_id, step.item.subjects_key, step.status, step.owner.username if step.owner else None,
+              step.planned_on.isoformat() if step.planned_on else None, step.reference]
+             for step in ProcessStep.objects.filter(revision=revision).select_related("item", "owner").order_by("id")]
+    if steps:  # records signed before steps existed keep their fingerprint
+        content["steps"] = steps
+    evidence = list(EvidenceAttachment.objects.filter(revision=revision).order_by("id").values_list("name", "sha256"))
+    if evidence:
+        content["evidence"] = [list(pair) for pair in evidence]
     canonical = json.dumps(content, sort_keys=True, separators=(",", ":"), ensure_ascii=False)
     return hashlib.sha256(canonical.encode("utf-8")).hexdigest()
 
 
 def newer_record(revision: Revision) -> SignedRecord | None:
-    """The record of a later revision of the same product, if one is archived."""
-    return (SignedRecord.objects.filter(revision__product_id=revision.product_id, revision__number__gt=revision.number)
-            .select_related("revision").order_by("-revision__number").first())
+    """The record of a later revision of the same product, if one is signed (designs.lifecycle.newer_signed)."""
+    newer = lifecycle.newer_signed(revision)
+    return None if newer is None else SignedRecord.objects.select_related("revision").get(revision=newer)
 
 
 def newer_record_obstacle(revision: Revision, newer: SignedRecord) -> str:
-    return (f"Revision {newer.revision.number} of {revision.product.name} is already signed and archived, so "
-            f"revision {revision.number} can no longer be signed: its record would compete with the newer one as "
+    return (f"Design revision {newer.revision.number} of {revision.product.name} is already signed and archived, so "
+            f"design revision {revision.number} can no longer be signed: its record would compete with the newer one as "
             "the current record. To go back to this design, start a new revision from it.")
 
 
@@ -146,26 +144,22 @@ def revision_sign(*, revision: Revision, user, role: str, password: str, request
 
 @transaction.atomic
 def _revision_sign_checked(*, revision: Revision, user, role: str) -> Signature:
-    # Locks, always in this order: the product (signatures of all its revisions take turns, so a record is
-    # archived knowing every other record), then the revision (review writes take only this one, and
-    # never the product after it, so the two can't deadlock). Every check below runs under them.
-    list(Product.objects.select_for_update().filter(pk=revision.product_id).values_list("pk", flat=True))
-    revision = Revision.objects.select_for_update().select_related("product__team").get(pk=revision.pk)
+    # designs.lifecycle takes the locks, always in this order: the product (signatures of all its revisions take
+    # turns, so a record is archived knowing every other one), then the revision (review writes take only this
+    # one, and never the product after it, so the two can't deadlock). Every check below runs under them.
+    try:
+        revision = lifecycle.lock_for_signing(revision)
+    except lifecycle.IllegalTransition as refused:
+        newer = newer_record(refused.revision)
+        raise SigningError(newer_record_obstacle(refused.revision, newer) if newer else str(refused)) from refused
     team = revision.product.team
-    if hasattr(revision, "signed_record"):
-        raise SigningError("This revision is already signed and archived.")
-    # Refused rather than archived as superseded at once: the newer record is the one in force, and an
-    # older design becomes current again only through a new revision that everyone signs.
-    newer = newer_record(revision)
-    if newer is not None:
-        raise SigningError(newer_record_obstacle(revision, newer))
     if role not in team.signoff_roles:
         raise SigningError(f"role: {team.name} does not require a {role} signature")
     if not has_role(user, team, role):
         raise PermissionDenied(f"Signing as {role} needs the {role} role in {team.name}.")
     state = readiness(revision)
     if not state.ready:
-        raise SigningError(f"Revision {revision.number} can't be signed yet: {len(state.obstacles)} item(s) stand "
+        raise SigningError(f"Design revision {revision.number} can't be signed yet: {len(state.obstacles)} item(s) stand "
                            "in the way.")
     if role in state.signed_roles:
         raise SigningError(f"role: the {role} signature is already recorded")
@@ -174,15 +168,39 @@ def _revision_sign_checked(*, revision: Revision, user, role: str) -> Signature:
     signature = Signature.objects.create(
         revision=revision, role=role, signer=user, signer_name=user.get_full_name() or user.get_username(),
         meaning=MEANINGS[Role(role)])
-    AuditEvent.objects.create(product=revision.product, revision=revision, actor=user,
-                              action=AuditEvent.Action.SIGNED,
-                              summary=f"Signed revision {revision.number} as {role} ({signature.meaning.split(':')[0]})",
-                              changes={"signature": [None, role]})
-    if not [r for r in team.signoff_roles if r not in (*state.signed_roles, role)]:
-        record_archive(revision=revision, user=user)
+    lifecycle.signature_recorded(
+        revision=revision, user=user, changes={"signature": [None, role]},
+        summary=f"Signed design revision {revision.number} as {role} ({signature.meaning.split(':')[0]})")
+    missing = [r for r in team.signoff_roles if r not in (*state.signed_roles, role)]
+    if not missing:
+        record = record_archive(revision=revision, user=user)
+        _tell_signed(revision=revision, record=record, user=user)
     else:
         record_build(revision=revision)  # built, not stored: see the module docstring
+        _tell_signature_awaited(revision=revision, roles=missing, user=user)
     return signature
+
+
+def _tell_signature_awaited(*, revision: Revision, roles: list[str], user) -> None:
+    """After a signature, the people who may give a missing one (not the signer) are told theirs is awaited."""
+    team = revision.product.team
+    signers = set(revision.signatures.values_list("signer_id", flat=True)) if not team.allow_dual_signing else set()
+    people = get_user_model().objects.filter(memberships__team=team, memberships__role__in=roles).exclude(
+        pk__in=signers).distinct()
+    notify(recipients=people, team=team, kind=Notice.Kind.SIGNATURE, actor=user,
+           url=reverse("signoff_page", args=[revision.product_id, revision.number]),
+           text=f"{revision.product.name}, design revision {revision.number}: a {' or '.join(roles)} signature "
+                f"is awaited ({user.get_full_name() or user.get_username()} has signed)",
+           event_key=f"signature:{revision.pk}:{revision.signatures.count()}")
+
+
+def _tell_signed(*, revision: Revision, record: SignedRecord, user) -> None:
+    """Everyone who took part in the revision's life (its audit trail's people) is told it is signed."""
+    involved = set(AuditEvent.objects.filter(revision=revision).values_list("actor_id", flat=True))
+    notify(recipients=get_user_model().objects.filter(pk__in=involved), team=revision.product.team,
+           kind=Notice.Kind.SIGNED, actor=user, url=reverse("record_detail", args=[record.pk]),
+           text=f"{revision.product.name}, design revision {revision.number} is signed and its record archived",
+           event_key=f"signed:{revision.pk}")
 
 
 def record_build(*, revision: Revision) -> tuple[str, bytes]:
@@ -196,14 +214,15 @@ def record_build(*, revision: Revision) -> tuple[str, bytes]:
         logger.exception("the PDF record of %s could not be built", revision)
         earlier = revision.signatures.count() > 1  # the signature being refused is already in the count
         raise RecordBuildError(
-            f"The PDF record of revision {revision.number} could not be built ({type(error).__name__}), so your "
+            f"The PDF record of design revision {revision.number} could not be built ({type(error).__name__}), so your "
             "signature was not recorded and nothing changed"
             + (": the signatures already given stand." if earlier else ": the review is still open.")
             + " The server log has the cause for whoever runs Earshot; sign again once it is fixed.") from error
 
 
 def record_archive(*, revision: Revision, user) -> SignedRecord:
-    """Builds the PDF, stores it with its SHA-256, and supersedes the product's previous current record."""
+    """At the last signature (the revision locked and being signed): builds the PDF, stores it with its
+    SHA-256, moves the revision to signed, and supersedes the product's previous current record."""
     fingerprint, pdf_bytes = record_build(revision=revision)
     sha256 = hashlib.sha256(pdf_bytes).hexdigest()
     record = SignedRecord(revision=revision, sha256=sha256, size_bytes=len(pdf_bytes), fingerprint=fingerprint)
@@ -212,14 +231,11 @@ def record_archive(*, revision: Revision, user) -> SignedRecord:
     slug = "-".join(part for part in slug.split("-") if part)[:40].strip("-") or "product"
     record.pdf.save(f"{slug}-rev{revision.number}-{sha256[:12]}.pdf", ContentFile(pdf_bytes), save=False)
     record.save()
-    earlier = (SignedRecord.objects.filter(revision__product=revision.product, revision__number__lt=revision.number)
-               .exclude(pk=record.pk).exclude(supersession__isnull=False))
-    for older in earlier:
+    signed = lifecycle.sign(revision=revision, user=user, changes={"sha256": [None, sha256]},
+                            summary=f"Archived the signed record of revision {revision.number} "
+                                    f"(SHA-256 {sha256[:16]}…)")
+    for older in SignedRecord.objects.filter(revision__in=[older.pk for older in signed.superseded]):
         Supersession.objects.create(older=older, newer=record)
-    AuditEvent.objects.create(product=revision.product, revision=revision, actor=user,
-                              action=AuditEvent.Action.ARCHIVED,
-                              summary=f"Archived the signed record of revision {revision.number} "
-                                      f"(SHA-256 {sha256[:16]}…)", changes={"sha256": [None, sha256]})
     return record
 
 

@@ -5,14 +5,18 @@ from django.contrib.auth import get_user_model
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
 from django.db.models import Q
-from django.http import FileResponse
+from django.http import FileResponse, Http404, HttpResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.views.decorators.http import require_GET, require_http_methods, require_POST
 
-from projectapp.designs.access import get_revision_for_user
+from projectapp import paging
+from projectapp.designs.access import get_revision_for_user, products_for
+from projectapp.designs.models import Revision
+from projectapp.filters import capped_choices
 from projectapp.signoff import services
+from projectapp.signoff.export_pack import export_pack_build, pack_file_name
 from projectapp.signoff.forms import ArchiveFilterForm, SignForm, VerifyForm
-from projectapp.signoff.models import SignedRecord, Supersession
+from projectapp.signoff.models import Signature, SignedRecord
 from projectapp.teams.access import teams_of
 from rules.catalog import categories
 
@@ -72,32 +76,50 @@ def signoff_sign(request, product_id: int, number: int):
 @login_required
 @require_GET
 def archive_list(request):
-    records = records_for(request.user)
+    """The signed records of the person's teams, filtered and paged in the database; current or superseded is
+    the revision's state (designs.lifecycle)."""
+    teams = teams_of(request.user)
+    records = records_for(request.user).defer("revision__document", "revision__evaluation",
+                                              "revision__section_versions")
     form = ArchiveFilterForm(request.GET).read()
     chosen, query = form.cleaned, form.shown
     if "q" in chosen:
         text = chosen["q"]
         records = records.filter(Q(revision__product__name__icontains=text) | Q(sha256__startswith=text)
                                  | Q(fingerprint__startswith=text))
-    records = form.apply(records, {"product": "revision__product_id",
-                                   "category": "revision__evaluation__design__category",
-                                   "signer": "revision__signatures__signer_id", "since": "created_at__date__gte",
-                                   "until": "created_at__date__lte"})
-    superseded = Supersession.objects.values("older")
-    if chosen.get("state") == "current":
-        records = records.exclude(pk__in=superseded)
-    elif chosen.get("state") == "superseded":
-        records = records.filter(pk__in=superseded)
-    records = records.distinct()
-    superseded_ids = set(Supersession.objects.values_list("older_id", flat=True))
-    rows = [{"record": record, "current": record.pk not in superseded_ids} for record in records]
+    records = form.apply(records, {"product": "revision__product_id", "category": "revision__category",
+                                   "since": "created_at__date__gte", "until": "created_at__date__lte"})
+    if "signer" in chosen:
+        records = records.filter(revision__in=Signature.objects.filter(signer_id=chosen["signer"]).values("revision"))
+    state = {"current": Revision.State.SIGNED, "superseded": Revision.State.SUPERSEDED}.get(chosen.get("state"))
+    if state:
+        records = records.filter(revision__state=state)
+    paged = paging.paged(records.order_by("-created_at", "-id"), form)
+    signed_revisions = Revision.objects.filter(product__team__in=teams, state__in=SIGNED_STATES)
     signers = get_user_model().objects.filter(
-        pk__in=records_for(request.user).values("revision__signatures__signer")).order_by("username")
-    from projectapp.designs.access import products_for
-
+        pk__in=Signature.objects.filter(revision__in=signed_revisions).values("signer")).order_by("username")
+    signed_products = products_for(request.user).filter(revisions__state__in=SIGNED_STATES).distinct()
+    products, more_products = capped_choices(signed_products.order_by("name").only("pk", "name", "team"))
     return render(request, "signoff/archive.html", {
-        "rows": rows, "query": query, "products": products_for(request.user), "signers": signers,
-        "categories": categories().values(), "filter_problems": form.problems}, status=form.status)
+        "records": paged.items, "paged": paged, "query": query, "products": products, "more_products": more_products,
+        "chosen_product": signed_products.filter(pk=chosen["product"]).first() if "product" in chosen else None,
+        "without_product": form.query_without("product"), "signers": signers, "categories": categories().values(),
+        "filter_problems": form.problems}, status=form.status)
+
+
+SIGNED_STATES = (Revision.State.SIGNED, Revision.State.SUPERSEDED)
+
+
+@login_required
+@require_GET
+def revision_record(request, product_id: int, number: int):
+    """A signed revision's record, wherever the revision is shown: the designs and review pages link here by
+    revision, and this answers with the record's page (a 404 while the revision is not signed)."""
+    revision = get_revision_for_user(request.user, product_id, number)
+    record = SignedRecord.objects.filter(revision=revision).first()
+    if record is None:
+        raise Http404("This revision is not signed.")
+    return redirect(record)
 
 
 @login_required
@@ -133,3 +155,13 @@ def verify(request):
                    "superseded_by": record.superseded_by if record else None,
                    "name": form.cleaned_data["pdf"].name}
     return render(request, "signoff/verify.html", {"form": form, "outcome": outcome})
+
+
+@login_required
+@require_GET
+def record_pack(request, record_id: int):
+    """The export pack of a signed revision (signoff.export_pack), for an operator or a test house."""
+    record = get_object_or_404(records_for(request.user), pk=record_id)
+    response = HttpResponse(export_pack_build(record), content_type="application/zip")
+    response["Content-Disposition"] = f'attachment; filename="{pack_file_name(record)}"'
+    return response

@@ -11,6 +11,10 @@ TS_38_300 = "3GPP TS 38.300 §16.13"
 REDCAP_1RX = "3GPP TS 38.331 cellBarredRedCap1Rx (Rel-17 SIB1)"
 
 
+def _count(number: int, noun: str) -> str:
+    return f"{number} {noun}" if number == 1 else f"{number} {noun}s"
+
+
 @rule(
     id="CNT-001", changed_in="2.0.0", topic="antenna-count", severities=("blocker", "warning"),
     title="Fewer receive antennas than the category requires",
@@ -20,7 +24,13 @@ REDCAP_1RX = "3GPP TS 38.331 cellBarredRedCap1Rx (Rel-17 SIB1)"
         "device may run only where an operator has approved it, and it still loses the diversity gain; "
         "Cat 4 and up have no single-antenna exception."
     ),
+    product_impact=(
+        "A product with fewer antennas than its modem type expects either fails the operators' acceptance tests or "
+        "hears the network less well at the edge of coverage; fitting an antenna late means new space in the "
+        "enclosure and a board change."
+    ),
     sources=(TS_36_306, TS_38_300, "3GPP TS 36.101 §7 (receiver requirements with two antenna ports)"),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.operator_single_antenna_approval"),
 )
 def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -50,6 +60,11 @@ def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
                 "Keep the operator's written approval with the design record, and confirm each further "
                 "operator's position before committing; fit the second antenna if any of them require it."
             ),
+            product_impact=(
+                "The product may launch on the operator that approved one antenna, but it hears the network about "
+                "3-5 dB worse at the edge of coverage than a two-antenna device (more weak spots indoors and in "
+                "basements), and each further operator may refuse it: that limits where it can be sold."
+            ),
             evidence=evidence,
             references=references,
         )
@@ -57,13 +72,25 @@ def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
     if category.single_antenna == "never":
         reason = (f"{category.label} uses {category.dl_layers}-layer MIMO on the downlink and has no "
                   "single-antenna exception.")
+        impact = (f"As designed the product can't pass operator acceptance: {category.label} is tested with "
+                  f"{required} antennas and has no one-antenna exception, and with {fitted} it would not reach the "
+                  "speeds the module is bought for. Fitting another antenna changes the enclosure and the board, so it "
+                  "is cheapest now.")
     elif category.single_antenna == "operator":
         reason = ("No operator approval for single-antenna operation is recorded, and without one "
                   "carriers reject the device in acceptance testing.")
+        impact = (f"As designed, operators will refuse the product in acceptance testing: {category.label} is "
+                  f"tested with {required} antennas. Either fit the second antenna, get a written one-antenna "
+                  "approval from each operator (the product then still hears the network less well), or choose a "
+                  "one-antenna modem type.")
     elif category.single_antenna == "module":
         reason = "Each declared branch needs its own antenna."
+        impact = (f"The module expects {required} receive antennas and the design has {fitted}: either the product "
+                  "misses the module's rated performance, or the module is set up as a one-antenna device, which "
+                  "some operators keep off their cells. Decide with the operators before the enclosure is fixed.")
     else:
         reason = "Every cellular device needs at least one antenna for transmit and receive."
+        impact = "Without a cellular antenna the product can't connect to any network at all."
     other_radios = [antenna.name for antenna in design.antennas if not antenna.is_cellular]
     if other_radios:
         reason += (f" {', '.join(other_radios)} serve{'s' if len(other_radios) == 1 else ''} another radio "
@@ -82,6 +109,7 @@ def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
         title=f"{category.label} needs {required} receive antenna(s); {fitted} fitted",
         explanation=f"{specified} {reason}{ports_note}",
         action=remedy,
+        product_impact=impact,
         evidence=evidence,
         references=references,
     )
@@ -91,7 +119,9 @@ def too_few_receive_antennas(context: CheckContext) -> Iterator[Flag]:
     id="CNT-002", changed_in="2.0.0", topic="antenna-count", severities=("blocker",),
     title="No main (transmit and receive) antenna",
     rationale="The module transmits through its main port; a design of only receive antennas cannot attach.",
+    product_impact="Without an antenna on the modem's transmit port the product can't send anything to the network.",
     sources=(TS_36_306,),
+    needs=("antennas",),
 )
 def no_main_antenna(context: CheckContext) -> Iterator[Flag]:
     antennas = context.cellular_antennas
@@ -104,6 +134,8 @@ def no_main_antenna(context: CheckContext) -> Iterator[Flag]:
                 "port, which carries the uplink."
             ),
             action="Set the role of the antenna on the module's main port to 'main'.",
+            product_impact=("As entered, the product could receive but never send, so it would not connect. This is "
+                            "often only a role entered wrongly: check which antenna sits on the module's main port."),
             subjects=tuple(antenna.name for antenna in antennas),
             evidence={"required": 1, "fitted": 0},
         )
@@ -117,7 +149,9 @@ def no_main_antenna(context: CheckContext) -> Iterator[Flag]:
         "has receive ports. Extra antennas cost space and money without improving the link. GNSS and WLAN "
         "antennas serve other radios and are not counted."
     ),
+    product_impact="Antennas the modem can't use add cost, space and assembly steps without improving coverage.",
     sources=(TS_36_306,),
+    needs=("modem.category", "modem.rx_ports", "antennas"),
 )
 def unused_antennas(context: CheckContext) -> Iterator[Flag]:
     antennas = context.cellular_antennas
@@ -135,6 +169,9 @@ def unused_antennas(context: CheckContext) -> Iterator[Flag]:
             "receive port."
         ),
         action="Remove the extra antenna(s), or record what else they serve (another radio, a future module).",
+        product_impact=(f"{_count(len(antennas) - usable, 'antenna')} would sit unused: cost, space and assembly "
+                        "without better coverage. Nothing here stands in the way of approval; it is a saving to "
+                        "consider."),
         subjects=tuple(extras),
         evidence={"required": usable, "fitted": len(antennas)},
     )
@@ -149,7 +186,10 @@ def unused_antennas(context: CheckContext) -> Iterator[Flag]:
         "branch ones, for the coverage and capacity a branch costs. Every RedCap design that runs one receive branch "
         "(a one-port module, or one cellular antenna connected) gets this note, whatever else it is flagged for."
     ),
+    product_impact=("Operators decide whether one-antenna RedCap devices may use their cells, and some may keep them "
+                    "off: a question to settle with each operator before committing to one antenna."),
     sources=(REDCAP_1RX, TS_38_300),
+    needs=("modem.category", "modem.rx_ports", "antennas"),
 )
 def redcap_one_branch(context: CheckContext) -> Iterator[Flag]:
     modem = context.design.modem
@@ -169,6 +209,9 @@ def redcap_one_branch(context: CheckContext) -> Iterator[Flag]:
         ),
         action=("Confirm with each target operator that it admits 1Rx RedCap devices on the bands and in the areas the "
                 "product needs, or fit a second receive branch."),
+        product_impact=("Each operator decides whether one-antenna RedCap devices may use its cells, and some may keep "
+                        "them off where they admit two-antenna ones. Confirm with every target operator before committing "
+                        "to one antenna; a second antenna removes the question."),
         evidence={"required": context.rx_required, "fitted": context.rx_connected, "rx_branches": 1,
                   "rx_ports": modem.rx_ports},
         references=(REDCAP_1RX, TS_38_300),

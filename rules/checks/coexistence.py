@@ -155,6 +155,23 @@ def _margin_sentence(margin_db: float | None, remedy: str) -> str:
     return f"That leaves {-margin_db:.1f} dB to {remedy}."
 
 
+def _coexistence_impact(harm: str, margin_db: float | None, isolation: PairIsolation, fix: str, test: str) -> str:
+    """What a coexistence finding means for the product, in a product manager's words: the harm, then how the
+    isolation between the two antennas stands against what the budget needs."""
+    if isolation.no_transmitter:
+        standing = "Until the design has a main antenna, how much the two radios disturb each other can't be told."
+    elif margin_db is None:
+        standing = (f"How well the two antennas are kept apart is not known yet, so a measurement decides whether "
+                    f"{fix} are needed.")
+    elif margin_db >= 0:
+        standing = (f"The isolation between the antennas covers the need by {margin_db:.1f} dB even at the standard's "
+                    f"worst-case limit, so this should hold; {test} confirms it.")
+    else:
+        standing = (f"The antennas fall {-margin_db:.1f} dB short of the isolation needed at the standard's worst-case "
+                    f"limit: {fix} must make up the difference, and {test} shows whether they do.")
+    return f"{harm} {standing}"
+
+
 def _isolation_evidence(isolation: PairIsolation, budget: Budget, cellular: Antenna | None,
                         victim: Antenna) -> dict[str, Any]:
     estimate = isolation.estimate
@@ -198,9 +215,14 @@ def _margin(isolation: PairIsolation, budget: Budget) -> float | None:
         "desensitization at the 3GPP limit, against the measured isolation or a free-space estimate. Supplemental-"
         "downlink bands have no uplink and no harmonic."
     ),
+    product_impact=("A harmonic of the cellular transmitter on the satellite-navigation frequencies can blind the "
+                    "product's GNSS receiver while it transmits: slow or lost location fixes."),
     sources=(TR_36_816, "3GPP TS 36.101 Table 6.6.3.1-2 / TS 38.101-1 Table 6.5.3.1-2 (spurious emissions, from memory)",
              "3GPP TS 36.101 Table 5.5-1 / TS 38.101-1 Table 5.2-1 (band edges)",
              "common practice (1 dB desensitization allowance)", FRIIS),
+    needs=("antennas", "modem.bands", "modem.category", "modem.power_class", "antennas[].position_mm",
+           "antennas[].ranges_mhz", "antennas[].mounting", "antennas[].cable_loss_db", "antennas[].peak_gain_dbi",
+           "antennas[].efficiency_pct", "antennas[].efficiency_source", "antennas[].polarization", "measurements"),
 )
 def harmonic_on_gnss(context: CheckContext) -> Iterator[Flag]:
     data = coexistence_data()
@@ -259,6 +281,11 @@ def _harmonic_flag(context: CheckContext, band: Band, victim: Victim, gnss: Ante
         action=(f"Ask the module maker for its {_ordinal(order)}-harmonic level in {band.name} at full power, plan "
                 f"filtering on the GNSS input and keep {gnss.name} away from {first};{measure} then test GNSS "
                 f"sensitivity (C/N0) with the cellular link transmitting at full power in {band.name}."),
+        product_impact=_coexistence_impact(
+            f"While the product transmits in {band.name}, the modem's {_ordinal(order)} harmonic lands where the "
+            f"{victim.label} receiver listens: location fixes can slow down or fail during uplink traffic.",
+            margin_db, isolation, "filtering, the module's real (usually lower) harmonic level and the layout",
+            "a location test with the modem transmitting at full power"),
         subjects=subjects,
         evidence=evidence,
         references=(TR_36_816, budget.emission_source, victim.source, FRIIS),
@@ -278,9 +305,14 @@ def _harmonic_flag(context: CheckContext, band: Band, victim: Victim, gnss: Ante
         "isolation each direction would need for 1 dB of desensitization, from the emission masks, against the "
         "measured isolation or a free-space estimate."
     ),
+    product_impact=("A cellular band right beside the Wi-Fi or Bluetooth band lets each radio disturb the other when "
+                    "both run at once: slower Wi-Fi, weaker cellular reception."),
     sources=(TR_36_816, "3GPP TS 36.101 Table 6.6.2.1.1-1 / TS 38.101-1 Table 6.5.2.2-1 (spectrum emission masks)",
              "IEEE 802.11 transmit spectrum masks (from memory)", "common practice (1 dB desensitization allowance)",
              FRIIS),
+    needs=("antennas", "modem.bands", "modem.category", "modem.power_class", "antennas[].position_mm",
+           "antennas[].ranges_mhz", "antennas[].mounting", "antennas[].cable_loss_db", "antennas[].peak_gain_dbi",
+           "antennas[].efficiency_pct", "antennas[].efficiency_source", "antennas[].polarization", "measurements"),
 )
 def band_edge_beside_wlan(context: CheckContext) -> Iterator[Flag]:
     data = coexistence_data()
@@ -357,6 +389,12 @@ def _adjacent_flag(context: CheckContext, band: Band, victim: Victim, wlan: Ante
         action=(f"Plan a coexistence filter on the WLAN path and ask both radios' makers for their emissions at the "
                 f"{band.name} edge;{measure} then test both radios running at once (WLAN throughput with {band.name} "
                 "transmitting at full power, and the cellular downlink with WLAN transmitting)."),
+        product_impact=_coexistence_impact(
+            f"{band.name} sits {'right against' if nearest.gap_mhz == 0 else f'{nearest.gap_mhz:g} MHz from'} the "
+            f"{victim.label} band: with both radios running at once, Wi-Fi or Bluetooth can slow down and cellular "
+            "reception can weaken.",
+            _margin(isolation, budget), isolation, "coexistence filters, the layout and time-sharing between the radios",
+            "a test with both radios running at full power"),
         subjects=(wlan.name, band.name) if cellular is None else (cellular.name, wlan.name, band.name),
         evidence=evidence,
         references=(TR_36_816, *(item.emission_source for item in budgets), victim.source, FRIIS),

@@ -64,6 +64,24 @@ def _direction_text(analysis: CoverageAnalysis) -> str:
     return f"The downlink limits the coverage ({margins}), so the branch's whole cost reaches it."
 
 
+def _coverage_impact(analysis: CoverageAnalysis, warn: bool, judged: bool, limiting: str) -> str:
+    """What the missing receive antenna means for the product, in a product manager's words."""
+    lost = f"about {analysis.cost.headline_db:.1f} dB weaker reception in {analysis.band}"
+    decide = " These are estimates; the operators' networks and tests decide."
+    if warn:
+        return (f"With one receive antenna instead of two the product gets {lost}: one antenna covers about "
+                f"{analysis.area_share_pct:.0f} % of the area two would, so more installations at the edge of coverage "
+                "(indoors, basements) will struggle to connect." + decide)
+    if not judged:
+        return (f"With one receive antenna instead of two the product gets {lost}; no coverage estimate exists for "
+                "this band, so how much area it costs is not known." + decide)
+    if limiting == "ul":
+        return (f"With one receive antenna instead of two the product gets {lost}, but its own sending limits the "
+                "coverage anyway: by this estimate the area it covers does not shrink." + decide)
+    return (f"With one receive antenna instead of two the product gets {lost}: one antenna still covers about "
+            f"{analysis.area_share_pct:.0f} % of the area two would, a modest loss." + decide)
+
+
 @rule(
     id="COV-001", changed_in="2.0.0", topic="coverage", severities=("warning", "note"),
     title="One receive antenna where the modem can use two: the coverage it costs",
@@ -79,6 +97,8 @@ def _direction_text(analysis: CoverageAnalysis) -> str:
         "times the base stations for the same area); otherwise, or where no band has a valid path-loss "
         "model, a note. Only for categories or modules that can use two receive antennas."
     ),
+    product_impact=("Leaving out a receive antenna the modem could use makes the product hear the network less well: "
+                    "how much coverage that costs depends on whether sending or receiving runs out first."),
     sources=(
         TR_38_901, SINGLE_BRANCH, "3GPP TR 36.888 and TR 45.820 (coverage targets)", MRC,
         "common practice (70 % area share threshold; cell area grows with the square of its range)",
@@ -133,6 +153,8 @@ def single_antenna_coverage(context: CheckContext) -> Iterator[Flag]:
                   f"cell ({REDCAP_1RX}): see CNT-004.")
     yield Flag(
         severity="warning" if warn else "note",
+        product_impact=_coverage_impact(worst, warn, bool(judged), limiting) + (
+            " Some operators keep one-antenna RedCap devices off their cells: ask them." if redcap else ""),
         title=(f"One receive antenna: about {cost.headline_db:.1f} dB less downlink in {worst.band}; "
                + (f"coverage {share_pct:.0f} % of the two-antenna area" if limiting == "dl" or not judged
                   else "the uplink limits, coverage unchanged")),
@@ -223,6 +245,8 @@ DEEP_ENVIRONMENTS = ("deep-indoor", "underground")
         "A deep-indoor or underground deployment counts on that depth, so it gets a note naming it, with the "
         "coverage budget's margin with and without the enhancement."
     ),
+    product_impact=("Deep indoors or underground the product counts on the network repeating its messages, which each "
+                    "operator must switch on, and which costs battery and speed."),
     sources=("3GPP TR 36.888 and TR 45.820 (coverage targets, from memory)", TR_38_901,
              "3GPP TS 36.331 (CE mode B, CE levels; from memory)"),
 )
@@ -242,6 +266,9 @@ def relies_on_coverage_enhancement(context: CheckContext) -> Iterator[Flag]:
         "legacy_mcl_db": enhancement.legacy_mcl_db, "enhancement_db": enhancement_db,
         "band": None, "margin_db": None, "margin_without_enhancement_db": None,
     }
+    impact = (f"Used {environment}, the product counts on the network repeating its messages (coverage enhancement, "
+              f"worth {enhancement_db:g} dB here) to be reached at all: each operator must have it switched on, and it "
+              "makes every exchange slower and costs battery.")
     if judged:
         worst = min(judged, key=lambda analysis: analysis.margin_db(1) or 0.0)
         margin_db = worst.margin_db(1) or 0.0
@@ -250,6 +277,8 @@ def relies_on_coverage_enhancement(context: CheckContext) -> Iterator[Flag]:
         margins = (f" At {worst.reference_distance_km:g} km by {worst.model_label}, after the {worst.entry_loss_db:g} dB "
                    f"entry loss, the budget leaves {margin_db:+.1f} dB in {worst.band} (the least of the selected bands) "
                    f"with the full target, and {margin_db - enhancement_db:+.1f} dB without the enhancement.")
+        impact += (f" By this estimate the margin in {worst.band} is {margin_db:+.1f} dB with it and "
+                   f"{margin_db - enhancement_db:+.1f} dB without. Ask the operators before promising deep coverage.")
     else:
         margins = " No selected band lies where TR 38.901 applies, so no margin is shown."
     yield Flag(
@@ -264,6 +293,7 @@ def relies_on_coverage_enhancement(context: CheckContext) -> Iterator[Flag]:
         ),
         action=(f"Ask each operator whether {enhancement.feature.split(' (')[0]} is enabled on the bands and areas the "
                 "product needs, and budget battery life for the repetitions deep coverage takes."),
+        product_impact=impact,
         evidence=evidence,
         references=(enhancement.source, TR_38_901, "3GPP TS 36.331 (CE mode B, CE levels; from memory)"),
     )

@@ -44,8 +44,16 @@ def outside_enclosure_mm(context: CheckContext, antenna: Antenna) -> float:
         "that frequency shows ECC of at most 0.5 over its downlink (and, where S-parameters of the pair exist, "
         "isolation of at least 10 dB), the measurement decides and the finding is a note."
     ),
+    product_impact=(
+        "Two receive antennas placed too close act partly as one: the product gets less of the range and speed the "
+        "second antenna is there for, and operators' over-the-air tests get harder. Moving an antenna is a "
+        "mechanical change, cheapest before the enclosure is fixed."
+    ),
     sources=(WHEELER, "common practice (quarter-wave minimum spacing)", "3GPP TS 36.101 Table 5.5-1",
              "design.md rule set 2 (measurement outranks geometry)"),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.bands", "antennas[].position_mm",
+           "antennas[].polarization", "antennas[].mounting", "enclosure.size_mm", "measurements",
+           "antennas[].ranges_mhz", "antennas[].efficiency_pct"),
 )
 def receive_antennas_too_close(context: CheckContext) -> Iterator[Flag]:
     if context.rx_usable < 2:
@@ -96,6 +104,9 @@ def receive_antennas_too_close(context: CheckContext) -> Iterator[Flag]:
                 ),
                 action=("Keep the measured layout: a change of antenna, position or enclosure needs a new "
                         "measurement."),
+                product_impact=(f"Although the antennas are only {distance_mm:.0f} mm apart, a measurement of this "
+                                "product shows they work independently enough: no loss of range is expected from their "
+                                "spacing. Changing an antenna, its position or the enclosure means measuring again."),
                 subjects=(first.name, second.name),
                 evidence={**evidence, "design_severity": severity, **verdict.evidence},
                 references=(WHEELER, "common practice (quarter-wave minimum spacing)", *verdict.references),
@@ -107,9 +118,28 @@ def receive_antennas_too_close(context: CheckContext) -> Iterator[Flag]:
             title=f"{first.name} and {second.name} are {distance_mm:.0f} mm apart at {frequency_mhz:g} MHz",
             explanation=geometry + (f" {verdict.text}" if verdict.text else ""),
             action=_spacing_action(quarter_wave_mm, frequency_mhz, angle_deg, known),
+            product_impact=_spacing_impact(severity, distance_mm, quarter_wave_mm, cross, known, bool(outside)),
             subjects=(first.name, second.name),
             evidence=evidence,
         )
+
+
+def _spacing_impact(severity: str, distance_mm: float, quarter_wave_mm: float, cross: bool, known: bool,
+                    position_in_doubt: bool) -> str:
+    apart = f"The antennas are {distance_mm:.0f} mm apart where at least {quarter_wave_mm:.0f} mm is usual"
+    doubt = " (one position looks wrong, so check it first)" if position_in_doubt else ""
+    if severity == "blocker":
+        pointing = "point the same way" if known else "may point the same way (their directions are not entered)"
+        return (f"{apart}{doubt}, and they {pointing}: they will act partly as one antenna. Expect shorter range at the "
+                "edge of coverage, lower speeds, and a real risk of failing the operators' over-the-air tests. Moving "
+                "or turning an antenna is a mechanical change, cheapest now.")
+    if severity == "warning":
+        helped = (" Pointing them different ways helps, but less at this distance." if cross else "")
+        return (f"{apart}{doubt}.{helped} The second antenna will deliver only part of its benefit (range at the "
+                "edge of coverage, speed): worth moving or turning one while the layout still allows, or measuring to "
+                "show the pair works.")
+    return (f"{apart}{doubt}, but they point different ways, which makes up for most of it: little effect on range is "
+            "expected. Nothing to do unless the layout changes.")
 
 
 def _spacing_action(quarter_wave_mm: float, frequency_mhz: float, angle_deg: float, known: bool) -> str:
@@ -196,7 +226,9 @@ def _measured_verdict(context: CheckContext, first: str, second: str) -> _Verdic
     id="SEP-002", changed_in="2.0.0", topic="separation", severities=("note",),
     title="Spacing can't be judged: feed position not given",
     rationale="Spacing rules need every receive antenna's feed point.",
+    product_impact="Until every antenna's position is entered, antennas placed too close would go unnoticed.",
     sources=("common practice",),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.bands", "antennas[].position_mm"),
 )
 def position_unknown(context: CheckContext) -> Iterator[Flag]:
     if context.rx_usable < 2 or len(context.cellular_antennas) < 2:
@@ -209,6 +241,8 @@ def position_unknown(context: CheckContext) -> Iterator[Flag]:
                 title=f"Position of {antenna.name} not given: spacing not checked",
                 explanation=f"{antenna.name} has no feed-point position, so its spacing to the others is unknown.",
                 action="Enter the feed point's x, y, z in mm from the mechanical drawing.",
+                product_impact=(f"Whether {antenna.name} is far enough from the other antennas is unknown: a spacing "
+                                "problem found after the enclosure is made means moving parts on the board."),
                 subjects=(antenna.name,),
                 evidence={
                     "frequency_mhz": frequency_mhz,
@@ -227,7 +261,10 @@ def position_unknown(context: CheckContext) -> Iterator[Flag]:
         "An internal antenna whose feed point lies outside the enclosure box was probably entered from the wrong "
         "origin, so a spacing that passes on it proves nothing. The pair is listed instead of passing silently."
     ),
+    product_impact="A spacing check that passes on a wrongly entered position proves nothing about the product.",
     sources=("common practice",),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.bands", "antennas[].position_mm",
+           "antennas[].polarization", "antennas[].mounting", "enclosure.size_mm"),
 )
 def spacing_rests_on_outside_position(context: CheckContext) -> Iterator[Flag]:
     if context.rx_usable < 2:
@@ -248,6 +285,9 @@ def spacing_rests_on_outside_position(context: CheckContext) -> Iterator[Flag]:
                 "is not taken as passing."
             ),
             action="Correct the feed position from the mechanical drawing (measured from the enclosure's corner).",
+            product_impact=(f"The spacing of {first.name} and {second.name} looks fine, but it rests on a position that "
+                            "was probably measured from the wrong corner: don't rely on it until the position is "
+                            "corrected. Most likely a data slip, not a design problem."),
             subjects=(first.name, second.name),
             evidence={"frequency_mhz": frequency_mhz, "distance_mm": distance_mm, "quarter_wave_mm": quarter_wave_mm,
                       "near_field_mm": physics.near_field_radius_mm(frequency_mhz),
@@ -271,7 +311,13 @@ def _internal_cellular(context: CheckContext) -> list[Antenna]:
         "this product (efficiency_source: measured) at 25 % or more, the measurement decides and the finding is a "
         "note."
     ),
+    product_impact=(
+        "A built-in antenna needs a long enough circuit board to work in the lowest bands, the ones that reach "
+        "farthest and best into buildings; too short a board means weaker coverage there or a different antenna."
+    ),
     sources=("common practice (quarter-wave ground length)", "design.md rule set 2 (measurement outranks geometry)"),
+    needs=("antennas", "antennas[].mounting", "ground_plane_mm", "modem.bands", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def ground_plane_short(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -315,6 +361,9 @@ def ground_plane_short(context: CheckContext) -> Iterator[Flag]:
                 f"{MIN_EFFICIENCY_PCT:g} %. The measurement outranks the ground-length rule."
             ),
             action="Keep the measured board and antenna: a change to either needs a new efficiency measurement.",
+            product_impact=(f"The board is short for {frequency_mhz:g} MHz, but the antenna measured in this product "
+                            f"still radiates at least {lowest:g} % of its power in {band.name}: no loss of coverage is "
+                            "expected from the board size while board and antenna stay as measured."),
             subjects=tuple(names),
             evidence={**evidence, "design_severity": severity, "measured_band": band.name,
                       "measured_efficiency_pct": lowest,
@@ -336,6 +385,16 @@ def ground_plane_short(context: CheckContext) -> Iterator[Flag]:
             "bands, or use an external antenna that does not need the board; ask the antenna maker for "
             "their minimum ground length, or measure the efficiency in the product."
         ),
+        product_impact=(
+            (f"The board ({length_mm:.0f} mm) is too short for the built-in antenna at {frequency_mhz:g} MHz: expect "
+             "the product to work poorly or not at all in its lowest bands, which reach farthest and best into "
+             "buildings. Fixing it changes the board, the antenna type or the bands, so it is cheapest now.")
+            if severity == "blocker" else
+            (f"The board ({length_mm:.0f} mm, where about {quarter_wave_mm:.0f} mm is usual) is on the short side "
+             f"for {frequency_mhz:g} MHz: the built-in antenna will be less efficient in the lowest bands, so range "
+             "and indoor coverage there suffer and the operators' over-the-air tests get harder. A measurement of "
+             "the product shows how much.")
+        ),
         subjects=tuple(names),
         evidence=evidence,
     )
@@ -345,7 +404,9 @@ def ground_plane_short(context: CheckContext) -> Iterator[Flag]:
     id="GND-002", changed_in="2.0.0", topic="ground-plane", severities=("note",),
     title="Ground plane size not given",
     rationale="The ground length decides how well an embedded antenna works at low frequencies.",
+    product_impact="Until the board size is entered, a board too short for the built-in antennas would go unnoticed.",
     sources=("common practice",),
+    needs=("antennas", "antennas[].mounting", "ground_plane_mm", "modem.bands"),
 )
 def ground_plane_unknown(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -357,6 +418,8 @@ def ground_plane_unknown(context: CheckContext) -> Iterator[Flag]:
             title="Ground plane size not given: its length was not checked",
             explanation=f"The design has internal antennas ({', '.join(internal)}) but no ground-plane size.",
             action="Enter the main board's ground length and width from the mechanical drawing.",
+            product_impact=("Nobody can yet tell whether the board is long enough for the built-in antennas to work in "
+                            "the lowest bands; enter its size before the board layout is frozen."),
             subjects=tuple(internal),
             evidence={"frequency_mhz": frequency_mhz, "length_mm": None,
                       "quarter_wave_mm": physics.quarter_wave_mm(frequency_mhz)},
@@ -382,12 +445,17 @@ PRACTICAL_SHARE_OF_BOUND = 0.5
         "bandwidth with loss. A warning when the low bands' bandwidth times the efficiency expected of the "
         "antenna (entered, else 100 %) passes half of that cap: expect tuning, lost efficiency, or both."
     ),
+    product_impact=(
+        "A small device can't cover a wide spread of low frequencies with full efficiency: expect weaker coverage "
+        "in part of the low bands, or a tunable antenna that adds cost and design time."
+    ),
     sources=(
         "Gustafsson, Sohl, Kristensson, Proc. R. Soc. A 463, 2007",
         "McLean, IEEE Trans. Antennas Propag. 44(5), 1996",
         "Bode 1945; Fano, J. Franklin Inst. 249, 1950",
         "common practice (designs reach about half of the bound)",
     ),
+    needs=("antennas", "antennas[].mounting", "ground_plane_mm", "modem.bands", "antennas[].efficiency_pct"),
 )
 def device_too_small_for_bandwidth(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -442,6 +510,12 @@ def device_too_small_for_bandwidth(context: CheckContext) -> Iterator[Flag]:
             "Plan for an antenna tuner or switched matching, accept lower efficiency at the band edges (and "
             "check it against the radiated targets), or make the ground plane longer."
         ),
+        product_impact=(
+            f"The device is physically small for the spread of low frequencies it must cover ({low_mhz:g}–"
+            f"{high_mhz:g} MHz): across all of it the antenna can reach only about {best_efficiency_pct:.0f} % "
+            "efficiency at best. Expect weaker coverage at the edges of the low bands, or plan a tunable antenna "
+            "(extra parts and design time), or a larger board."
+        ),
         evidence={
             "frequency_mhz": frequency_mhz,
             "span_mhz": [low_mhz, high_mhz],
@@ -473,7 +547,9 @@ def device_too_small_for_bandwidth(context: CheckContext) -> Iterator[Flag]:
         "A closed metal enclosure is a shield: an antenna inside it cannot radiate out. Metal parts in a "
         "mixed enclosure detune a nearby antenna and block some directions."
     ),
+    product_impact="An antenna inside metal can't reach the network well, or at all, whatever else is right.",
     sources=("common practice",),
+    needs=("antennas", "antennas[].mounting", "enclosure.material"),
 )
 def internal_antenna_in_metal(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -493,6 +569,13 @@ def internal_antenna_in_metal(context: CheckContext) -> Iterator[Flag]:
             "Use an external antenna, or a radome/window of non-conductive material over the antenna "
             "with the clearance its maker specifies" + ("." if metal else ", and keep metal away from it.")
         ),
+        product_impact=(
+            ("An antenna inside a closed metal box can't reach the network: as designed the product would not "
+             "connect. An external antenna or a plastic window changes the enclosure design, so decide now.")
+            if metal else
+            ("Metal parts near the antenna detune it and block some directions: range may be shorter than expected "
+             "and change with how the product is placed. Keep the antenna area clear of metal.")
+        ),
         subjects=internal,
         evidence={"material": design.enclosure_material},
     )
@@ -506,7 +589,9 @@ def internal_antenna_in_metal(context: CheckContext) -> Iterator[Flag]:
         "whose feed lies more than 1 mm outside that box was most likely entered from another origin (the board's, "
         "say); every spacing judged from it is then wrong too, so it is flagged rather than accepted."
     ),
+    product_impact="An antenna position entered from the wrong corner makes the spacing checks unreliable.",
     sources=("common practice",),
+    needs=("antennas", "antennas[].mounting", "antennas[].position_mm", "enclosure.size_mm"),
 )
 def feed_outside_enclosure(context: CheckContext) -> Iterator[Flag]:
     size = context.design.enclosure_size_mm
@@ -528,6 +613,9 @@ def feed_outside_enclosure(context: CheckContext) -> Iterator[Flag]:
             ),
             action=("Measure the feed point from the enclosure's corner on the mechanical drawing, or set the "
                     "mounting to external if the antenna sits outside."),
+            product_impact=(f"{antenna.name}'s position lies {outside_mm:.0f} mm outside the enclosure, so the "
+                            "spacing checks that use it can't be trusted. Most likely a data slip (measured from "
+                            "another corner), not a design problem, but correct it before relying on the checklist."),
             subjects=(antenna.name,),
             evidence={"position_mm": list(antenna.position_mm), "enclosure_size_mm": list(size),
                       "outside_by_mm": outside_mm, "tolerance_mm": ENCLOSURE_TOLERANCE_MM},

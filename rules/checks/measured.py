@@ -36,6 +36,19 @@ def diversity_share(ecc: float) -> float:
     return second_antenna_gain(DIVERSITY_OUTAGE, min(max(ecc, 0.0), 1.0), 1.0).diversity_gain_db / uncorrelated
 
 
+def correlation_impact(severity: str, ecc: float, band: str, *, likely_worse: bool = False) -> str:
+    """What a high envelope correlation means for the product, in a product manager's words."""
+    share = f"{100 * diversity_share(ecc):.0f} %"
+    worse = " The real figure is likely worse than this measurement shows." if likely_worse else ""
+    if severity == "blocker":
+        return (f"In {band} the two antennas receive nearly the same signal (correlation {ecc:.2f}): the second antenna "
+                f"keeps only about {share} of its benefit, so the product loses range and speed where the signal is "
+                f"weak, and operators may refuse it in their over-the-air tests.{worse}")
+    return (f"In {band} the two antennas receive partly the same signal (correlation {ecc:.2f}): the second antenna "
+            f"keeps about {share} of its benefit, so expect somewhat shorter range and lower speeds where the signal "
+            f"is weak.{worse}")
+
+
 def diversity_sentence(ecc: float) -> str:
     uncorrelated = second_antenna_gain(DIVERSITY_OUTAGE, 0.0, 1.0).diversity_gain_db
     left = second_antenna_gain(DIVERSITY_OUTAGE, min(max(ecc, 0.0), 1.0), 1.0).diversity_gain_db
@@ -67,8 +80,10 @@ def _cellular_ports(context: CheckContext, measurement: LoadedMeasurement) -> li
         "fault is in the calibration or de-embedding, not in the antennas, so no correlation or efficiency "
         "figure is drawn from those frequencies. Testing each column (|S11|^2 + |S21|^2 <= 1) is not enough."
     ),
+    product_impact="A faulty measurement file says nothing reliable about the product until the test is redone.",
     sources=("power conservation: a passive network's S-matrix has no singular value above 1",
              "common practice (1 % tolerance for measurement noise)"),
+    needs=("measurements", "modem.bands"),
 )
 def not_passive(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:
@@ -101,6 +116,9 @@ def not_passive(context: CheckContext) -> Iterator[Flag]:
                 "isolation there are shown as measured."
             ),
             action="Check the calibration and de-embedding, measure again, and replace the file.",
+            product_impact=(f"The measurement {measurement.file} is faulty in {', '.join(affected)} (it reports more power "
+                            "coming back than was sent), so it can't show how well the antennas work together there. "
+                            "The product may well be fine: the test needs redoing before its results count."),
             subjects=(measurement.file,),
             evidence={"file": measurement.file, "problem": "not-passive", "frequency_mhz": worst_mhz,
                       "largest_singular_value": value if np.isfinite(value) else None,
@@ -116,7 +134,9 @@ def not_passive(context: CheckContext) -> Iterator[Flag]:
         "Return loss below 6 dB (VSWR above 3:1) reflects more than a quarter of the power; below 3.5 dB "
         "it is nearly half (45 %). The worst point over the frequencies the antenna must serve is what counts."
     ),
+    product_impact="An antenna that sends much of its power back to the modem gives the product shorter range in that band.",
     sources=("common practice (VSWR 3:1 for embedded antennas)", "VSWR = (1 + |S_ii|) / (1 - |S_ii|)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct"),
 )
 def poor_match(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:
@@ -143,6 +163,15 @@ def poor_match(context: CheckContext) -> Iterator[Flag]:
                         "back."
                     ),
                     action="Retune the matching network for this band, or revisit the antenna's clearance and ground.",
+                    product_impact=(
+                        (f"{name} sends about {reflected_pct:.0f} % of its power straight back in {band.name}: the "
+                         "product will have noticeably shorter range in that band and may fail the operators' "
+                         "over-the-air tests. The antenna's tuning needs rework before the design is frozen.")
+                        if severity == "blocker" else
+                        (f"{name} sends about {reflected_pct:.0f} % of its power back in {band.name}: some range is "
+                         "lost in that band. Retuning the antenna's matching parts usually fixes it without a "
+                         "mechanical change.")
+                    ),
                     subjects=(name, band.name),
                     evidence={"band": band.name, "port": _port_label(port_index), "return_loss_db": worst.value,
                               "vswr": worst_vswr, "frequency_mhz": worst.frequency_mhz,
@@ -155,7 +184,9 @@ def poor_match(context: CheckContext) -> Iterator[Flag]:
     id="MAT-002", changed_in="2.0.0", topic="matching", severities=("note",),
     title="A measurement does not cover a band",
     rationale="A band the measurement does not span is unmeasured: nothing can be said about it from the file.",
+    product_impact="A band the measurement does not reach is unverified: the product's behaviour there is unknown.",
     sources=("common practice",),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct"),
 )
 def measurement_misses_band(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:
@@ -176,6 +207,8 @@ def measurement_misses_band(context: CheckContext) -> Iterator[Flag]:
                         "is outside it, so match, isolation and correlation there are unmeasured."
                     ),
                     action=f"Measure again across all of {band.name}.",
+                    product_impact=(f"The measurement says nothing about part of {band.name} for {name}: the product "
+                                    "is unverified there until it is measured again across the whole band."),
                     subjects=(name, band.name),
                     evidence={"band": band.name, "port": _port_label(port_index), "return_loss_db": None,
                               "vswr": None, "missing_mhz": [list(pair) for pair in window.missing_mhz],
@@ -207,7 +240,10 @@ def _pairs(context: CheckContext) -> Iterator[PairWindow]:
         "main antenna loses it into the receive port) and is a sign of strong coupling, which also raises the "
         "envelope correlation. Judged over every frequency either antenna serves in the band."
     ),
+    product_impact=("Antennas that leak power into each other waste it: shorter range, and the second antenna helps "
+                    "less."),
     sources=("common practice (10 dB isolation)", "coupled power = 10^(-isolation / 10)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct"),
 )
 def poor_isolation(context: CheckContext) -> Iterator[Flag]:
     for measurement, (i, first), (j, second), band, window in _pairs(context):
@@ -226,6 +262,14 @@ def poor_isolation(context: CheckContext) -> Iterator[Flag]:
                 "power fed to one antenna arrives at the other's port instead of being radiated."
             ),
             action="Increase spacing, cross the polarizations, or add a decoupling structure; then measure again.",
+            product_impact=(
+                (f"About {coupled_pct:.0f} % of the power sent into one antenna ends up in the other in {band.name}: "
+                 "the product loses range there and the two antennas act partly as one. Expect trouble in the "
+                 "operators' over-the-air tests unless the layout changes.")
+                if worst.value < 6.0 else
+                (f"About {coupled_pct:.0f} % of the power sent into one antenna leaks into the other in {band.name}: "
+                 "some range is lost there and the second antenna helps less than it could.")
+            ),
             subjects=(first, second, band.name),
             evidence={"band": band.name, "ports": ports, "isolation_db": worst.value,
                       "frequency_mhz": worst.frequency_mhz, "coupled_pct": coupled_pct, "file": measurement.file},
@@ -245,7 +289,11 @@ def poor_isolation(context: CheckContext) -> Iterator[Flag]:
         "trusted only when both antennas are at least 50 % efficient in the band; otherwise it is judged when high "
         "but never clears anything, and a far-field measurement decides."
     ),
+    product_impact=("Two antennas that receive nearly the same signal give the product little of the range and speed "
+                    "a second antenna is there for."),
     sources=(BLANCH, HALLBJORNER, "common practice (ECC below 0.5 for LTE MIMO)", MRC_MODEL),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def high_correlation(context: CheckContext) -> Iterator[Flag]:
     for result, first, second, band in _sparameter_results(context):
@@ -267,6 +315,8 @@ def high_correlation(context: CheckContext) -> Iterator[Flag]:
             action=("Separate the antennas further or make their patterns or polarizations differ, then measure "
                     "again" + ("." if result.trustworthy else
                                "; a far-field (chamber or simulated pattern) measurement of both antennas decides.")),
+            product_impact=correlation_impact("blocker" if result.ecc > ECC_BLOCKER else "warning", result.ecc,
+                                              band.name, likely_worse=not result.trustworthy),
             subjects=(first, second, band.name),
             evidence={"band": band.name, "ports": list(result.ports), "ecc": result.ecc,
                       "frequency_mhz": result.frequency_mhz, "method": "s-parameters", "assumes_lossless": True,
@@ -291,7 +341,11 @@ def _sparameter_results(context: CheckContext) -> Iterator[tuple[MeasuredCorrela
         "S-parameter ECC can't show that the pair is decorrelated, so it clears nothing; a far-field measurement "
         "decides. Small IoT antennas at 20-50 % efficiency are where this matters most."
     ),
+    product_impact=("A good-looking correlation from this kind of measurement is not proof for lossy antennas: it "
+                    "settles nothing until a pattern measurement is made."),
     sources=(BLANCH, HALLBJORNER),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def optimistic_correlation(context: CheckContext) -> Iterator[Flag]:
     worst_by_pair: dict[tuple[str, str], list[tuple[MeasuredCorrelation, Band]]] = {}
@@ -315,6 +369,9 @@ def optimistic_correlation(context: CheckContext) -> Iterator[Flag]:
             ),
             action=("Enter the antennas' efficiencies if they are known, or measure (or simulate) the far-field "
                     "pattern of each antenna with the other in place and add the files as far-field measurements."),
+            product_impact=(f"The measurement makes {first} and {second} look independent, but for antennas this lossy "
+                            "(or of unknown efficiency) it can read too good: treat the pair as unproven until a "
+                            "pattern measurement settles it. Nothing is known to be wrong with the product."),
             subjects=(first, second),
             evidence={"band": band.name, "ports": list(result.ports), "ecc": result.ecc,
                       "frequency_mhz": result.frequency_mhz, "method": "s-parameters", "assumes_lossless": True,
@@ -331,7 +388,10 @@ def optimistic_correlation(context: CheckContext) -> Iterator[Flag]:
         "1 - sum |S_ki|^2 bounds the radiation efficiency from above. If even the bound is below 25 %, the "
         "antenna can't be efficient whatever its losses. Frequencies where the data is not passive give no bound."
     ),
+    product_impact="An antenna that can radiate only a small share of its power gives the product short range in that band.",
     sources=("power conservation over the S-matrix (common practice)", "common practice (25 % efficiency)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def low_measured_efficiency_bound(context: CheckContext) -> Iterator[Flag]:
     for measurement in context.measurements:
@@ -353,6 +413,9 @@ def low_measured_efficiency_bound(context: CheckContext) -> Iterator[Flag]:
                         "radiated, before any losses in the antenna itself."
                     ),
                     action="Improve the match and isolation in this band, then measure efficiency in a chamber.",
+                    product_impact=(f"At most {worst.value:.0f} % of the power fed to {name} can leave the product in "
+                                    f"{band.name}, even before losses in the antenna itself: expect shorter range in that "
+                                    "band and a hard time in the operators' over-the-air tests."),
                     subjects=(name, band.name),
                     evidence={"band": band.name, "efficiency_pct": worst.value, "kind": "measured upper bound",
                               "frequency_mhz": worst.frequency_mhz, "port": _port_label(port_index),

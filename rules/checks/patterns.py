@@ -9,7 +9,14 @@ import numpy as np
 
 from rules import farfield, sparams
 from rules.catalog import Band
-from rules.checks.measured import ECC_BLOCKER, ECC_WARNING, MRC_MODEL, diversity_sentence
+from rules.checks.measured import (
+    ECC_BLOCKER,
+    ECC_WARNING,
+    MRC_MODEL,
+    correlation_impact,
+    diversity_sentence,
+    diversity_share,
+)
 from rules.context import CheckContext, ranges_to_serve
 from rules.correlation import TAGA, VAUGHAN_ANDERSEN, MeasuredCorrelation, pattern_correlation
 from rules.findings import Flag
@@ -42,7 +49,11 @@ def _environment_words(item: LoadedPattern) -> str:
         "0.5 still leaves most of the diversity gain and 0.7 much less; above 0.5 a warning, above 0.7 a blocker. "
         "Judged over each band's downlink (TDD: the band) at the pattern's frequencies inside it."
     ),
+    product_impact=("Two antennas that receive nearly the same signal give the product little of the range and speed "
+                    "a second antenna is there for."),
     sources=(VAUGHAN_ANDERSEN, TAGA, "common practice (ECC below 0.5 for LTE MIMO)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def high_pattern_correlation(context: CheckContext) -> Iterator[Flag]:
     for first, second in _pattern_pairs(context):
@@ -60,6 +71,8 @@ def high_pattern_correlation(context: CheckContext) -> Iterator[Flag]:
                     f"{band.dl_mhz[1]:g} MHz). {diversity_sentence(result.ecc)}"
                 ),
                 action="Separate the antennas further or make their patterns or polarizations differ; measure again.",
+                product_impact=correlation_impact("blocker" if result.ecc > ECC_BLOCKER else "warning", result.ecc,
+                                                  band.name),
                 subjects=(first.antenna, second.antenna, band.name),
                 evidence={"band": band.name, "ports": [first.antenna, second.antenna], "ecc": result.ecc,
                           "frequency_mhz": result.frequency_mhz, "method": "far-field",
@@ -76,7 +89,10 @@ def high_pattern_correlation(context: CheckContext) -> Iterator[Flag]:
         "figure is a trustworthy measurement of this product and outranks the spacing rule (SEP-001); this note "
         "records it, and names the bands the patterns do not reach."
     ),
+    product_impact="A pattern measurement that shows the antennas working independently is the best evidence a layout can have.",
     sources=(VAUGHAN_ANDERSEN, TAGA),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def pattern_correlation_summary(context: CheckContext) -> Iterator[Flag]:
     for first, second in _pattern_pairs(context):
@@ -98,6 +114,8 @@ def pattern_correlation_summary(context: CheckContext) -> Iterator[Flag]:
                 explanation=(f"{first.file} and {second.file} have no frequency inside the downlink of "
                              f"{', '.join(missing)}, so they say nothing about the pair's correlation there."),
                 action="Measure or simulate the patterns at frequencies inside each band's downlink.",
+                product_impact=("The pattern files miss the product's bands, so they neither prove nor disprove that the "
+                                "antennas work well together; they need redoing at the right frequencies."),
                 subjects=(first.antenna, second.antenna),
                 evidence={"band": None, "ports": [first.antenna, second.antenna], "ecc": None, "method": "far-field",
                           "files": [first.file, second.file], "bands_not_covered": missing, **environment},
@@ -117,6 +135,11 @@ def pattern_correlation_summary(context: CheckContext) -> Iterator[Flag]:
                 f"{diversity_sentence(worst.ecc)}{not_reached}"
             ),
             action="None needed for correlation; keep the patterns with the design record.",
+            product_impact=(f"Measured in this product, the two antennas work independently enough (correlation at most "
+                            f"{worst.ecc:.2f}, keeping about {100 * diversity_share(worst.ecc):.0f} % of the second "
+                            "antenna's benefit): good for range and speed. Keep the files with the record; a layout "
+                            "change means measuring again."
+                            + (f" Bands the patterns don't reach ({', '.join(missing)}) are unverified." if missing else "")),
             subjects=(first.antenna, second.antenna),
             evidence={"band": band.name, "ports": [first.antenna, second.antenna], "ecc": worst.ecc,
                       "frequency_mhz": worst.frequency_mhz, "method": "far-field", "files": [first.file, second.file],
@@ -135,7 +158,10 @@ def pattern_correlation_summary(context: CheckContext) -> Iterator[Flag]:
         "receives there relative to an isotropic antenna taking both polarizations. A warning when the measured "
         "efficiency is below 25 % in a band, as for an entered one; otherwise a note with the figures."
     ),
+    product_impact="A measured efficiency says how much of the product's power really leaves as radio waves.",
     sources=(TAGA, "common practice (25 % efficiency)"),
+    needs=("measurements", "modem.bands", "antennas", "antennas[].ranges_mhz", "antennas[].efficiency_pct",
+           "antennas[].efficiency_source"),
 )
 def pattern_efficiency(context: CheckContext) -> Iterator[Flag]:
     for item in context.far_fields:
@@ -171,6 +197,15 @@ def pattern_efficiency(context: CheckContext) -> Iterator[Flag]:
             ),
             action=("Improve the antenna's placement, ground or matching, or choose a more efficient antenna."
                     if low else "None needed; keep the pattern with the design record."),
+            product_impact=(
+                (f"Measured in this product, {antenna.name} turns only {efficiency_pct:.0f} % of its power into radio "
+                 f"waves in {band_name}: expect shorter range in that band and a risk in the operators' over-the-air "
+                 "tests.")
+                if low else
+                (f"Measured in this product, {antenna.name} radiates at least {efficiency_pct:.0f} % of its power in "
+                 f"every band the pattern covers, above the {MIN_EFFICIENCY_PCT:g} % where this checklist starts to "
+                 "warn: its efficiency is no concern. Keep the pattern with the record.")
+            ),
             subjects=(antenna.name,),
             evidence={"band": band_name, "efficiency_pct": efficiency_pct, "frequency_mhz": frequency_mhz,
                       "mean_effective_gain_db": meg_db, "bands": [row[0] for row in rows],

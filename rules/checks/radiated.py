@@ -128,6 +128,28 @@ def _basis(estimate: Estimate) -> str:
     return "measured" if estimate.antenna.efficiency_source == "measured" else "datasheet"
 
 
+def _impact_met(quantity: str, met: list[Estimate]) -> str:
+    least_db = min(-(item.shortfall_db or 0.0) for item in met)
+    what = "sends" if quantity == TRP else "hears"
+    return (f"By this estimate the product {what} well enough for the team's {WORDS[quantity]} targets in "
+            f"{', '.join(item.band for item in met)}, with at least {least_db:.1f} dB to spare. The operator's chamber "
+            "test still decides, and a change of antenna or enclosure can use up the margin.")
+
+
+def _impact_missed(item: Estimate) -> str:
+    if item.estimate_dbm is None:
+        return (f"By this estimate the product {'sends' if item.quantity == TRP else 'hears'} nothing in {item.band} "
+                f"(0 % antenna efficiency): it would fail the operator's {WORDS[item.quantity]} test there.")
+    if item.quantity == TRP:
+        harm = (f"the product sends {item.shortfall_db:.1f} dB less power than the operator's target in {item.band} "
+                f"({item.estimate_dbm:.1f} dBm against {item.target_dbm:g} dBm): less uplink range there")
+    else:
+        harm = (f"the product hears {item.shortfall_db:.1f} dB less well than the operator's target in {item.band} "
+                f"({item.estimate_dbm:.1f} dBm against {item.target_dbm:g} dBm): less downlink range there")
+    return (f"By this estimate {harm}, and a risk of failing the operator's over-the-air test, which decides. Most of "
+            "the fix is in the antenna's efficiency.")
+
+
 def _summary_note(quantity: str, met: list[Estimate]) -> Flag:
     worst = max(met, key=lambda item: item.shortfall_db or 0.0)  # the least margin
     word = WORDS[quantity]
@@ -138,6 +160,7 @@ def _summary_note(quantity: str, met: list[Estimate]) -> Flag:
         explanation=(f"Estimated {word} on {worst.antenna.name}: {listed}; the least margin is "
                      f"{-(worst.shortfall_db or 0.0):.1f} dB in {worst.band}. {BUDGETARY}"),
         action=f"Keep the margins in mind when the antenna or enclosure changes; plan the chamber test before {OPERATOR_TEST}.",
+        product_impact=_impact_met(quantity, met),
         subjects=(worst.antenna.name,),
         evidence=_evidence(worst) | {"bands": [item.band for item in met],
                                      "estimates_dbm": [item.estimate_dbm for item in met],
@@ -176,7 +199,8 @@ def _warning(context: CheckContext, item: Estimate) -> Flag:
                   f"{OPERATOR_TEST}.")
         extra = {}
     return Flag(
-        severity="warning", title=title, explanation=explanation, action=action, subjects=(antenna, band),
+        severity="warning", title=title, explanation=explanation, action=action, product_impact=_impact_missed(item),
+        subjects=(antenna, band),
         evidence=_evidence(item) | extra, references=(item.conducted_source, EFFICIENCY_RULE, OPERATOR_TEST),
         basis=_basis(item),
     )
@@ -202,8 +226,13 @@ def _judged(context: CheckContext, quantity: str) -> Iterator[Flag]:
         "cable loss: a warning for each band below the target the team copied from its operator's requirements, one "
         "note for the bands that meet theirs. Budgetary: the operator's over-the-air test decides."
     ),
+    product_impact=("An estimated radiated power below the operator's target means a risk of failing its over-the-air "
+                    "test and less uplink range; the chamber test decides."),
     sources=("3GPP TS 36.101 clause 6.2.2 / TS 38.101-1 clause 6.2.1 (power classes)", EFFICIENCY_RULE,
              OPERATOR_TEST),
+    needs=("antennas", "modem.bands", "modem.category", "modem.power_class", "modem.conducted_sensitivity_dbm",
+           "deployment.radiated_targets_dbm", "antennas[].efficiency_pct", "antennas[].efficiency_source",
+           "antennas[].cable_loss_db", "measurements"),
 )
 def trp_below_target(context: CheckContext) -> Iterator[Flag]:
     yield from _judged(context, TRP)
@@ -221,7 +250,12 @@ def trp_below_target(context: CheckContext) -> Iterator[Flag]:
         "noise coupling into the antenna (desense) only makes the measured TIS worse. Budgetary: the operator's "
         "over-the-air test decides."
     ),
+    product_impact=("An estimated sensitivity worse than the operator's target means a risk of failing its over-the-air "
+                    "test and less downlink range; the chamber test decides."),
     sources=("the module's datasheet (conducted sensitivity)", EFFICIENCY_RULE, OPERATOR_TEST),
+    needs=("antennas", "modem.bands", "modem.category", "modem.power_class", "modem.conducted_sensitivity_dbm",
+           "deployment.radiated_targets_dbm", "antennas[].efficiency_pct", "antennas[].efficiency_source",
+           "antennas[].cable_loss_db", "measurements"),
 )
 def tis_above_target(context: CheckContext) -> Iterator[Flag]:
     yield from _judged(context, TIS)
@@ -235,7 +269,11 @@ def tis_above_target(context: CheckContext) -> Iterator[Flag]:
         "sensitivity there. A target for a band that is not selected, or a TRP target for a supplemental-downlink "
         "band (nothing is transmitted in it), can't be judged."
     ),
+    product_impact="A radiated target that can't be estimated leaves the operator's over-the-air test unforeseen there.",
     sources=("common practice",),
+    needs=("antennas", "modem.bands", "modem.category", "modem.power_class", "modem.conducted_sensitivity_dbm",
+           "deployment.radiated_targets_dbm", "antennas[].efficiency_pct", "antennas[].efficiency_source",
+           "antennas[].cable_loss_db", "measurements"),
 )
 def radiated_inputs_missing(context: CheckContext) -> Iterator[Flag]:
     missing = estimates(context)[1]
@@ -249,6 +287,8 @@ def radiated_inputs_missing(context: CheckContext) -> Iterator[Flag]:
         explanation=f"The design gives radiated targets that can't be estimated: {listed}.",
         action=("Enter the main antenna's total efficiency per band and the module's conducted sensitivity per band "
                 "(from their datasheets, or measured), or remove targets for bands the product does not use."),
+        product_impact=(f"{len(missing)} of the radiated targets the team entered can't be checked yet, so how the "
+                        "product would do in the operator's over-the-air test there is not foreseen."),
         evidence={"band": first.band, "quantity": first.quantity, "estimate_dbm": None, "target_dbm": first.target_dbm,
                   "missing": [[item.quantity, item.band, item.reason] for item in missing]},
     )

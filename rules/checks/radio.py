@@ -32,7 +32,11 @@ def efficiency_basis(antennas: list[Antenna]) -> str:
         "band is judged band by band, and a band missing from it is not judged. Receive-only antennas do not "
         "transmit and are not limited."
     ),
+    product_impact=("An antenna stronger than the module's approval allows takes the product outside that approval: it "
+                    "then needs its own, with months and test fees added."),
     sources=("the module's regulatory approval (grant or declaration of conformity)",),
+    needs=("antennas", "modem.bands", "modem.gain_limits_dbi", "antennas[].peak_gain_dbi",
+           "antennas[].cable_loss_db"),
 )
 def gain_above_approval(context: CheckContext) -> Iterator[Flag]:
     modem = context.design.modem
@@ -60,6 +64,13 @@ def gain_above_approval(context: CheckContext) -> Iterator[Flag]:
                     "Choose a lower-gain antenna or a longer (lossier) feed, or plan a new or extended "
                     "regulatory approval; confirm with the module maker and your regulatory test house."
                 ),
+                product_impact=(
+                    f"With this antenna the product is outside the module's radio approval in {band.name} "
+                    f"({net_gain_dbi:.1f} dBi where {limit_dbi:.1f} dBi is allowed): it can't be sold on the module's "
+                    "approval and would need an approval of its own, adding months and test fees. A lower-gain "
+                    "antenna or a longer cable usually avoids that; the regulator and the test house have the final "
+                    "word."
+                ),
                 subjects=(antenna.name, band.name),
                 evidence={"band": band.name, "gain_dbi": net_gain_dbi, "limit_dbi": limit_dbi,
                           "peak_gain_dbi": peak_dbi, "cable_loss_db": antenna.cable_loss_db},
@@ -72,7 +83,9 @@ def gain_above_approval(context: CheckContext) -> Iterator[Flag]:
     title="Gain limits given but an antenna's gain is not",
     rationale=("Without the transmitting antenna's peak gain in a band the approval limit there can't be checked; "
                "a per-band gain that leaves out a limited band leaves that band unjudged."),
+    product_impact="Until the antenna's gain is entered, an antenna outside the module's approval would go unnoticed.",
     sources=("common practice",),
+    needs=("antennas", "modem.bands", "modem.gain_limits_dbi", "antennas[].peak_gain_dbi"),
 )
 def gain_unknown(context: CheckContext) -> Iterator[Flag]:
     modem = context.design.modem
@@ -97,6 +110,9 @@ def gain_unknown(context: CheckContext) -> Iterator[Flag]:
             title=title,
             explanation=explanation,
             action="Enter the peak gain from the antenna's datasheet, for every band or band by band.",
+            product_impact=(f"Whether {antenna.name} keeps the product within the module's radio approval in "
+                            f"{', '.join(unknown)} is unknown; an antenna over the limit would mean an approval of the "
+                            "product's own, so enter its gain before the antenna is chosen for good."),
             subjects=(antenna.name,),
             evidence={"band": unknown[0], "gain_dbi": None, "limit_dbi": modem.gain_limits_dbi[unknown[0]],
                       "bands": unknown},
@@ -150,9 +166,13 @@ def design_peak(context: CheckContext, direction: str) -> Peak:
         "half-duplex (HD-FDD, the Rel-13 peaks of a few hundred kbps) unless the design declares full "
         "duplex; RedCap on a TDD band gets the downlink or uplink share of the TDD pattern."
     ),
+    product_impact=("If the product needs more data than its modem type can ever carry, no antenna or network fixes it: "
+                    "the modem or the product's data needs must change."),
     sources=("3GPP TS 36.306 Tables 4.1-1, 4.1A-1, 4.1C-1", "3GPP TS 38.306 §4.1.2",
              "3GPP TS 36.213 (LTE-M HD-FDD timing; peaks from memory)",
              "common practice (TDD pattern DDDSU, S = 10:2:2)"),
+    needs=("modem.category", "modem.rx_ports", "antennas", "modem.bands", "modem.full_duplex",
+           "deployment.required_dl_kbps", "deployment.required_ul_kbps"),
 )
 def throughput_above_peak(context: CheckContext) -> Iterator[Flag]:
     design = context.design
@@ -175,6 +195,11 @@ def throughput_above_peak(context: CheckContext) -> Iterator[Flag]:
                 "of the peak."
             ),
             action="Choose a faster category, or reduce what the product sends and receives.",
+            product_impact=(f"The product can't move {required_kbps:g} kbps on the {word} "
+                            f"({'receiving' if direction == 'dl' else 'sending'}): {category.label} peaks at "
+                            f"{peak_kbps:g} kbps even in perfect conditions, and real links give a fraction of it. "
+                            "The fix is a faster (and costlier) modem type or a smaller data need: fewer or smaller "
+                            "reports, slower updates."),
             subjects=(direction,),
             evidence={"direction": direction, "required_kbps": required_kbps, "peak_kbps": peak_kbps,
                       "duplex_mode": peak.duplex_mode, "tdd_pattern": category.tdd_pattern
@@ -192,7 +217,9 @@ def throughput_above_peak(context: CheckContext) -> Iterator[Flag]:
         "receive-only antenna pays it on the downlink only. Carriers' radiated tests (TRP/TIS) are often failed "
         "near there."
     ),
+    product_impact="An inefficient antenna wastes most of the product's radio power: shorter range and harder operator tests.",
     sources=("common practice", "loss = -10 log10(efficiency)"),
+    needs=("antennas", "modem.bands", "antennas[].efficiency_pct", "antennas[].efficiency_source"),
 )
 def low_entered_efficiency(context: CheckContext) -> Iterator[Flag]:
     selected = {band.name for band in context.design.modem.bands}
@@ -205,6 +232,15 @@ def low_entered_efficiency(context: CheckContext) -> Iterator[Flag]:
                         else "on the downlink (it only receives)")
                 source = ("measured in this product" if antenna.efficiency_source == "measured"
                           else "from the datasheet")
+                if antenna.transmits:
+                    impact = (f"{antenna.name} turns only {efficiency_pct:g} % of the power into radio waves in "
+                              f"{band_name}: expect shorter range in that band both ways, more battery spent sending at "
+                              "the edge of coverage, and a risk in the operators' over-the-air tests.")
+                else:
+                    impact = (f"{antenna.name}, the extra receive antenna, catches only {efficiency_pct:g} % of the "
+                              f"signal in {band_name}, so it adds less to reception there than it could.")
+                if antenna.efficiency_source != "measured":
+                    impact += " The figure is the datasheet's; a measurement in the product tells for sure."
                 yield Flag(
                     severity="warning",
                     title=f"{antenna.name} is {efficiency_pct:g} % efficient in {band_name}",
@@ -213,6 +249,7 @@ def low_entered_efficiency(context: CheckContext) -> Iterator[Flag]:
                         f"{MIN_EFFICIENCY_PCT:g} %: it loses {loss} {duty}, as heat or mismatch."
                     ),
                     action="Improve the antenna's placement, ground or matching, or choose a more efficient antenna.",
+                    product_impact=impact,
                     subjects=(antenna.name, band_name),
                     evidence={"band": band_name, "efficiency_pct": efficiency_pct,
                               "source": antenna.efficiency_source,
@@ -231,7 +268,10 @@ def low_entered_efficiency(context: CheckContext) -> Iterator[Flag]:
         f"finding says how much, by the engine's diversity model ({MRC_MODEL}), at the pair's measured envelope "
         "correlation where a trustworthy measurement gives one, else the coverage analysis's assumed value."
     ),
+    product_impact="Two antennas of very different quality give the product less of the benefit of having two.",
     sources=("common practice (diversity branches within 3 dB)", MRC_MODEL),
+    needs=("modem.category", "modem.rx_ports", "antennas", "measurements", "modem.bands", "antennas[].ranges_mhz",
+           "antennas[].efficiency_pct", "antennas[].efficiency_source"),
 )
 def efficiency_imbalance(context: CheckContext) -> Iterator[Flag]:
     if context.rx_connected < 2:
@@ -275,6 +315,9 @@ def efficiency_imbalance(context: CheckContext) -> Iterator[Flag]:
                 ),
                 action=(f"Improve {weaker.name}'s placement, ground clearance or matching in {band.name}, or choose "
                         "a more efficient antenna for that branch."),
+                product_impact=(f"{weaker.name} is much weaker than {stronger.name} in {band.name}, so the product gets "
+                                f"{cost_db:.1f} dB less benefit from having two antennas: somewhat shorter range where the "
+                                "signal is weak. Improving the weaker antenna recovers it."),
                 subjects=(main.name, receiver.name, band.name),
                 evidence={"band": band.name, "efficiency_pct": min(main_pct, receive_pct),
                           "efficiencies_pct": [main_pct, receive_pct], "imbalance_db": imbalance_db,

@@ -21,7 +21,10 @@ DEFERENCE = (
         "Within about 20 cm of a transmitting antenna most regulators require an RF exposure evaluation "
         "(SAR or power density) rather than a simple distance statement."
     ),
+    product_impact=("A product used close to people usually needs an RF exposure evaluation before sale: a test with "
+                    "its own time and cost, and limits set by each market's regulator."),
     sources=("common practice (20 cm exposure distance)", "local RF exposure regulation"),
+    needs=("deployment.body_distance_mm",),
 )
 def people_close(context: CheckContext) -> Iterator[Flag]:
     distance_mm = context.design.deployment.body_distance_mm
@@ -38,6 +41,12 @@ def people_close(context: CheckContext) -> Iterator[Flag]:
             "Plan an RF exposure evaluation with an accredited test house under the rules of each market; "
             "keep transmitting antennas as far from the body as the design allows."
         ),
+        product_impact=(
+            f"Because people come within {distance_mm:g} mm of the product, expect most markets to require an RF "
+            "exposure evaluation before sale: plan its time and cost. Whether the product meets the limits is for the "
+            "regulator and an accredited test house to decide; keeping the antenna away from where the body rests "
+            "makes it easier."
+        ),
         evidence={"body_distance_mm": distance_mm, "threshold_mm": EXPOSURE_DISTANCE_MM},
     )
 
@@ -46,7 +55,9 @@ def people_close(context: CheckContext) -> Iterator[Flag]:
     id="RFX-002", topic="rf-exposure", severities=("note",),
     title="Distance to people not given: RF exposure undetermined",
     rationale="Whether an exposure evaluation is needed depends on how close people come in normal use.",
+    product_impact="How close people come decides whether an RF exposure evaluation is on the plan before sale.",
     sources=("common practice", "local RF exposure regulation"),
+    needs=("deployment.body_distance_mm",),
 )
 def distance_unknown(context: CheckContext) -> Iterator[Flag]:
     if context.design.deployment.body_distance_mm is None:
@@ -55,5 +66,7 @@ def distance_unknown(context: CheckContext) -> Iterator[Flag]:
             title="Closest distance to people not given",
             explanation="The design does not say how close people come in normal use. " + DEFERENCE,
             action="Enter the closest distance between the product and a person in normal use.",
+            product_impact=("Whether the product needs an RF exposure evaluation before sale is still open: entering how "
+                            "close people come in normal use settles whether that test belongs on the plan."),
             evidence={"body_distance_mm": None, "threshold_mm": EXPOSURE_DISTANCE_MM},
         )

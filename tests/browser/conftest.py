@@ -121,3 +121,15 @@ def page_without_js(browser, request, tmp_path):
 @pytest.fixture
 def team(transactional_db):
     return Team.objects.create(name="Tallow Creek Instruments")
+
+
+@pytest.fixture
+def hive_gateway(team, author):
+    """A draft holding rules/examples/hive-gateway.json: a valid Cat 1 design with a SEP-001 blocker."""
+    from projectapp.designs import services
+    from tests.web.conftest import EXAMPLES
+
+    product = services.product_create(team=team, name="Hive gateway", user=author)
+    services.design_import(product=product, text=(EXAMPLES / "hive-gateway.json").read_text(),
+                           source="hive-gateway.json", user=author)
+    return product

@@ -8,6 +8,7 @@ import pytest
 from django.urls import reverse
 
 from projectapp.designs import services
+from projectapp.reviews.services import revision_submit
 from tests.browser.test_questionnaire_flow import log_in
 from tests.web.conftest import EXAMPLES
 
@@ -28,7 +29,7 @@ def router(team, author):
                              content=(EXAMPLES / "field-router-revA.s2p").read_bytes())
     services.design_import(product=product, text=(EXAMPLES / "field-router.json").read_text(),
                            source="field-router.json", user=author)
-    return services.revision_submit(revision=product.draft, user=author)
+    return revision_submit(revision=product.draft, user=author)
 
 
 def test_the_assumptions_recompute_the_panel_in_place_and_name_a_refused_value(page: Page, live_server, router,

@@ -5,9 +5,10 @@ import pytest
 from django.urls import reverse
 from playwright.sync_api import expect
 
+from projectapp.audit.models import AuditEvent
 from projectapp.designs import services as design_services
-from projectapp.reviews.models import AuditEvent, ReviewItem
-from projectapp.reviews.services import review_item_assign
+from projectapp.reviews.models import ReviewItem
+from projectapp.reviews.services import review_item_assign, revision_submit
 from tests.browser.test_questionnaire_flow import log_in
 from tests.web.conftest import EXAMPLES
 
@@ -20,7 +21,7 @@ def queue(team, author, reviewer):
     product = design_services.product_create(team=team, name="Hive gateway", user=author)
     design_services.design_import(product=product, text=(EXAMPLES / "hive-gateway.json").read_text(),
                                   source="hive-gateway.json", user=author)
-    revision = design_services.revision_submit(revision=product.draft, user=author)
+    revision = revision_submit(revision=product.draft, user=author)
     for item in revision.review_items.filter(kind="raised", severity__in=["blocker", "warning"]):
         review_item_assign(item=item, user=reviewer, assignee=reviewer, expected_version=item.version)
     return revision
@@ -37,7 +38,8 @@ def test_a_reviewer_works_through_their_queue(page, live_server, reviewer, queue
     page.evaluate("window.earshotMarker = 'still here'")  # survives only if no full page load happens
     decisions = {"SEP-001": ("change", "Move DIV to the far corner of the board"),
                  "EFF-001": ("change", "")}
-    for item in ReviewItem.objects.filter(revision=queue, kind="raised").order_by("id"):
+    # external steps (certification, RF exposure) are tracked, not dispositioned: the cards with a decision form
+    for item in ReviewItem.objects.filter(revision=queue, kind="raised", process_step__isnull=True).order_by("id"):
         disposition, justification = decisions.get(item.rule_id, ("not-applicable", "Tracked in the test plan"))
         card = page.locator(f"#item-{item.pk}")
         card.locator("select[name=disposition]").select_option(disposition)
@@ -48,11 +50,11 @@ def test_a_reviewer_works_through_their_queue(page, live_server, reviewer, queue
     assert page.evaluate("window.earshotMarker") == "still here"
 
     page.goto(live_server.url + reverse("review_dashboard") + "?assignee=me")
-    expect(page.get_by_text("Nothing here: every item is settled")).to_be_visible()
+    expect(page.get_by_text("No open item is assigned to you")).to_be_visible()
     page.goto(live_server.url + reverse("product_audit", args=[queue.product_id]))
     expect(page.get_by_text("Move DIV to the far corner of the board").first).to_be_visible()
     recorded = AuditEvent.objects.filter(product=queue.product, action="disposition", actor=reviewer).count()
-    assert recorded == ReviewItem.objects.filter(revision=queue, kind="raised").count()
+    assert recorded == ReviewItem.objects.filter(revision=queue, kind="raised", process_step__isnull=True).count()
 
 
 def test_a_waiver_on_a_blocker_is_refused_to_a_reviewer_with_a_clear_answer(page, live_server, reviewer, queue):

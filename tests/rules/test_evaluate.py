@@ -41,7 +41,7 @@ def test_a_rule_that_raises_is_a_rule_failure_and_every_other_rule_still_judges(
 
 def test_a_rule_that_flags_and_then_raises_leaves_none_of_its_findings(monkeypatch):
     def check(context):
-        yield Flag(severity="note", title="half done", explanation="", action="")
+        yield Flag(severity="note", title="half done", explanation="", action="", product_impact="half said")
         raise RuntimeError("then it broke")
 
     rule = {rule.id: rule for rule in registry.registered_rules()}["GND-002"]

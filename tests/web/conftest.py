@@ -8,6 +8,7 @@ import pytest
 from django.contrib.auth import get_user_model
 
 from projectapp.designs import services
+from projectapp.reviews.services import revision_submit
 from projectapp.teams.models import Membership, Role, Team
 from tests.django_isolation import empty_cache, fast_password_hashing, media_in_tmp  # noqa: F401 (autouse)
 
@@ -67,7 +68,7 @@ def submitted_product(team, author):
     product = services.product_create(team=team, name="Orchard soil probe", user=author)
     services.design_import(product=product, text=(EXAMPLES / "orchard-probe.json").read_text(),
                            source="orchard-probe.json", user=author)
-    services.revision_submit(revision=product.draft, user=author)
+    revision_submit(revision=product.draft, user=author)
     return product
 
 

@@ -12,6 +12,7 @@ from pathlib import Path
 import pytest
 from django.core.management import call_command
 
+from projectapp.reviews.services import revision_submit
 from projectapp.signoff import archive_files
 from projectapp.signoff.archive_files import FORMAT, export_archive, verify_archive
 from tests.web.test_signoff import settle, sign_all
@@ -40,9 +41,8 @@ def run_command(*args: str) -> tuple[int, str, str]:
 
 @pytest.fixture
 def signed(product, author, reviewer, approver):
-    from projectapp.designs import services as design_services
 
-    revision = design_services.revision_submit(revision=product.draft, user=author)
+    revision = revision_submit(revision=product.draft, user=author)
     settle(revision, reviewer, approver)
     return sign_all(revision, author, reviewer, approver)
 
@@ -116,7 +116,7 @@ def test_an_archive_with_every_record_removed_does_not_verify(tmp_path, signed):
         assert status == 1, (args, out, err)
         assert "All 0" not in out and "no signed record" in err
     status, _, err = run_command(str(emptied))
-    assert f"{signed.revision.product.name} revision {signed.revision.number}" in err
+    assert f"{signed.revision.product.name} design revision {signed.revision.number}" in err
     assert "archived before this export but missing from it" in err
 
 
@@ -124,7 +124,7 @@ def test_a_record_removed_from_a_full_export_is_named(tmp_path, signed, author, 
     from projectapp.designs import services as design_services
 
     draft = design_services.draft_get_or_start(product=product, user=author)
-    second = design_services.revision_submit(revision=draft, user=author)
+    second = revision_submit(revision=draft, user=author)
     for item in second.review_items.filter(kind="raised"):
         if item.is_carried_unconfirmed or item.severity in ("blocker", "warning"):
             from projectapp.reviews.services import review_item_decide
@@ -144,7 +144,7 @@ def test_a_record_removed_from_a_full_export_is_named(tmp_path, signed, author, 
     assert verify_archive(exported).problems == []
     check = verify_archive(shrunk)
     assert check.checked == 1 and len(check.problems) == 1
-    assert f"revision {removed['revision']}" in check.problems[0] and "missing from it" in check.problems[0]
+    assert f"design revision {removed['revision']}" in check.problems[0] and "missing from it" in check.problems[0]
 
 
 def test_a_file_that_is_not_a_zip_is_exit_2(tmp_path, db):

@@ -41,7 +41,7 @@ def digest(data):
 def sign_a_ready_revision(password):
     from django.test import RequestFactory
     from projectapp.signoff import services
-    for revision in Revision.objects.exclude(status=Revision.Status.DRAFT).order_by("pk"):
+    for revision in Revision.objects.exclude(state=Revision.State.DRAFT).order_by("pk"):
         if not services.readiness(revision).ready:
             continue
         team = revision.product.team
@@ -101,7 +101,7 @@ for folder, _, names in os.walk(media):
 User = get_user_model()
 print(json.dumps({
     "products": sorted([p.team.name, p.name, p.description] for p in Product.objects.select_related("team")),
-    "revisions": sorted([r.product.name, r.number, r.status, r.ruleset, digest(r.document), digest(r.evaluation),
+    "revisions": sorted([r.product.name, r.number, r.state, r.ruleset, digest(r.document), digest(r.evaluation),
                          r.evaluation is not None] for r in Revision.objects.select_related("product")),
     "review_items": sorted([i.revision.product.name, i.revision.number, i.rule_id, i.kind, i.severity,
                             i.disposition, i.justification, i.title]

@@ -8,6 +8,7 @@ from django.utils.html import escape
 
 from projectapp.designs import coverage_panel, services
 from projectapp.designs.checklists import checklist_for, coverage_rows
+from projectapp.reviews.services import revision_submit
 from rules.coverage import TABLE_GROUPS
 from tests.web.conftest import EXAMPLES
 
@@ -20,7 +21,7 @@ def router(team, author):
                              content=(EXAMPLES / "field-router-revA.s2p").read_bytes())
     services.design_import(product=product, text=(EXAMPLES / "field-router.json").read_text(),
                            source="field-router.json", user=author)
-    return services.revision_submit(revision=product.draft, user=author)
+    return revision_submit(revision=product.draft, user=author)
 
 
 def url(revision, **query) -> str:

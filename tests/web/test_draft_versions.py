@@ -39,7 +39,7 @@ def save(client, product, slug: str, data: dict, **extra):
 
 
 def draft_of(product) -> Revision:
-    return Revision.objects.get(product=product, status="draft")
+    return Revision.objects.get(product=product, state="draft")
 
 
 @pytest.fixture

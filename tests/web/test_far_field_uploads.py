@@ -11,10 +11,11 @@ from django.core.files.uploadedfile import SimpleUploadedFile
 from django.urls import reverse
 from django.utils.html import escape
 
+from projectapp.audit.models import AuditEvent
 from projectapp.designs import services
 from projectapp.designs.checklists import checklist_for
 from projectapp.designs.models import MeasurementFile, Revision
-from projectapp.reviews.models import AuditEvent
+from projectapp.reviews.services import revision_submit
 from tests.web.conftest import EXAMPLES, make_user
 
 MAIN_CSV = (EXAMPLES / "trail-tracker-main.csv").read_bytes()
@@ -36,7 +37,7 @@ def tracker(team, author):
 
 
 def draft_of(product) -> Revision:
-    return Revision.objects.get(product=product, status="draft")
+    return Revision.objects.get(product=product, state="draft")
 
 
 def upload(client, product, name: str, content: bytes, antenna: str, *, absolute: bool = True, **environment):
@@ -230,7 +231,7 @@ def test_a_kept_pattern_is_removed_with_its_entry(author_client, tracker):
 def test_a_new_draft_keeps_the_patterns_as_patterns(author_client, tracker, author):
     upload(author_client, tracker, "main.csv", MAIN_CSV, "MAIN")
     upload(author_client, tracker, "div.csv", DIV_CSV, "DIV")
-    services.revision_submit(revision=draft_of(tracker), user=author)
+    revision_submit(revision=draft_of(tracker), user=author)
     draft = services.draft_get_or_start(product=tracker, user=author)
     assert {(m.name, m.kind) for m in draft.measurement_files.all()} == {("main.csv", "far-field"),
                                                                         ("div.csv", "far-field")}

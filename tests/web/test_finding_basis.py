@@ -13,6 +13,7 @@ from pypdf import PdfReader
 from projectapp.designs import services
 from projectapp.designs.models import Revision
 from projectapp.reviews.models import ReviewItem
+from projectapp.reviews.services import revision_submit
 from projectapp.signoff.pdf import build_record_pdf
 from tests.web.conftest import EXAMPLES
 
@@ -32,7 +33,7 @@ def tracker(team, author):
     for entry in entries:
         services.pattern_add(revision=draft, name=entry["file"], content=FILES[entry["file"]], antenna=entry["antenna"],
                              absolute=entry["absolute"], environment=entry["environment"], user=author)
-    return services.revision_submit(revision=product.draft, user=author)
+    return revision_submit(revision=product.draft, user=author)
 
 
 def pdf_text(content: bytes) -> str:
@@ -111,7 +112,7 @@ def test_the_record_and_the_revision_page_show_the_radiated_targets_and_the_radi
     product = services.product_create(team=team, name="Depot gateway", user=author)
     services.design_import(product=product, text=(EXAMPLES / "depot-gateway.json").read_text(),
                            source="depot-gateway.json", user=author)
-    revision = services.revision_submit(revision=product.draft, user=author)
+    revision = revision_submit(revision=product.draft, user=author)
     text = pdf_text(build_record_pdf(revision, fingerprint="0" * 64))
     assert "Radiated target, TRP (at least) B2 19 dBm" in text and "B13 18 dBm" in text
     assert "Radiated target, TIS (at most) B2 -96 dBm" in text

@@ -16,11 +16,11 @@ from django.core.exceptions import PermissionDenied
 from django.core.files.uploadedfile import SimpleUploadedFile
 from django.urls import reverse
 
+from projectapp.audit.models import AuditEvent
 from projectapp.library import services
 from projectapp.library.forms import PART_FIELDS
 from projectapp.library.models import Entry, EntryDeletionError
 from projectapp.library.parts import ANTENNA, MODULE, part_problems
-from projectapp.reviews.models import AuditEvent
 from projectapp.teams.models import Role, Team
 from rules.design import FORMAT, DesignError, parse_design
 from tests.web.conftest import make_user

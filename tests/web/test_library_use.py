@@ -14,11 +14,12 @@ import pytest
 import skrf
 from django.urls import reverse
 
+from projectapp.audit.models import AuditEvent
 from projectapp.designs import questionnaire, services
 from projectapp.designs.models import Revision
 from projectapp.library import services as library
 from projectapp.library.parts import ANTENNA, MODULE
-from projectapp.reviews.models import AuditEvent
+from projectapp.reviews.services import revision_submit
 from rules.design import parse_design
 from rules.touchstone import parse_touchstone
 from tests.web.test_draft_versions import HTMX, draft_of, page_form, save, signed_in
@@ -191,7 +192,7 @@ def test_a_submitted_revision_keeps_its_values_and_is_offered_nothing(client, te
                 "antennas": [{"name": "ANT1", "role": "main", "ranges_mhz": [[698, 960]],
                               "library": {"name": "Reed flex 2", "version": 2}}]}
     services.draft_save_document(revision=draft, document=document, user=author)
-    submitted = services.revision_submit(revision=draft, user=author)
+    submitted = revision_submit(revision=draft, user=author)
     library.entry_update(entry=reed, values={**REED, "peak_gain_dbi": 1.6}, description="", read_version=2,
                          user=reviewer)
     client.force_login(author)

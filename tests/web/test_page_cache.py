@@ -10,7 +10,7 @@ from django.test import Client
 from django.urls import reverse
 
 from projectapp import fragments
-from projectapp.designs import checklists, services, views
+from projectapp.designs import services, views
 from projectapp.designs.models import Product
 from projectapp.teams.models import Membership
 from tests.web.conftest import EXAMPLES, PASSWORD
@@ -73,8 +73,12 @@ def drawn(monkeypatch):
     return calls
 
 
-def test_two_readers_of_one_cached_page_each_get_their_own_token_and_name(submitted_product, author, reviewer,
-                                                                          drawn):
+def test_two_readers_of_one_cached_page_each_get_their_own_token_and_name(submitted_product, author, team, drawn):
+    from tests.web.conftest import make_user
+
+    # Same roles: a frozen revision's page offers authors "start a draft from it" and reviewers a measurement
+    # draft, so the roles are part of its key.
+    reviewer = make_user("reviewer", team, "author")
     url = submitted_product.latest.get_absolute_url()
     first, second = signed_in(author, enforce_csrf=True), signed_in(reviewer, enforce_csrf=True)
     page_first = first.get(url).content.decode()
@@ -109,7 +113,8 @@ def test_a_cached_page_carries_the_nonce_of_its_own_response(submitted_product, 
     for client in (signed_in(author), signed_in(reviewer), signed_in(reviewer)):
         response = client.get(url)
         header = re.search(r"'nonce-([^']+)'", response["Content-Security-Policy"])[1]
-        assert re.findall(r'<script [^>]*nonce="([^"]+)"', response.content.decode()) == [header]
+        nonces = re.findall(r'<script [^>]*nonce="([^"]+)"', response.content.decode())
+        assert nonces and set(nonces) == {header}  # htmx and earshot.js, each with this response's nonce
 
 
 def test_text_typed_into_a_design_cannot_forge_a_marker(submitted_product, author):
@@ -121,7 +126,7 @@ def test_text_typed_into_a_design_cannot_forge_a_marker(submitted_product, autho
         page = client.get(url).content.decode()
         assert "&lt;!--earshot:csrf--&gt;" in page, url  # shown as typed, escaped
         assert not TOKEN.findall(page), url  # the page has no form, so no token at all
-        assert page.count("<span>author</span>") == 1, url
+        assert page.count("<span>author</span>") == 2, url  # the header's bar and its phone menu, nothing forged
 
 
 def test_flash_messages_reach_a_cached_page_once(product, author):
@@ -158,7 +163,7 @@ def test_every_change_a_page_shows_gives_a_fresh_page(client, product, submitted
 def test_saving_the_same_values_again_keeps_the_drafts_state(product, author):
     client = signed_in(author)
     draft = product.draft
-    key, saved_at = checklists.state_key(draft), draft.updated_at
+    key, saved_at = draft.cache_identity, draft.updated_at
     form = SectionForm("section-deployment")
     form.feed(client.get(reverse("draft_edit", args=[product.pk])).content.decode())
     fields = form.data()
@@ -167,11 +172,11 @@ def test_saving_the_same_values_again_keeps_the_drafts_state(product, author):
                            HTTP_HX_REQUEST="true")
     assert response.status_code == 200 and "Saved" in response.content.decode()
     draft.refresh_from_db()
-    assert checklists.state_key(draft) == key and draft.updated_at == saved_at, "nothing new to store"
+    assert draft.cache_identity == key and draft.updated_at == saved_at, "nothing new to store"
     services.measurement_add(revision=draft, name="pair.s2p", user=author,
                              content=(EXAMPLES / "field-router-revA.s2p").read_bytes())
     draft.refresh_from_db()
-    assert checklists.state_key(draft) != key, "a new measurement file is a new state"
+    assert draft.cache_identity != key, "a new measurement file is a new state"
 
 
 def test_a_new_password_or_a_deactivation_ends_other_sessions_at_once(submitted_product, reviewer, settings):
@@ -232,19 +237,63 @@ def test_with_debug_on_every_page_is_drawn_afresh(submitted_product, author, set
 
 
 def test_a_draft_changed_and_changed_back_is_served_with_its_current_version(product, author):
-    """The content is as before (same state key), but the forms must carry the new version: a page cached
-    at the old one would make every save look stale."""
+    """The content is as before, but the forms must carry the new version: a page cached at the old one would
+    make every save look stale. The cache identity names the version, so the page is drawn anew."""
     client = signed_in(author)
     url = reverse("draft_edit", args=[product.pk])
     first = client.get(url).content.decode()
-    key = checklists.state_key(product.draft)
+    key = product.draft.cache_identity
     form = SectionForm("section-deployment")
     form.feed(first)
     for distance in ("999", "150"):  # 150 is the example's value: back where it started
         fields = {**form.data(), "deployment.body_distance_mm": distance, "version": product.draft.version}
         client.post(reverse("draft_section_save", args=[product.pk, "deployment"]), fields)
     draft = product.draft
-    assert checklists.state_key(draft) == key
+    assert draft.document["deployment"]["body_distance_mm"] == 150 and draft.cache_identity != key
     page = client.get(url).content.decode()
     assert f'name="version" value="{draft.version}" id="section-deployment-version"' in page
     assert f'value="{draft.version - 2}" id="section-deployment-version"' in first
+
+
+def test_the_code_stamp_follows_the_static_files_a_page_links(tmp_path, settings):
+    """A stylesheet-only deploy starts afresh: a cached page names the stylesheet (by its hashed name in
+    production), so the stamp covers the static files too."""
+    from django.contrib.staticfiles import finders
+
+    static = tmp_path / "static"
+    static.mkdir()
+    sheet = static / "earshot-extra.css"
+    sheet.write_text("body { color: black; }")
+    settings.STATICFILES_DIRS = [static]
+
+    def stamp() -> str:
+        finders.get_finder.cache_clear()
+        fragments.code_stamp.cache_clear()
+        return fragments.code_stamp()
+
+    try:
+        before = stamp()
+        sheet.write_text("body { color: navy; }")
+        assert stamp() != before
+    finally:
+        finders.get_finder.cache_clear()
+        fragments.code_stamp.cache_clear()
+
+
+def test_with_hashed_static_names_the_stamp_follows_the_manifest(tmp_path, settings):
+    from django.contrib.staticfiles.storage import staticfiles_storage
+
+    settings.STATIC_ROOT = tmp_path
+    settings.STORAGES = {**settings.STORAGES, "staticfiles": {
+        "BACKEND": "django.contrib.staticfiles.storage.ManifestStaticFilesStorage"}}
+    manifest = tmp_path / "staticfiles.json"
+    manifest.write_text('{"paths": {"earshot/earshot.css": "earshot/earshot.1111.css"}, "version": "1.1"}')
+    try:
+        staticfiles_storage._setup()  # the storage the settings now name, reading this manifest
+        fragments.code_stamp.cache_clear()
+        before = fragments.code_stamp()
+        manifest.write_text('{"paths": {"earshot/earshot.css": "earshot/earshot.2222.css"}, "version": "1.1"}')
+        fragments.code_stamp.cache_clear()
+        assert fragments.code_stamp() != before
+    finally:
+        fragments.code_stamp.cache_clear()

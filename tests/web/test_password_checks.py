@@ -12,7 +12,7 @@ from django.contrib.auth.hashers import PBKDF2PasswordHasher
 from django.test import Client
 from django.urls import reverse
 
-from projectapp.designs import services as design_services
+from projectapp.reviews.services import revision_submit
 from tests.web.conftest import PASSWORD
 from tests.web.test_signoff import settle
 
@@ -154,7 +154,7 @@ def test_wrong_admin_passwords_count_for_the_sites_log_in_too(client, admin_user
 # -- signing -------------------------------------------------------------------------------------------------
 @pytest.fixture
 def ready_revision(product, author, reviewer, approver):
-    revision = design_services.revision_submit(revision=product.draft, user=author)
+    revision = revision_submit(revision=product.draft, user=author)
     settle(revision, reviewer, approver)
     return revision
 

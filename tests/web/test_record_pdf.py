@@ -14,7 +14,7 @@ from reportlab.pdfbase.ttfonts import TTFontFile
 
 from projectapp.designs import services as design_services
 from projectapp.reviews.forms import DecisionForm
-from projectapp.reviews.services import review_item_decide
+from projectapp.reviews.services import review_item_decide, revision_submit
 from projectapp.signoff import record_fonts, services
 from projectapp.signoff.models import SignedRecord
 from projectapp.teams.models import Membership, Role, Team
@@ -64,7 +64,7 @@ def hostile(db):
                                     content=(EXAMPLES / "field-router-revA.s2p").read_bytes(), user=author)
     design_services.design_import(product=product, text=json.dumps(hostile_document(), ensure_ascii=False),
                                   source="hostile.json", user=author)
-    revision = design_services.revision_submit(revision=product.draft, user=author)
+    revision = revision_submit(revision=product.draft, user=author)
     for item in revision.review_items.filter(kind="raised").order_by("id"):
         text = UNBROKEN if item.severity == "blocker" else NORMAL if item.severity == "warning" else "👩‍🔧 ✓ 検査済み"
         disposition = "waived" if item.severity != "note" else "not-applicable"

@@ -6,9 +6,10 @@ import json
 import pytest
 from django.urls import reverse
 
+from projectapp.audit.models import AppendOnlyError, AuditEvent
 from projectapp.designs import services as design_services
-from projectapp.reviews.models import AppendOnlyError, AuditEvent, Comment, Disposition, ReviewItem
-from projectapp.reviews.services import review_item_decide
+from projectapp.reviews.models import Comment, Disposition, ReviewItem
+from projectapp.reviews.services import review_item_decide, revision_submit
 from tests.web.conftest import EXAMPLES
 
 HTMX = {"HTTP_HX_REQUEST": "true"}
@@ -21,7 +22,7 @@ def hive_document() -> dict:
 @pytest.fixture
 def reviewed(product, author):
     """The hive gateway submitted: its findings are review items (SEP-001 is its blocker)."""
-    design_services.revision_submit(revision=product.draft, user=author)
+    revision_submit(revision=product.draft, user=author)
     return product
 
 
@@ -43,7 +44,7 @@ def test_submission_makes_one_review_item_per_finding(reviewed):
     assert {(item.rule_id, tuple(item.subjects)) for item in items} == {(f["id"], tuple(f["subjects"])) for f in findings}
     assert all(item.disposition == Disposition.OPEN for item in items)
     [event] = AuditEvent.objects.filter(product=reviewed, action="submitted")
-    assert "Submitted revision 1" in event.summary
+    assert "Submitted design revision 1" in event.summary
 
 
 # -- the permission matrix (author, reviewer, approver, outsider) for every action -------------------------
@@ -150,7 +151,7 @@ def submit_with(product, author, mutate) -> None:
     document = copy.deepcopy(draft.document)
     mutate(document)
     design_services.draft_save_document(revision=draft, document=document, user=author)
-    design_services.revision_submit(revision=draft, user=author)
+    revision_submit(revision=draft, user=author)
 
 
 def test_decisions_carry_forward_across_three_revisions(client, reviewed, author, reviewer, approver):
@@ -168,7 +169,7 @@ def test_decisions_carry_forward_across_three_revisions(client, reviewed, author
     assert eff2.disposition == "change" and eff2.is_carried_unconfirmed
     client.force_login(reviewer)
     page = client.get(reverse("revision_review", args=[reviewed.pk, 2])).content.decode()
-    assert "carried from revision 1 — not yet confirmed" in page
+    assert "carried from design revision 1 — not yet confirmed" in page
     response = client.post(reverse("review_item_confirm", args=[eff2.pk]), {"version": eff2.version}, **HTMX)
     assert response.status_code == 200 and not ReviewItem.objects.get(pk=eff2.pk).is_carried_unconfirmed
 
@@ -334,14 +335,34 @@ def test_a_decision_made_on_a_carried_item_shows_who_made_it_and_what_was_carrie
                     {"disposition": "waived", "justification": "Indoor use only", "version": eff2.version}, **HTMX)
     card = " ".join(response.content.decode().split())
     assert response.status_code == 200
-    assert "carried from revision 1, confirmed" not in card
+    assert "carried from design revision 1, confirmed" not in card
     assert "Decided by approver" in card and "in this revision" in card
-    assert "Revision 1 carried in: Needs discussion, decided by reviewer" in card
+    assert "Design revision 1 carried in: Needs discussion, decided by reviewer" in card
     stored = ReviewItem.objects.get(pk=eff2.pk)
     assert (stored.decided_by, stored.decided_in, stored.confirmed_by) == (approver, stored.revision, None)
 
     # confirming instead keeps the first decider and names the one who confirmed
     response = post(client, approver, "review_item_confirm", sep2, {"version": sep2.version}, **HTMX)
     card = " ".join(response.content.decode().split())
-    assert "Decided by approver" in card and "in revision 1" in card
-    assert "Carried from revision 1; confirmed here by approver" in card
+    assert "Decided by approver" in card and "in design revision 1" in card
+    assert "Carried from design revision 1; confirmed here by approver" in card
+
+
+def test_on_the_review_page_a_decision_updates_the_settled_count_out_of_band(client, reviewed, reviewer):
+    item = item_of(reviewed, "EFF-001")
+    review_url = reverse("revision_review", args=[reviewed.pk, 1])
+    total = ReviewItem.objects.filter(revision__product=reviewed, kind=ReviewItem.Kind.RAISED,
+                                      process_step__isnull=True).count()  # external steps are tracked, not settled
+    client.force_login(reviewer)
+    assert f"0 of {total} items settled" in client.get(review_url).content.decode()
+    response = post(client, reviewer, "review_item_decide", item,
+                    {"disposition": "change", "justification": "", "version": item.version},
+                    HTTP_HX_CURRENT_URL=f"http://testserver{review_url}", **HTMX)
+    page = response.content.decode()
+    assert f'<span id="review-counts" aria-live="polite" hx-swap-oob="true">1 of {total} items settled</span>' in page
+    # From the item's own page (no count there) the card comes alone.
+    item = item_of(reviewed, "EFF-001")
+    response = post(client, reviewer, "review_item_decide", item,
+                    {"disposition": "discussion", "justification": "", "version": item.version},
+                    HTTP_HX_CURRENT_URL=f"http://testserver{reverse('review_item', args=[item.pk])}", **HTMX)
+    assert "review-counts" not in response.content.decode()

@@ -27,9 +27,10 @@ from projectapp.designs import questionnaire, services
 from projectapp.designs.forms import MAX_DESIGN_FILE_BYTES
 from projectapp.designs.models import Product, Revision
 from projectapp.library import services as library
-from projectapp.reviews.models import ReviewItem
+from projectapp.reviews.models import ProcessStep, ReviewItem
+from projectapp.reviews.services import evidence_attach, revision_submit
 from projectapp.teams.models import Role, Team
-from tests.web.conftest import EXAMPLES, PASSWORD, make_user
+from tests.web.conftest import EXAMPLES, PASSWORD, make_user, signing_request
 
 # -- a test-only URLconf: the real site plus views that fail on purpose ----------------------------------------
 SECRET_DETAIL = "kestrel-7731 internal detail that must never reach a page"
@@ -124,12 +125,15 @@ class Site:
 
 
 def _signed_record(revision: Revision, user):
-    """A signed, archived record of the revision, when the sign-off app provides one (it builds the PDF)."""
-    try:
-        from projectapp.signoff.services import record_archive
-    except ImportError:
-        return None
-    return record_archive(revision=revision, user=user)
+    """The revision signed and archived, through the sign-off service (the team asks only its author to sign)."""
+    from projectapp.signoff.models import SignedRecord
+    from projectapp.signoff.services import revision_sign
+
+    team = revision.product.team
+    team.signoff_roles = ["author"]
+    team.save()
+    revision_sign(revision=revision, user=user, role="author", password=PASSWORD, request=signing_request())
+    return SignedRecord.objects.get(revision=revision)
 
 
 @pytest.fixture
@@ -140,7 +144,7 @@ def site(db, team, author):
     submitted = services.product_create(team=team, name="Orchard soil probe", user=author)
     services.design_import(product=submitted, text=(EXAMPLES / "orchard-probe.json").read_text(),
                            source="orchard-probe.json", user=author)
-    revision = services.revision_submit(revision=submitted.draft, user=author)
+    revision = revision_submit(revision=submitted.draft, user=author)
     services.draft_get_or_start(product=submitted, user=author)  # revision 2: the questionnaire URLs work too
     draft_product = services.product_create(team=team, name="Hive gateway", user=author)
     services.design_import(product=draft_product, text=(EXAMPLES / "hive-gateway.json").read_text(),
@@ -154,7 +158,9 @@ def site(db, team, author):
                                     .read_bytes(), read_version=1, user=author)
     kwargs = {"product_id": submitted.pk, "number": revision.number, "item_id": item.pk,
               "section": questionnaire.SECTIONS[0].slug, "team_id": team.pk, "entry_id": entry.pk,
-              "file_id": stored.pk}
+              "file_id": stored.pk, "step_id": ProcessStep.objects.filter(revision=revision).order_by("pk")[0].pk,
+              "attachment_id": evidence_attach(user=author, name="lab.pdf", content=b"report", step=ProcessStep
+                                               .objects.filter(revision=revision).order_by("pk")[0]).pk}
     record = _signed_record(revision, author)
     if record is not None:
         kwargs["record_id"] = record.pk
@@ -268,6 +274,7 @@ HOSTILE = {
     "product.name": "\x00", "modem.rx_ports": "9" * 400, "modem.gain_limits_dbi.B3\x00": "1e308",
     "ground_plane_mm[0]": "1e-308", "ground_plane_mm[1]": "1e-308", "antennas[0].name": "\x00",
     "antennas[0].position_mm[0]": "1e308", "deployment.body_distance_mm": "9" * 400,
+    "owner": "²", "planned_on": "2026-02-30", "status": "\x00", "reference": "\x00" * 300,
 }
 
 

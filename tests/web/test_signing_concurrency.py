@@ -18,6 +18,7 @@ from django.db import close_old_connections, connection, connections, transactio
 from projectapp.designs import services as design_services
 from projectapp.reviews import services as review_services
 from projectapp.reviews.models import Comment, ReviewItem
+from projectapp.reviews.services import revision_submit
 from projectapp.signoff import services
 from projectapp.signoff.models import SignedRecord
 from tests.web.conftest import PASSWORD, signing_request
@@ -88,7 +89,7 @@ def race(first: Callable[[], object], second: Callable[[], object], outcome: dic
 def ready(product, author, reviewer, approver):
     """Revision 1 of the hive gateway with every blocker waived and every warning dispositioned, and one note
     (RFX-001, the RF exposure note) marked not applicable."""
-    revision = design_services.revision_submit(revision=product.draft, user=author)
+    revision = revision_submit(revision=product.draft, user=author)
     for item in revision.review_items.filter(kind="raised", severity__in=["blocker", "warning"]):
         review_services.review_item_decide(item=item, user=approver, disposition="waived",
                                            justification="Pilot of 20 units", expected_version=item.version)
@@ -100,9 +101,9 @@ def ready(product, author, reviewer, approver):
 
 
 def next_revision_ready(product, author, approver):
-    """Revision 2, unchanged: the approver confirms every carried blocker and warning decision."""
+    """Design revision 2, unchanged: the approver confirms every carried blocker and warning decision."""
     draft = design_services.draft_get_or_start(product=product, user=author)
-    revision = design_services.revision_submit(revision=draft, user=author)
+    revision = revision_submit(revision=draft, user=author)
     for item in revision.review_items.filter(kind="raised", severity__in=["blocker", "warning"]):
         review_services.review_item_confirm(item=item, user=approver, expected_version=item.version)
     assert services.readiness(revision).ready
@@ -156,18 +157,23 @@ def test_a_signature_waits_for_a_decision_in_progress_and_then_sees_it(ready, au
         item=item, user=reviewer, disposition="discussion", justification="", expected_version=item.version),
         sign(ready, author, "author"), outcome, ("decide", "sign"))
     assert outcome["decide"] == "done"
-    assert outcome["sign"].startswith("refused: Revision 1 can't be signed yet"), outcome["sign"]
+    assert outcome["sign"].startswith("refused: Design revision 1 can't be signed yet"), outcome["sign"]
     assert waited and not ready.signatures.exists()
 
 
 def test_two_revisions_signed_at_once_leave_one_current_record(ready, product, author, reviewer, approver):
-    newer = next_revision_ready(product, author, approver)
-    for revision in (ready, newer):
+    def first_two_signatures(revision):
         services.revision_sign(revision=revision, user=author, role="author", password=PASSWORD, request=signing_request())
         services.revision_sign(revision=revision, user=reviewer, role="reviewer", password=PASSWORD, request=signing_request())
+
+    first_two_signatures(ready)  # being signed, revision 1 stays so when revision 2 is submitted (designs.lifecycle)
+    newer = next_revision_ready(product, author, approver)
+    first_two_signatures(newer)
     outcome: dict[str, str] = {}
     assert race(sign(newer, approver, "approver"), sign(ready, approver, "approver"), outcome, ("newer", "older"))
     assert outcome["newer"] == "done"
-    assert outcome["older"].startswith("refused: Revision 2 of"), outcome["older"]
+    assert outcome["older"].startswith("refused: Design revision 2 of"), outcome["older"]
     assert [record.revision.number for record in SignedRecord.objects.all() if record.is_current] == [2]
+    ready.refresh_from_db()
+    assert ready.state == "withdrawn"  # it can never be signed now
 

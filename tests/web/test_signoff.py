@@ -17,7 +17,7 @@ from pypdf import PdfReader
 
 from projectapp.designs import services as design_services
 from projectapp.reviews.models import ReviewItem, SignedRevisionError
-from projectapp.reviews.services import review_item_confirm, review_item_decide
+from projectapp.reviews.services import review_item_confirm, review_item_decide, revision_submit
 from projectapp.signoff import services
 from projectapp.signoff.archive_files import export_archive, verify_archive
 from projectapp.signoff.models import ImmutableRecordError, SignedRecord, Supersession
@@ -28,7 +28,7 @@ ROOT = Path(__file__).parents[2]
 
 @pytest.fixture
 def submitted(product, author):
-    design_services.revision_submit(revision=product.draft, user=author)
+    revision_submit(revision=product.draft, user=author)
     return product.revisions.get(number=1)
 
 
@@ -143,7 +143,7 @@ def test_a_later_sign_off_supersedes_the_older_record_without_editing_it(submitt
     document = copy.deepcopy(draft.document)
     document["antennas"][1]["position_mm"] = [165, 10, 12]  # beyond lambda/4 at 791 MHz (94.7 mm)
     design_services.draft_save_document(revision=draft, document=document, user=author)
-    second_revision = design_services.revision_submit(revision=draft, user=author)
+    second_revision = revision_submit(revision=draft, user=author)
     for item in second_revision.review_items.filter(kind="raised"):
         if item.is_carried_unconfirmed or item.severity in ("blocker", "warning"):
             review_item_decide(item=item, user=approver, disposition=item.disposition if item.disposition != "open"
@@ -251,7 +251,7 @@ def test_the_record_says_who_decided_what_and_what_was_carried(submitted, author
     review_item_decide(item=sep, user=approver, disposition="waived", justification="Pilot of 20 units",
                        expected_version=sep.version)
     draft = design_services.draft_get_or_start(product=product, user=author)
-    second = design_services.revision_submit(revision=draft, user=author)
+    second = revision_submit(revision=draft, user=author)
     eff2 = second.review_items.get(rule_id="EFF-001", kind="raised")
     sep2 = second.review_items.get(rule_id="SEP-001", kind="raised")
     review_item_decide(item=eff2, user=approver, disposition="waived", justification="Indoor use only",
@@ -263,10 +263,10 @@ def test_the_record_says_who_decided_what_and_what_was_carried(submitted, author
     record = sign_all(second, author, reviewer, approver)
     with record.pdf.open("rb") as handle:
         text = pdf_text(handle.read())
-    assert "carried from revision 1, confirmed" not in text
-    assert "Revision 1 carried in: Needs discussion, decided by reviewer" in text  # EFF-001, decided anew
-    assert "Carried from revision 1; confirmed here by approver" in text  # SEP-001
-    assert text.count("in this revision") >= 1 and "in revision 1" in text
+    assert "carried from design revision 1, confirmed" not in text
+    assert "Design revision 1 carried in: Needs discussion, decided by reviewer" in text  # EFF-001, decided anew
+    assert "Carried from design revision 1; confirmed here by approver" in text  # SEP-001
+    assert text.count("in this revision") >= 1 and "in design revision 1" in text
 
 
 def test_an_older_revision_cannot_be_signed_once_a_newer_one_is_archived(client, submitted, author, reviewer,
@@ -274,7 +274,7 @@ def test_an_older_revision_cannot_be_signed_once_a_newer_one_is_archived(client,
     settle(submitted, reviewer, approver)
     services.revision_sign(revision=submitted, user=author, role="author", password=PASSWORD, request=signing_request())  # signing started
     draft = design_services.draft_get_or_start(product=submitted.product, user=author)
-    newer = design_services.revision_submit(revision=draft, user=author)
+    newer = revision_submit(revision=draft, user=author)
     for item in newer.review_items.filter(kind="raised", severity__in=["blocker", "warning"]):
         review_item_confirm(item=item, user=approver, expected_version=item.version)
     newer_record = sign_all(newer, author, reviewer, approver)
@@ -282,9 +282,9 @@ def test_an_older_revision_cannot_be_signed_once_a_newer_one_is_archived(client,
     client.force_login(reviewer)
     response = client.post(url, {"role": "reviewer", "password": PASSWORD}, follow=True)
     page = response.content.decode()
-    assert "Revision 2 of Hive gateway is already signed and archived, so revision 1 can no longer be signed" in page
+    assert "Design revision 2 of Hive gateway is already signed and archived, so design revision 1 can no longer be signed" in page
     assert submitted.signatures.count() == 1 and not SignedRecord.objects.filter(revision=submitted).exists()
-    assert any(o.startswith("Revision 2 of Hive gateway") for o in services.readiness(submitted).obstacles)
+    assert any(o.startswith("Design revision 2 of Hive gateway") for o in services.readiness(submitted).obstacles)
     assert [record.pk for record in SignedRecord.objects.all() if record.is_current] == [newer_record.pk]
 
 

@@ -48,8 +48,8 @@ def _show(value: Any) -> str:
 
 
 @register.filter
-def evidence_rows(evidence: dict[str, Any]) -> list[tuple[str, str, str]]:
-    """(label, value, unit) for each evidence entry that has a value."""
+def evidence_rows(evidence: dict[str, Any]) -> list[tuple[str, str, str, str]]:
+    """(label, value, unit, key) for each evidence entry that has a value."""
     rows = []
     for key, value in evidence.items():
         if value is None:
@@ -61,7 +61,7 @@ def evidence_rows(evidence: dict[str, Any]) -> list[tuple[str, str, str]]:
                 stem = key[: -len(suffix)]
                 break
         label = LABELS.get(key, stem.replace("_", " "))
-        rows.append((label, _show(value), unit))
+        rows.append((label, _show(value), unit, key))
     return rows
 
 

@@ -1,4 +1,5 @@
-"""`manage.py rules`: every rule in the registry with its topic, severities, rationale and sources."""
+"""`manage.py rules`: every rule in the registry with its topic, severities, rationale, what it means for the
+product, and sources."""
 
 import json
 import textwrap
@@ -22,7 +23,8 @@ class Command(BaseCommand):
             self.stdout.write(json.dumps({
                 "ruleset": RULESET_VERSION,
                 "rules": [{"id": rule.id, "topic": rule.topic, "severities": list(rule.severities),
-                           "title": rule.title, "rationale": rule.rationale, "sources": list(rule.sources),
+                           "title": rule.title, "rationale": rule.rationale, "product_impact": rule.product_impact,
+                           "sources": list(rule.sources),
                            "added_in": rule.added_in, "changed_in": rule.changed_in}
                           for rule in rules],
                 "retired": [{"id": rule.id, "topic": rule.topic, "retired_in": rule.retired_in,
@@ -34,7 +36,8 @@ class Command(BaseCommand):
             mark = (f" (new in {rule.added_in})" if rule.added_in == RULESET_VERSION else
                     f" (changed in {rule.changed_in})" if rule.changed_in == RULESET_VERSION else "")
             self.stdout.write(f"{rule.id}  {rule.topic:<14} {'/'.join(rule.severities):<24} {rule.title}{mark}")
-            for label, text in (("why", rule.rationale), ("sources", "; ".join(rule.sources))):
+            for label, text in (("why", rule.rationale), ("for the product", rule.product_impact),
+                                ("sources", "; ".join(rule.sources))):
                 self.stdout.write(textwrap.fill(f"{label}: {text}", 100, initial_indent=" " * 9,
                                                 subsequent_indent=" " * 11))
             self.stdout.write("")

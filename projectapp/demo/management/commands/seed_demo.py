@@ -16,7 +16,10 @@ from projectapp.designs import library_use, services
 from projectapp.designs.models import Product
 from projectapp.library import services as library
 from projectapp.library.models import Entry
+from projectapp.reviews.models import TopicReviewer
+from projectapp.reviews.services import revision_submit, topic_reviewers_set
 from projectapp.teams.models import Membership, Role, Team
+from rules.findings import TOPICS
 
 EXAMPLES = Path(__file__).resolve().parents[4] / "rules" / "examples"
 TEAM = "Tallow Creek Instruments"
@@ -131,6 +134,10 @@ class Command(BaseCommand):
         team = Team.objects.get(name=TEAM)
         author = users["maren"]
         parts = seed_library(team, author=author, reviewer=users["tobias"])
+        if not TopicReviewer.objects.filter(team=team).exists():  # tobias reviews the RF topics, ines the approvals
+            topic_reviewers_set(team=team, user=users["ines"], reviewers={
+                topic: users["ines"] if topic in ("certification", "rf-exposure") else users["tobias"]
+                for topic in TOPICS})
         created = 0
         for name, description, example, measurement_files, submit in PRODUCTS:
             if Product.objects.filter(team=team, name=name).exists():
@@ -156,7 +163,7 @@ class Command(BaseCommand):
                                      absolute=entry.get("absolute", False), environment=entry.get("environment"),
                                      user=author)
             if submit:
-                services.revision_submit(revision=product.draft, user=author)
+                revision_submit(revision=product.draft, user=author)
             elif example is None and parts:
                 fill_cold_chain_tracker(product, parts, author=author, reviewer=users["tobias"])
             created += 1

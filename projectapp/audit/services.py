@@ -1,15 +1,15 @@
 """The one way into the audit trail: who changed what, when, and the before and after.
 
-Design edits (questionnaire saves, imports, measurement files), review steps and parts-library changes all
-write through `audit_record`, and the library reads an entry's history through `audit_trail`, so moving the
-trail elsewhere later changes this module and its model only.
+Design edits (questionnaire saves, imports, measurement files), life-cycle transitions, review steps,
+signatures and parts-library changes all write through `audit_record`; the library reads an entry's history
+through `audit_trail`.
 """
 
 from typing import Any
 
 from django.db.models import QuerySet
 
-from projectapp.reviews.models import AuditEvent
+from projectapp.audit.models import AuditEvent
 
 
 def audit_record(*, actor, action: str, summary: str, product=None, team=None, subject: str = "",
