@@ -31,8 +31,8 @@ AXE = Path(__file__).parent / "vendor" / "axe-core" / "axe.min.js"
 # WCAG 2.0, 2.1 and 2.2 at levels A and AA (axe has no wcag22a tag: 2.2's level-A additions need a person).
 WCAG_AA_TAGS = ["wcag2a", "wcag2aa", "wcag21a", "wcag21aa", "wcag22aa"]
 PHONE = {"width": 390, "height": 844}
-# The pages the walk must reach (library_index redirects to the one team's library_list): if the fixture or a route changes so that one of them stops answering HTML,
-# the test says so instead of auditing fewer pages quietly.
+# The pages the walk must reach (library_index redirects to the one team's library_list): if the fixture or a
+# route changes so that one of them stops answering HTML, the test says so instead of auditing fewer pages.
 MUST_AUDIT = {
     "product_list", "product_create", "product_detail", "draft_edit", "revision_detail", "revision_review",
     "revision_compare", "revision_coverage", "review_item", "review_dashboard", "product_audit", "signoff_page",
