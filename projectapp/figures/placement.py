@@ -528,7 +528,7 @@ EDITOR_HIT_PT = 10.0  # radius around a marker that takes the pointer (the marke
 TURN_HANDLE_PT = 3.2
 TURN_HIT_PT = 7.0
 FOCUS_RING_PT = 12.0
-FOCUS_COLOUR = colors.HexColor("#1d6f6a")  # the page's accent (earshot.css --accent)
+FOCUS_COLOUR = colors.HexColor(palette.ACCENT)  # the page's accent (earshot.css --accent)
 TRANSPARENT = colors.Color(0, 0, 0, alpha=0)  # painted, so it takes the pointer, but unseen
 
 
