@@ -56,6 +56,18 @@ def main() -> None:
         page.screenshot(path=OUT / "signoff.png")
         page.goto(BASE + "/archive/")
         page.screenshot(path=OUT / "archive.png")
+        # The pump monitor's pilot, signed under rule set 1.1.0: its review, its place in the inbox of the approver
+        # tobias mentioned, and what the current rule set would raise instead.
+        pump = product_url(page, "Pump monitor")
+        page.context.clear_cookies()
+        log_in(page, "ines")
+        page.goto(BASE + "/inbox/")
+        page.screenshot(path=OUT / "inbox.png")
+        page.goto(BASE + hive + "revisions/1/review/")
+        page.locator("#steps").scroll_into_view_if_needed()
+        page.screenshot(path=OUT / "steps.png")
+        page.goto(BASE + pump + "revisions/1/")
+        page.screenshot(path=OUT / "upgrade.png")
         browser.close()
     print("\n".join(str(path) for path in sorted(OUT.glob("*.png"))))
 

@@ -43,6 +43,8 @@ from projectapp.audit.models import AuditEvent
 from projectapp.audit.services import audit_record
 from projectapp.designs import checklists
 from projectapp.designs.models import Product, Revision
+from rules.evaluate import CHECKLIST_FORMAT
+from rules.registry import RULESET_VERSION
 
 State = Revision.State
 
@@ -133,11 +135,35 @@ def submit(*, revision: Revision, user) -> Revision:
     not run, IllegalTransition for a revision that is not a draft. The caller opens the review."""
     current = lock_with_product(revision)
     check(current, State.IN_REVIEW)
-    evaluation = checklists.evaluation_to_freeze(current)
+    return _freeze(current, checklists.evaluation_to_freeze(current), user=user,
+                   summary=f"Submitted design revision {current.number} for review")
+
+
+@transaction.atomic
+def submit_with_earlier_checklist(*, revision: Revision, evaluation: dict[str, Any], user) -> Revision:
+    """draft → in review with the checklist an earlier release of Earshot froze for this very design, under its
+    older rule set: how a revision kept from an earlier release is loaded (the demo loads one, so that the
+    rule-set upgrade page has something to show). Refused (ValueError, nothing changed) unless the checklist is
+    one the engine writes, of an older rule set, for this design's product and board revision."""
+    current = lock_with_product(revision)
+    check(current, State.IN_REVIEW)
+    design = evaluation.get("design", {}) if isinstance(evaluation, dict) else {}
+    product = current.document.get("product", {}) if isinstance(current.document, dict) else {}
+    if evaluation.get("format") != CHECKLIST_FORMAT or not isinstance(evaluation.get("findings"), list):
+        raise ValueError(f"evaluation: expected a checklist of format {CHECKLIST_FORMAT}")
+    if evaluation.get("ruleset") == RULESET_VERSION:
+        raise ValueError("evaluation: it is the current rule set's; submit the revision instead")
+    if (design.get("product"), design.get("revision")) != (product.get("name"), product.get("revision")):
+        raise ValueError("evaluation: it was made for another design (product name and board revision differ)")
+    return _freeze(current, evaluation, user=user,
+                   summary=f"Loaded design revision {current.number} as an earlier release froze it for review")
+
+
+def _freeze(current: Revision, evaluation: dict[str, Any], *, user, summary: str) -> Revision:
     values = {"evaluation": evaluation, "ruleset": evaluation["ruleset"], "submitted_by": user,
               "submitted_at": timezone.now(), **checklists.counts_of(evaluation)}
     _move(current, State.IN_REVIEW, user=user, action=AuditEvent.Action.SUBMITTED,
-          summary=f"Submitted design revision {current.number} for review (rule set {evaluation['ruleset']})",
+          summary=f"{summary} (rule set {evaluation['ruleset']})",
           changes={"ruleset": [None, evaluation["ruleset"]]}, **values)
     for older in _older(current, (State.IN_REVIEW,)):
         _move(older, State.WITHDRAWN, user=user, action=AuditEvent.Action.WITHDRAWN,

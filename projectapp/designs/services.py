@@ -17,7 +17,7 @@ from projectapp.designs import library_use, lifecycle, questionnaire
 from projectapp.designs.checklists import count_revision, measurement_reader
 from projectapp.designs.document_changes import Changes, document_changes
 from projectapp.designs.models import MeasurementFile, Product, Revision
-from projectapp.library.models import Entry
+from projectapp.library.models import Entry, EntryFile
 from projectapp.library.parts import ANTENNA, MODULE
 from projectapp.teams.access import has_role, require_role
 from projectapp.teams.models import Role, Team
@@ -645,12 +645,32 @@ def _usable_entry(entry: Entry, *, product: Product, kind: str) -> Entry:
     return entry
 
 
+def _shared_environment(document: dict[str, Any], antenna: str) -> dict[str, Any] | None:
+    """The environment a copied pattern of `antenna` is judged in: the cellular antennas' patterns are compared
+    in one environment (pattern_update keeps them so), so a cellular antenna's pattern takes theirs; any other
+    antenna's, and the first pattern of a design, the default (isotropic)."""
+    roles = {a.get("name"): a.get("role") for a in _list(document.get("antennas")) if isinstance(a, dict)}
+    if roles.get(antenna) not in CELLULAR_ROLES:
+        return None
+    entries = _list(document.get("measurements"))
+    for index in _far_field_indices(document, cellular_only=True):
+        if entries[index].get("antenna") != antenna and isinstance(entries[index].get("environment"), dict):
+            return dict(entries[index]["environment"])
+    return None
+
+
 def _copy_library_files(*, draft: Revision, document: dict[str, Any], entry: Entry, antenna: str,
                         user) -> tuple[Changes, list[str]]:
-    """Copies the entry's files the draft doesn't keep into its measurements (port 1 measured `antenna`), in the
-    document and as files. A different file of the same name in the draft refuses the whole change (ValueError)."""
+    """Copies the entry's files the draft doesn't keep into its measurements, in the document and as files: a
+    Touchstone file with port 1 measuring `antenna`, a far-field pattern as `antenna`'s (its `absolute` from the
+    library, the environment the draft's other cellular patterns share). A different file of the same name in
+    the draft, or a pattern the draft can't use beside its others (rules.measurements: frequencies, grid,
+    environment), refuses the whole change (ValueError, naming the file and the field)."""
     kept = {measurement.name: measurement.sha256 for measurement in draft.measurement_files.all()}
-    copied: list[MeasurementFile] = []
+    to_copy: list[tuple[EntryFile, bytes, str]] = []
+    texts: dict[str, str] = {}  # what the copies hold, for the comparison before they are kept
+    patterns: list[str] = []
+    problems: list[Problem] = []
     for stored in entry.files.all():
         if kept.get(stored.name) == stored.sha256:
             continue
@@ -658,10 +678,31 @@ def _copy_library_files(*, draft: Revision, document: dict[str, Any], entry: Ent
             raise ValueError(f"{stored.name}: the draft already keeps a different file of that name; remove it from "
                              "the measurements first, then fill again")
         content = stored.read_bytes()
-        network = parse_touchstone(content.decode("utf-8", errors="replace"), source=stored.name)
-        ports = [antenna] + [None] * (network.port_count - 1)
-        document["measurements"] = [*_list(document.get("measurements")), {"file": stored.name, "ports": ports}]
-        measurement = MeasurementFile(revision=draft, name=stored.name, size_bytes=len(content),
+        text = texts[stored.name] = content.decode("utf-8", errors="replace")
+        measurements = _list(document.get("measurements"))
+        if stored.kind == EntryFile.Kind.FAR_FIELD:
+            parse_far_field(text, source=stored.name)  # checked when kept; a reader grown stricter says so here
+            patterns.append(stored.name)
+            document["measurements"] = [*measurements, pattern_entry(
+                name=stored.name, antenna=antenna, absolute=stored.absolute,
+                environment=_shared_environment(document, antenna))]
+            problems += _entry_problems(document, [len(measurements)], stored.name)
+            to_copy.append((stored, content, MeasurementFile.Kind.FAR_FIELD))
+        else:
+            network = parse_touchstone(text, source=stored.name)
+            document["measurements"] = [*measurements, {"file": stored.name,
+                                                         "ports": [antenna] + [None] * (network.port_count - 1)}]
+            to_copy.append((stored, content, MeasurementFile.Kind.S_PARAMETERS))
+    if patterns and not problems:
+        problems = _comparison_problems(draft, document, [
+            index for index, listed in enumerate(_list(document.get("measurements")))
+            if isinstance(listed, dict) and listed.get("file") in patterns], texts)
+    if problems:  # before any file is written: nothing is half stored
+        raise ValueError("; ".join(f"{problem.path}: {problem.message}" for problem in problems)
+                         + f" (a far-field pattern of library part {entry.name})")
+    copied: list[MeasurementFile] = []
+    for stored, content, kind in to_copy:
+        measurement = MeasurementFile(revision=draft, name=stored.name, kind=kind, size_bytes=len(content),
                                       sha256=MeasurementFile.digest(content), uploaded_by=user)
         measurement.file.save(stored.name, ContentFile(content), save=False)
         measurement.save()

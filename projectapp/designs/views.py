@@ -16,7 +16,7 @@ from django.http import HttpResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
 from django.views.decorators.http import require_GET, require_http_methods, require_POST
-from django_htmx.http import HttpResponseClientRedirect, reswap
+from django_htmx.http import HttpResponseClientRefresh, reswap
 
 from projectapp import fragments, paging
 from projectapp.designs import (
@@ -488,7 +488,8 @@ def draft_section_save(request, product_id: int, section: str):
                 entry=pick.cleaned_data["entry"], read_version=form.read_version, user=request.user)
             if copied or not request.htmx:  # with htmx the filled row shows its note; a reload shows this
                 messages.success(request, f"Filled from library part {pick.cleaned_data['entry'].name}"
-                                 + (f"; copied {', '.join(copied)} into the measurements (check the port map)."
+                                 + (f"; copied {', '.join(copied)} into the measurements (check each file's antenna, the "
+                                      "port map or the pattern's environment)."
                                     if copied else "."))
         elif extras.cleaned_data.get("action", "").startswith("restore:"):
             if current is not questionnaire.ANTENNAS:
@@ -511,8 +512,10 @@ def draft_section_save(request, product_id: int, section: str):
             str(problem) for problem in error.problems), status=400)
     except (ValueError, TouchstoneError) as error:
         return _not_saved(request, product, current, f"{error}; nothing was stored", status=400)
-    if request.htmx and copied:  # the measurements block changed too: the page again, at the section
-        return HttpResponseClientRedirect(reverse("draft_edit", args=[product.pk]) + f"#section-{current.slug}")
+    if request.htmx and copied:
+        # The measurements block changed too: the page again. A client redirect to this same page with a
+        # #section fragment would only scroll (a same-document navigation), leaving the old page on screen.
+        return HttpResponseClientRefresh()
     if request.htmx:
         state = checklist_for(draft)
         panel = fragments.shared("designs/_panel_oob.html", ("no-figures", draft, product),

@@ -174,7 +174,13 @@ class RetireForm(forms.Form):
 
 
 class FileAddForm(VersionForm):
-    file = forms.FileField(label="Touchstone file", help_text="A .s1p to .s8p file of the part; at most 20 MB.")
+    file = forms.FileField(label="Touchstone or far-field file",
+                           help_text="A Touchstone file (.s1p to .s8p, .ts) or a far-field pattern (.csv with the "
+                                     "columns frequency_mhz, theta_deg, phi_deg, e_theta_re, e_theta_im, e_phi_re, "
+                                     "e_phi_im); the name's ending says which. At most 20 MB.")
+    absolute = forms.BooleanField(required=False, label="Absolute pattern",
+                                  help_text="Far-field patterns only: tick if |Eθ|² + |Eφ|² is the realized gain "
+                                            "(then the checklist also shows efficiency and mean effective gain).")
 
 
 class FileRemoveForm(VersionForm):

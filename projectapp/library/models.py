@@ -67,17 +67,21 @@ def entry_file_upload_to(instance: "EntryFile", filename: str) -> str:
 
 
 class EntryFile(models.Model):
-    """A file that describes an antenna entry (a Touchstone file), kept with its SHA-256.
+    """A file that describes an antenna entry (a Touchstone file or a far-field pattern), kept with its SHA-256.
 
-    Filling a design from the entry copies the file into the draft's measurements."""
+    Filling a design from the entry copies the file into the draft's measurements, with its kind."""
 
     class Kind(models.TextChoices):
         TOUCHSTONE = "touchstone", "Touchstone (S-parameters)"
+        FAR_FIELD = "far-field", "far-field pattern"
 
     entry = models.ForeignKey(Entry, on_delete=models.PROTECT, related_name="files")
     name = models.CharField(max_length=120)
     kind = models.CharField(max_length=12, choices=Kind.choices, default=Kind.TOUCHSTONE)
     file = models.FileField(upload_to=entry_file_upload_to)
+    # A far-field pattern's `absolute` (design-file.md): |E_theta|^2 + |E_phi|^2 is the realized gain. It is a
+    # property of how the file was measured, so it travels with the file into each draft. False for Touchstone.
+    absolute = models.BooleanField(default=False)
     size_bytes = models.PositiveIntegerField()
     sha256 = models.CharField(max_length=64)
     uploaded_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, related_name="+")

@@ -21,6 +21,7 @@ from projectapp.library.models import Entry, EntryFile
 from projectapp.library.parts import ANTENNA, MODULE, part_problems
 from projectapp.teams.models import Team
 from rules.design import Problem
+from rules.farfield import FarFieldError, parse_far_field
 from rules.touchstone import TouchstoneError, parse_touchstone
 
 LIBRARY_FORMAT = "earshot-library/1"
@@ -28,6 +29,8 @@ NAME_MAX = 120
 DESCRIPTION_MAX = 300
 MAX_FILE_BYTES = 20_000_000  # as a draft's measurement files
 TOUCHSTONE_SUFFIXES = (".s1p", ".s2p", ".s3p", ".s4p", ".s5p", ".s6p", ".s7p", ".s8p", ".ts")
+FAR_FIELD_SUFFIXES = (".csv",)  # as a draft's far-field uploads (designs.services.PATTERN_SUFFIXES)
+FILE_KINDS = (EntryFile.Kind.TOUCHSTONE, EntryFile.Kind.FAR_FIELD)
 _CONTROL = re.compile(r"[\x00-\x1f\x7f]")
 
 
@@ -50,6 +53,9 @@ class EntryConflict(Exception):
 # -- what an entry holds, flat, for the audit trail's before and after ---------------------------------------
 
 def _describe_file(stored: EntryFile) -> str:
+    if stored.kind == EntryFile.Kind.FAR_FIELD:
+        return (f"far-field pattern ({'absolute' if stored.absolute else 'relative'}), {stored.size_bytes} bytes, "
+                f"SHA-256 {stored.sha256}")
     return f"{stored.size_bytes} bytes, SHA-256 {stored.sha256}"
 
 
@@ -120,21 +126,53 @@ def _safe_file_name(name: str) -> str:
     return "".join(ch if ch.isalnum() or ch in "._-, " else "-" for ch in base)[:NAME_MAX]
 
 
-def file_problems(*, name: str, content: bytes, path: str = "file") -> list[Problem]:
-    """Why a file can't describe a library antenna: its name, size, encoding or what its reader says."""
-    if not name.lower().endswith(TOUCHSTONE_SUFFIXES):
-        return [Problem(path, f"{name or 'file'}: expected a Touchstone file named .s1p to .s8p or .ts")]
+def file_kind(name: str) -> str | None:
+    """The kind of file a name says: its suffix, as for a draft's uploads (.s1p to .s8p and .ts are Touchstone,
+    .csv a far-field pattern); None for any other name. The two sets of suffixes don't overlap."""
+    lowered = name.lower()
+    if lowered.endswith(TOUCHSTONE_SUFFIXES):
+        return EntryFile.Kind.TOUCHSTONE
+    if lowered.endswith(FAR_FIELD_SUFFIXES):
+        return EntryFile.Kind.FAR_FIELD
+    return None
+
+
+EXPECTED_NAMES = {EntryFile.Kind.TOUCHSTONE: "a Touchstone file named .s1p to .s8p or .ts",
+                  EntryFile.Kind.FAR_FIELD: "a far-field pattern file named .csv"}
+
+
+def file_problems(*, name: str, content: bytes, path: str = "file", kind: str | None = None) -> list[Problem]:
+    """Why a file can't describe a library antenna: its name, size, encoding or what its reader says (the
+    engine's own: rules.touchstone or rules.farfield). `kind`, when given, is the kind the file must be."""
+    found = file_kind(name)
+    if found is None or (kind is not None and found != kind):
+        expected = EXPECTED_NAMES.get(kind or "", f"{EXPECTED_NAMES[EntryFile.Kind.TOUCHSTONE]}, or "
+                                                  f"{EXPECTED_NAMES[EntryFile.Kind.FAR_FIELD]}")
+        return [Problem(path, f"{name or 'file'}: expected {expected}")]
     if len(content) > MAX_FILE_BYTES:
         return [Problem(path, f"{name}: expected at most {MAX_FILE_BYTES // 1_000_000} MB, "
                               f"got {len(content) / 1_000_000:.1f} MB")]
+    words = "Touchstone files" if found == EntryFile.Kind.TOUCHSTONE else "far-field pattern files"
     try:
         text = content.decode("utf-8")
     except UnicodeDecodeError:
-        return [Problem(path, f"{name}: expected text (UTF-8); Touchstone files are plain text")]
+        return [Problem(path, f"{name}: expected text (UTF-8); {words} are plain text")]
     try:
-        parse_touchstone(text, source=name)
-    except TouchstoneError as error:
+        if found == EntryFile.Kind.TOUCHSTONE:
+            parse_touchstone(text, source=name)
+        else:
+            parse_far_field(text, source=name)
+    except (TouchstoneError, FarFieldError) as error:
         return [Problem(path, str(error))]
+    return []
+
+
+def absolute_problems(*, kind: str, absolute: Any, path: str = "absolute") -> list[Problem]:
+    if not isinstance(absolute, bool):
+        return [Problem(path, "expected true or false")]
+    if absolute and kind != EntryFile.Kind.FAR_FIELD:
+        return [Problem(path, "only a far-field pattern can be absolute (|E_theta|² + |E_phi|² the realized "
+                              "gain); a Touchstone file holds S-parameters")]
     return []
 
 
@@ -202,7 +240,8 @@ def entry_duplicate(*, entry: Entry, name: str, user) -> Entry:
     copy = Entry.objects.create(team=entry.team, kind=entry.kind, name=name, description=entry.description,
                                 values=json.loads(json.dumps(entry.values)), created_by=user, updated_by=user)
     for stored in entry.files.all():
-        _keep_file(copy, name=stored.name, content=stored.read_bytes(), user=user)
+        _keep_file(copy, name=stored.name, content=stored.read_bytes(), user=user, kind=stored.kind,
+                   absolute=stored.absolute)
     _record(copy, user=user, action=AuditEvent.Action.PART_CREATED,
             summary=f"Added {name} (version 1) to the library, duplicated from {entry.name} version {entry.version}",
             changes=_changes({}, _state(copy)))
@@ -227,8 +266,8 @@ def entry_retire(*, entry: Entry, retired: bool, user) -> Entry:
     return current
 
 
-def _keep_file(entry: Entry, *, name: str, content: bytes, user) -> EntryFile:
-    stored = EntryFile(entry=entry, name=name, kind=EntryFile.Kind.TOUCHSTONE, size_bytes=len(content),
+def _keep_file(entry: Entry, *, name: str, content: bytes, user, kind: str, absolute: bool) -> EntryFile:
+    stored = EntryFile(entry=entry, name=name, kind=kind, absolute=absolute, size_bytes=len(content),
                        sha256=EntryFile.digest(content), uploaded_by=user)
     stored.file.save(name, ContentFile(content), save=False)
     stored.save()
@@ -242,19 +281,24 @@ def _drop_file(stored: EntryFile) -> None:
 
 
 @transaction.atomic
-def entry_file_add(*, entry: Entry, name: str, content: bytes, read_version: int | None, user) -> EntryFile:
-    """Keeps a file with an antenna entry; it must read as what its name says. Raises PartInvalid."""
+def entry_file_add(*, entry: Entry, name: str, content: bytes, read_version: int | None, user,
+                   absolute: bool = False) -> EntryFile:
+    """Keeps a file with an antenna entry; it must read as what its name says (file_kind: a Touchstone file or a
+    far-field pattern). `absolute` is a far-field pattern's (its field is the realized gain). Raises
+    PartInvalid."""
     require_editor(user, entry.team)
     name = _safe_file_name(name)
     current = _locked(entry, read_version)
     if current.kind != ANTENNA:
         raise PartInvalid([Problem("file", "files describe antennas; a module entry keeps none")])
     _raise_if(file_problems(name=name, content=content))
+    kind = str(file_kind(name))
+    _raise_if(absolute_problems(kind=kind, absolute=absolute))
     if current.files.filter(name=name).exists():
         raise PartInvalid([Problem("file", f"{name}: {current.name} already has a file of that name; remove it "
                                            "first")])
     before = _state(current)
-    stored = _keep_file(current, name=name, content=content, user=user)
+    stored = _keep_file(current, name=name, content=content, user=user, kind=kind, absolute=absolute)
     _bump(current, before=before, user=user, action=AuditEvent.Action.PART_FILE_ADDED,
           summary=f"Added {name} to {current.name}")
     return stored
@@ -293,10 +337,16 @@ def library_export(*, team: Team) -> dict[str, Any]:
         item: dict[str, Any] = {"name": entry.name, "description": entry.description,
                                 "retired": entry.is_retired, "values": _canonical(entry.values)}
         if entry.kind == ANTENNA:
-            item["files"] = [{"name": stored.name, "kind": stored.kind, "sha256": stored.sha256,
-                              "text": stored.read_bytes().decode("utf-8")} for stored in entry.files.all()]
+            item["files"] = [_exported_file(stored) for stored in entry.files.all()]
         document["antennas" if entry.kind == ANTENNA else "modules"].append(item)
     return document
+
+
+def _exported_file(stored: EntryFile) -> dict[str, Any]:
+    exported: dict[str, Any] = {"name": stored.name, "kind": stored.kind}
+    if stored.kind == EntryFile.Kind.FAR_FIELD:
+        exported["absolute"] = stored.absolute
+    return {**exported, "sha256": stored.sha256, "text": stored.read_bytes().decode("utf-8")}
 
 
 def library_export_text(*, team: Team) -> str:
@@ -310,7 +360,18 @@ class _Incoming:
     description: str
     retired: bool
     values: dict[str, Any]
-    files: dict[str, bytes] = field(default_factory=dict)
+    files: dict[str, "_IncomingFile"] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class _IncomingFile:
+    content: bytes
+    kind: str
+    absolute: bool
+
+    def same_as(self, stored: EntryFile) -> bool:
+        return (stored.sha256, stored.kind, stored.absolute) == (EntryFile.digest(self.content), self.kind,
+                                                                 self.absolute)
 
 
 @dataclass(frozen=True)
@@ -372,19 +433,19 @@ def _a(kind: str) -> str:
     return f"an {kind}" if kind[:1] in "aeiou" else f"a {kind}"
 
 
-def _read_files(value: Any, path: str, problems: list[Problem]) -> dict[str, bytes]:
+def _read_files(value: Any, path: str, problems: list[Problem]) -> dict[str, _IncomingFile]:
     if not isinstance(value, list):
         problems.append(Problem(path, "expected a list of files"))
         return {}
-    files: dict[str, bytes] = {}
+    files: dict[str, _IncomingFile] = {}
     for index, item in enumerate(value):
         item_path = f"{path}[{index}]"
         if not isinstance(item, dict):
             problems.append(Problem(item_path, "expected an object with name and text"))
             continue
-        problems += [Problem(f"{item_path}.{key}", "not a field of a library file (expected name, kind, sha256, "
-                                                   "text)") for key in item if key not in ("name", "kind",
-                                                                                           "sha256", "text")]
+        problems += [Problem(f"{item_path}.{key}", "not a field of a library file (expected name, kind, absolute, "
+                                                   "sha256, text)") for key in item
+                     if key not in ("name", "kind", "absolute", "sha256", "text")]
         name, text = item.get("name"), item.get("text")
         if not isinstance(name, str) or _safe_file_name(name) != name or not name:
             problems.append(Problem(f"{item_path}.name", "expected a plain file name (letters, digits, . _ - , "
@@ -393,8 +454,17 @@ def _read_files(value: Any, path: str, problems: list[Problem]) -> dict[str, byt
         if name in files:
             problems.append(Problem(f"{item_path}.name", f"expected a unique file name; {name} is listed twice"))
             continue
-        if item.get("kind", EntryFile.Kind.TOUCHSTONE) != EntryFile.Kind.TOUCHSTONE:
-            problems.append(Problem(f"{item_path}.kind", f"expected {EntryFile.Kind.TOUCHSTONE}"))
+        # Exports made before far-field files were kept name no kind: their files are Touchstone.
+        kind = item.get("kind", EntryFile.Kind.TOUCHSTONE)
+        if kind not in FILE_KINDS:
+            problems.append(Problem(f"{item_path}.kind", f"expected {' or '.join(FILE_KINDS)}, got "
+                                                         f"{json.dumps(kind)[:40]}"))
+            continue
+        absolute = item.get("absolute", False)
+        found = absolute_problems(kind=kind, absolute=absolute, path=f"{item_path}.absolute")
+        if found:
+            problems += found
+            continue
         if not isinstance(text, str):
             problems.append(Problem(f"{item_path}.text", "expected the file's text"))
             continue
@@ -404,10 +474,14 @@ def _read_files(value: Any, path: str, problems: list[Problem]) -> dict[str, byt
             problems.append(Problem(f"{item_path}.sha256", f"the text's SHA-256 is {EntryFile.digest(content)}, "
                                                            "not the one given: the file was changed or cut"))
             continue
-        found = file_problems(name=name, content=content, path=f"{item_path}.text")
+        if file_kind(name) != kind:
+            problems.append(Problem(f"{item_path}.name", f"{name}: expected {EXPECTED_NAMES[kind]}, as its kind "
+                                                         f"{kind} says"))
+            continue
+        found = file_problems(name=name, content=content, path=f"{item_path}.text", kind=kind)
         problems += found
         if not found:
-            files[name] = content
+            files[name] = _IncomingFile(content, kind, absolute)
     return files
 
 
@@ -431,8 +505,9 @@ def library_import(*, team: Team, text: str | bytes, source: str, user) -> Impor
             created = Entry.objects.create(team=team, kind=part.kind, name=part.name, description=part.description,
                                            values=part.values, created_by=user, updated_by=user,
                                            retired_at=timezone.now() if part.retired else None)
-            for name, content in part.files.items():
-                _keep_file(created, name=name, content=content, user=user)
+            for name, incoming_file in part.files.items():
+                _keep_file(created, name=name, content=incoming_file.content, user=user, kind=incoming_file.kind,
+                           absolute=incoming_file.absolute)
             _record(created, user=user, action=AuditEvent.Action.PART_CREATED,
                     summary=f"Added {part.name} (version 1) to the library from {source[:120]}",
                     changes=_changes({}, _state(created)))
@@ -442,11 +517,12 @@ def library_import(*, team: Team, text: str | bytes, source: str, user) -> Impor
         current.values, current.description = part.values, part.description
         kept = {stored.name: stored for stored in current.files.all()}
         for name, stored in kept.items():
-            if name not in part.files or stored.sha256 != EntryFile.digest(part.files[name]):
+            if name not in part.files or not part.files[name].same_as(stored):
                 _drop_file(stored)
-        for name, content in part.files.items():
-            if name not in kept or kept[name].sha256 != EntryFile.digest(content):
-                _keep_file(current, name=name, content=content, user=user)
+        for name, incoming_file in part.files.items():
+            if name not in kept or not incoming_file.same_as(kept[name]):
+                _keep_file(current, name=name, content=incoming_file.content, user=user, kind=incoming_file.kind,
+                           absolute=incoming_file.absolute)
         version, retired = current.version, current.is_retired
         _bump(current, before=before, user=user, action=AuditEvent.Action.PART_CHANGED,
               summary=f"Changed {part.name} from {source[:120]}")

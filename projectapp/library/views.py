@@ -28,7 +28,7 @@ from projectapp.library.forms import (
     SearchForm,
     VersionForm,
 )
-from projectapp.library.models import Entry
+from projectapp.library.models import Entry, EntryFile
 from projectapp.library.parts import ANTENNA, MODULE
 from projectapp.teams.access import teams_of
 
@@ -192,15 +192,23 @@ def entry_file_add(request, entry_id: int):
         return _entry_page(request, entry, upload=form, status=400)
     try:
         stored = services.entry_file_add(entry=entry, name=upload.name, content=upload.read(),
-                                         read_version=form.cleaned_data["version"], user=request.user)
+                                         read_version=form.cleaned_data["version"], user=request.user,
+                                         absolute=form.cleaned_data["absolute"])
     except services.EntryConflict as conflict:
         return _entry_page(request, conflict.entry, conflict=conflict, status=409)
     except services.PartInvalid as error:
         for problem in error.problems:
-            form.add_error("file", f"{problem.message} — nothing was stored")
+            form.add_error(problem.path if problem.path in form.fields else "file",
+                           f"{problem.message} — nothing was stored")
         return _entry_page(request, entry, upload=form, status=400)
-    messages.success(request, f"{stored.name} kept with {entry.name}.")
+    messages.success(request, f"{stored.name} kept with {entry.name} as {_file_words(stored)}.")
     return redirect(entry)
+
+
+def _file_words(stored: EntryFile) -> str:
+    if stored.kind == EntryFile.Kind.FAR_FIELD:
+        return "an absolute far-field pattern" if stored.absolute else "a relative far-field pattern"
+    return "a Touchstone file"
 
 
 @login_required

@@ -325,6 +325,16 @@ def revision_submit(*, revision: Revision, user) -> Revision:
     return frozen
 
 
+@transaction.atomic
+def revision_submit_with_earlier_checklist(*, revision: Revision, evaluation: dict[str, Any], user) -> Revision:
+    """As revision_submit, with the checklist an earlier release froze for this design under an older rule set
+    (designs.lifecycle.submit_with_earlier_checklist says what it accepts); the review opens on its findings."""
+    require_role(user, revision.product.team, Role.AUTHOR)
+    frozen = lifecycle.submit_with_earlier_checklist(revision=revision, evaluation=evaluation, user=user)
+    review_items_create(revision=frozen, user=user)
+    return frozen
+
+
 def review_tallies_refresh(*, revision_ids) -> None:
     """Counts the open raised items of these revisions again (ReviewTally): after every write that changes an
     item, in its transaction; `Revision.objects.values_list("pk", flat=True)` rebuilds them all (a bulk load)."""

@@ -39,7 +39,7 @@ def test_an_author_sees_the_upgrade_and_starts_a_draft_from_it(page, live_server
     expect(panel).to_contain_text("SEP-001")
     shot(page, "upgrade-revision.png")
     panel.get_by_role("link", name="Every revision of").click()
-    expect(page.locator("table.list tbody tr")).to_have_count(1)
+    expect(page.locator("table.grid tbody tr")).to_have_count(1)
     shot(page, "upgrade-team.png")
     page.get_by_role("button", name="Start a draft from it").click()
     expect(page).to_have_url(live_server.url + reverse("draft_edit", args=[older.product_id]))

@@ -10,6 +10,7 @@ from django.urls import reverse
 
 from projectapp.audit.models import AuditEvent
 from projectapp.designs import lifecycle, services
+from projectapp.designs.checklists import evaluation_to_freeze
 from projectapp.designs.models import FrozenRevisionError, Revision
 from projectapp.reviews.models import ReviewItem, SignedRevisionError
 from projectapp.reviews.services import (
@@ -17,9 +18,11 @@ from projectapp.reviews.services import (
     review_item_confirm,
     review_item_decide,
     revision_submit,
+    revision_submit_with_earlier_checklist,
 )
 from projectapp.signoff import services as signoff
 from projectapp.signoff.models import SignedRecord, Supersession
+from rules.registry import RULESET_VERSION
 from tests.web.conftest import PASSWORD, signing_request
 
 State = Revision.State
@@ -260,3 +263,32 @@ def test_withdrawing_through_the_page_needs_the_author_role(client, product, aut
     assert state_of(revision) == State.WITHDRAWN
     page = client.post(url, follow=True).content.decode()
     assert "only a revision in review can be withdrawn" in page
+
+
+# -- a revision an earlier release froze ------------------------------------------------------------------------
+
+def earlier_checklist(revision: Revision) -> dict:
+    """The checklist the current engine writes for this draft, marked as an older rule set's (as test_reevaluate)."""
+    evaluation = evaluation_to_freeze(revision)
+    evaluation["ruleset"] = "1.1.0"
+    return evaluation
+
+
+def test_a_checklist_an_earlier_release_froze_is_loaded_with_its_rule_set_and_opens_the_review(product, author):
+    evaluation = earlier_checklist(product.draft)
+    revision = revision_submit_with_earlier_checklist(revision=product.draft, evaluation=evaluation, user=author)
+    assert (revision.state, revision.ruleset, revision.evaluation) == (State.IN_REVIEW, "1.1.0", evaluation)
+    assert revision.review_items.filter(kind="raised").count() == len(evaluation["findings"])
+
+
+@pytest.mark.parametrize("changes, message", [
+    ({"ruleset": RULESET_VERSION}, "it is the current rule set's"),
+    ({"format": "something-else/1"}, "expected a checklist of format earshot-checklist/1"),
+    ({"design": {"product": "Another product", "revision": "B"}}, "it was made for another design"),
+])
+def test_a_checklist_that_is_not_an_earlier_one_of_this_design_is_refused_and_nothing_changes(product, author,
+                                                                                             changes, message):
+    evaluation = {**earlier_checklist(product.draft), **changes}
+    with pytest.raises(ValueError, match=message):
+        lifecycle.submit_with_earlier_checklist(revision=product.draft, evaluation=evaluation, user=author)
+    assert Revision.objects.get(pk=product.draft.pk).state == State.DRAFT

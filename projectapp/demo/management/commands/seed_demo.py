@@ -6,18 +6,29 @@ each run gives the demo people fresh passwords and prints them (demo only, never
 
 import json
 import secrets
+from datetime import timedelta
 from pathlib import Path
 
 from django.contrib.auth import get_user_model
 from django.core.management.base import BaseCommand
 from django.db import transaction
+from django.http import HttpRequest
 
 from projectapp.designs import library_use, services
 from projectapp.designs.models import Product
 from projectapp.library import services as library
 from projectapp.library.models import Entry
-from projectapp.reviews.models import TopicReviewer
-from projectapp.reviews.services import revision_submit, topic_reviewers_set
+from projectapp.reviews.models import Disposition, ProcessStep, ReviewItem, StepStatus, TopicReviewer
+from projectapp.reviews.services import (
+    evidence_attach,
+    process_step_update,
+    review_item_comment,
+    review_item_decide,
+    revision_submit,
+    revision_submit_with_earlier_checklist,
+    topic_reviewers_set,
+)
+from projectapp.signoff.services import revision_sign
 from projectapp.teams.models import Membership, Role, Team
 from rules.findings import TOPICS
 
@@ -33,20 +44,21 @@ PEOPLE = [
     ("oskar", "Oskar", "Lind", OTHER_TEAM, [Role.AUTHOR, Role.REVIEWER, Role.APPROVER]),
 ]
 
-# name, description, example design, measurement files, submit the first revision?
+# name, description, example design, measurement files, what becomes of the first revision: "draft" (left for the
+# author), "review" (submitted, in review), "signed earlier" (signed under an older rule set: EARLIER_CHECKLISTS)
 PRODUCTS = [
     ("Orchard soil probe", "Battery probe in orchards: one LTE-M antenna, a clean design.",
-     "orchard-probe.json", [], True),
+     "orchard-probe.json", [], "review"),
     ("Cold-chain tracker", "Cat 1 tracker with a single antenna and no operator approval.",
-     None, [], False),
+     None, [], "draft"),
     ("Hive gateway", "Cat 1 gateway whose two antennas sit too close and co-polarized.",
-     "hive-gateway.json", [], True),
-    ("Pump monitor", "NB-IoT monitor with an internal antenna in a metal housing.",
-     "pump-monitor.json", [], False),
+     "hive-gateway.json", [], "review"),
+    ("Pump monitor", "NB-IoT monitor with an internal antenna in a metal housing; a pilot signed under rule set 1.1.0.",
+     "pump-monitor.json", [], "signed earlier"),
     ("Field router", "Cat 4 router with a measured two-port S-parameter file.",
-     "field-router.json", ["field-router-revA.s2p"], True),
+     "field-router.json", ["field-router-revA.s2p"], "review"),
     ("Trail tracker", "Cat 1 tracker with a GNSS antenna; far-field patterns clear its close pair.",
-     "trail-tracker.json", [], False),
+     "trail-tracker.json", [], "draft"),
 ]
 
 
@@ -72,9 +84,54 @@ PARTS = [
      {"category": "cat-m1", "bands": ["B2", "B3", "B4", "B5", "B8", "B12", "B13", "B20", "B28", "B66"],
       "rx_ports": 1, "gain_limits_dbi": {"B2": 6.0, "B4": 6.0, "B12": 4.5, "B13": 4.5}, "power_class": 3}),
 ]
-# The flex antenna's second version (a revised efficiency table): the cold-chain tracker's draft, filled from the
-# first, is offered it.
+# The flex antenna's second version (a revised efficiency table) and third (its far-field pattern, measured on the
+# cold-chain tracker's lid): the tracker's draft, filled from the first, is offered both.
 FLEX_V2_EFFICIENCY = {"B2": 50, "B4": 49, "B12": 31, "B13": 33, "B66": 48}
+# Synthetic like the trail tracker's patterns: a short dipole along the part's axis at the tracker's feed, with the
+# version-2 efficiency of each band (tests/web/test_library_far_field.py recomputes it).
+FLEX_PATTERN = "tci-flex-f2-cold-chain.csv"
+
+
+# Checklists an earlier release of Earshot froze, exactly as its engine wrote them, so that the demo shows a signed
+# revision the current rule set judges differently (the team's rule-set upgrade page). Made with that release's
+# own engine, rule set 1.1.0 (commit 5dd07de, the last before rule set 2.0.0):
+#   git worktree add /tmp/rs1 5dd07de && cd /tmp/rs1 && manage.py evaluate rules/examples/pump-monitor.json --format json
+EARLIER = Path(__file__).resolve().parents[2] / "earlier"
+EARLIER_CHECKLISTS = {"Pump monitor": "pump-monitor-ruleset-1.1.0.json"}
+# The pilot's review, as the demo people settled it (invented, like the company).
+PILOT_WAIVER = ("Pilot of 20 units on above-ground pumps, read out weekly by the field team; the production lid "
+                "gets a polymer window over the antenna (design revision 2). Approved for the pilot only.")
+PILOT_NOTE = ("Drop-test report for the window's gasket is attached. @ines the waiver is yours: pilot only, the "
+              "window goes into design revision 2.")
+PILOT_ATTACHMENT = ("pilot-window-plan.txt", b"Tallow Creek Instruments - pump monitor pilot (invented demo document)\n"
+                    b"20 units, above-ground pumps, weekly read-out. Production lid: polymer window over ANT1.\n")
+
+
+def sign_earlier_pilot(product, evaluation: dict, *, users, passwords) -> None:
+    """The pump monitor's first revision as a team settled and signed it under rule set 1.1.0: the metal-housing
+    blocker waived by the approver for the pilot, the warnings answered, a comment with an attachment, the steps
+    outside the team planned, and the three signatures given (each checked against the person's password)."""
+    author, reviewer, approver = users["maren"], users["tobias"], users["ines"]
+    revision = revision_submit_with_earlier_checklist(revision=product.draft, evaluation=evaluation, user=author)
+    for item in revision.review_items.filter(kind=ReviewItem.Kind.RAISED, process_step__isnull=True).order_by("id"):
+        if item.severity == "blocker":
+            review_item_comment(item=item, user=reviewer, text=PILOT_NOTE)
+            evidence_attach(user=reviewer, name=PILOT_ATTACHMENT[0], content=PILOT_ATTACHMENT[1], item=item)
+            review_item_decide(item=item, user=approver, disposition=Disposition.WAIVED, justification=PILOT_WAIVER,
+                               expected_version=item.version)
+        elif item.severity == "warning":
+            review_item_decide(item=item, user=reviewer, disposition=Disposition.CHANGE,
+                               justification="The polymer window of revision 2 answers this too.",
+                               expected_version=item.version)
+    submitted = revision.submitted_at.date()
+    for days, step in enumerate(ProcessStep.objects.filter(revision=revision).order_by("id"), start=1):
+        process_step_update(step=step, user=approver, owner=approver, planned_on=submitted + timedelta(weeks=4 * days),
+                            status=StepStatus.PLANNED, reference="", expected_version=step.version)
+    request = HttpRequest()  # a password check outside a view: axes counts it per user name and address
+    request.method, request.META["REMOTE_ADDR"] = "POST", "127.0.0.1"
+    for person, role in ((author, "author"), (reviewer, "reviewer"), (approver, "approver")):
+        revision_sign(revision=revision, user=person, role=role, password=passwords[person.username][0],
+                      request=request)
 
 
 def seed_library(team, *, author, reviewer) -> dict[str, Entry]:
@@ -94,8 +151,10 @@ def fill_cold_chain_tracker(product, parts: dict[str, Entry], *, author, reviewe
     document = library_use.fill_modem(document, parts["TCI Cat 1 module C1"])
     services.draft_save_document(revision=draft, document=document, user=author)
     flex = parts["TCI flex antenna F2"]
-    library.entry_update(entry=flex, values={**flex.values, "efficiency_pct": FLEX_V2_EFFICIENCY},
-                         description=flex.description, read_version=flex.version, user=reviewer)
+    flex = library.entry_update(entry=flex, values={**flex.values, "efficiency_pct": FLEX_V2_EFFICIENCY},
+                                description=flex.description, read_version=flex.version, user=reviewer)
+    library.entry_file_add(entry=flex, name=FLEX_PATTERN, content=(EXAMPLES / FLEX_PATTERN).read_bytes(),
+                           absolute=True, read_version=flex.version, user=reviewer)
 
 
 def cold_chain_tracker() -> dict:
@@ -139,7 +198,7 @@ class Command(BaseCommand):
                 topic: users["ines"] if topic in ("certification", "rf-exposure") else users["tobias"]
                 for topic in TOPICS})
         created = 0
-        for name, description, example, measurement_files, submit in PRODUCTS:
+        for name, description, example, measurement_files, becomes in PRODUCTS:
             if Product.objects.filter(team=team, name=name).exists():
                 continue
             product = services.product_create(team=team, name=name, description=description, user=author)
@@ -162,8 +221,11 @@ class Command(BaseCommand):
                                      content=(EXAMPLES / entry["file"]).read_bytes(),
                                      absolute=entry.get("absolute", False), environment=entry.get("environment"),
                                      user=author)
-            if submit:
+            if becomes == "review":
                 revision_submit(revision=product.draft, user=author)
+            elif becomes == "signed earlier":
+                evaluation = json.loads((EARLIER / EARLIER_CHECKLISTS[name]).read_text())
+                sign_earlier_pilot(product, evaluation, users=users, passwords=passwords)
             elif example is None and parts:
                 fill_cold_chain_tracker(product, parts, author=author, reviewer=users["tobias"])
             created += 1
