@@ -23,6 +23,7 @@ from reportlab.lib.utils import simpleSplit
 from reportlab.lib.validators import isAnything
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
+from projectapp import palette
 from projectapp.figures.placement import (
     FONT,
     FONT_BOLD,
@@ -46,7 +47,7 @@ from rules.design import Design
 from rules.farfield import correlation_matrix, environment_text
 from rules.measurements import LoadedMeasurement, LoadedPattern
 
-ACCENT = colors.HexColor("#1d6f6a")
+ACCENT = colors.HexColor(palette.ACCENT)
 NOTE = SEVERITY_COLOURS["note"]
 OK = NO_FINDING_COLOUR
 
@@ -63,13 +64,13 @@ SERIES_STYLES: tuple[tuple[colors.Color, list[float] | None], ...] = (
 )
 THRESHOLD_DASH = [4.0, 2.5]
 BAND_TINTS: Mapping[str, colors.Color] = {
-    "UL": colors.Color(ACCENT.red, ACCENT.green, ACCENT.blue, alpha=0.13),
-    "DL": colors.Color(NOTE.red, NOTE.green, NOTE.blue, alpha=0.13),
-    "TDD": colors.Color(MUTED.red, MUTED.green, MUTED.blue, alpha=0.16),
+    "UL": colors.Color(ACCENT.red, ACCENT.green, ACCENT.blue, alpha=palette.BAND_TINT_ALPHA["UL"]),
+    "DL": colors.Color(NOTE.red, NOTE.green, NOTE.blue, alpha=palette.BAND_TINT_ALPHA["DL"]),
+    "TDD": colors.Color(MUTED.red, MUTED.green, MUTED.blue, alpha=palette.BAND_TINT_ALPHA["TDD"]),
 }
 BAND_TEXT: Mapping[str, colors.Color] = {"UL": ACCENT, "DL": NOTE, "TDD": MUTED, "mixed": INK}
 BAND_KIND_NAMES = {"UL": "uplink (UL) range", "DL": "downlink (DL) range", "TDD": "TDD band (UL = DL)"}
-ONE_ANTENNA_FILL = colors.HexColor("#9aa8b3")  # MUTED lightened: the weaker case, drawn quieter
+ONE_ANTENNA_FILL = colors.HexColor(palette.ONE_ANTENNA_FILL)  # MUTED lightened: the weaker case, drawn quieter
 TWO_ANTENNA_FILL = ACCENT
 
 MIN_WIDTH_PT = 320.0

@@ -29,27 +29,27 @@ from reportlab.lib.utils import simpleSplit
 from reportlab.lib.validators import isAnything
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
+from projectapp import palette
 from rules import physics
 from rules.design import CELLULAR_ROLES, UNIT_LIMITS, Antenna, Design, find_band
 from rules.findings import SEVERITIES, Finding
 
-INK = colors.HexColor("#1f2a33")
-MUTED = colors.HexColor("#5b6b78")
-GRID = colors.HexColor("#c9d3da")
-BOARD = colors.HexColor("#e6efe9")
-BOARD_EDGE = colors.HexColor("#6c8f78")
+# The app's palette (projectapp/palette.py, where every pairing's contrast is listed and tested).
+INK = colors.HexColor(palette.INK)
+MUTED = colors.HexColor(palette.MUTED)
+GRID = colors.HexColor(palette.LINE)
+BOARD = colors.HexColor(palette.BOARD)
+BOARD_EDGE = colors.HexColor(palette.BOARD_EDGE)
 ENCLOSURE = INK
 SEVERITY_COLOURS: Mapping[str, colors.Color] = {
-    "blocker": colors.HexColor("#b3261e"),
-    "warning": colors.HexColor("#b26a00"),
-    "note": colors.HexColor("#3d5a80"),
+    severity: colors.HexColor(colour) for severity, colour in palette.SEVERITY.items()
 }
-NO_FINDING_COLOUR = colors.HexColor("#2e7d4f")
+NO_FINDING_COLOUR = colors.HexColor(palette.OK)
 NOT_JUDGED = "not judged yet"  # a pair's state while a draft's spacing checks wait for an answer
 NOT_JUDGED_COLOUR = MUTED
 WHITE = colors.white
-PLATE = colors.Color(1, 1, 1, alpha=0.86)  # behind labels, so they stay legible over lines and circles
-NEAR_FIELD_TINT = colors.Color(MUTED.red, MUTED.green, MUTED.blue, alpha=0.07)
+PLATE = colors.Color(1, 1, 1, alpha=palette.PLATE_ALPHA)  # behind labels, so they stay legible over lines and circles
+NEAR_FIELD_TINT = colors.Color(MUTED.red, MUTED.green, MUTED.blue, alpha=palette.NEAR_FIELD_ALPHA)
 
 FONT = "Helvetica"
 FONT_BOLD = "Helvetica-Bold"
@@ -528,7 +528,7 @@ EDITOR_HIT_PT = 10.0  # radius around a marker that takes the pointer (the marke
 TURN_HANDLE_PT = 3.2
 TURN_HIT_PT = 7.0
 FOCUS_RING_PT = 12.0
-FOCUS_COLOUR = colors.HexColor("#1d6f6a")  # the page's accent (earshot.css --accent)
+FOCUS_COLOUR = colors.HexColor(palette.ACCENT)  # the page's accent (earshot.css --accent)
 TRANSPARENT = colors.Color(0, 0, 0, alpha=0)  # painted, so it takes the pointer, but unseen
 
 

@@ -38,6 +38,7 @@ from reportlab.platypus import (
 )
 from reportlab.platypus.flowables import Flowable
 
+from projectapp import palette
 from projectapp.designs import coverage_panel
 from projectapp.designs.checklists import cellular_patterns, measurement_digests, measurement_reader
 from projectapp.designs.models import Revision
@@ -78,12 +79,12 @@ logger = logging.getLogger(__name__)
 # Compressed streams stay binary: ASCII85 would make the file 25 % larger and cost a third of the build.
 rl_config.useA85 = 0
 
-INK = colors.HexColor("#1f2a33")
-MUTED = colors.HexColor("#5b6b78")
-LINE = colors.HexColor("#c9d3da")
-HEAD = colors.HexColor("#eef2f4")
-SEVERITY_COLOURS = {"blocker": colors.HexColor("#b3261e"), "warning": colors.HexColor("#b26a00"),
-                    "note": colors.HexColor("#3d5a80")}
+# The app's palette (projectapp/palette.py), so the record reads like the page.
+INK = colors.HexColor(palette.INK)
+MUTED = colors.HexColor(palette.MUTED)
+LINE = colors.HexColor(palette.LINE)
+HEAD = colors.HexColor(palette.HEAD)
+SEVERITY_COLOURS = {severity: colors.HexColor(colour) for severity, colour in palette.SEVERITY.items()}
 PAGE_WIDTH, PAGE_HEIGHT = A4
 MARGIN = 18 * mm
 FRAME_WIDTH = PAGE_WIDTH - 2 * MARGIN

@@ -18,6 +18,7 @@ from collections import Counter
 import pytest
 from django.urls import reverse
 
+from projectapp import palette
 from projectapp.designs.models import Product
 from tests.web.conftest import PASSWORD
 
@@ -32,10 +33,10 @@ pytestmark = pytest.mark.browser
 
 # Pair-line colours of the placement drawing (projectapp/figures/placement.py: SEVERITY_COLOURS and
 # NO_FINDING_COLOUR). The legend draws one sample line of each, pairs of antennas add their own.
-BLOCKER_RED = "#b3261e"
-WARNING_AMBER = "#b26a00"
-NOTE_BLUE = "#3d5a80"
-NO_FINDING_GREEN = "#2e7d4f"
+BLOCKER_RED = palette.BLOCKER
+WARNING_AMBER = palette.WARNING
+NOTE_BLUE = palette.NOTE
+NO_FINDING_GREEN = palette.OK
 LEGEND_SAMPLES = Counter([BLOCKER_RED, WARNING_AMBER, NOTE_BLUE, NO_FINDING_GREEN])
 PAIR_LINE_WIDTH = "1.8"
 

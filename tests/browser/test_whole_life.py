@@ -100,7 +100,7 @@ def test_a_product_lives_through_two_design_revisions(people_pages, live_server,
 
     # -- the reviewer is told, in the inbox and by e-mail, and works through the queue -------------------------
     tobias = people_pages(live_server, reviewer)
-    expect(tobias.locator("header .unread")).to_have_text("1")
+    expect(tobias.locator("header .unread:visible")).to_have_text("1")  # the bar's count (the phone menu holds a hidden copy)
     tobias.get_by_role("link", name="Inbox").click()
     expect(tobias.locator("table")).to_contain_text("Hive gateway, design revision 1: 2 items to review")
     assert any("Hive gateway, design revision 1: 2 items to review" in body for body in bodies(smtp))

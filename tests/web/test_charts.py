@@ -15,6 +15,7 @@ from reportlab.lib.pagesizes import A4
 from reportlab.pdfbase.pdfmetrics import stringWidth
 from reportlab.platypus import SimpleDocTemplate
 
+from projectapp import palette
 from projectapp.figures import charts
 from projectapp.figures.charts import (
     ECC_THRESHOLDS,
@@ -39,7 +40,7 @@ from tests.rules.design_builders import antenna, design
 SVG = "{http://www.w3.org/2000/svg}"
 EXAMPLES = Path(__file__).parents[2] / "rules" / "examples"
 SKRF_DATA = Path(skrf.__file__).parent / "data"
-BLOCKER, WARNING = "#b3261e", "#b26a00"  # the app's palette
+BLOCKER, WARNING = palette.BLOCKER, palette.WARNING  # the app's palette
 # 3GPP TS 36.101 Table 5.5-1, E-UTRA operating bands (UL, DL) in MHz: the field router's five bands.
 TS_36_101_MHZ = {
     "B2": ((1850, 1910), (1930, 1990)),

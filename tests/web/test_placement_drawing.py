@@ -13,6 +13,7 @@ from reportlab.graphics import renderPDF
 from reportlab.lib.pagesizes import A4
 from reportlab.platypus import SimpleDocTemplate
 
+from projectapp import palette
 from projectapp.figures import placement
 from projectapp.figures.placement import pair_severities_from_findings, placement_drawing, placement_svg
 from rules import physics
@@ -26,7 +27,7 @@ SVG = "{http://www.w3.org/2000/svg}"
 LOWEST_MHZ = 791.0
 NEAR_FIELD_MM = 60.320
 QUARTER_WAVE_MM = 94.751
-BLOCKER, WARNING, NOTE, NO_FINDING = "#b3261e", "#b26a00", "#3d5a80", "#2e7d4f"  # the app's palette
+BLOCKER, WARNING, NOTE, NO_FINDING = palette.BLOCKER, palette.WARNING, palette.NOTE, palette.OK  # the app's palette
 
 
 def unplaced(name: str, role: str = "receive") -> dict:
@@ -424,7 +425,7 @@ def test_gnss_and_wlan_antennas_get_their_own_symbols_and_legend_entries():
     gps_x, gps_y = layout.top_view_pt(60, 80)
     markers = [c for c in circles(root) if c[2] == pytest.approx(placement.MARKER_HALF_PT * 1.15)
                and (c[0], c[1]) == (pytest.approx(gps_x), pytest.approx(gps_y))]
-    assert markers and markers[0][3]["fill"] == "#1f2a33", "a filled circle marks the GNSS antenna"
+    assert markers and markers[0][3]["fill"] == palette.INK, "a filled circle marks the GNSS antenna"
     wifi_x, _ = layout.top_view_pt(100, 80)
     triangles = []
     for polygon in root.iter(f"{SVG}polygon"):
